@@ -1,0 +1,5 @@
+"""Allow ``python -m confirm``."""
+
+from confirm.cli import run
+
+run()

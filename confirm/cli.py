@@ -1,0 +1,121 @@
+"""The ``confirm`` command line.
+
+Exit codes: 0 success, 1 QC FAIL or INCONCLUSIVE (``qc`` only), 2 bad input
+(one line on stderr, no traceback unless ``--debug``), 3 internal error.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import pkgutil
+import sys
+import traceback
+from collections.abc import Sequence
+
+from confirm import __version__
+from predictors.errors import ConfirmError
+
+__all__ = ["main", "build_parser", "EXIT_OK", "EXIT_REJECTED", "EXIT_BAD_INPUT", "EXIT_INTERNAL"]
+
+EXIT_OK = 0
+EXIT_REJECTED = 1
+EXIT_BAD_INPUT = 2
+EXIT_INTERNAL = 3
+
+#: Order of subcommands in ``--help``; modules found in ``confirm.commands``
+#: but not named here come after, alphabetically.
+COMMAND_ORDER = ("candidates", "predict", "process", "analyze", "qc", "batch", "demo")
+
+
+def _command_modules() -> list[str]:
+    """Names of the subcommand modules (public modules of ``confirm.commands``)."""
+    import confirm.commands as package
+
+    names = [m.name for m in pkgutil.iter_modules(package.__path__) if not m.name.startswith("_")]
+    rank = {name: i for i, name in enumerate(COMMAND_ORDER)}
+    return sorted(names, key=lambda n: (rank.get(n, len(rank)), n))
+
+
+class _ArgumentParser(argparse.ArgumentParser):
+    """argparse that reports usage errors as bad input (exit 2, one line)."""
+
+    def error(self, message: str):  # noqa: D401 - argparse API
+        raise _UsageError(f"{self.prog}: {message}")
+
+
+class _UsageError(ConfirmError):
+    pass
+
+
+def _common_options() -> argparse.ArgumentParser:
+    common = _ArgumentParser(add_help=False)
+    common.add_argument("--json", action="store_true", help="print machine-readable JSON on stdout")
+    common.add_argument("--debug", action="store_true", help="show full tracebacks on errors")
+    return common
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """Build the top-level parser with every registered subcommand."""
+    parser = _ArgumentParser(
+        prog="confirm",
+        description=(
+            "Prove from a 1H NMR spectrum which elimination or substitution product "
+            "formed, in what ratio, and whether a batch meets its specification."
+        ),
+    )
+    parser.add_argument("--version", action="version", version=f"confirm {__version__}")
+    parser.add_argument("--debug", action="store_true", help="show full tracebacks on errors")
+    subparsers = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_ArgumentParser)
+    common = _common_options()
+    for name in _command_modules():
+        importlib.import_module(f"confirm.commands.{name}").register(subparsers, [common])
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run the command line; return the exit code instead of exiting.
+
+    Parameters
+    ----------
+    argv : sequence of str, optional
+        Arguments without the program name; ``sys.argv[1:]`` when None.
+    """
+    argv = list(sys.argv[1:] if argv is None else argv)
+    debug = "--debug" in argv
+    try:
+        parser = build_parser()
+        args = parser.parse_args(argv)
+        if getattr(args, "handler", None) is None:
+            parser.print_help()
+            return EXIT_OK
+        return int(args.handler(args))
+    except ConfirmError as exc:
+        if debug:
+            traceback.print_exc()
+        print(f"error: {_one_line(exc)}", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except KeyboardInterrupt:
+        print("error: interrupted", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except SystemExit as exc:  # argparse --help / --version
+        return int(exc.code or 0)
+    except Exception as exc:  # any other exception is a bug in confirm
+        if debug:
+            traceback.print_exc()
+        print(f"internal error: {_one_line(exc)} (rerun with --debug and report it)", file=sys.stderr)
+        return EXIT_INTERNAL
+
+
+def _one_line(exc: BaseException) -> str:
+    text = str(exc).strip() or type(exc).__name__
+    return " ".join(text.split())
+
+
+def run() -> None:
+    """Console-script entry point."""
+    sys.exit(main())
+
+
+if __name__ == "__main__":
+    run()

@@ -1,0 +1,1 @@
+"""Data tables of the workflow (solvent signals, impurities, report styles)."""

@@ -1,0 +1,472 @@
+"""Core objects passed between the stages of confirm.
+
+Everything that crosses a stage boundary is one of these frozen dataclasses.
+They live in the lowest layer (``predictors``) so that both the models and the
+workflow package (``confirm``) can use them while imports still go one way.
+Arrays are copied and made read-only on construction; units are part of every
+field name.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from types import MappingProxyType
+
+import numpy as np
+
+from predictors.errors import InputError
+
+__all__ = [
+    "PATHWAYS",
+    "GEOMETRIES",
+    "CONFIDENCE_LEVELS",
+    "Candidate",
+    "ProtonSite",
+    "SpinSystem",
+    "LineList",
+    "Spectrum",
+    "ComponentFit",
+    "MixtureFit",
+    "RatioEstimate",
+    "Verdict",
+    "canonical_smiles",
+]
+
+#: Pathway tags a candidate may carry.
+PATHWAYS = ("E2", "E1", "E1cB", "SN2", "SN1", "starting material", "user")
+#: Alkene geometry labels (None when not an alkene or not stereogenic).
+GEOMETRIES = ("E", "Z")
+#: Verdict confidence levels, most to least certain.
+CONFIDENCE_LEVELS = ("high", "moderate", "low", "undecided")
+
+
+def canonical_smiles(smiles: str) -> str:
+    """Return RDKit's canonical isomeric SMILES, or raise :class:`InputError`.
+
+    Parameters
+    ----------
+    smiles : str
+        Any SMILES that RDKit parses.
+    """
+    from rdkit import Chem, RDLogger
+
+    if not isinstance(smiles, str) or not smiles.strip():
+        raise InputError(f"smiles: expected a non-empty SMILES string, got {smiles!r}")
+    RDLogger.DisableLog("rdApp.*")
+    try:
+        mol = Chem.MolFromSmiles(smiles.strip())
+    finally:
+        RDLogger.EnableLog("rdApp.*")
+    if mol is None:
+        raise InputError(f"smiles: RDKit cannot parse {smiles!r}")
+    return Chem.MolToSmiles(mol, isomericSmiles=True)
+
+
+def _frozen_array(values, *, name: str, ndim: int, dtype=float) -> np.ndarray:
+    arr = np.array(values, dtype=dtype, copy=True)
+    if arr.ndim != ndim:
+        raise InputError(f"{name}: expected a {ndim}-D array, got shape {arr.shape}")
+    if np.issubdtype(arr.dtype, np.floating) and not np.all(np.isfinite(arr)):
+        raise InputError(f"{name}: contains NaN or infinite values")
+    arr.setflags(write=False)
+    return arr
+
+
+def _frozen_mapping(values: Mapping | None) -> Mapping:
+    return MappingProxyType(dict(values or {}))
+
+
+def _check_finite(value: float, *, name: str, low: float | None = None,
+                  high: float | None = None) -> None:
+    if not isinstance(value, (int, float, np.floating, np.integer)) or not math.isfinite(value):
+        raise InputError(f"{name}: expected a finite number, got {value!r}")
+    if low is not None and value < low:
+        raise InputError(f"{name}: must be >= {low}, got {value!r}")
+    if high is not None and value > high:
+        raise InputError(f"{name}: must be <= {high}, got {value!r}")
+
+
+@dataclass(frozen=True)
+class Candidate:
+    """A possible component of the sample.
+
+    Attributes
+    ----------
+    smiles : str
+        Canonical isomeric SMILES (canonicalised on construction).
+    pathways : tuple of str
+        Tags from :data:`PATHWAYS` naming every route that gives this product.
+    label : str
+        Short human name, e.g. ``"(E)-alkene, more substituted"``.
+    prior : float
+        Soft prior score in [0, 1]; never used to drop a candidate.
+    rationale : str
+        One line explaining the prior.
+    regio : str or None
+        ``"more substituted"``, ``"less substituted"`` or None.
+    geometry : str or None
+        ``"E"``, ``"Z"`` or None.
+    notes : tuple of str
+        Extra remarks (ring flip needed, rearranged cation, syn path...).
+    """
+
+    smiles: str
+    pathways: tuple[str, ...]
+    label: str = ""
+    prior: float = 0.5
+    rationale: str = ""
+    regio: str | None = None
+    geometry: str | None = None
+    notes: tuple[str, ...] = ()
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "smiles", canonical_smiles(self.smiles))
+        pathways = tuple(self.pathways)
+        if not pathways:
+            raise InputError("pathways: at least one pathway tag is required")
+        for tag in pathways:
+            if tag not in PATHWAYS:
+                raise InputError(f"pathways: unknown tag {tag!r}; allowed: {', '.join(PATHWAYS)}")
+        object.__setattr__(self, "pathways", pathways)
+        _check_finite(self.prior, name="prior", low=0.0, high=1.0)
+        if self.geometry is not None and self.geometry not in GEOMETRIES:
+            raise InputError(f"geometry: expected one of {GEOMETRIES} or None, got {self.geometry!r}")
+        object.__setattr__(self, "notes", tuple(self.notes))
+
+
+@dataclass(frozen=True)
+class ProtonSite:
+    """A group of equivalent protons.
+
+    Attributes
+    ----------
+    atoms : tuple of int
+        Indices of the H atoms in ``Chem.AddHs(Chem.MolFromSmiles(smiles))``.
+    shift_ppm : float
+        Predicted (or published) chemical shift.
+    shift_sd_ppm : float
+        Standard uncertainty of the shift, > 0.
+    label : str
+        Kind of proton, e.g. ``"vinyl"``, ``"aryl"``, ``"CH3"``.
+    exchangeable : bool
+        OH/NH protons: broad, position depends on conditions.
+    magnetically_equivalent : bool
+        True when every proton of the group couples equally to every other
+        spin, so the simulator may treat the group as one composite spin.
+    flags : tuple of str
+        Notes on how the value was obtained (fallbacks, missing increments).
+    """
+
+    atoms: tuple[int, ...]
+    shift_ppm: float
+    shift_sd_ppm: float
+    label: str = ""
+    exchangeable: bool = False
+    magnetically_equivalent: bool = True
+    flags: tuple[str, ...] = ()
+
+    def __post_init__(self) -> None:
+        atoms = tuple(int(a) for a in self.atoms)
+        if not atoms:
+            raise InputError("atoms: a site needs at least one H atom index")
+        if len(set(atoms)) != len(atoms) or min(atoms) < 0:
+            raise InputError(f"atoms: indices must be distinct and >= 0, got {atoms}")
+        object.__setattr__(self, "atoms", atoms)
+        _check_finite(self.shift_ppm, name="shift_ppm", low=-5.0, high=25.0)
+        _check_finite(self.shift_sd_ppm, name="shift_sd_ppm", low=0.0)
+        if self.shift_sd_ppm <= 0:
+            raise InputError(f"shift_sd_ppm: must be > 0, got {self.shift_sd_ppm!r}")
+        object.__setattr__(self, "flags", tuple(self.flags))
+
+    @property
+    def n_h(self) -> int:
+        """Number of protons in the site."""
+        return len(self.atoms)
+
+
+@dataclass(frozen=True, eq=False)
+class SpinSystem:
+    """The protons of one molecule with their signed couplings.
+
+    Attributes
+    ----------
+    smiles : str
+        Canonical isomeric SMILES of the molecule.
+    sites : tuple of ProtonSite
+        The proton sites.
+    j_hz : ndarray, shape (n_sites, n_sites)
+        Symmetric signed coupling constants between sites, zero diagonal.
+    j_sd_hz : ndarray or None, shape (n_sites, n_sites)
+        Standard uncertainty of each coupling (None when unknown).
+    """
+
+    smiles: str
+    sites: tuple[ProtonSite, ...]
+    j_hz: np.ndarray
+    j_sd_hz: np.ndarray | None = None
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "smiles", canonical_smiles(self.smiles))
+        sites = tuple(self.sites)
+        if not all(isinstance(s, ProtonSite) for s in sites):
+            raise InputError("sites: every site must be a ProtonSite")
+        object.__setattr__(self, "sites", sites)
+        n = len(sites)
+        j = _frozen_array(self.j_hz, name="j_hz", ndim=2)
+        if j.shape != (n, n):
+            raise InputError(f"j_hz: expected shape ({n}, {n}) for {n} sites, got {j.shape}")
+        if not np.allclose(j, j.T, atol=1e-9):
+            raise InputError("j_hz: coupling matrix must be symmetric")
+        if n and np.any(np.diag(j) != 0):
+            raise InputError("j_hz: diagonal (self-coupling) must be zero")
+        object.__setattr__(self, "j_hz", j)
+        if self.j_sd_hz is not None:
+            sd = _frozen_array(self.j_sd_hz, name="j_sd_hz", ndim=2)
+            if sd.shape != (n, n) or np.any(sd < 0):
+                raise InputError("j_sd_hz: expected non-negative values of the same shape as j_hz")
+            object.__setattr__(self, "j_sd_hz", sd)
+        seen: set[int] = set()
+        for site in sites:
+            if seen & set(site.atoms):
+                raise InputError("sites: an H atom belongs to more than one site")
+            seen |= set(site.atoms)
+
+    @property
+    def n_h(self) -> int:
+        """Total number of protons."""
+        return sum(s.n_h for s in self.sites)
+
+    @property
+    def shifts_ppm(self) -> np.ndarray:
+        """Site shifts as a new array, shape (n_sites,)."""
+        return np.array([s.shift_ppm for s in self.sites], dtype=float)
+
+    @property
+    def n_protons(self) -> np.ndarray:
+        """Number of H per site as a new int array, shape (n_sites,)."""
+        return np.array([s.n_h for s in self.sites], dtype=int)
+
+
+@dataclass(frozen=True, eq=False)
+class LineList:
+    """Transitions of a simulated spin system.
+
+    Attributes
+    ----------
+    ppm : ndarray, shape (n_lines,)
+        Line positions.
+    intensity : ndarray, shape (n_lines,)
+        Line intensities; they sum to the number of protons.
+    field_mhz : float
+        1H spectrometer frequency the lines were computed for.
+    site_index : ndarray of int, shape (n_lines,)
+        The site each line belongs to most (for per-site integration).
+    """
+
+    ppm: np.ndarray
+    intensity: np.ndarray
+    field_mhz: float
+    site_index: np.ndarray
+
+    def __post_init__(self) -> None:
+        ppm = _frozen_array(self.ppm, name="ppm", ndim=1)
+        inten = _frozen_array(self.intensity, name="intensity", ndim=1)
+        idx = _frozen_array(self.site_index, name="site_index", ndim=1, dtype=int)
+        if not (ppm.shape == inten.shape == idx.shape):
+            raise InputError("LineList: ppm, intensity and site_index must have the same length")
+        _check_finite(self.field_mhz, name="field_mhz", low=1e-6)
+        object.__setattr__(self, "ppm", ppm)
+        object.__setattr__(self, "intensity", inten)
+        object.__setattr__(self, "site_index", idx)
+
+
+@dataclass(frozen=True, eq=False)
+class Spectrum:
+    """A processed 1D spectrum on a ppm axis.
+
+    Attributes
+    ----------
+    ppm : ndarray, shape (n,)
+        Chemical-shift axis, strictly decreasing.
+    intensity : ndarray, shape (n,)
+        Real intensities.
+    field_mhz : float
+        Spectrometer frequency of the observed nucleus.
+    nucleus : str
+        e.g. ``"1H"``.
+    solvent : str or None
+        Solvent name as recorded (normalised by the reader when known).
+    metadata : mapping
+        Acquisition parameters, processing record, source file and its SHA-256.
+    """
+
+    ppm: np.ndarray
+    intensity: np.ndarray
+    field_mhz: float
+    nucleus: str = "1H"
+    solvent: str | None = None
+    metadata: Mapping = field(default_factory=dict)
+
+    def __post_init__(self) -> None:
+        ppm = _frozen_array(self.ppm, name="ppm", ndim=1)
+        inten = _frozen_array(self.intensity, name="intensity", ndim=1)
+        if ppm.shape != inten.shape:
+            raise InputError(f"Spectrum: ppm {ppm.shape} and intensity {inten.shape} differ in length")
+        if ppm.size < 2:
+            raise InputError("Spectrum: needs at least two points")
+        if not np.all(np.diff(ppm) < 0):
+            raise InputError("Spectrum: ppm axis must be strictly decreasing")
+        _check_finite(self.field_mhz, name="field_mhz", low=1e-6)
+        object.__setattr__(self, "ppm", ppm)
+        object.__setattr__(self, "intensity", inten)
+        object.__setattr__(self, "metadata", _frozen_mapping(self.metadata))
+
+    @property
+    def hz_per_point(self) -> float:
+        """Spacing of the axis in Hz."""
+        return float((self.ppm[0] - self.ppm[-1]) / (self.ppm.size - 1) * self.field_mhz)
+
+
+@dataclass(frozen=True)
+class ComponentFit:
+    """Fit result for one candidate.
+
+    Attributes
+    ----------
+    candidate : Candidate
+    mole_fraction : float
+        Share of molecules among all fitted components.
+    mole_fraction_sd : float
+        Standard deviation of ``mole_fraction``.
+    detection_limit : float
+        Smallest mole fraction this spectrum could detect for the candidate.
+    detected : bool
+        True when the amount is clearly above the detection limit and the
+        candidate's diagnostic signals are present.
+    refined_shifts_ppm : tuple of float
+        Site shifts after refinement (same order as the spin system's sites).
+    evidence : tuple of str
+        Lines of evidence (observed vs predicted).
+    """
+
+    candidate: Candidate
+    mole_fraction: float
+    mole_fraction_sd: float
+    detection_limit: float
+    detected: bool
+    refined_shifts_ppm: tuple[float, ...] = ()
+    evidence: tuple[str, ...] = ()
+
+    def __post_init__(self) -> None:
+        _check_finite(self.mole_fraction, name="mole_fraction", low=-1e-9, high=1 + 1e-9)
+        _check_finite(self.mole_fraction_sd, name="mole_fraction_sd", low=0.0)
+        _check_finite(self.detection_limit, name="detection_limit", low=0.0)
+        object.__setattr__(self, "refined_shifts_ppm", tuple(float(x) for x in self.refined_shifts_ppm))
+        object.__setattr__(self, "evidence", tuple(self.evidence))
+
+
+@dataclass(frozen=True, eq=False)
+class MixtureFit:
+    """The measured spectrum explained as a mixture of candidates.
+
+    Attributes
+    ----------
+    components : tuple of ComponentFit
+    ppm : ndarray, shape (n,)
+        Axis of the fitted region.
+    model : ndarray, shape (n,)
+        Fitted mixture spectrum (including baseline).
+    residual : ndarray, shape (n,)
+        Measured minus model.
+    line_width_hz : float
+        Fitted common line width (full width at half height).
+    quality : mapping of str to float
+        Figures of merit (e.g. ``r_squared``, ``noise_sd``, ``snr``).
+    warnings : tuple of str
+    """
+
+    components: tuple[ComponentFit, ...]
+    ppm: np.ndarray
+    model: np.ndarray
+    residual: np.ndarray
+    line_width_hz: float
+    quality: Mapping = field(default_factory=dict)
+    warnings: tuple[str, ...] = ()
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "components", tuple(self.components))
+        for name in ("ppm", "model", "residual"):
+            object.__setattr__(self, name, _frozen_array(getattr(self, name), name=name, ndim=1))
+        if not (self.ppm.shape == self.model.shape == self.residual.shape):
+            raise InputError("MixtureFit: ppm, model and residual must have the same length")
+        _check_finite(self.line_width_hz, name="line_width_hz", low=0.0)
+        object.__setattr__(self, "quality", _frozen_mapping(self.quality))
+        object.__setattr__(self, "warnings", tuple(self.warnings))
+
+
+@dataclass(frozen=True)
+class RatioEstimate:
+    """A ratio between two groups of components, as a share with uncertainty.
+
+    ``share`` is numerator / (numerator + denominator), in [0, 1]; e.g. for
+    an E:Z ratio the share of E.
+    """
+
+    name: str
+    numerator: str
+    denominator: str
+    share: float
+    share_sd: float
+    decided: bool = True
+
+    def __post_init__(self) -> None:
+        _check_finite(self.share, name="share", low=-1e-9, high=1 + 1e-9)
+        _check_finite(self.share_sd, name="share_sd", low=0.0)
+
+    @property
+    def ratio_text(self) -> str:
+        """The ratio written as ``a:b`` in percent."""
+        a = 100.0 * self.share
+        return f"{a:.0f}:{100.0 - a:.0f}"
+
+
+@dataclass(frozen=True)
+class Verdict:
+    """What the spectrum says about the sample.
+
+    Attributes
+    ----------
+    summary : str
+        The verdict in one or two plain sentences.
+    confidence : str
+        One of :data:`CONFIDENCE_LEVELS`.
+    major : str or None
+        SMILES of the major product (None when undecided).
+    identified : tuple of str
+        SMILES of every detected component.
+    ratios : tuple of RatioEstimate
+    evidence : tuple of str
+    unresolved : tuple of str
+        Questions the spectrum cannot decide.
+    next_steps : tuple of str
+        Experiments that would settle them (NOE, 13C, higher field...).
+    """
+
+    summary: str
+    confidence: str
+    major: str | None = None
+    identified: tuple[str, ...] = ()
+    ratios: tuple[RatioEstimate, ...] = ()
+    evidence: tuple[str, ...] = ()
+    unresolved: tuple[str, ...] = ()
+    next_steps: tuple[str, ...] = ()
+
+    def __post_init__(self) -> None:
+        if self.confidence not in CONFIDENCE_LEVELS:
+            raise InputError(
+                f"confidence: expected one of {', '.join(CONFIDENCE_LEVELS)}, got {self.confidence!r}"
+            )
+        for name in ("identified", "ratios", "evidence", "unresolved", "next_steps"):
+            object.__setattr__(self, name, tuple(getattr(self, name)))

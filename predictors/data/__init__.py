@@ -1,0 +1,1 @@
+"""Model tables (increments, couplings, reagents), each row with a source column."""

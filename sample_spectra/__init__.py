@@ -1,0 +1,1 @@
+"""Bundled demo scenario (installed as ``confirm.sample_spectra``)."""

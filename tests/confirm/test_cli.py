@@ -1,0 +1,59 @@
+"""The command-line frame: help, version, exit codes, no tracebacks."""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+
+import confirm
+from confirm import cli
+
+
+def test_version(run_cli):
+    result = run_cli("--version")
+    assert result.exit_code == 0
+    assert confirm.__version__ in result.stdout
+
+
+def test_help_lists_description(run_cli):
+    result = run_cli("--help")
+    assert result.exit_code == 0
+    assert "1H NMR" in result.stdout
+
+
+def test_unknown_subcommand_is_bad_input(run_cli):
+    result = run_cli("no-such-command")
+    assert result.exit_code == cli.EXIT_BAD_INPUT
+    assert result.stderr.startswith("error: ")
+    assert len(result.stderr.strip().splitlines()) == 1
+    assert "Traceback" not in result.stderr
+
+
+def test_internal_error_exits_3_and_debug_shows_traceback(run_cli, monkeypatch):
+    def broken_parser():
+        raise RuntimeError("boom")
+
+    monkeypatch.setattr(cli, "build_parser", broken_parser)
+    result = run_cli("--version")
+    assert result.exit_code == cli.EXIT_INTERNAL
+    assert "Traceback" not in result.stderr
+    result = run_cli("--debug", "--version")
+    assert result.exit_code == cli.EXIT_INTERNAL
+    assert "Traceback" in result.stderr
+
+
+def test_confirm_error_exits_2(run_cli, monkeypatch):
+    def bad_parser():
+        raise confirm.InputError("smiles: RDKit cannot parse 'C1CC'")
+
+    monkeypatch.setattr(cli, "build_parser", bad_parser)
+    result = run_cli("--version")
+    assert result.exit_code == 2
+    assert result.stderr == "error: smiles: RDKit cannot parse 'C1CC'\n"
+
+
+def test_module_entry_point_runs():
+    proc = subprocess.run([sys.executable, "-m", "confirm", "--version"], capture_output=True, text=True,
+                          check=False)
+    assert proc.returncode == 0
+    assert confirm.__version__ in proc.stdout
