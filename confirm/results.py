@@ -13,7 +13,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from types import MappingProxyType
 
-from predictors.core import Candidate, MixtureFit, SpinSystem, Spectrum, Verdict
+from predictors.core import Candidate, MixtureFit, Spectrum, SpinSystem, Verdict
 from predictors.errors import FileFormatError
 
 __all__ = ["InputRecord", "AnalysisResult", "sha256_of_path"]
