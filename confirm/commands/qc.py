@@ -1,0 +1,71 @@
+"""``confirm qc``: sign one spectrum off against a specification.
+
+Exit code 0 for PASS, 1 for FAIL or INCONCLUSIVE, 2 for bad input.
+"""
+
+from __future__ import annotations
+
+import argparse
+from pathlib import Path
+
+from confirm.commands._common import emit_json, format_table
+from confirm.qc import (
+    CAUTION,
+    audit_record,
+    qc_to_json,
+    read_spec,
+    run_qc,
+    write_json_atomic,
+)
+from predictors.errors import FileFormatError
+
+
+def register(subparsers, parents) -> None:
+    """Add the ``qc`` subcommand."""
+    parser = subparsers.add_parser(
+        "qc", parents=parents, help="check a spectrum against a specification (PASS/FAIL/INCONCLUSIVE)",
+        description="Analyse a spectrum as a specification says and decide each acceptance limit "
+                    "from its 95 %% interval. " + CAUTION.replace("%", "%%"))
+    parser.add_argument("--spec", required=True, type=Path, help="specification file (TOML)")
+    parser.add_argument("--spectrum", required=True, type=Path, help="spectrum file or FID folder")
+    parser.add_argument("--report", type=Path, metavar="OUT.html", help="write an HTML report")
+    parser.add_argument("--audit", type=Path, metavar="AUDIT.json", help="write the audit record (JSON)")
+    parser.set_defaults(handler=_run)
+
+
+def _analyze(path, **kwargs):
+    from confirm.analysis import analyze_path
+
+    return analyze_path(path, **kwargs)
+
+
+def _run(args: argparse.Namespace) -> int:
+    spec = read_spec(args.spec)
+    if not args.spectrum.exists():
+        raise FileFormatError(f"--spectrum: {str(args.spectrum)!r} does not exist")
+    for option in ("report", "audit"):
+        target = getattr(args, option)
+        if target is not None and not target.resolve().parent.is_dir():
+            raise FileFormatError(f"--{option}: folder {str(target.parent)!r} does not exist")
+    result, qc = run_qc(spec, args.spectrum, analyze=_analyze)
+    if args.audit is not None:
+        write_json_atomic(audit_record(result, qc), args.audit)
+    if args.report is not None:
+        from confirm.report_html import write_html_report
+
+        write_html_report(result, args.report, qc=qc)
+    if args.json:
+        emit_json({**qc_to_json(qc), "analysis": result.to_json()})
+    else:
+        print(_format_text(qc, result))
+    return 0 if qc.status == "PASS" else 1
+
+
+def _format_text(qc, result) -> str:
+    rows = [(c.name, c.limit_text, c.measured_text(),
+             f"{c.interval[0]:.1f} - {c.interval[1]:.1f}" if c.interval else "-", c.status, c.reason)
+            for c in qc.checks]
+    table = format_table(("check", "limit", "measured", "95 % interval", "result", "why"), rows)
+    title = f"QC result: {qc.status}" + (f" ({qc.spec.name})" if qc.spec.name else "")
+    return "\n".join([title, qc.summary, "", table, "", f"Verdict: {result.verdict.summary}", "",
+                      f"Caution: {qc.caution}"])

@@ -1,0 +1,576 @@
+"""QC sign-off of one spectrum against a specification, with an audit record.
+
+A specification (TOML) names the expected product, the candidates the
+analysis must consider (a list, or the reaction they come from) and the
+acceptance limits. Each limit is decided conservatively from the 95 %
+interval of the measured value (value +- 1.96 sd; a component that was not
+detected counts as "up to its detection limit"):
+
+- PASS only when the whole interval lies inside the limit,
+- FAIL only when the whole interval lies outside it,
+- INCONCLUSIVE otherwise, or when the value cannot be measured.
+
+The overall status is PASS only when every check passes, FAIL when any check
+fails, else INCONCLUSIVE. Identical inputs give identical decisions; the
+audit record carries a digest of everything except the time and the user.
+
+Specification file::
+
+    name = "Lot release, (E)-alkene"          # optional
+    product = "C/C=C/CC"                       # expected product (SMILES)
+    candidates = ["C/C=C\\CC", "C=CCCC"]       # either the allowed candidates ...
+    starting_material = "CC(Br)CCC"            # optional with candidates
+    solvent = "CDCl3"                          # optional
+    field_mhz = 400.0                          # optional
+
+    [reaction]                                 # ... or the reaction (substrate + reagent)
+    substrate = "CC(Br)CCC"
+    reagent = "KOtBu"
+    temp_c = 25.0                              # optional
+
+    [limits]                                   # every limit is optional
+    min_isomeric_purity_percent = 98.0
+    max_other_isomer_percent = 2.0
+    max_starting_material_percent = 1.0
+    min_snr = 100.0
+"""
+
+from __future__ import annotations
+
+import getpass
+import hashlib
+import json
+import math
+import os
+import platform
+import sys
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass, field
+from datetime import datetime, timezone
+from importlib import metadata
+from pathlib import Path
+
+from predictors.core import canonical_smiles
+from predictors.errors import FileFormatError, InputError
+
+if sys.version_info >= (3, 11):
+    import tomllib
+else:  # pragma: no cover - Python 3.10
+    import tomli as tomllib
+
+__all__ = [
+    "CAUTION",
+    "STATUSES",
+    "Z_95",
+    "QcLimits",
+    "QcSpec",
+    "LimitCheck",
+    "QcResult",
+    "read_spec",
+    "parse_spec",
+    "decide_interval",
+    "evaluate_qc",
+    "run_qc",
+    "qc_to_json",
+    "software_versions",
+    "audit_record",
+    "write_json_atomic",
+]
+
+#: The caution printed with every QC result and report.
+CAUTION = ("This result is a decision aid under the site's QA procedures and local regulations, "
+           "not a release by itself; it supports, it does not replace, the analyst's judgement.")
+#: Possible outcomes, most to least favourable.
+STATUSES = ("PASS", "INCONCLUSIVE", "FAIL")
+#: Two-sided 95 % coverage factor of a normal distribution.
+Z_95 = 1.959964
+
+_TOP_KEYS = {"name", "product", "candidates", "starting_material", "solvent", "field_mhz", "reaction",
+             "limits"}
+_REACTION_KEYS = {"substrate", "reagent", "temp_c"}
+_LIMIT_KEYS = {"min_isomeric_purity_percent", "max_other_isomer_percent", "max_starting_material_percent",
+               "min_snr"}
+_CONFIDENT = ("high", "moderate")
+
+
+@dataclass(frozen=True)
+class QcLimits:
+    """Acceptance limits; None means "not part of the specification"."""
+
+    min_isomeric_purity_percent: float | None = None
+    max_other_isomer_percent: float | None = None
+    max_starting_material_percent: float | None = None
+    min_snr: float | None = None
+
+    def __post_init__(self) -> None:
+        for name in ("min_isomeric_purity_percent", "max_other_isomer_percent",
+                     "max_starting_material_percent"):
+            value = getattr(self, name)
+            if value is not None:
+                object.__setattr__(self, name, _number(value, name=f"limits.{name}", low=0.0, high=100.0))
+        if self.min_snr is not None:
+            object.__setattr__(self, "min_snr", _number(self.min_snr, name="limits.min_snr", low=0.0))
+
+
+@dataclass(frozen=True)
+class QcSpec:
+    """A parsed specification (see the module docstring for the file)."""
+
+    product: str
+    limits: QcLimits
+    name: str = ""
+    candidates: tuple[str, ...] = ()
+    starting_material: str | None = None
+    substrate: str | None = None
+    reagent: str | None = None
+    temp_c: float = 25.0
+    solvent: str | None = None
+    field_mhz: float | None = None
+    sha256: str = ""
+    source: str = ""
+
+    def analysis_kwargs(self) -> dict:
+        """Keyword arguments for ``confirm.analysis.analyze_path``."""
+        kwargs: dict = {"solvent": self.solvent, "temp_c": self.temp_c, "field_mhz": self.field_mhz}
+        if self.substrate is not None:
+            kwargs.update(substrate=self.substrate, reagent=self.reagent)
+        else:
+            listed = [self.product, *self.candidates]
+            if self.starting_material:
+                listed.append(self.starting_material)
+            kwargs["candidates"] = list(dict.fromkeys(listed))
+        return kwargs
+
+    @property
+    def starting_material_smiles(self) -> str | None:
+        """SMILES of the starting material (the substrate in reaction mode)."""
+        return self.starting_material or self.substrate
+
+
+def _number(value, *, name: str, low: float | None = None, high: float | None = None) -> float:
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
+        raise InputError(f"{name}: expected a number, got {value!r}")
+    if (low is not None and value < low) or (high is not None and value > high):
+        raise InputError(f"{name}: must lie in [{low}, {high if high is not None else 'inf'}], got {value!r}")
+    return float(value)
+
+
+def _check_keys(table: Mapping, allowed: set[str], *, where: str) -> None:
+    unknown = sorted(set(table) - allowed)
+    if unknown:
+        raise InputError(f"spec {where}: unknown key {unknown[0]!r}; allowed: {', '.join(sorted(allowed))}")
+
+
+def _smiles_entry(value, *, name: str) -> str:
+    if not isinstance(value, str):
+        raise InputError(f"spec {name}: expected a SMILES string, got {value!r}")
+    try:
+        return canonical_smiles(value)
+    except InputError:
+        raise InputError(f"spec {name}: RDKit cannot parse {value!r}") from None
+
+
+def read_spec(path: str | Path) -> QcSpec:
+    """Read and check a specification file (TOML).
+
+    Raises
+    ------
+    FileFormatError
+        Missing file or invalid TOML.
+    InputError
+        Unknown keys, missing product, bad SMILES or limits.
+    """
+    path = Path(path)
+    try:
+        raw = path.read_bytes()
+    except OSError as exc:
+        raise FileFormatError(f"spec: cannot read {str(path)!r} ({exc.strerror or exc})") from None
+    try:
+        table = tomllib.loads(raw.decode("utf-8"))
+    except (UnicodeDecodeError, tomllib.TOMLDecodeError) as exc:
+        raise FileFormatError(f"spec: {str(path)!r} is not valid TOML ({_one_line(exc)})") from None
+    return parse_spec(table, sha256=hashlib.sha256(raw).hexdigest(), source=str(path))
+
+
+def _one_line(exc: BaseException) -> str:
+    return " ".join(str(exc).split())
+
+
+def parse_spec(table: Mapping, *, sha256: str = "", source: str = "") -> QcSpec:
+    """Build a :class:`QcSpec` from a parsed TOML table.
+
+    Parameters
+    ----------
+    table : mapping
+        The TOML document as a dictionary.
+    sha256 : str, keyword-only
+        SHA-256 of the file's bytes (the audit record keeps it); computed
+        from a canonical JSON dump of ``table`` when empty.
+    source : str, keyword-only
+        Where the table came from (path), for messages and the audit record.
+    """
+    _check_keys(table, _TOP_KEYS, where="top level")
+    if "product" not in table:
+        raise InputError("spec product: missing; give the expected product as a SMILES string")
+    reaction = table.get("reaction", {})
+    limits = table.get("limits", {})
+    if not isinstance(reaction, Mapping) or not isinstance(limits, Mapping):
+        raise InputError("spec: [reaction] and [limits] must be tables")
+    _check_keys(reaction, _REACTION_KEYS, where="[reaction]")
+    _check_keys(limits, _LIMIT_KEYS, where="[limits]")
+    candidates = table.get("candidates", [])
+    if not isinstance(candidates, list):
+        raise InputError(f"spec candidates: expected a list of SMILES, got {candidates!r}")
+    if bool(candidates) == bool(reaction):
+        raise InputError("spec: give either candidates = [...] or a [reaction] table (substrate, reagent), "
+                         "exactly one of them")
+    if reaction and not all(isinstance(reaction.get(k), str) for k in ("substrate", "reagent")):
+        raise InputError("spec [reaction]: substrate (SMILES) and reagent (name) are both required")
+    name = table.get("name", "")
+    solvent = table.get("solvent")
+    if not isinstance(name, str) or (solvent is not None and not isinstance(solvent, str)):
+        raise InputError("spec: name and solvent must be strings")
+    field_mhz = table.get("field_mhz")
+    return QcSpec(
+        product=_smiles_entry(table["product"], name="product"),
+        limits=QcLimits(**dict(limits)),
+        name=name,
+        candidates=tuple(_smiles_entry(c, name="candidates") for c in candidates),
+        starting_material=(_smiles_entry(table["starting_material"], name="starting_material")
+                           if "starting_material" in table else None),
+        substrate=_smiles_entry(reaction["substrate"], name="reaction.substrate") if reaction else None,
+        reagent=reaction.get("reagent") if reaction else None,
+        temp_c=_number(reaction.get("temp_c", 25.0), name="reaction.temp_c", low=-150.0, high=400.0),
+        solvent=solvent,
+        field_mhz=None if field_mhz is None else _number(field_mhz, name="field_mhz", low=1.0, high=2000.0),
+        sha256=sha256 or hashlib.sha256(json.dumps(dict(table), sort_keys=True).encode()).hexdigest(),
+        source=source,
+    )
+
+
+@dataclass(frozen=True)
+class LimitCheck:
+    """One acceptance check: the limit, the measured value with its 95 % interval, the decision.
+
+    Values are in the check's ``unit`` (``"%"`` or ``""`` for SNR); ``measured``
+    is None when the value could not be measured.
+    """
+
+    name: str
+    limit_text: str
+    status: str
+    reason: str
+    measured: float | None = None
+    measured_sd: float | None = None
+    interval: tuple[float, float] | None = None
+    unit: str = ""
+
+    def measured_text(self) -> str:
+        """``"96.0 ± 0.8 %"`` or ``"not measured"``."""
+        if self.measured is None:
+            return "not measured"
+        digits = 1 if self.unit == "%" else 0
+        text = f"{self.measured:.{digits}f} ± {(self.measured_sd or 0.0):.{digits}f}"
+        return f"{text} {self.unit}".rstrip()
+
+
+@dataclass(frozen=True)
+class QcResult:
+    """The outcome of a QC evaluation."""
+
+    status: str
+    checks: tuple[LimitCheck, ...]
+    spec: QcSpec
+    summary: str
+    caution: str = CAUTION
+    notes: tuple[str, ...] = field(default_factory=tuple)
+
+
+def decide_interval(low: float, high: float, *, minimum: float | None = None,
+                    maximum: float | None = None) -> str:
+    """Decide one limit from a 95 % interval ``[low, high]``.
+
+    Parameters
+    ----------
+    low, high : float
+        Interval bounds, ``low <= high``.
+    minimum, maximum : float, keyword-only
+        Exactly one: the value must be >= ``minimum`` or <= ``maximum``.
+
+    Returns
+    -------
+    str
+        ``"PASS"`` when the whole interval satisfies the limit, ``"FAIL"``
+        when none of it does, else ``"INCONCLUSIVE"``.
+    """
+    if (minimum is None) == (maximum is None) or not low <= high:
+        raise InputError("decide_interval: give exactly one of minimum/maximum and low <= high")
+    if minimum is not None:
+        inside, outside = low >= minimum, high < minimum
+    else:
+        inside, outside = high <= maximum, low > maximum
+    return "PASS" if inside else "FAIL" if outside else "INCONCLUSIVE"
+
+
+def _formula(smiles: str) -> str:
+    from rdkit import Chem
+    from rdkit.Chem.rdMolDescriptors import CalcMolFormula
+
+    return CalcMolFormula(Chem.MolFromSmiles(smiles))
+
+
+def _upper(comp, scale: float = 1.0) -> float:
+    """Conservative upper 95 % bound of a component's fraction (detection limit when not detected)."""
+    high = (comp.mole_fraction + Z_95 * comp.mole_fraction_sd) / scale
+    return high if comp.detected else max(high, comp.detection_limit / scale)
+
+
+def _percent_check(name: str, limit_text: str, value: float, sd: float, low: float, high: float, *,
+                   minimum=None, maximum=None) -> LimitCheck:
+    low, high = max(0.0, min(low, value)), min(1.0, max(high, value))
+    status = decide_interval(100 * low, 100 * high, minimum=minimum, maximum=maximum)
+    reason = {"PASS": "the whole 95 % interval meets the limit",
+              "FAIL": "the whole 95 % interval is outside the limit",
+              "INCONCLUSIVE": "the 95 % interval straddles the limit"}[status]
+    return LimitCheck(name=name, limit_text=limit_text, status=status, reason=reason,
+                      measured=100 * value, measured_sd=100 * sd, interval=(100 * low, 100 * high), unit="%")
+
+
+def _not_measured(name: str, limit_text: str, reason: str, unit: str = "%") -> LimitCheck:
+    return LimitCheck(name=name, limit_text=limit_text, status="INCONCLUSIVE", reason=reason, unit=unit)
+
+
+def _identity_check(result, product_fit, spec: QcSpec) -> LimitCheck:
+    verdict = result.verdict
+    limit = "expected product detected and identified as the major component"
+    value, sd = product_fit.mole_fraction, product_fit.mole_fraction_sd
+    common = {"measured": 100 * value, "measured_sd": 100 * sd, "unit": "%", "name": "identity",
+              "limit_text": limit}
+    if product_fit.detected and verdict.major == spec.product and verdict.confidence in _CONFIDENT:
+        reason = f"detected; verdict confidence {verdict.confidence}"
+        return LimitCheck(status="PASS", reason=reason, **common)
+    if not product_fit.detected and value + Z_95 * sd < 0.5 and product_fit.detection_limit < 0.5:
+        reason = ("expected product not detected (detection limit "
+                  f"{100 * product_fit.detection_limit:.1f} %): it cannot be the major component")
+        return LimitCheck(status="FAIL", reason=reason, **common)
+    if verdict.major not in (None, spec.product) and verdict.confidence in _CONFIDENT:
+        return LimitCheck(status="FAIL", reason=f"another component ({verdict.major}) is the major "
+                          f"product with {verdict.confidence} confidence", **common)
+    why = "not detected" if not product_fit.detected else f"verdict confidence {verdict.confidence}"
+    return LimitCheck(status="INCONCLUSIVE", reason=f"identity not established ({why})", **common)
+
+
+def _isomer_fits(result, spec: QcSpec, product_fit):
+    formula = _formula(spec.product)
+    sm = spec.starting_material_smiles
+    return [c for c in result.fit.components
+            if c is not product_fit and c.candidate.smiles != sm
+            and "starting material" not in c.candidate.pathways and _formula(c.candidate.smiles) == formula]
+
+
+def _purity_check(product_fit, isomers, limit: float) -> LimitCheck:
+    name, text = "isomeric purity", f">= {limit:g} %"
+    x_p, sd_p = product_fit.mole_fraction, product_fit.mole_fraction_sd
+    total = x_p + sum(c.mole_fraction for c in isomers)
+    if total <= 0:
+        return _not_measured(name, text, "no product or isomer was fitted")
+    purity = x_p / total
+    var = ((total - x_p) / total**2 * sd_p) ** 2 + sum((x_p / total**2 * c.mole_fraction_sd) ** 2
+                                                       for c in isomers)
+    sd = math.sqrt(var)
+    worst = x_p / (x_p + sum(max(c.mole_fraction, 0.0 if c.detected else c.detection_limit)
+                             for c in isomers)) if x_p > 0 else 0.0
+    return _percent_check(name, text, purity, sd, min(purity - Z_95 * sd, worst), purity + Z_95 * sd,
+                          minimum=limit)
+
+
+def _other_isomer_checks(product_fit, isomers, limit: float) -> list[LimitCheck]:
+    text = f"<= {limit:g} %"
+    if not isomers:
+        return [_not_measured("any other isomer", text, "no other isomer among the candidates; "
+                              "list them in the specification")]
+    total = product_fit.mole_fraction + sum(c.mole_fraction for c in isomers)
+    if total <= 0:
+        return [_not_measured("any other isomer", text, "no product or isomer was fitted")]
+    checks = []
+    for comp in isomers:
+        share = comp.mole_fraction / total
+        sd = math.sqrt(sum(((total - comp.mole_fraction if c is comp else -comp.mole_fraction)
+                            / total**2 * c.mole_fraction_sd) ** 2 for c in [product_fit, *isomers]))
+        high = max(share + Z_95 * sd, _upper(comp, total))
+        label = comp.candidate.label or comp.candidate.smiles
+        checks.append(_percent_check(f"other isomer: {label}", text, share, sd, share - Z_95 * sd, high,
+                                     maximum=limit))
+    return checks
+
+
+def _starting_material_check(result, spec: QcSpec, limit: float) -> LimitCheck:
+    name, text = "starting material", f"<= {limit:g} %"
+    sm = spec.starting_material_smiles
+    fits = [c for c in result.fit.components
+            if (sm and c.candidate.smiles == sm) or "starting material" in c.candidate.pathways]
+    if not fits:
+        return _not_measured(name, text, "the starting material was not among the fitted candidates")
+    value = sum(c.mole_fraction for c in fits)
+    sd = math.sqrt(sum(c.mole_fraction_sd ** 2 for c in fits))
+    high = max(value + Z_95 * sd, max(_upper(c) for c in fits))
+    return _percent_check(name, text, value, sd, value - Z_95 * sd, high, maximum=limit)
+
+
+def _snr_check(result, limit: float) -> LimitCheck:
+    name, text = "signal-to-noise ratio", f">= {limit:g}"
+    snr = result.fit.quality.get("snr")
+    if snr is None or not math.isfinite(float(snr)):
+        return _not_measured(name, text, "the fit reports no signal-to-noise ratio", unit="")
+    snr, sd = float(snr), float(result.fit.quality.get("snr_sd", 0.0))
+    status = decide_interval(snr - Z_95 * sd, snr + Z_95 * sd, minimum=limit)
+    return LimitCheck(name=name, limit_text=text, status=status, reason="measured on the processed spectrum",
+                      measured=snr, measured_sd=sd, interval=(snr - Z_95 * sd, snr + Z_95 * sd), unit="")
+
+
+def evaluate_qc(result, spec: QcSpec) -> QcResult:
+    """Decide every limit of ``spec`` from an analysis result.
+
+    Parameters
+    ----------
+    result : confirm.results.AnalysisResult
+        The analysis of the spectrum; its candidates must include the product.
+    spec : QcSpec
+
+    Raises
+    ------
+    InputError
+        When the expected product is not among the fitted components.
+    """
+    product_fit = next((c for c in result.fit.components if c.candidate.smiles == spec.product), None)
+    if product_fit is None:
+        raise InputError(f"spec product: {spec.product!r} is not among the fitted candidates; "
+                         "list it under candidates or check the reaction")
+    isomers = _isomer_fits(result, spec, product_fit)
+    limits = spec.limits
+    checks = [_identity_check(result, product_fit, spec)]
+    if limits.min_isomeric_purity_percent is not None:
+        checks.append(_purity_check(product_fit, isomers, limits.min_isomeric_purity_percent))
+    if limits.max_other_isomer_percent is not None:
+        checks.extend(_other_isomer_checks(product_fit, isomers, limits.max_other_isomer_percent))
+    if limits.max_starting_material_percent is not None:
+        checks.append(_starting_material_check(result, spec, limits.max_starting_material_percent))
+    if limits.min_snr is not None:
+        checks.append(_snr_check(result, limits.min_snr))
+    statuses = {c.status for c in checks}
+    status = "FAIL" if "FAIL" in statuses else "PASS" if statuses == {"PASS"} else "INCONCLUSIVE"
+    return QcResult(status=status, checks=tuple(checks), spec=spec, summary=_summary(status, checks))
+
+
+def _summary(status: str, checks) -> str:
+    if status == "PASS":
+        return f"PASS: all {len(checks)} checks meet the specification with 95 % confidence."
+    failed = [c.name for c in checks if c.status == status]
+    return f"{status}: {', '.join(failed)}."
+
+
+def run_qc(spec: QcSpec, spectrum_path: str | Path, *, analyze: Callable | None = None):
+    """Analyse a spectrum as the specification says and evaluate it.
+
+    Parameters
+    ----------
+    spec : QcSpec
+    spectrum_path : path
+    analyze : callable, keyword-only
+        ``analyze(path, **spec.analysis_kwargs()) -> AnalysisResult``;
+        ``confirm.analysis.analyze_path`` by default.
+
+    Returns
+    -------
+    (AnalysisResult, QcResult)
+    """
+    if analyze is None:
+        from confirm.analysis import analyze_path as analyze
+    result = analyze(spectrum_path, **spec.analysis_kwargs())
+    return result, evaluate_qc(result, spec)
+
+
+def qc_to_json(qc: QcResult) -> dict:
+    """Plain-JSON form of a QC result (stable field names)."""
+    return {
+        "status": qc.status,
+        "summary": qc.summary,
+        "checks": [{"name": c.name, "limit": c.limit_text, "status": c.status, "reason": c.reason,
+                    "measured": c.measured, "measured_sd": c.measured_sd,
+                    "interval_95": list(c.interval) if c.interval else None, "unit": c.unit}
+                   for c in qc.checks],
+        "spec": {"name": qc.spec.name, "product": qc.spec.product, "source": qc.spec.source,
+                 "sha256": qc.spec.sha256},
+        "caution": qc.caution,
+    }
+
+
+def software_versions() -> dict[str, str]:
+    """Versions of confirm, Python and the scientific packages it relies on."""
+    from confirm import __version__
+
+    versions = {"confirm": __version__, "python": platform.python_version()}
+    for package in ("numpy", "scipy", "rdkit", "nmrglue", "matplotlib", "pybaselines"):
+        try:
+            versions[package] = metadata.version(package)
+        except metadata.PackageNotFoundError:
+            versions[package] = "not installed"
+    return versions
+
+
+def _current_user() -> str:
+    for name in ("USER", "LOGNAME", "USERNAME"):
+        if os.environ.get(name):
+            return os.environ[name]
+    try:
+        return getpass.getuser()
+    except (KeyError, OSError):
+        return "unknown"
+
+
+def audit_record(result, qc: QcResult, *, timestamp: str | None = None, user: str | None = None) -> dict:
+    """The audit record of one QC evaluation (plain JSON).
+
+    Everything but ``timestamp`` and ``user`` is a function of the inputs;
+    ``record_sha256`` is the SHA-256 of that part, so reruns on identical
+    inputs give the identical digest.
+    """
+    from confirm.commands._common import to_jsonable
+
+    body = to_jsonable({
+        "qc": qc_to_json(qc),
+        "inputs": [{"path": i.path, "sha256": i.sha256} for i in result.inputs],
+        "spec_sha256": qc.spec.sha256,
+        "parameters": {"analysis": dict(result.parameters), "spec": qc.spec.analysis_kwargs(),
+                       "coverage_factor": Z_95},
+        "versions": software_versions(),
+        "analysis": result.to_json(),
+    })
+    hashed = {k: v for k, v in body.items() if k != "inputs"}
+    hashed["input_sha256"] = [i["sha256"] for i in body["inputs"]]
+    digest = hashlib.sha256(json.dumps(hashed, sort_keys=True, allow_nan=False).encode()).hexdigest()
+    return {
+        "record": "confirm QC audit record",
+        **body,
+        "record_sha256": digest,
+        "timestamp": timestamp or datetime.now(timezone.utc).isoformat(timespec="seconds"),
+        "user": user or _current_user(),
+    }
+
+
+def write_json_atomic(obj, path: str | Path) -> Path:
+    """Write strict, indented JSON to ``path`` via a temporary file and a rename."""
+    from confirm.commands._common import to_jsonable
+
+    path = Path(path)
+    if path.parent and not path.parent.is_dir():
+        raise InputError(f"output path: folder {str(path.parent)!r} does not exist")
+    tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
+    try:
+        tmp.write_text(json.dumps(to_jsonable(obj), indent=2, allow_nan=False, sort_keys=False) + "\n",
+                       encoding="utf-8")
+        os.replace(tmp, path)
+    finally:
+        if tmp.exists():
+            tmp.unlink()
+    return path

@@ -1,0 +1,281 @@
+"""QC sign-off against a specification (confirm.qc and ``confirm qc``)."""
+
+from __future__ import annotations
+
+import json
+
+import pytest
+
+from confirm.qc import (
+    CAUTION,
+    QcLimits,
+    QcSpec,
+    audit_record,
+    decide_interval,
+    evaluate_qc,
+    parse_spec,
+    read_spec,
+    run_qc,
+)
+from predictors.errors import FileFormatError, InputError
+from tests.confirm._synthetic_results import (
+    E_PENTENE,
+    PENT_1_ENE,
+    SUBSTRATE,
+    Z_PENTENE,
+    Part,
+    build_result,
+    pentene_mixture,
+)
+
+SPEC_TEXT = """
+name = "Lot release (E)-pent-2-ene"
+product = "C/C=C/CC"
+candidates = ["C/C=C\\\\CC", "C=CCCC"]
+starting_material = "CC(Br)CCC"
+solvent = "CDCl3"
+
+[limits]
+min_isomeric_purity_percent = 98.0
+max_other_isomer_percent = 2.0
+max_starting_material_percent = 1.0
+min_snr = 100
+"""
+
+
+@pytest.fixture
+def spec(tmp_path):
+    path = tmp_path / "spec.toml"
+    path.write_text(SPEC_TEXT)
+    return read_spec(path)
+
+
+def _status(qc, name):
+    return next(c.status for c in qc.checks if c.name.startswith(name))
+
+
+def test_spec_file_is_read_and_canonicalised(spec):
+    assert spec.product == E_PENTENE
+    assert spec.candidates == (Z_PENTENE, PENT_1_ENE)
+    assert spec.starting_material == SUBSTRATE
+    assert spec.limits.max_other_isomer_percent == 2.0
+    assert len(spec.sha256) == 64
+    kwargs = spec.analysis_kwargs()
+    assert kwargs["candidates"] == [E_PENTENE, Z_PENTENE, PENT_1_ENE, SUBSTRATE]
+    assert kwargs["solvent"] == "CDCl3"
+
+
+def test_reaction_spec_gives_substrate_and_reagent():
+    spec = parse_spec({"product": "C/C=C/CC", "reaction": {"substrate": "CC(Br)CCC", "reagent": "NaOEt"}})
+    kwargs = spec.analysis_kwargs()
+    assert kwargs["substrate"] == SUBSTRATE and kwargs["reagent"] == "NaOEt"
+    assert "candidates" not in kwargs
+    assert spec.starting_material_smiles == SUBSTRATE
+
+
+@pytest.mark.parametrize("table, message", [
+    ({"candidates": ["CC=CC"]}, "product"),
+    ({"product": "CC=CC"}, "exactly one"),
+    ({"product": "CC=CC", "candidates": ["C=CCC"], "reaction": {"substrate": "CCC(Br)C", "reagent": "x"}},
+     "exactly one"),
+    ({"product": "CC=CC", "candidates": ["C=CCC"], "limit": {}}, "unknown key 'limit'"),
+    ({"product": "CC=CC", "candidates": ["C=CCC"], "limits": {"max_isomer": 2}}, "unknown key 'max_isomer'"),
+    ({"product": "C1CC", "candidates": ["C=CCC"]}, "product"),
+    ({"product": "CC=CC", "candidates": ["C=CCC"], "limits": {"max_other_isomer_percent": 120}},
+     "max_other_isomer_percent"),
+    ({"product": "CC=CC", "candidates": ["C=CCC"], "limits": {"min_snr": "high"}}, "min_snr"),
+    ({"product": "CC=CC", "reaction": {"substrate": "CCC(Br)C"}}, "reagent"),
+])
+def test_bad_specs_are_rejected_with_the_key_named(table, message):
+    with pytest.raises(InputError, match=message):
+        parse_spec(table)
+
+
+def test_unreadable_spec_files(tmp_path):
+    with pytest.raises(FileFormatError, match="cannot read"):
+        read_spec(tmp_path / "missing.toml")
+    bad = tmp_path / "bad.toml"
+    bad.write_text("product = [unclosed\n")
+    with pytest.raises(FileFormatError, match="not valid TOML"):
+        read_spec(bad)
+
+
+@pytest.mark.parametrize("low, high, kwargs, expected", [
+    (98.5, 99.5, {"minimum": 98.0}, "PASS"),
+    (97.0, 99.0, {"minimum": 98.0}, "INCONCLUSIVE"),
+    (95.0, 97.9, {"minimum": 98.0}, "FAIL"),
+    (0.0, 2.0, {"maximum": 2.0}, "PASS"),
+    (1.5, 2.5, {"maximum": 2.0}, "INCONCLUSIVE"),
+    (2.01, 3.0, {"maximum": 2.0}, "FAIL"),
+])
+def test_decide_interval_is_conservative(low, high, kwargs, expected):
+    assert decide_interval(low, high, **kwargs) == expected
+
+
+def test_pure_product_passes(spec):
+    result = pentene_mixture(0.996, 0.0, 0.0, 0.0, sds=(0.002, 0.001, 0.001, 0.001))
+    qc = evaluate_qc(result, spec)
+    assert qc.status == "PASS", [(c.name, c.status, c.reason) for c in qc.checks]
+    assert all(c.status == "PASS" for c in qc.checks)
+    assert {c.name for c in qc.checks} >= {"identity", "isomeric purity", "starting material",
+                                          "signal-to-noise ratio"}
+    assert qc.caution == CAUTION
+
+
+def test_four_percent_of_the_other_isomer_fails_a_two_percent_limit(spec):
+    result = pentene_mixture(0.96, 0.04, 0.0, 0.0, sds=(0.004, 0.004, 0.001, 0.001))
+    qc = evaluate_qc(result, spec)
+    z_check = next(c for c in qc.checks if c.name == "other isomer: (Z)-pent-2-ene")
+    assert z_check.status == "FAIL"
+    assert z_check.measured == pytest.approx(4.0)
+    assert z_check.interval[0] > 2.0
+    assert _status(qc, "isomeric purity") == "FAIL"
+    assert qc.status == "FAIL"
+
+
+def test_interval_straddling_the_limit_is_inconclusive(spec):
+    result = pentene_mixture(0.975, 0.025, 0.0, 0.0, sds=(0.005, 0.005, 0.001, 0.001))
+    qc = evaluate_qc(result, spec)
+    z_check = next(c for c in qc.checks if c.name == "other isomer: (Z)-pent-2-ene")
+    assert z_check.interval[0] < 2.0 < z_check.interval[1]
+    assert z_check.status == "INCONCLUSIVE"
+    assert qc.status == "INCONCLUSIVE"
+
+
+def test_undetected_isomer_with_a_detection_limit_above_the_limit_is_inconclusive(spec):
+    parts = [Part(E_PENTENE, 1.0, sd=0.002),
+             Part(Z_PENTENE, 0.0, sd=0.002, detection_limit=0.05, detected=False),
+             Part(PENT_1_ENE, 0.0, sd=0.001, detected=False),
+             Part(SUBSTRATE, 0.0, sd=0.001, detected=False, pathways=("starting material",))]
+    qc = evaluate_qc(build_result(parts, major=E_PENTENE), spec)
+    assert _status(qc, "other isomer: (Z)") == "INCONCLUSIVE"
+    assert qc.status == "INCONCLUSIVE"
+
+
+def test_wrong_compound_never_passes(spec):
+    # the spectrum shows something else: nothing fitted convincingly, the verdict cannot decide
+    absent = [Part(E_PENTENE, 0.30, sd=0.2, detection_limit=0.02, detected=False),
+              Part(Z_PENTENE, 0.30, sd=0.2, detection_limit=0.02, detected=False),
+              Part(PENT_1_ENE, 0.20, sd=0.2, detected=False),
+              Part(SUBSTRATE, 0.20, sd=0.2, detected=False, pathways=("starting material",))]
+    qc = evaluate_qc(build_result(absent, major=None, confidence="undecided"), spec)
+    assert qc.status in ("FAIL", "INCONCLUSIVE")
+    assert _status(qc, "identity") != "PASS"
+    # the product is clearly absent: identity fails outright
+    gone = [Part(E_PENTENE, 0.0, sd=0.002, detection_limit=0.01, detected=False),
+            Part(PENT_1_ENE, 1.0, sd=0.01)]
+    qc = evaluate_qc(build_result(gone, major=PENT_1_ENE), spec)
+    assert _status(qc, "identity") == "FAIL"
+    assert qc.status == "FAIL"
+
+
+def test_low_confidence_verdict_is_not_a_pass(spec):
+    result = pentene_mixture(0.996, 0.0, 0.0, 0.0, sds=(0.002, 0.001, 0.001, 0.001), confidence="low")
+    qc = evaluate_qc(result, spec)
+    assert _status(qc, "identity") == "INCONCLUSIVE"
+    assert qc.status == "INCONCLUSIVE"
+
+
+def test_snr_below_the_limit_fails(spec):
+    result = pentene_mixture(0.996, 0.0, 0.0, 0.0, sds=(0.002, 0.001, 0.001, 0.001), snr=40.0)
+    qc = evaluate_qc(result, spec)
+    assert _status(qc, "signal-to-noise") == "FAIL"
+    assert qc.status == "FAIL"
+
+
+def test_missing_starting_material_and_product(spec):
+    parts = [Part(E_PENTENE, 0.99, sd=0.002), Part(Z_PENTENE, 0.01, sd=0.002)]
+    qc = evaluate_qc(build_result(parts, major=E_PENTENE), spec)
+    assert _status(qc, "starting material") == "INCONCLUSIVE"
+    with pytest.raises(InputError, match="product"):
+        evaluate_qc(build_result([Part(Z_PENTENE, 1.0)], major=Z_PENTENE), spec)
+
+
+def test_identical_inputs_give_identical_audit_digests(spec, monkeypatch):
+    monkeypatch.setenv("USER", "analyst7")
+    result_a = pentene_mixture(0.97, 0.03, 0.0, 0.0)
+    result_b = pentene_mixture(0.97, 0.03, 0.0, 0.0)
+    record_a = audit_record(result_a, evaluate_qc(result_a, spec))
+    record_b = audit_record(result_b, evaluate_qc(result_b, spec), timestamp="2030-01-01T00:00:00+00:00")
+    assert record_a["record_sha256"] == record_b["record_sha256"]
+    assert record_a["user"] == "analyst7"
+    assert record_a["spec_sha256"] == spec.sha256
+    assert record_a["inputs"][0]["sha256"] == "ab" * 32
+    assert {"confirm", "python", "numpy", "rdkit"} <= set(record_a["versions"])
+    assert record_a["qc"]["caution"] == CAUTION
+    json.dumps(record_a, allow_nan=False)
+    changed = pentene_mixture(0.96, 0.04, 0.0, 0.0)
+    assert audit_record(changed, evaluate_qc(changed, spec))["record_sha256"] != record_a["record_sha256"]
+
+
+def test_run_qc_passes_the_spec_to_the_analysis(spec, tmp_path):
+    seen = {}
+
+    def analyze(path, **kwargs):
+        seen.update(kwargs, path=path)
+        return pentene_mixture(0.996, 0.0, 0.0, 0.0, sds=(0.002, 0.001, 0.001, 0.001))
+
+    result, qc = run_qc(spec, tmp_path / "x.jdx", analyze=analyze)
+    assert qc.status == "PASS"
+    assert seen["candidates"][0] == E_PENTENE and seen["solvent"] == "CDCl3"
+
+
+def test_limits_are_validated():
+    with pytest.raises(InputError, match="min_snr"):
+        QcLimits(min_snr=-1)
+    spec = QcSpec(product=E_PENTENE, limits=QcLimits(), candidates=(Z_PENTENE,))
+    assert spec.analysis_kwargs()["candidates"] == [E_PENTENE, Z_PENTENE]
+
+
+# --- command line -------------------------------------------------------------------------------
+
+
+@pytest.fixture
+def fake_analysis(monkeypatch):
+    """Replace the analysis behind ``confirm qc`` by a hand-built result chosen per test."""
+    from confirm.commands import qc as qc_command
+
+    holder = {}
+
+    def analyze(path, **kwargs):
+        from confirm.results import sha256_of_path
+
+        if not str(path).endswith(".jdx"):
+            raise FileFormatError(f"spectrum: {str(path)!r} is not a supported file")
+        sha256_of_path(path)
+        return holder["result"]
+
+    monkeypatch.setattr(qc_command, "_analyze", analyze)
+    return holder
+
+
+def test_cli_pass_fail_and_audit(run_cli, tmp_path, fake_analysis, monkeypatch):
+    monkeypatch.setenv("USER", "qc-user")
+    spec_path = tmp_path / "spec.toml"
+    spec_path.write_text(SPEC_TEXT)
+    spectrum = tmp_path / "lot42.jdx"
+    spectrum.write_text("##TITLE=test\n")
+    fake_analysis["result"] = pentene_mixture(0.996, 0.0, 0.0, 0.0, sds=(0.002, 0.001, 0.001, 0.001))
+    audit = tmp_path / "audit.json"
+    out = run_cli("qc", "--spec", spec_path, "--spectrum", spectrum, "--audit", audit)
+    assert out.exit_code == 0, out.stderr
+    assert "PASS" in out.stdout and "decision aid" in out.stdout
+    record = json.loads(audit.read_text())
+    assert record["qc"]["status"] == "PASS" and record["user"] == "qc-user"
+    fake_analysis["result"] = pentene_mixture(0.96, 0.04, 0.0, 0.0, sds=(0.004, 0.004, 0.001, 0.001))
+    out = run_cli("qc", "--spec", spec_path, "--spectrum", spectrum, "--json")
+    assert out.exit_code == 1
+    data = json.loads(out.stdout)
+    assert data["status"] == "FAIL" and data["caution"] == CAUTION
+    assert data["analysis"]["verdict"]["major"] == E_PENTENE
+    assert "Traceback" not in out.stderr
+
+
+def test_cli_bad_input_exits_2(run_cli, tmp_path, fake_analysis):
+    spec_path = tmp_path / "spec.toml"
+    spec_path.write_text(SPEC_TEXT)
+    out = run_cli("qc", "--spec", tmp_path / "nope.toml", "--spectrum", tmp_path / "a.jdx")
+    assert out.exit_code == 2 and out.stderr.startswith("error: spec")
+    out = run_cli("qc", "--spec", spec_path, "--spectrum", tmp_path / "missing.jdx")
+    assert out.exit_code == 2 and "Traceback" not in out.stderr
+    assert out.stderr.count("\n") == 1
