@@ -385,6 +385,11 @@ class MixtureFit:
     quality : mapping of str to float
         Figures of merit (e.g. ``r_squared``, ``noise_sd``, ``snr``).
     warnings : tuple of str
+    fraction_covariance : ndarray or None, shape (n_components, n_components)
+        Covariance of the mole fractions (zero rows for undetected components);
+        ratios between components propagate their uncertainty through it.
+    unexplained_ppm : tuple of float
+        Positions of signals above the noise that no candidate explains.
     """
 
     components: tuple[ComponentFit, ...]
@@ -394,6 +399,8 @@ class MixtureFit:
     line_width_hz: float
     quality: Mapping = field(default_factory=dict)
     warnings: tuple[str, ...] = ()
+    fraction_covariance: np.ndarray | None = None
+    unexplained_ppm: tuple[float, ...] = ()
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "components", tuple(self.components))
@@ -404,6 +411,13 @@ class MixtureFit:
         _check_finite(self.line_width_hz, name="line_width_hz", low=0.0)
         object.__setattr__(self, "quality", _frozen_mapping(self.quality))
         object.__setattr__(self, "warnings", tuple(self.warnings))
+        if self.fraction_covariance is not None:
+            n = len(self.components)
+            cov = _frozen_array(self.fraction_covariance, name="fraction_covariance", ndim=2)
+            if cov.shape != (n, n):
+                raise InputError(f"fraction_covariance: expected shape ({n}, {n}), got {cov.shape}")
+            object.__setattr__(self, "fraction_covariance", cov)
+        object.__setattr__(self, "unexplained_ppm", tuple(float(x) for x in self.unexplained_ppm))
 
 
 @dataclass(frozen=True)
