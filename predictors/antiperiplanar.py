@@ -1,0 +1,247 @@
+"""Three-dimensional test of the anti-periplanar requirement of E2.
+
+Conformers are embedded with ETKDG and minimised with MMFF94 once per
+substrate; each beta-H is then driven to an H-C-C-LG dihedral of 180 deg (anti)
+or 0 deg (syn) by a constrained minimisation started from the conformer
+closest to that dihedral. The strain energy is the unconstrained MMFF energy of
+the constrained geometry minus the lowest conformer energy. The substituents
+that face each other in that geometry become cis in the alkene (dihedral
+below 90 deg), which fixes the alkene geometry. In cyclohexanes the anti
+geometry is only reached with both groups axial; :func:`is_axial` tells which
+chair a geometry is in, so the cost of a ring flip can be reported.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from rdkit import Chem
+from rdkit.Chem import AllChem, rdMolTransforms
+from rdkit.Chem import rdForceFieldHelpers as ff_helpers  # noqa: N813
+
+from predictors.errors import ChemistryError, InputError
+
+__all__ = ["ConformerSet", "PeriplanarResult", "embed_conformers", "find_periplanar", "is_axial"]
+
+#: Largest strain (kcal/mol) at which a periplanar conformer still counts as
+#: reachable at room temperature (common practice: a few kcal/mol are paid
+#: routinely, e.g. a cyclohexane ring flip to an axial group; 10 is a generous bound).
+MAX_STRAIN_KCAL = 10.0
+#: Largest deviation (deg) from the target dihedral that still counts as periplanar.
+TOLERANCE_DEG = 20.0
+_RESTRAINT_KCAL = 1.0e4
+_MAX_ITERS = 600
+
+
+@dataclass(frozen=True, eq=False)
+class ConformerSet:
+    """MMFF-minimised conformers of one molecule (explicit hydrogens).
+
+    Attributes
+    ----------
+    mol : rdkit.Chem.Mol
+        Molecule with explicit H and one conformer per entry of ``energies_kcal``.
+    conf_ids : tuple of int
+    energies_kcal : tuple of float
+        MMFF94 energy of each conformer (kcal/mol).
+    """
+
+    mol: Chem.Mol
+    conf_ids: tuple[int, ...]
+    energies_kcal: tuple[float, ...]
+
+    @property
+    def min_energy_kcal(self) -> float:
+        """Lowest conformer energy."""
+        return min(self.energies_kcal)
+
+    @property
+    def lowest_conf_id(self) -> int:
+        """Conformer id of the lowest-energy conformer."""
+        return self.conf_ids[int(np.argmin(self.energies_kcal))]
+
+
+@dataclass(frozen=True)
+class PeriplanarResult:
+    """Outcome of driving one beta-H periplanar to the leaving group.
+
+    Attributes
+    ----------
+    h_idx, beta_idx, alpha_idx, lg_idx : int
+        Atoms of the H-C(beta)-C(alpha)-LG dihedral.
+    target_deg : float
+        180 (anti) or 0 (syn).
+    dihedral_deg : float
+        Dihedral reached by the constrained minimisation.
+    strain_kcal : float
+        Unconstrained energy of that geometry above the lowest conformer.
+    reachable : bool
+        Dihedral within :data:`TOLERANCE_DEG`, strain below :data:`MAX_STRAIN_KCAL`
+        and, when both carbons are in a six-membered ring, that ring a chair
+        (so the H and the leaving group are trans-diaxial).
+    cis_pairs : tuple of (int, int)
+        (substituent on alpha, substituent on beta) heavy-atom pairs that face
+        each other and end up cis in the alkene.
+    lg_axial : bool or None
+        Six-membered ring only: whether the leaving group is axial in that geometry.
+    """
+
+    h_idx: int
+    beta_idx: int
+    alpha_idx: int
+    lg_idx: int
+    target_deg: float
+    dihedral_deg: float
+    strain_kcal: float
+    reachable: bool
+    cis_pairs: tuple[tuple[int, int], ...]
+    lg_axial: bool | None
+
+
+def embed_conformers(mol: Chem.Mol, *, n_conformers: int = 6, seed: int = 0xC0FFEE) -> ConformerSet:
+    """Embed (ETKDG v3) and MMFF-minimise a few conformers.
+
+    Parameters
+    ----------
+    mol : rdkit.Chem.Mol
+        Molecule; hydrogens are added when absent.
+    n_conformers : int, keyword-only
+        Number of conformers to embed (>= 1).
+    seed : int, keyword-only
+        Random seed of the embedding (results repeat for a given seed).
+
+    Raises
+    ------
+    ChemistryError
+        Embedding failed or MMFF94 has no parameters for the molecule.
+    """
+    if n_conformers < 1:
+        raise InputError(f"n_conformers: must be >= 1, got {n_conformers}")
+    molh = Chem.AddHs(mol) if mol.GetNumAtoms() == mol.GetNumHeavyAtoms() else Chem.Mol(mol)
+    if not ff_helpers.MMFFHasAllMoleculeParams(molh):
+        raise ChemistryError("structure: MMFF94 has no parameters for this molecule; 3D analysis unavailable")
+    params = AllChem.ETKDGv3()
+    params.randomSeed = int(seed) & 0x7FFFFFFF
+    params.numThreads = 1
+    params.pruneRmsThresh = 0.25
+    cids = list(AllChem.EmbedMultipleConfs(molh, numConfs=n_conformers, params=params))
+    if not cids:
+        params.useRandomCoords = True
+        cids = list(AllChem.EmbedMultipleConfs(molh, numConfs=n_conformers, params=params))
+    if not cids:
+        raise ChemistryError("structure: 3D embedding failed; cannot test anti-periplanar geometry")
+    results = ff_helpers.MMFFOptimizeMoleculeConfs(molh, numThreads=1, maxIters=_MAX_ITERS)
+    energies = tuple(float(e) for _, e in results)
+    return ConformerSet(mol=molh, conf_ids=tuple(cids), energies_kcal=energies)
+
+
+def _angle_gap(a_deg: float, b_deg: float) -> float:
+    return abs((a_deg - b_deg + 180.0) % 360.0 - 180.0)
+
+
+def _start_conformers(confs: ConformerSet, atoms: tuple[int, int, int, int], target_deg: float) -> list[int]:
+    """Closest conformer to the target dihedral, plus the lowest one when different."""
+    gaps = [
+        _angle_gap(rdMolTransforms.GetDihedralDeg(confs.mol.GetConformer(cid), *atoms), target_deg)
+        for cid in confs.conf_ids
+    ]
+    best = [confs.conf_ids[int(np.argmin(gaps))]]
+    if confs.lowest_conf_id not in best:
+        best.append(confs.lowest_conf_id)
+    return best
+
+
+def _constrained_minimum(confs: ConformerSet, cid: int, atoms, target_deg: float) -> tuple[Chem.Mol, float]:
+    mol = Chem.Mol(confs.mol, confId=cid)
+    props = ff_helpers.MMFFGetMoleculeProperties(mol)
+    field = ff_helpers.MMFFGetMoleculeForceField(mol, props)
+    field.MMFFAddTorsionConstraint(*atoms, False, target_deg - 1.0, target_deg + 1.0, _RESTRAINT_KCAL)
+    field.Minimize(maxIts=_MAX_ITERS)
+    conf = mol.GetConformer()
+    for i, xyz in enumerate(np.asarray(field.Positions()).reshape(-1, 3)):
+        conf.SetAtomPosition(i, xyz.tolist())
+    energy = ff_helpers.MMFFGetMoleculeForceField(mol, props).CalcEnergy()
+    return mol, float(energy)
+
+
+def is_axial(mol: Chem.Mol, *, ring_atom: int, substituent: int, conf_id: int = -1) -> bool | None:
+    """Whether ``substituent`` is axial on a six-membered ring containing ``ring_atom``.
+
+    Axial bonds lie within 35 deg of the ring's mean-plane normal (common practice:
+    ideal chair axial bonds are parallel to it, equatorial ones about 70 deg off).
+    Returns None when the atom is not in a six-membered ring.
+    """
+    rings = [r for r in mol.GetRingInfo().AtomRings() if ring_atom in r and len(r) == 6]
+    if not rings or substituent in rings[0]:
+        return None
+    pos = mol.GetConformer(conf_id).GetPositions()
+    ring = pos[list(rings[0])]
+    centred = ring - ring.mean(axis=0)
+    normal = np.linalg.svd(centred)[2][2]
+    bond = pos[substituent] - pos[ring_atom]
+    cos = abs(float(np.dot(bond, normal))) / float(np.linalg.norm(bond))
+    return bool(cos > np.cos(np.radians(35.0)))
+
+
+def _shared_six_ring(mol: Chem.Mol, a: int, b: int) -> tuple[int, ...] | None:
+    for ring in mol.GetRingInfo().AtomRings():
+        if len(ring) == 6 and a in ring and b in ring:
+            return ring
+    return None
+
+
+def _is_chair(mol: Chem.Mol, ring: tuple[int, ...]) -> bool:
+    """Chair: ring torsions alternate in sign and none is near zero (twist and boat forms fail)."""
+    conf = mol.GetConformer()
+    quads = [tuple(ring[(i + k) % 6] for k in range(4)) for i in range(6)]
+    torsions = [rdMolTransforms.GetDihedralDeg(conf, *quad) for quad in quads]
+    alternating = all(torsions[i] * torsions[(i + 1) % 6] < 0 for i in range(6))
+    return alternating and min(abs(t) for t in torsions) > 30.0
+
+
+def _cis_pairs(mol: Chem.Mol, h_idx: int, beta: int, alpha: int, lg: int) -> tuple[tuple[int, int], ...]:
+    conf = mol.GetConformer()
+    on_alpha = [n.GetIdx() for n in mol.GetAtomWithIdx(alpha).GetNeighbors()
+                if n.GetIdx() not in (beta, lg) and n.GetAtomicNum() > 1]
+    on_beta = [n.GetIdx() for n in mol.GetAtomWithIdx(beta).GetNeighbors()
+               if n.GetIdx() not in (alpha, h_idx) and n.GetAtomicNum() > 1]
+    return tuple(
+        (sa, sb) for sa in on_alpha for sb in on_beta
+        if abs(rdMolTransforms.GetDihedralDeg(conf, sa, alpha, beta, sb)) < 90.0
+    )
+
+
+def find_periplanar(confs: ConformerSet, *, h_idx: int, beta_idx: int, alpha_idx: int, lg_idx: int,
+                    target_deg: float = 180.0) -> PeriplanarResult:
+    """Drive H-C(beta)-C(alpha)-LG to ``target_deg`` and report reachability and strain.
+
+    Parameters
+    ----------
+    confs : ConformerSet
+        Conformers of the substrate (reused for every beta-H).
+    h_idx, beta_idx, alpha_idx, lg_idx : int, keyword-only
+        Atom indices in ``confs.mol``.
+    target_deg : float, keyword-only
+        180 for anti-periplanar, 0 for syn-periplanar.
+    """
+    atoms = (h_idx, beta_idx, alpha_idx, lg_idx)
+    best = None
+    for cid in _start_conformers(confs, atoms, target_deg):
+        mol, energy = _constrained_minimum(confs, cid, atoms, target_deg)
+        dihedral = rdMolTransforms.GetDihedralDeg(mol.GetConformer(), *atoms)
+        score = (_angle_gap(dihedral, target_deg) > TOLERANCE_DEG, energy)
+        if best is None or score < best[0]:
+            best = (score, mol, energy, dihedral)
+    _, mol, energy, dihedral = best
+    strain = max(0.0, energy - confs.min_energy_kcal)
+    ring = _shared_six_ring(mol, alpha_idx, beta_idx)
+    chair_ok = ring is None or _is_chair(mol, ring)
+    return PeriplanarResult(
+        h_idx=h_idx, beta_idx=beta_idx, alpha_idx=alpha_idx, lg_idx=lg_idx, target_deg=float(target_deg),
+        dihedral_deg=float(dihedral), strain_kcal=float(strain),
+        reachable=chair_ok and _angle_gap(dihedral, target_deg) <= TOLERANCE_DEG
+        and strain <= MAX_STRAIN_KCAL,
+        cis_pairs=_cis_pairs(mol, h_idx, beta_idx, alpha_idx, lg_idx),
+        lg_axial=is_axial(mol, ring_atom=alpha_idx, substituent=lg_idx),
+    )
