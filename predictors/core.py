@@ -263,12 +263,16 @@ class LineList:
         1H spectrometer frequency the lines were computed for.
     site_index : ndarray of int, shape (n_lines,)
         The site each line belongs to most (for per-site integration).
+    warnings : tuple of str
+        Approximations the simulator had to make (e.g. strong couplings cut
+        because a cluster exceeded its size limit); empty when exact.
     """
 
     ppm: np.ndarray
     intensity: np.ndarray
     field_mhz: float
     site_index: np.ndarray
+    warnings: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:
         ppm = _frozen_array(self.ppm, name="ppm", ndim=1)
@@ -280,6 +284,7 @@ class LineList:
         object.__setattr__(self, "ppm", ppm)
         object.__setattr__(self, "intensity", inten)
         object.__setattr__(self, "site_index", idx)
+        object.__setattr__(self, "warnings", tuple(self.warnings))
 
 
 @dataclass(frozen=True, eq=False)

@@ -1,0 +1,681 @@
+"""Exact simulation of 1H spin systems and rendering of their line shapes.
+
+The Hamiltonian (in Hz, rotating frame at 0 ppm) is
+
+    H = sum_g nu_g Fz_g + sum_{g<h} J_gh F_g . F_h
+
+where each *site* g is a group of ``n_g`` magnetically equivalent protons with
+total-spin operators F_g. Equivalent groups are handled as composite spins:
+the group's states split into total spin values I_g (with multiplicities from
+the coupling of ``n_g`` spins 1/2); couplings inside a group do not show in the
+spectrum and are not needed. The Hamiltonian commutes with the total Fz, so it
+is diagonalised block by block (one block per total M). Lines are the
+transitions between adjacent blocks, intensity ``|<lower|F-|upper>|^2``.
+
+Large molecules are split into clusters. A coupling is *strong* when
+``|J| > cluster_ratio * |delta nu|`` (delta nu = shift difference in Hz);
+sites joined by strong couplings form a cluster that is simulated exactly.
+Couplings between clusters are applied first order (only their ``Fz Fz``
+part): for the largest affordable set of neighbouring sites the cluster is
+re-diagonalised for each spin state of those neighbours (shifts moved by
+``J m``, binomial weights, the way an ABX system's AB part is two AB
+quartets), and any remaining neighbours split each line by the coupling
+weighted with the line's change of ``<Fz>`` of every cluster site. If a
+cluster would exceed ``max_cluster_spins`` protons, its weakest strong
+couplings (smallest ``|J| / |delta nu|``) are cut and treated the same way;
+this is reported in :attr:`LineList.warnings`.
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.special import erf
+
+from predictors.core import LineList, SpinSystem
+from predictors.errors import InputError
+
+__all__ = [
+    "ClusterPlan",
+    "LINE_SHAPES",
+    "model_spectrum",
+    "plan_clusters",
+    "render_lines",
+    "render_sites",
+    "simulate_arrays",
+    "simulate_lines",
+]
+
+#: Allowed values of ``shape`` in the rendering functions.
+LINE_SHAPES = ("lorentzian", "gaussian", "voigt")
+#: Spectrometer frequencies the simulator accepts (1H, MHz).
+FIELD_RANGE_MHZ = (40.0, 1200.0)
+_MERGE_TOL_HZ = 1e-4
+_DROP_FRACTION = 1e-6
+_DROP_TOTAL = 1e-5
+_MAX_SPINS_ALLOWED = 14
+_POOL_STEP = 0.01  # lines closer than this many line widths are drawn as one
+# Largest (number of neighbour spin states) x 2**(cluster protons) handled by
+# re-diagonalising the cluster per neighbour state; beyond it, neighbours are
+# applied as first-order splittings of the finished lines.
+_NEIGHBOUR_STATE_BUDGET = 2**11
+_MAX_NEIGHBOUR_STATES = 64
+
+
+@dataclass(frozen=True)
+class ClusterPlan:
+    """How a spin system is cut into exactly simulated clusters.
+
+    Attributes
+    ----------
+    clusters : tuple of tuple of int
+        Site indices of each cluster, every site in exactly one cluster.
+    cut_strong : tuple of tuple of int
+        Pairs of sites joined by a strong coupling that had to be cut to
+        respect ``max_cluster_spins`` (treated first order, less exact).
+    warnings : tuple of str
+        One message per cut strong coupling.
+    """
+
+    clusters: tuple[tuple[int, ...], ...]
+    cut_strong: tuple[tuple[int, int], ...]
+    warnings: tuple[str, ...]
+
+
+# ---------------------------------------------------------------------------
+# input checks
+
+
+def _check_field(field_mhz) -> float:
+    low, high = FIELD_RANGE_MHZ
+    try:
+        value = float(field_mhz)
+    except (TypeError, ValueError):
+        raise InputError(f"field_mhz: expected a number, got {field_mhz!r}") from None
+    if not math.isfinite(value) or not low <= value <= high:
+        raise InputError(f"field_mhz: {field_mhz!r} is outside the allowed {low:g}-{high:g} MHz")
+    return value
+
+
+def _check_arrays(shifts_ppm, j_hz, n_protons) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    try:
+        shifts = np.asarray(shifts_ppm, dtype=float)
+        j = np.asarray(j_hz, dtype=float)
+        n_raw = np.asarray(n_protons, dtype=float)
+    except (TypeError, ValueError) as exc:
+        raise InputError(f"shifts_ppm, j_hz, n_protons: expected numeric arrays ({exc})") from None
+    if shifts.ndim != 1 or shifts.size == 0:
+        raise InputError(f"shifts_ppm: expected a non-empty 1-D array, got shape {shifts.shape}")
+    n_sites = shifts.size
+    if not np.all(np.isfinite(shifts)):
+        raise InputError(f"shifts_ppm: contains NaN or infinite values: {shifts.tolist()}")
+    if j.shape != (n_sites, n_sites):
+        raise InputError(f"j_hz: expected shape ({n_sites}, {n_sites}) for {n_sites} sites, got {j.shape}")
+    if not np.all(np.isfinite(j)):
+        raise InputError("j_hz: contains NaN or infinite values")
+    asym = np.abs(j - j.T)
+    if np.any(asym > 1e-6 * (1.0 + np.abs(j))):
+        a, b = np.unravel_index(np.argmax(asym), asym.shape)
+        raise InputError(
+            f"j_hz: coupling matrix must be symmetric; j_hz[{a},{b}]={j[a, b]!r} "
+            f"but j_hz[{b},{a}]={j[b, a]!r}"
+        )
+    if n_raw.shape != (n_sites,):
+        raise InputError(f"n_protons: expected {n_sites} values (one per site), got shape {n_raw.shape}")
+    if not np.all(np.isfinite(n_raw)) or np.any(n_raw < 1) or np.any(n_raw != np.round(n_raw)):
+        raise InputError(f"n_protons: expected whole numbers >= 1, got {n_raw.tolist()}")
+    j = 0.5 * (j + j.T)
+    np.fill_diagonal(j, 0.0)
+    return shifts, j, n_raw.astype(int)
+
+
+def _check_options(max_cluster_spins, cluster_ratio) -> tuple[int, float]:
+    if (isinstance(max_cluster_spins, bool) or not isinstance(max_cluster_spins, (int, np.integer))
+            or not 1 <= max_cluster_spins <= _MAX_SPINS_ALLOWED):
+        raise InputError(
+            f"max_cluster_spins: expected a whole number from 1 to {_MAX_SPINS_ALLOWED}, "
+            f"got {max_cluster_spins!r}"
+        )
+    try:
+        ratio = float(cluster_ratio)
+    except (TypeError, ValueError):
+        raise InputError(f"cluster_ratio: expected a number, got {cluster_ratio!r}") from None
+    if not math.isfinite(ratio) or ratio <= 0:
+        raise InputError(f"cluster_ratio: expected a finite number > 0, got {cluster_ratio!r}")
+    return int(max_cluster_spins), ratio
+
+
+# ---------------------------------------------------------------------------
+# clusters
+
+
+def _coupling_strength(nu_hz: np.ndarray, j: np.ndarray) -> np.ndarray:
+    dnu = np.abs(nu_hz[:, None] - nu_hz[None, :])
+    with np.errstate(divide="ignore", invalid="ignore"):
+        strength = np.where(j != 0, np.abs(j) / np.maximum(dnu, 1e-300), 0.0)
+    return strength
+
+
+def _find_root(parent: list[int], i: int) -> int:
+    while parent[i] != i:
+        parent[i] = parent[parent[i]]
+        i = parent[i]
+    return i
+
+
+def _plan(nu_hz, j, n, max_spins, ratio) -> ClusterPlan:
+    strength = _coupling_strength(nu_hz, j)
+    n_sites = len(n)
+    pairs = [(a, b) for a in range(n_sites) for b in range(a + 1, n_sites) if strength[a, b] > ratio]
+    # strongest first; ties broken by values, not by the order the sites were given in
+    pairs.sort(key=lambda p: (-strength[p], -abs(j[p]), sorted((nu_hz[p[0]], nu_hz[p[1]])), p))
+    parent = list(range(n_sites))
+    size = [int(x) for x in n]
+    for a, b in pairs:
+        ra, rb = _find_root(parent, a), _find_root(parent, b)
+        if ra != rb and size[ra] + size[rb] <= max_spins:
+            parent[rb] = ra
+            size[ra] += size[rb]
+    roots = [_find_root(parent, i) for i in range(n_sites)]
+    clusters: dict[int, list[int]] = {}
+    for i, r in enumerate(roots):
+        clusters.setdefault(r, []).append(i)
+    cut = tuple((a, b) for a, b in pairs if roots[a] != roots[b])
+    messages = tuple(
+        f"strong coupling between sites {a} and {b} (J={j[a, b]:.2f} Hz, shift difference "
+        f"{abs(nu_hz[a] - nu_hz[b]):.2f} Hz) treated first order: cluster would exceed "
+        f"max_cluster_spins={max_spins}"
+        for a, b in cut
+    )
+    return ClusterPlan(tuple(tuple(c) for c in clusters.values()), cut, messages)
+
+
+def plan_clusters(shifts_ppm, j_hz, n_protons, *, field_mhz: float, max_cluster_spins: int = 12,
+                  cluster_ratio: float = 0.05) -> ClusterPlan:
+    """Cut a spin system into clusters that are simulated exactly.
+
+    Parameters
+    ----------
+    shifts_ppm, j_hz, n_protons
+        As for :func:`simulate_arrays`.
+    field_mhz : float
+        1H frequency, 40-1200 MHz.
+    max_cluster_spins : int
+        Most protons in one cluster (a single site larger than this is still
+        one cluster: a composite spin is cheap).
+    cluster_ratio : float
+        A coupling is strong when ``|J| > cluster_ratio * |delta nu|``.
+
+    Returns
+    -------
+    ClusterPlan
+    """
+    field = _check_field(field_mhz)
+    shifts, j, n = _check_arrays(shifts_ppm, j_hz, n_protons)
+    max_spins, ratio = _check_options(max_cluster_spins, cluster_ratio)
+    return _plan(shifts * field, j, n, max_spins, ratio)
+
+
+# ---------------------------------------------------------------------------
+# composite-spin basis of one cluster
+
+
+def _group_spins(n: int) -> list[tuple[float, int]]:
+    """Total-spin values of ``n`` equivalent spins 1/2 with their multiplicities."""
+    out = []
+    for k in range(n // 2 + 1):
+        mult = math.comb(n, k) - (math.comb(n, k - 1) if k else 0)
+        out.append((n / 2 - k, mult))
+    return out
+
+
+@dataclass(frozen=True)
+class _Block:
+    m: np.ndarray          # (n_states, G) m value of each composite spin
+    mm: np.ndarray         # (n_states, n_pairs) products m_g m_h
+    rows: np.ndarray       # flip-flop element positions
+    cols: np.ndarray
+    pair: np.ndarray       # index into the pair list
+    coef: np.ndarray       # sqrt factors of the flip-flop
+
+
+@dataclass(frozen=True)
+class _Subsystem:
+    sites: np.ndarray      # local cluster site of each composite spin (I > 0)
+    pairs: np.ndarray      # (n_pairs, 2) composite-spin pairs
+    weight: float          # multiplicity of this combination of total spins
+    blocks: tuple[_Block, ...]   # M descending
+    lowering: tuple[np.ndarray, ...]   # F- from block b to block b+1, shape (n_{b+1}, n_b)
+
+
+def _build_subsystem(spins: np.ndarray, sites: np.ndarray, weight: float) -> _Subsystem:
+    dims = (2 * spins + 1).round().astype(int)
+    k = np.indices(dims).reshape(len(dims), -1).T
+    m = spins[None, :] - k
+    total = m.sum(axis=1)
+    order = np.lexsort((np.arange(len(total)), -total))
+    _, first, sizes = np.unique(-total[order], return_index=True, return_counts=True)
+    block_of = np.empty(len(total), dtype=int)
+    pos_of = np.empty(len(total), dtype=int)
+    block_of[order] = np.repeat(np.arange(len(sizes)), sizes)
+    pos_of[order] = np.arange(len(total)) - np.repeat(first, sizes)
+    members = np.split(order, first[1:])
+    strides = np.array([int(np.prod(dims[g + 1:])) for g in range(len(dims))])
+    pairs = np.array(list(itertools.combinations(range(len(dims)), 2)), dtype=int).reshape(-1, 2)
+    flips = _split_by_block(_flip_flops(m, k, dims, strides, pairs, spins), block_of, pos_of, len(sizes))
+    mm = m[:, pairs[:, 0]] * m[:, pairs[:, 1]]
+    blocks = tuple(_Block(m[idx], mm[idx], *flips[b]) for b, idx in enumerate(members))
+    lowering = _lowering_ops(m, k, dims, strides, spins, block_of, pos_of, sizes)
+    return _Subsystem(sites, pairs, weight, blocks, lowering)
+
+
+def _raise_coef(spin, m):
+    return np.sqrt(np.maximum(spin * (spin + 1) - m * (m + 1), 0.0))
+
+
+def _lower_coef(spin, m):
+    return np.sqrt(np.maximum(spin * (spin + 1) - m * (m - 1), 0.0))
+
+
+def _flip_flops(m, k, dims, strides, pairs, spins):
+    """All F+_g F-_h elements (g < h): source state, target state, pair index, factor."""
+    src, dst, which, coef = [np.zeros(0, int)], [np.zeros(0, int)], [np.zeros(0, int)], [np.zeros(0)]
+    for p, (g, h) in enumerate(pairs):
+        s = np.flatnonzero((k[:, g] >= 1) & (k[:, h] < dims[h] - 1))
+        src.append(s)
+        dst.append(s - strides[g] + strides[h])
+        which.append(np.full(len(s), p))
+        coef.append(_raise_coef(spins[g], m[s, g]) * _lower_coef(spins[h], m[s, h]))
+    return [np.concatenate(x) for x in (src, dst, which, coef)]
+
+
+def _split_by_block(flips, block_of, pos_of, n_blocks):
+    src, dst, which, coef = flips
+    blk = block_of[src]
+    order = np.argsort(blk, kind="stable")
+    cuts = np.searchsorted(blk[order], np.arange(1, n_blocks))
+    parts = [np.split(a[order], cuts) for a in (pos_of[src], pos_of[dst], which, coef)]
+    return [tuple(p[b] for p in parts) for b in range(n_blocks)]
+
+
+def _lowering_ops(m, k, dims, strides, spins, block_of, pos_of, sizes):
+    """Dense F- from each block to the next (one lower M), shape (n_lower, n_upper)."""
+    ops = [np.zeros((sizes[b + 1], sizes[b])) for b in range(len(sizes) - 1)]
+    for g in range(len(dims)):
+        s = np.flatnonzero(k[:, g] < dims[g] - 1)
+        vals = _lower_coef(spins[g], m[s, g])
+        blk = block_of[s]
+        for b in range(len(ops)):
+            sel = blk == b
+            ops[b][pos_of[s[sel] + strides[g]], pos_of[s[sel]]] = vals[sel]
+    return tuple(ops)
+
+
+def _build_cluster(n_local: np.ndarray) -> list[_Subsystem]:
+    options = [_group_spins(int(n)) for n in n_local]
+    subsystems = []
+    for combo in itertools.product(*options):
+        spins = np.array([s for s, _ in combo])
+        weight = float(np.prod([w for _, w in combo]))
+        active = np.flatnonzero(spins > 0)
+        if active.size:
+            subsystems.append(_build_subsystem(spins[active], active, weight))
+    return subsystems
+
+
+# ---------------------------------------------------------------------------
+# diagonalisation and transitions
+
+
+def _diagonalise_block(block: _Block, nu, j_pairs):
+    n_states = block.m.shape[0]
+    h = np.zeros((n_states, n_states))
+    h[np.arange(n_states), np.arange(n_states)] = block.m @ nu + block.mm @ j_pairs
+    if block.rows.size:
+        vals = 0.5 * j_pairs[block.pair] * block.coef
+        h[block.rows, block.cols] = vals
+        h[block.cols, block.rows] = vals
+    if n_states == 1:
+        return h[0], np.ones((1, 1))
+    return np.linalg.eigh(h)
+
+
+def _subsystem_lines(sub: _Subsystem, nu_local, j_local, n_cluster_sites, min_intensity):
+    nu = nu_local[sub.sites]
+    j_pairs = j_local[sub.sites[sub.pairs[:, 0]], sub.sites[sub.pairs[:, 1]]]
+    eig = [_diagonalise_block(b, nu, j_pairs) for b in sub.blocks]
+    fz = [(vecs**2).T @ b.m for (_, vecs), b in zip(eig, sub.blocks, strict=True)]
+    freqs, intens, deltas = [], [], []
+    for b, op in enumerate(sub.lowering):
+        (e_up, v_up), (e_lo, v_lo) = eig[b], eig[b + 1]
+        amp = v_lo.T @ (op @ v_up)
+        inten = sub.weight * amp**2
+        lo, up = np.nonzero(inten > min_intensity)
+        freqs.append(e_up[up] - e_lo[lo])
+        intens.append(inten[lo, up])
+        deltas.append(fz[b][up] - fz[b + 1][lo])
+    if not freqs:
+        return np.zeros(0), np.zeros(0), np.zeros((0, n_cluster_sites))
+    delta = np.zeros((sum(len(f) for f in freqs), n_cluster_sites))
+    delta[:, sub.sites] = np.concatenate(deltas)
+    return np.concatenate(freqs), np.concatenate(intens), delta
+
+
+def _cluster_lines(subsystems, nu_local, j_local, n_total, min_intensity):
+    scale = 2.0 ** (n_total - 1)
+    parts = [_subsystem_lines(s, nu_local, j_local, len(nu_local), min_intensity * scale) for s in subsystems]
+    freq = np.concatenate([p[0] for p in parts])
+    inten = np.concatenate([p[1] for p in parts]) / scale
+    delta = np.concatenate([p[2] for p in parts])
+    return freq, inten, delta
+
+
+def _binomial_states(n: int) -> tuple[np.ndarray, np.ndarray]:
+    k = np.arange(n + 1)
+    m = n / 2 - k
+    w = np.array([math.comb(n, i) for i in k], dtype=float) / 2.0**n
+    return m, w
+
+
+def _choose_neighbours(sites, nu, j, n):
+    local = list(sites)
+    others = [h for h in range(len(n)) if h not in set(local) and np.any(j[local, h] != 0)]
+    # most important neighbour first: largest coupling compared with its shift offset
+    others.sort(key=lambda h: (-np.max(np.abs(j[local, h])), nu[h], h))
+    budget = min(_MAX_NEIGHBOUR_STATES, max(1, _NEIGHBOUR_STATE_BUDGET // 2 ** int(n[local].sum())))
+    exact, states = [], 1
+    for h in others:
+        if states * (n[h] + 1) <= budget:
+            exact.append(h)
+            states *= n[h] + 1
+    rest = [h for h in others if h not in exact]
+    return exact, rest
+
+
+def _simulate_cluster(sites, nu, j, n, min_intensity):
+    local = np.array(sites)
+    subsystems = _build_cluster(n[local])
+    exact, rest = _choose_neighbours(sites, nu, j, n)
+    state_sets = [_binomial_states(int(n[h])) for h in exact]
+    freqs, intens, deltas = [], [], []
+    for combo in itertools.product(*[range(len(s[0])) for s in state_sets]):
+        m_ext = np.array([state_sets[i][0][c] for i, c in enumerate(combo)])
+        weight = float(np.prod([state_sets[i][1][c] for i, c in enumerate(combo)]))
+        nu_eff = nu[local] + (j[np.ix_(local, exact)] @ m_ext if exact else 0.0)
+        f, i_, d = _cluster_lines(subsystems, nu_eff, j[np.ix_(local, local)], int(n[local].sum()),
+                                  min_intensity / max(weight, 1e-300))
+        freqs.append(f)
+        intens.append(i_ * weight)
+        deltas.append(d)
+    freq, inten, delta = np.concatenate(freqs), np.concatenate(intens), np.concatenate(deltas)
+    for h in rest:
+        m_h, w_h = _binomial_states(int(n[h]))
+        j_eff = delta @ j[local, h]
+        freq = (freq[:, None] + j_eff[:, None] * m_h[None, :]).ravel()
+        inten = (inten[:, None] * w_h[None, :]).ravel()
+        delta = np.repeat(delta, len(m_h), axis=0)
+    return freq, inten, local[np.argmax(delta, axis=1)] if len(freq) else np.zeros(0, int)
+
+
+def _merge_lines(freq, inten, site):
+    order = np.lexsort((freq, site))
+    freq, inten, site = freq[order], inten[order], site[order]
+    new = np.ones(len(freq), dtype=bool)
+    new[1:] = (np.diff(freq) > _MERGE_TOL_HZ) | (np.diff(site) != 0)
+    starts = np.flatnonzero(new)
+    total = np.add.reduceat(inten, starts)
+    centre = np.add.reduceat(inten * freq, starts) / np.where(total > 0, total, 1.0)
+    return centre, total, site[starts]
+
+
+def _significant(inten, total):
+    """Mask of lines to keep: drop the weakest (each < 1e-6 of the total) while together < 1e-5."""
+    order = np.argsort(inten, kind="stable")
+    dropped = np.cumsum(inten[order])
+    n_drop = int(np.searchsorted(dropped, _DROP_TOTAL * total, side="right"))
+    n_drop = min(n_drop, int(np.searchsorted(inten[order], _DROP_FRACTION * total)))
+    keep = np.ones(len(inten), dtype=bool)
+    keep[order[:n_drop]] = False
+    return keep
+
+
+def simulate_arrays(shifts_ppm, j_hz, n_protons, *, field_mhz: float, max_cluster_spins: int = 12,
+                    cluster_ratio: float = 0.05) -> LineList:
+    """Simulate the 1H spectrum lines of a spin system given as arrays.
+
+    Parameters
+    ----------
+    shifts_ppm : array_like, shape (n_sites,)
+        Chemical shift of each site.
+    j_hz : array_like, shape (n_sites, n_sites)
+        Symmetric signed couplings between sites in Hz; the diagonal is
+        ignored (couplings inside an equivalent group do not show).
+    n_protons : array_like of int, shape (n_sites,)
+        Protons per site; each site is a magnetically equivalent group.
+    field_mhz : float
+        1H spectrometer frequency, 40-1200 MHz.
+    max_cluster_spins : int, optional
+        Most protons simulated together exactly (1-14, default 12).
+    cluster_ratio : float, optional
+        Couplings with ``|J| <= cluster_ratio * |delta nu|`` join no cluster
+        and are applied first order; the error this makes in line positions
+        and intensities is of the order of the ratio (default 0.05).
+
+    Returns
+    -------
+    LineList
+        Lines in ppm; intensities sum to ``sum(n_protons)``; ``warnings``
+        names any strong coupling cut because of ``max_cluster_spins``.
+
+    Raises
+    ------
+    InputError
+        Non-symmetric or non-finite couplings, bad shifts, proton counts,
+        field or options.
+    """
+    field = _check_field(field_mhz)
+    shifts, j, n = _check_arrays(shifts_ppm, j_hz, n_protons)
+    max_spins, ratio = _check_options(max_cluster_spins, cluster_ratio)
+    nu = shifts * field
+    plan = _plan(nu, j, n, max_spins, ratio)
+    total = float(n.sum())
+    min_intensity = 1e-3 * _DROP_FRACTION * total
+    parts = [_simulate_cluster(c, nu, j, n, min_intensity) for c in plan.clusters]
+    freq = np.concatenate([p[0] for p in parts])
+    inten = np.concatenate([p[1] for p in parts])
+    site = np.concatenate([p[2] for p in parts]).astype(int)
+    freq, inten, site = _merge_lines(freq, inten, site)
+    keep = _significant(inten, total)
+    freq, inten, site = freq[keep], inten[keep], site[keep]
+    inten = inten * (total / inten.sum())
+    order = np.argsort(-freq, kind="stable")
+    return LineList(ppm=freq[order] / field, intensity=inten[order], field_mhz=field,
+                    site_index=site[order], warnings=plan.warnings)
+
+
+def simulate_lines(system: SpinSystem, *, field_mhz: float, **options) -> LineList:
+    """Simulate the lines of a :class:`SpinSystem`.
+
+    Every site is simulated as one magnetically equivalent group, also when
+    ``magnetically_equivalent`` is False: a site carries one coupling to each
+    other site, so its protons couple identically by construction.
+
+    Parameters
+    ----------
+    system : SpinSystem
+    field_mhz : float
+        1H spectrometer frequency, 40-1200 MHz.
+    **options
+        ``max_cluster_spins`` and ``cluster_ratio`` of :func:`simulate_arrays`.
+
+    Returns
+    -------
+    LineList
+    """
+    if not isinstance(system, SpinSystem):
+        raise InputError(f"system: expected a SpinSystem, got {type(system).__name__}")
+    unknown = set(options) - {"max_cluster_spins", "cluster_ratio"}
+    if unknown:
+        raise InputError(
+            f"options: unknown {sorted(unknown)}; allowed: max_cluster_spins, cluster_ratio"
+        )
+    if not system.sites:
+        raise InputError("system: the spin system has no proton sites")
+    return simulate_arrays(system.shifts_ppm, system.j_hz, system.n_protons, field_mhz=field_mhz, **options)
+
+
+# ---------------------------------------------------------------------------
+# line shapes
+
+
+def _check_grid(ppm) -> np.ndarray:
+    grid = np.asarray(ppm, dtype=float)
+    if grid.ndim != 1 or grid.size < 2:
+        raise InputError(f"ppm: expected a 1-D grid of at least two points, got shape {grid.shape}")
+    if not np.all(np.isfinite(grid)):
+        raise InputError("ppm: grid contains NaN or infinite values")
+    step = np.diff(grid)
+    if not (np.all(step > 0) or np.all(step < 0)):
+        raise InputError("ppm: grid must be strictly increasing or strictly decreasing")
+    return grid
+
+
+def _gaussian_share(shape: str, gaussian_fraction) -> float:
+    if shape not in LINE_SHAPES:
+        raise InputError(f"shape: unknown line shape {shape!r}; allowed: {', '.join(LINE_SHAPES)}")
+    try:
+        eta = float(gaussian_fraction)
+    except (TypeError, ValueError):
+        raise InputError(f"gaussian_fraction: expected a number, got {gaussian_fraction!r}") from None
+    if not math.isfinite(eta) or not 0.0 <= eta <= 1.0:
+        raise InputError(f"gaussian_fraction: expected a number from 0 to 1, got {gaussian_fraction!r}")
+    if shape != "voigt" and eta != 0.0:
+        raise InputError(f"gaussian_fraction: {eta!r} needs shape='voigt' (got shape={shape!r})")
+    return {"lorentzian": 0.0, "gaussian": 1.0}.get(shape, eta)
+
+
+def _bin_edges(grid: np.ndarray) -> np.ndarray:
+    mid = 0.5 * (grid[1:] + grid[:-1])
+    return np.concatenate(([grid[0] - (mid[0] - grid[0])], mid, [grid[-1] + (grid[-1] - mid[-1])]))
+
+
+def _profile_matrix(centres, edges, width_ppm, eta):
+    """Mean of each unit-area line over each bin, shape (n_lines, n_points)."""
+    x = edges[None, :] - centres[:, None]
+    cdf = np.zeros_like(x)
+    if eta < 1.0:
+        cdf += (1.0 - eta) * np.arctan(x / (0.5 * width_ppm)) / np.pi
+    if eta > 0.0:
+        sigma = width_ppm / (2.0 * math.sqrt(2.0 * math.log(2.0)))
+        cdf += eta * 0.5 * erf(x / (sigma * math.sqrt(2.0)))
+    return np.abs(np.diff(cdf, axis=1)) / np.abs(np.diff(edges))[None, :]
+
+
+def render_sites(lines: LineList, ppm, *, n_sites: int, line_width_hz: float, shape: str = "lorentzian",
+                 gaussian_fraction: float = 0.0) -> np.ndarray:
+    """Draw the lines of each site on a ppm grid.
+
+    Each point holds the mean of the line shape over the point's bin (half
+    way to its neighbours), so ``sum(row) * |d ppm|`` equals the area of the
+    lines inside the grid exactly, also on grids coarse compared with the
+    line width.
+
+    Parameters
+    ----------
+    lines : LineList
+    ppm : array_like, shape (n_points,)
+        Strictly increasing or decreasing grid.
+    n_sites : int
+        Number of sites; every ``lines.site_index`` must be below it.
+    line_width_hz : float
+        Full width at half height, > 0.
+    shape : {"lorentzian", "gaussian", "voigt"}
+        ``"voigt"`` is the pseudo-Voigt sum ``(1-f) L + f G`` with the same
+        width, ``f = gaussian_fraction``.
+    gaussian_fraction : float
+        Only with ``shape="voigt"``; 0-1.
+
+    Returns
+    -------
+    ndarray, shape (n_sites, n_points)
+    """
+    if not isinstance(lines, LineList):
+        raise InputError(f"lines: expected a LineList, got {type(lines).__name__}")
+    grid = _check_grid(ppm)
+    eta = _gaussian_share(shape, gaussian_fraction)
+    try:
+        width = float(line_width_hz)
+    except (TypeError, ValueError):
+        raise InputError(f"line_width_hz: expected a number, got {line_width_hz!r}") from None
+    if not math.isfinite(width) or width <= 0:
+        raise InputError(f"line_width_hz: expected a finite number > 0, got {line_width_hz!r}")
+    if isinstance(n_sites, bool) or not isinstance(n_sites, (int, np.integer)) or n_sites < 1:
+        raise InputError(f"n_sites: expected a whole number >= 1, got {n_sites!r}")
+    if lines.site_index.size and (lines.site_index.min() < 0 or lines.site_index.max() >= n_sites):
+        raise InputError(f"n_sites: {n_sites} is too small for site_index up to {lines.site_index.max()}")
+    width_ppm = width / lines.field_mhz
+    centres, inten, site = _pool_lines(lines, _POOL_STEP * width_ppm)
+    edges = _bin_edges(grid)
+    out = np.zeros((int(n_sites), grid.size))
+    chunk = max(1, 2_000_000 // grid.size)
+    for start in range(0, centres.size, chunk):
+        sl = slice(start, start + chunk)
+        prof = _profile_matrix(centres[sl], edges, width_ppm, eta)
+        weights = np.zeros((int(n_sites), prof.shape[0]))
+        weights[site[sl], np.arange(prof.shape[0])] = inten[sl]
+        out += weights @ prof
+    return out
+
+
+def _pool_lines(lines: LineList, step_ppm: float):
+    """Replace the lines of a site that fall within ``step_ppm`` of each other by their centroid.
+
+    With the step a small fraction of the line width the drawn shape changes
+    only in second order (relative error ~ step^2 / width^2), while spectra of
+    large strongly coupled clusters (1e4-1e5 lines) draw many times faster.
+    """
+    if lines.ppm.size < 2:
+        return lines.ppm, lines.intensity, lines.site_index
+    cell = np.floor((lines.ppm - lines.ppm.min()) / step_ppm).astype(np.int64)
+    key = lines.site_index.astype(np.int64) * (int(cell.max()) + 1) + cell
+    uniq, inverse = np.unique(key, return_inverse=True)
+    total = np.bincount(inverse, weights=lines.intensity)
+    moment = np.bincount(inverse, weights=lines.intensity * lines.ppm)
+    first = np.zeros(len(uniq), dtype=int)
+    first[inverse[::-1]] = np.arange(len(inverse))[::-1]
+    centre = np.where(total > 0, moment / np.where(total > 0, total, 1.0), lines.ppm[first])
+    return centre, total, lines.site_index[first]
+
+
+def render_lines(lines: LineList, ppm, *, line_width_hz: float, shape: str = "lorentzian",
+                 gaussian_fraction: float = 0.0) -> np.ndarray:
+    """Draw lines on a ppm grid; see :func:`render_sites` for the parameters.
+
+    Returns
+    -------
+    ndarray, shape (n_points,)
+        Sum over all sites; ``sum * |d ppm|`` equals the sum of the line
+        intensities for lines well inside the grid.
+    """
+    if not isinstance(lines, LineList):
+        raise InputError(f"lines: expected a LineList, got {type(lines).__name__}")
+    n_sites = int(lines.site_index.max()) + 1 if lines.site_index.size else 1
+    return render_sites(lines, ppm, n_sites=max(n_sites, 1), line_width_hz=line_width_hz, shape=shape,
+                        gaussian_fraction=gaussian_fraction).sum(axis=0)
+
+
+def model_spectrum(system: SpinSystem, ppm, *, field_mhz: float, line_width_hz: float,
+                   shape: str = "lorentzian") -> np.ndarray:
+    """Simulate a spin system and draw it on a ppm grid.
+
+    Returns
+    -------
+    ndarray, shape (n_points,)
+        Integrates (``sum * |d ppm|``) to the number of protons when every
+        line lies well inside the grid.
+    """
+    lines = simulate_lines(system, field_mhz=field_mhz)
+    return render_lines(lines, ppm, line_width_hz=line_width_hz, shape=shape)

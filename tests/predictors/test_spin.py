@@ -1,0 +1,331 @@
+"""Tests of the spin-system simulator and line-shape rendering (predictors.spin)."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+from predictors.core import LineList, ProtonSite, SpinSystem
+from predictors.errors import InputError
+from predictors.spin import (
+    model_spectrum,
+    plan_clusters,
+    render_lines,
+    render_sites,
+    simulate_arrays,
+    simulate_lines,
+)
+
+# ---------------------------------------------------------------------------
+# slow, obviously correct reference: every proton a spin 1/2, full 2^n space
+
+
+def _reference_lines(shifts_ppm, j_hz, n_protons, field_mhz):
+    """Lines (Hz, intensity) from the full Kronecker-product Hamiltonian."""
+    site = np.repeat(np.arange(len(n_protons)), n_protons)
+    nu = np.asarray(shifts_ppm, float)[site] * field_mhz
+    n = len(nu)
+    sx = np.array([[0, 0.5], [0.5, 0]], dtype=complex)
+    sy = np.array([[0, -0.5j], [0.5j, 0]], dtype=complex)
+    sz = np.array([[0.5, 0], [0, -0.5]], dtype=complex)
+
+    def op(single, i):
+        out = np.array([[1.0 + 0j]])
+        for k in range(n):
+            out = np.kron(out, single if k == i else np.eye(2))
+        return out
+
+    ix, iy, iz = [op(sx, i) for i in range(n)], [op(sy, i) for i in range(n)], [op(sz, i) for i in range(n)]
+    ham = sum(nu[i] * iz[i] for i in range(n))
+    for a in range(n):
+        for b in range(a + 1, n):
+            coupling = j_hz[site[a]][site[b]] if site[a] != site[b] else 0.0
+            ham = ham + coupling * (ix[a] @ ix[b] + iy[a] @ iy[b] + iz[a] @ iz[b])
+    energy, vec = np.linalg.eigh(ham)
+    f_minus = sum(ix[i] - 1j * iy[i] for i in range(n))
+    amp = vec.conj().T @ f_minus @ vec
+    inten = np.abs(amp) ** 2 / 2 ** (n - 1)
+    lo, up = np.nonzero(inten > 1e-12)
+    return energy[up] - energy[lo], inten[lo, up]
+
+
+def _render_hz(freq_hz, inten, ppm, field_mhz, width_hz):
+    lines = LineList(ppm=np.asarray(freq_hz) / field_mhz, intensity=inten, field_mhz=field_mhz,
+                     site_index=np.zeros(len(inten), int))
+    return render_lines(lines, ppm, line_width_hz=width_hz)
+
+
+def _random_system(rng, n_protons, *, spread_ppm, j_max_hz):
+    n_sites = len(n_protons)
+    shifts = rng.uniform(1.0, 1.0 + spread_ppm, n_sites)
+    j = rng.uniform(-j_max_hz, j_max_hz, (n_sites, n_sites))
+    j = np.triu(j, 1)
+    return shifts, j + j.T, np.asarray(n_protons)
+
+
+def _relative_difference(a, b):
+    return float(np.max(np.abs(a - b)) / np.max(np.abs(b)))
+
+
+# ---------------------------------------------------------------------------
+# closed forms and limits
+
+
+@pytest.mark.parametrize(("dnu_hz", "j_hz"), [(20.0, 10.0), (5.0, 12.0), (30.0, -7.5), (0.8, 15.0)])
+def test_ab_quartet_matches_closed_form(dnu_hz, j_hz):
+    # Closed-form AB quartet, references.md section 7 (any NMR textbook): lines at
+    # centre +-(D/2 +- J/2), D = sqrt(dnu^2 + J^2), inner/outer intensity (D+J)/(D-J).
+    field = 100.0
+    centre_hz = 250.0
+    shifts = [(centre_hz - dnu_hz / 2) / field, (centre_hz + dnu_hz / 2) / field]
+    lines = simulate_arrays(shifts, [[0, j_hz], [j_hz, 0]], [1, 1], field_mhz=field)
+    d = math.hypot(dnu_hz, j_hz)
+    jj = abs(j_hz)
+    expected = np.sort([centre_hz + s * (d / 2) + t * jj / 2 for s in (-1, 1) for t in (-1, 1)])
+    got = np.sort(lines.ppm * field)
+    assert got.shape == (4,)
+    np.testing.assert_allclose(got, expected, atol=1e-6)
+    inten = lines.intensity[np.argsort(lines.ppm)]
+    ratio = (d + jj) / (d - jj)
+    assert inten[1] / inten[0] == pytest.approx(ratio, rel=1e-6)
+    assert inten[2] / inten[3] == pytest.approx(ratio, rel=1e-6)
+    assert inten.sum() == pytest.approx(2.0, abs=1e-9)
+
+
+@pytest.mark.parametrize("n_h", [1, 2, 3, 6, 9])
+def test_equivalent_group_gives_one_line(n_h):
+    lines = simulate_arrays([2.5], [[0.0]], [n_h], field_mhz=60)
+    assert lines.ppm.shape == (1,)
+    assert lines.ppm[0] == pytest.approx(2.5, abs=1e-12)
+    assert lines.intensity[0] == pytest.approx(n_h)
+
+
+def test_a2_as_two_sites_with_equal_shift_gives_one_line():
+    # A2: two protons of equal shift show no splitting whatever their coupling.
+    lines = simulate_arrays([3.1, 3.1], [[0, 12.0], [12.0, 0]], [1, 1], field_mhz=80)
+    assert lines.ppm.size == 1
+    assert lines.ppm[0] == pytest.approx(3.1, abs=1e-9)
+    assert lines.intensity.sum() == pytest.approx(2.0)
+
+
+def test_ax_limit_gives_first_order_doublets():
+    field, j = 1200.0, 7.0
+    lines = simulate_arrays([1.0, 9.0], [[0, j], [j, 0]], [1, 1], field_mhz=field,
+                            cluster_ratio=1e-9)  # simulate exactly, no cut
+    hz = np.sort(lines.ppm * field)
+    # second-order shift is J^2 / (2 dnu) = 0.0026 Hz at dnu = 9600 Hz
+    np.testing.assert_allclose(hz, [1200 - 3.5, 1200 + 3.5, 10800 - 3.5, 10800 + 3.5], atol=5e-3)
+    np.testing.assert_allclose(lines.intensity, 0.5, atol=2e-3)
+
+
+def test_a3x_first_order_multiplicities():
+    # CH3-CH with a large shift difference: CH3 doublet 1:1, CH quartet 1:3:3:1.
+    field, j = 400.0, 7.0
+    lines = simulate_arrays([1.2, 4.2], [[0, j], [j, 0]], [3, 1], field_mhz=field)
+    ch3 = np.sort(lines.ppm[lines.site_index == 0] * field)
+    ch = lines.ppm[lines.site_index == 1] * field
+    np.testing.assert_allclose(ch3, [480 - 3.5, 480 + 3.5], atol=1e-9)
+    order = np.argsort(ch)
+    np.testing.assert_allclose(ch[order], 1680 + j * np.array([-1.5, -0.5, 0.5, 1.5]), atol=1e-9)
+    np.testing.assert_allclose(lines.intensity[lines.site_index == 1][order], [0.125, 0.375, 0.375, 0.125])
+    np.testing.assert_allclose(lines.intensity[lines.site_index == 0], 1.5)
+
+
+def test_abx_ab_part_in_x_limit_is_two_ab_quartets():
+    # ABX with X far away (Pople, Schneider & Bernstein 1959, ABX analysis; from memory): the AB part
+    # is two AB quartets with effective shifts nu_A +- J_AX/2, nu_B +- J_BX/2 (one per X spin state).
+    field = 100.0
+    nu_a, nu_b, j_ab, j_ax, j_bx = 200.0, 215.0, 12.0, 7.0, 2.0
+    shifts = [nu_a / field, nu_b / field, 11.0]
+    j = np.array([[0, j_ab, j_ax], [j_ab, 0, j_bx], [j_ax, j_bx, 0]])
+    lines = simulate_arrays(shifts, j, [1, 1, 1], field_mhz=field)
+    expected = []
+    for m_x in (0.5, -0.5):
+        a, b = nu_a + m_x * j_ax, nu_b + m_x * j_bx
+        d = math.hypot(b - a, j_ab)
+        c = (a + b) / 2
+        expected += [c + s * d / 2 + t * j_ab / 2 for s in (-1, 1) for t in (-1, 1)]
+    ab = np.sort(lines.ppm[lines.site_index < 2] * field)
+    np.testing.assert_allclose(ab, np.sort(expected), atol=1e-6)
+    assert lines.intensity[lines.site_index < 2].sum() == pytest.approx(2.0)
+
+
+# ---------------------------------------------------------------------------
+# invariances and totals
+
+
+def test_total_intensity_equals_number_of_protons():
+    rng = np.random.default_rng(3)
+    for counts in ([1, 2, 3], [3, 2, 2, 1, 1], [1] * 7, [9, 1, 2]):
+        shifts, j, n = _random_system(rng, counts, spread_ppm=0.5, j_max_hz=12)
+        for field in (40.0, 60.0, 600.0, 1200.0):
+            lines = simulate_arrays(shifts, j, n, field_mhz=field)
+            assert lines.intensity.sum() == pytest.approx(sum(counts), rel=1e-9)
+            per_site = np.bincount(lines.site_index, weights=lines.intensity, minlength=len(counts))
+            assert per_site.sum() == pytest.approx(sum(counts))
+
+
+def test_sign_flip_of_all_couplings_leaves_spectrum_unchanged():
+    rng = np.random.default_rng(5)
+    shifts, j, n = _random_system(rng, [1, 2, 1, 3, 1], spread_ppm=0.3, j_max_hz=15)
+    ppm = np.linspace(0.5, 1.8, 3000)
+    a = render_lines(simulate_arrays(shifts, j, n, field_mhz=60), ppm, line_width_hz=0.5)
+    b = render_lines(simulate_arrays(shifts, -j, n, field_mhz=60), ppm, line_width_hz=0.5)
+    assert _relative_difference(b, a) < 1e-9
+
+
+def test_reordering_sites_leaves_spectrum_unchanged():
+    rng = np.random.default_rng(7)
+    shifts, j, n = _random_system(rng, [1, 2, 1, 3, 1, 2], spread_ppm=0.4, j_max_hz=15)
+    perm = rng.permutation(len(n))
+    ppm = np.linspace(0.5, 1.9, 3000)
+    lines_a = simulate_arrays(shifts, j, n, field_mhz=80)
+    lines_b = simulate_arrays(shifts[perm], j[np.ix_(perm, perm)], n[perm], field_mhz=80)
+    assert _relative_difference(render_lines(lines_b, ppm, line_width_hz=0.5),
+                                render_lines(lines_a, ppm, line_width_hz=0.5)) < 1e-9
+    # per-site areas follow the sites to their new places
+    area_a = np.bincount(lines_a.site_index, weights=lines_a.intensity)
+    area_b = np.bincount(lines_b.site_index, weights=lines_b.intensity)
+    np.testing.assert_allclose(area_b, area_a[perm], atol=1e-6)
+
+
+# ---------------------------------------------------------------------------
+# fast vs slow
+
+
+@pytest.mark.parametrize(("counts", "seed"), [([1, 1, 1, 1, 1, 1], 11), ([2, 1, 3, 2], 12),
+                                              ([1, 1, 1, 1, 1, 1, 1, 1], 13), ([3, 3, 1, 1], 14)])
+def test_fast_simulation_agrees_with_full_matrix(counts, seed):
+    rng = np.random.default_rng(seed)
+    shifts, j, n = _random_system(rng, counts, spread_ppm=0.25, j_max_hz=16)
+    field = 60.0
+    lines = simulate_arrays(shifts, j, n, field_mhz=field, cluster_ratio=1e-9)
+    ref_hz, ref_int = _reference_lines(shifts, j, n, field)
+    assert ref_int.sum() == pytest.approx(sum(counts))
+    ppm = np.linspace(0.6, 1.65, 6000)
+    fast = render_lines(lines, ppm, line_width_hz=0.3)
+    slow = _render_hz(ref_hz, ref_int, ppm, field, 0.3)
+    # lines below 1e-6 of the total are dropped by design
+    assert _relative_difference(fast, slow) < 1e-4
+    # strongest lines at the same places
+    strong = ref_int > 0.05
+    for f in ref_hz[strong]:
+        assert np.min(np.abs(lines.ppm * field - f)) < 1e-6
+
+
+# ---------------------------------------------------------------------------
+# rendering
+
+
+def test_render_area_and_grid_direction():
+    lines = simulate_arrays([1.0, 1.1, 3.0], [[0, 8, 0], [8, 0, 1], [0, 1, 0]], [3, 2, 1], field_mhz=60)
+    ppm_down = np.linspace(12.0, -2.0, 20001)
+    for shape, frac in (("lorentzian", 0.0), ("gaussian", 0.0), ("voigt", 0.4)):
+        y = render_lines(lines, ppm_down, line_width_hz=1.0, shape=shape, gaussian_fraction=frac)
+        area = y.sum() * abs(ppm_down[1] - ppm_down[0])
+        assert area == pytest.approx(6.0, rel=2e-3)
+        y_up = render_lines(lines, ppm_down[::-1], line_width_hz=1.0, shape=shape, gaussian_fraction=frac)
+        np.testing.assert_allclose(y_up[::-1], y, rtol=1e-9, atol=1e-12)
+
+
+def test_render_area_exact_on_coarse_grid():
+    # Points hold bin means, so even a grid coarser than the line keeps the area.
+    lines = LineList(ppm=[2.0], intensity=[3.0], field_mhz=400.0, site_index=[0])
+    ppm = np.linspace(-8.0, 12.0, 101)  # 0.2 ppm = 80 Hz per point, line 1 Hz wide
+    y = render_lines(lines, ppm, line_width_hz=1.0, shape="gaussian")
+    assert y.sum() * 0.2 == pytest.approx(3.0, rel=1e-12)
+
+
+def test_lorentzian_peak_height_and_half_width():
+    field, width = 100.0, 2.0
+    lines = LineList(ppm=[1.0], intensity=[1.0], field_mhz=field, site_index=[0])
+    ppm = np.linspace(0.9, 1.1, 20001)
+    y = render_lines(lines, ppm, line_width_hz=width)
+    gamma_ppm = width / field / 2
+    assert y.max() == pytest.approx(1 / (math.pi * gamma_ppm), rel=1e-4)
+    above = ppm[y >= y.max() / 2]
+    assert (above.max() - above.min()) * field == pytest.approx(width, abs=2e-3)
+
+
+def test_render_sites_splits_by_site():
+    shifts, j, n = np.array([1.0, 1.3, 5.5]), np.array([[0, 7, 0], [7, 0, 1.5], [0, 1.5, 0]]), [3, 2, 1]
+    lines = simulate_arrays(shifts, j, n, field_mhz=60)
+    ppm = np.linspace(8.0, -1.0, 9001)
+    per_site = render_sites(lines, ppm, n_sites=3, line_width_hz=1.0)
+    assert per_site.shape == (3, ppm.size)
+    np.testing.assert_allclose(per_site.sum(axis=0), render_lines(lines, ppm, line_width_hz=1.0), atol=1e-10)
+    areas = per_site.sum(axis=1) * 0.001
+    np.testing.assert_allclose(areas, [3, 2, 1], rtol=0.02)
+
+
+def test_model_spectrum_of_spin_system_integrates_to_proton_count():
+    # ethanol-like system: CH3 (atoms 3-5), CH2 (6, 7), OH (8) of AddHs("CCO")
+    sites = (ProtonSite((3, 4, 5), 1.22, 0.05, "CH3"), ProtonSite((6, 7), 3.69, 0.05, "CH2"),
+             ProtonSite((8,), 2.6, 0.3, "OH", exchangeable=True))
+    j = np.array([[0, 7.0, 0], [7.0, 0, 0], [0, 0, 0]])
+    system = SpinSystem("CCO", sites, j)
+    ppm = np.linspace(10.0, -2.0, 24001)
+    y = model_spectrum(system, ppm, field_mhz=60.0, line_width_hz=1.0)
+    assert y.sum() * 0.0005 == pytest.approx(6.0, rel=3e-3)
+    lines = simulate_lines(system, field_mhz=60.0)
+    assert lines.intensity.sum() == pytest.approx(6.0)
+    assert set(lines.site_index.tolist()) == {0, 1, 2}
+
+
+# ---------------------------------------------------------------------------
+# bad input
+
+
+@pytest.mark.parametrize(
+    ("kwargs", "fragment"),
+    [
+        ({"j_hz": [[0, 7.0], [6.0, 0]]}, "symmetric"),
+        ({"j_hz": [[0, float("nan")], [float("nan"), 0]]}, "NaN"),
+        ({"shifts_ppm": [1.0, float("nan")]}, "shifts_ppm"),
+        ({"field_mhz": -60.0}, "field_mhz"),
+        ({"field_mhz": 0.0}, "field_mhz"),
+        ({"field_mhz": 30.0}, "30"),
+        ({"field_mhz": 1500.0}, "1500"),
+        ({"n_protons": [1, 0]}, "n_protons"),
+        ({"n_protons": [1, 1.5]}, "n_protons"),
+        ({"j_hz": [[0, 1, 2], [1, 0, 3], [2, 3, 0]]}, "shape"),
+        ({"max_cluster_spins": 40}, "max_cluster_spins"),
+        ({"cluster_ratio": -1.0}, "cluster_ratio"),
+    ],
+)
+def test_bad_input_raises_input_error(kwargs, fragment):
+    args = {"shifts_ppm": [1.0, 2.0], "j_hz": [[0, 7.0], [7.0, 0]], "n_protons": [1, 1], "field_mhz": 60.0}
+    args.update(kwargs)
+    with pytest.raises(InputError, match=fragment):
+        simulate_arrays(args.pop("shifts_ppm"), args.pop("j_hz"), args.pop("n_protons"), **args)
+
+
+def test_bad_render_input_raises_input_error():
+    lines = LineList(ppm=[1.0], intensity=[1.0], field_mhz=60.0, site_index=[0])
+    with pytest.raises(InputError, match="shape"):
+        render_lines(lines, [0.0, 1.0, 2.0], line_width_hz=1.0, shape="triangle")
+    with pytest.raises(InputError, match="line_width_hz"):
+        render_lines(lines, [0.0, 1.0, 2.0], line_width_hz=0.0)
+    with pytest.raises(InputError, match="ppm"):
+        render_lines(lines, [0.0, 1.0, 0.5], line_width_hz=1.0)
+    with pytest.raises(InputError, match="gaussian_fraction"):
+        render_lines(lines, [0.0, 1.0], line_width_hz=1.0, shape="voigt", gaussian_fraction=1.5)
+    with pytest.raises(InputError, match="n_sites"):
+        render_sites(lines, [0.0, 1.0], n_sites=0, line_width_hz=1.0)
+    with pytest.raises(InputError, match="options"):
+        simulate_lines(SpinSystem("C", (ProtonSite((1, 2, 3, 4), 0.2, 0.1),), [[0.0]]), field_mhz=60,
+                       colour="red")
+
+
+def test_plan_clusters_keeps_weak_couplings_apart():
+    # two strongly coupled pairs joined by a 1 Hz coupling over 300 Hz
+    shifts = [1.00, 1.05, 6.00, 6.10]
+    j = np.zeros((4, 4))
+    j[0, 1] = j[1, 0] = 7.0
+    j[2, 3] = j[3, 2] = 15.0
+    j[1, 2] = j[2, 1] = 1.0
+    plan = plan_clusters(shifts, j, [3, 2, 1, 1], field_mhz=60)
+    assert sorted(plan.clusters) == [(0, 1), (2, 3)]
+    assert plan.cut_strong == () and plan.warnings == ()
