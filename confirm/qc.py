@@ -346,9 +346,7 @@ def _identity_check(result, product_fit, spec: QcSpec) -> LimitCheck:
     value, sd = product_fit.mole_fraction, product_fit.mole_fraction_sd
     common = {"measured": 100 * value, "measured_sd": 100 * sd, "unit": "%", "name": "identity",
               "limit_text": limit}
-    if product_fit.detected and verdict.major == spec.product and verdict.confidence in _CONFIDENT:
-        reason = f"detected; verdict confidence {verdict.confidence}"
-        return LimitCheck(status="PASS", reason=reason, **common)
+    unexplained = tuple(getattr(result.fit, "unexplained_ppm", ()))
     if not product_fit.detected and value + Z_95 * sd < 0.5 and product_fit.detection_limit < 0.5:
         reason = ("expected product not detected (detection limit "
                   f"{100 * product_fit.detection_limit:.1f} %): it cannot be the major component")
@@ -356,47 +354,79 @@ def _identity_check(result, product_fit, spec: QcSpec) -> LimitCheck:
     if verdict.major not in (None, spec.product) and verdict.confidence in _CONFIDENT:
         return LimitCheck(status="FAIL", reason=f"another component ({verdict.major}) is the major "
                           f"product with {verdict.confidence} confidence", **common)
+    if unexplained:
+        where = ", ".join(f"{ppm:.2f}" for ppm in unexplained[:6])
+        return LimitCheck(status="INCONCLUSIVE", reason=f"{len(unexplained)} signal(s) above the noise "
+                          f"that no candidate explains (at {where} ppm)", **common)
+    if product_fit.detected and verdict.major == spec.product and verdict.confidence in _CONFIDENT:
+        reason = f"detected; verdict confidence {verdict.confidence}"
+        return LimitCheck(status="PASS", reason=reason, **common)
     why = "not detected" if not product_fit.detected else f"verdict confidence {verdict.confidence}"
     return LimitCheck(status="INCONCLUSIVE", reason=f"identity not established ({why})", **common)
 
 
-def _isomer_fits(result, spec: QcSpec, product_fit):
+def _isomer_indices(result, spec: QcSpec, product_index: int) -> list[int]:
     formula = _formula(spec.product)
     sm = spec.starting_material_smiles
-    return [c for c in result.fit.components
-            if c is not product_fit and c.candidate.smiles != sm
+    return [k for k, c in enumerate(result.fit.components)
+            if k != product_index and c.candidate.smiles != sm
             and "starting material" not in c.candidate.pathways and _formula(c.candidate.smiles) == formula]
 
 
-def _purity_check(product_fit, isomers, limit: float) -> LimitCheck:
+def _sd_of(fit, gradient: Mapping[int, float]) -> float:
+    """Standard deviation of a function of the fractions from its gradient (first order).
+
+    Uses the fit's covariance of the fractions when it has one, else the
+    individual standard deviations as independent.
+    """
+    cov = getattr(fit, "fraction_covariance", None)
+    idx = list(gradient)
+    g = [gradient[k] for k in idx]
+    if cov is not None:
+        sub = [[float(cov[i][j]) for j in idx] for i in idx]
+        var = sum(g[a] * sub[a][b] * g[b] for a in range(len(idx)) for b in range(len(idx)))
+    else:
+        var = sum((g[a] * fit.components[k].mole_fraction_sd) ** 2 for a, k in enumerate(idx))
+    return math.sqrt(max(var, 0.0))
+
+
+def _share_gradient(fit, k: int, group: list[int]) -> tuple[float, dict[int, float]]:
+    """Share x_k / sum(x_group) and its gradient with respect to the fractions of the group."""
+    total = sum(fit.components[j].mole_fraction for j in group)
+    x_k = fit.components[k].mole_fraction
+    grad = {j: ((total - x_k) if j == k else -x_k) / total**2 for j in group}
+    return x_k / total, grad
+
+
+def _purity_check(fit, product_index: int, isomers: list[int], limit: float) -> LimitCheck:
     name, text = "isomeric purity", f">= {limit:g} %"
-    x_p, sd_p = product_fit.mole_fraction, product_fit.mole_fraction_sd
-    total = x_p + sum(c.mole_fraction for c in isomers)
-    if total <= 0:
+    group = [product_index, *isomers]
+    if sum(fit.components[j].mole_fraction for j in group) <= 0:
         return _not_measured(name, text, "no product or isomer was fitted")
-    purity = x_p / total
-    var = ((total - x_p) / total**2 * sd_p) ** 2 + sum((x_p / total**2 * c.mole_fraction_sd) ** 2
-                                                       for c in isomers)
-    sd = math.sqrt(var)
-    worst = x_p / (x_p + sum(max(c.mole_fraction, 0.0 if c.detected else c.detection_limit)
-                             for c in isomers)) if x_p > 0 else 0.0
+    purity, grad = _share_gradient(fit, product_index, group)
+    sd = _sd_of(fit, grad)
+    x_p = fit.components[product_index].mole_fraction
+    hidden = sum(max(fit.components[j].mole_fraction, 0.0 if fit.components[j].detected
+                     else fit.components[j].detection_limit) for j in isomers)
+    worst = x_p / (x_p + hidden) if x_p > 0 else 0.0
     return _percent_check(name, text, purity, sd, min(purity - Z_95 * sd, worst), purity + Z_95 * sd,
                           minimum=limit)
 
 
-def _other_isomer_checks(product_fit, isomers, limit: float) -> list[LimitCheck]:
+def _other_isomer_checks(fit, product_index: int, isomers: list[int], limit: float) -> list[LimitCheck]:
     text = f"<= {limit:g} %"
     if not isomers:
         return [_not_measured("any other isomer", text, "no other isomer among the candidates; "
                               "list them in the specification")]
-    total = product_fit.mole_fraction + sum(c.mole_fraction for c in isomers)
+    group = [product_index, *isomers]
+    total = sum(fit.components[j].mole_fraction for j in group)
     if total <= 0:
         return [_not_measured("any other isomer", text, "no product or isomer was fitted")]
     checks = []
-    for comp in isomers:
-        share = comp.mole_fraction / total
-        sd = math.sqrt(sum(((total - comp.mole_fraction if c is comp else -comp.mole_fraction)
-                            / total**2 * c.mole_fraction_sd) ** 2 for c in [product_fit, *isomers]))
+    for k in isomers:
+        comp = fit.components[k]
+        share, grad = _share_gradient(fit, k, group)
+        sd = _sd_of(fit, grad)
         high = max(share + Z_95 * sd, _upper(comp, total))
         label = comp.candidate.label or comp.candidate.smiles
         checks.append(_percent_check(f"other isomer: {label}", text, share, sd, share - Z_95 * sd, high,
@@ -407,13 +437,14 @@ def _other_isomer_checks(product_fit, isomers, limit: float) -> list[LimitCheck]
 def _starting_material_check(result, spec: QcSpec, limit: float) -> LimitCheck:
     name, text = "starting material", f"<= {limit:g} %"
     sm = spec.starting_material_smiles
-    fits = [c for c in result.fit.components
-            if (sm and c.candidate.smiles == sm) or "starting material" in c.candidate.pathways]
-    if not fits:
+    fit = result.fit
+    indices = [k for k, c in enumerate(fit.components)
+               if (sm and c.candidate.smiles == sm) or "starting material" in c.candidate.pathways]
+    if not indices:
         return _not_measured(name, text, "the starting material was not among the fitted candidates")
-    value = sum(c.mole_fraction for c in fits)
-    sd = math.sqrt(sum(c.mole_fraction_sd ** 2 for c in fits))
-    high = max(value + Z_95 * sd, max(_upper(c) for c in fits))
+    value = sum(fit.components[k].mole_fraction for k in indices)
+    sd = _sd_of(fit, dict.fromkeys(indices, 1.0))
+    high = max(value + Z_95 * sd, max(_upper(fit.components[k]) for k in indices))
     return _percent_check(name, text, value, sd, value - Z_95 * sd, high, maximum=limit)
 
 
@@ -442,17 +473,19 @@ def evaluate_qc(result, spec: QcSpec) -> QcResult:
     InputError
         When the expected product is not among the fitted components.
     """
-    product_fit = next((c for c in result.fit.components if c.candidate.smiles == spec.product), None)
-    if product_fit is None:
+    fit = result.fit
+    smiles = [c.candidate.smiles for c in fit.components]
+    product_index = smiles.index(spec.product) if spec.product in smiles else None
+    if product_index is None:
         raise InputError(f"spec product: {spec.product!r} is not among the fitted candidates; "
                          "list it under candidates or check the reaction")
-    isomers = _isomer_fits(result, spec, product_fit)
+    isomers = _isomer_indices(result, spec, product_index)
     limits = spec.limits
-    checks = [_identity_check(result, product_fit, spec)]
+    checks = [_identity_check(result, fit.components[product_index], spec)]
     if limits.min_isomeric_purity_percent is not None:
-        checks.append(_purity_check(product_fit, isomers, limits.min_isomeric_purity_percent))
+        checks.append(_purity_check(fit, product_index, isomers, limits.min_isomeric_purity_percent))
     if limits.max_other_isomer_percent is not None:
-        checks.extend(_other_isomer_checks(product_fit, isomers, limits.max_other_isomer_percent))
+        checks.extend(_other_isomer_checks(fit, product_index, isomers, limits.max_other_isomer_percent))
     if limits.max_starting_material_percent is not None:
         checks.append(_starting_material_check(result, spec, limits.max_starting_material_percent))
     if limits.min_snr is not None:

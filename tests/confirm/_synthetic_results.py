@@ -25,6 +25,7 @@ from predictors.core import (
     Verdict,
     canonical_smiles,
 )
+from predictors.spin import model_spectrum
 
 E_PENTENE = canonical_smiles("C/C=C/CC")
 Z_PENTENE = canonical_smiles("C/C=C\\CC")
@@ -79,31 +80,10 @@ def spin_system_of(smiles: str) -> SpinSystem:
     return SpinSystem(smiles=smiles, sites=tuple(made), j_hz=j)
 
 
-def _lorentz(ppm, centre, width_ppm):
-    half = width_ppm / 2
-    return half**2 / ((ppm - centre) ** 2 + half**2)
-
-
-def _component_curve(ppm, smiles, field_mhz, width_hz=1.2):
-    """First-order multiplets of the illustrative sites (good enough for plots)."""
-    sites, couplings = SITES[smiles]
-    curve = np.zeros_like(ppm)
-    for index, (shift, n_h) in enumerate(sites):
-        lines = [(shift, float(n_h))]
-        for a, b, j_hz in couplings:
-            if index in (a, b):
-                n_partner = sites[b if index == a else a][1]
-                for _ in range(n_partner):
-                    half = j_hz / field_mhz / 2
-                    lines = [(p + s * half, w / 2) for p, w in lines for s in (-1, 1)]
-        for pos, weight in lines:
-            curve += weight * _lorentz(ppm, pos, width_hz / field_mhz)
-    return curve
-
-
 def build_result(parts: list[Part], *, major: str | None, confidence: str = "high", snr: float = 400.0,
                  field_mhz: float = 400.0, summary: str | None = None, seed: int = 7,
-                 source: str = "synthetic.jdx", warnings: tuple[str, ...] = ()) -> AnalysisResult:
+                 source: str = "synthetic.jdx", warnings: tuple[str, ...] = (),
+                 covariance=None, unexplained_ppm: tuple[float, ...] = ()) -> AnalysisResult:
     """A complete AnalysisResult made by hand from the parts."""
     ppm = np.linspace(9.0, -0.5, 6000)
     model = np.zeros_like(ppm)
@@ -122,12 +102,13 @@ def build_result(parts: list[Part], *, major: str | None, confidence: str = "hig
             if detected else ()))
         candidates.append(candidate)
         systems.append(system)
-        model += part.fraction * _component_curve(ppm, smiles, field_mhz)
+        model += part.fraction * model_spectrum(system, ppm, field_mhz=field_mhz, line_width_hz=1.2)
     noise_sd = model.max() / snr if model.max() > 0 else 1e-3
     rng = np.random.default_rng(seed)
     measured = model + rng.normal(0.0, noise_sd, ppm.size)
     fit = MixtureFit(components=tuple(components), ppm=ppm, model=model, residual=measured - model,
-                     line_width_hz=1.2, quality={"snr": snr, "r_squared": 0.995, "noise_sd": noise_sd})
+                     line_width_hz=1.2, quality={"snr": snr, "r_squared": 0.995, "noise_sd": noise_sd},
+                     fraction_covariance=covariance, unexplained_ppm=unexplained_ppm)
     spectrum = Spectrum(ppm=ppm, intensity=measured, field_mhz=field_mhz, solvent="CDCl3",
                         metadata={"source": source})
     ratios = ()

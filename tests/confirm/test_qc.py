@@ -279,3 +279,26 @@ def test_cli_bad_input_exits_2(run_cli, tmp_path, fake_analysis):
     out = run_cli("qc", "--spec", spec_path, "--spectrum", tmp_path / "missing.jdx")
     assert out.exit_code == 2 and "Traceback" not in out.stderr
     assert out.stderr.count("\n") == 1
+
+
+def test_fraction_covariance_is_used_when_the_fit_has_one(spec):
+    sds = (0.004, 0.004, 0.001, 0.001)
+    plain = evaluate_qc(pentene_mixture(0.97, 0.03, 0.0, 0.0, sds=sds), spec)
+    # E and Z fractions fully anti-correlated (the fit trades one for the other)
+    cov = [[0.004**2, -0.004**2, 0, 0], [-0.004**2, 0.004**2, 0, 0], [0, 0, 1e-6, 0], [0, 0, 0, 1e-6]]
+    correlated = evaluate_qc(pentene_mixture(0.97, 0.03, 0.0, 0.0, sds=sds, covariance=cov), spec)
+    sd_plain = next(c.measured_sd for c in plain.checks if c.name == "isomeric purity")
+    sd_corr = next(c.measured_sd for c in correlated.checks if c.name == "isomeric purity")
+    # purity p = E/(E+Z+T) (pent-1-ene is an isomer too); gradient (Z+T, -E, -E)/S^2 with S = 1.
+    # Hand calculation: independent: sqrt((0.03*0.004)^2 + (0.97*0.004)^2 + (0.97*0.001)^2) = 0.40012 %;
+    # E/Z anti-correlated: sqrt(0.004^2 * (0.03 + 0.97)^2 + (0.97*0.001)^2) = 0.41158 %
+    assert sd_plain == pytest.approx(0.40012, abs=1e-4)
+    assert sd_corr == pytest.approx(0.41158, abs=1e-4)
+
+
+def test_unexplained_signals_block_a_pass(spec):
+    result = pentene_mixture(0.996, 0.0, 0.0, 0.0, sds=(0.002, 0.001, 0.001, 0.001), unexplained_ppm=(3.71,))
+    qc = evaluate_qc(result, spec)
+    identity = next(c for c in qc.checks if c.name == "identity")
+    assert identity.status == "INCONCLUSIVE" and "3.71" in identity.reason
+    assert qc.status == "INCONCLUSIVE"
