@@ -1,0 +1,387 @@
+"""Signed 1H-1H coupling constants (Hz), proton pair by proton pair.
+
+* across C=C: 3J cis/trans and 2J geminal falling linearly with the
+  electronegativity of the substituents; ring size sets cis 3J in small rings;
+* allylic 3J and 4J from the Garbisch dihedral relations;
+* sp3 vicinal 3J from the Haasnoot-de Leeuw-Altona equation, Boltzmann-averaged
+  over MMFF conformers (ETKDGv3 embedding, pruned);
+* sp3 geminal 2J by environment; aromatic ortho/meta/para.
+
+Model values live in ``data/couplings.csv`` with their sources.
+"""
+
+from __future__ import annotations
+
+import functools
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from rdkit import Chem
+from rdkit.Chem import AllChem
+
+from predictors.equivalence import AlkeneRelation
+from predictors.shifts import load_increment_table
+
+__all__ = [
+    "ConformerSet",
+    "embed_conformers",
+    "karplus_hla",
+    "garbisch_vicinal",
+    "garbisch_allylic",
+    "predict_couplings",
+]
+
+_RT_KCAL = 0.0019872 * 298.15
+
+
+@dataclass(frozen=True, eq=False)
+class ConformerSet:
+    """Conformers of one molecule with their Boltzmann weights.
+
+    Attributes
+    ----------
+    coords : ndarray, shape (n_conformers, n_atoms, 3)
+        Atom positions in angstrom (read-only); n_conformers may be 0.
+    weights : ndarray, shape (n_conformers,)
+        Boltzmann weights at 298 K from MMFF energies, summing to 1.
+    """
+
+    coords: np.ndarray
+    weights: np.ndarray
+
+    def __post_init__(self) -> None:
+        for name in ("coords", "weights"):
+            arr = np.array(getattr(self, name), dtype=float)
+            arr.setflags(write=False)
+            object.__setattr__(self, name, arr)
+
+    @property
+    def n_conformers(self) -> int:
+        """Number of conformers."""
+        return int(self.weights.size)
+
+
+@functools.cache
+def _constants() -> dict[str, tuple[float, float]]:
+    out = {}
+    for row in load_increment_table("couplings"):
+        value = float(row["value"]) if row["value"] else math.nan
+        sd = float(row["sd_hz"]) if row["sd_hz"] else math.nan
+        out[row["name"]] = (value, sd)
+    return out
+
+
+def _c(name: str) -> float:
+    return _constants()[name][0]
+
+
+def _sd(name: str) -> float:
+    return _constants()[name][1]
+
+
+def _chi(symbol: str) -> float:
+    return _c(f"chi_{symbol}") if f"chi_{symbol}" in _constants() else _c("chi_C")
+
+
+# --------------------------------------------------------------------------- conformers
+def embed_conformers(mol_h: Chem.Mol, *, n_conformers: int = 10, seed: int = 0xC0FFEE) -> ConformerSet:
+    """Embed, MMFF-optimise and prune conformers; weight them by Boltzmann factors.
+
+    Parameters
+    ----------
+    mol_h : rdkit.Chem.Mol
+        Molecule with explicit hydrogens.
+    n_conformers : int, keyword-only
+        Conformers to embed before pruning (RMSD 0.5 angstrom).
+    seed : int, keyword-only
+        Random seed of the embedding (results repeat for a given seed).
+
+    Returns
+    -------
+    ConformerSet
+        Empty (0 conformers) when the molecule cannot be embedded.
+    """
+    mol = Chem.Mol(mol_h)
+    params = AllChem.ETKDGv3()
+    params.randomSeed = int(seed) & 0x7FFFFFFF
+    params.pruneRmsThresh = 0.5
+    params.numThreads = 1
+    ids = list(AllChem.EmbedMultipleConfs(mol, numConfs=max(1, int(n_conformers)), params=params))
+    if not ids:
+        params.useRandomCoords = True
+        ids = list(AllChem.EmbedMultipleConfs(mol, numConfs=1, params=params))
+    if not ids:
+        return ConformerSet(np.zeros((0, mol.GetNumAtoms(), 3)), np.zeros(0))
+    energies = _optimise(mol, len(ids))
+    coords = np.array([mol.GetConformer(i).GetPositions() for i in ids])
+    rel = (energies - energies.min()) / _RT_KCAL
+    weights = np.exp(-rel)
+    return ConformerSet(coords, weights / weights.sum())
+
+
+def _optimise(mol: Chem.Mol, n: int) -> np.ndarray:
+    if AllChem.MMFFHasAllMoleculeParams(mol):
+        result = AllChem.MMFFOptimizeMoleculeConfs(mol, numThreads=1, maxIters=300)
+    elif AllChem.UFFHasAllMoleculeParams(mol):
+        result = AllChem.UFFOptimizeMoleculeConfs(mol, numThreads=1, maxIters=300)
+    else:
+        return np.zeros(n)
+    energies = np.array([e for _, e in result], dtype=float)
+    return energies if np.all(np.isfinite(energies)) else np.zeros(n)
+
+
+def _dihedral_deg(coords: np.ndarray, a: int, b: int, c: int, d: int) -> np.ndarray:
+    """Dihedral a-b-c-d in degrees for every conformer, shape (n_conformers,)."""
+    p0, p1, p2, p3 = (coords[:, i, :] for i in (a, b, c, d))
+    b0, b1, b2 = p0 - p1, p2 - p1, p3 - p2
+    b1n = b1 / np.linalg.norm(b1, axis=1, keepdims=True)
+    v = b0 - np.sum(b0 * b1n, axis=1, keepdims=True) * b1n
+    w = b2 - np.sum(b2 * b1n, axis=1, keepdims=True) * b1n
+    x = np.sum(v * w, axis=1)
+    y = np.sum(np.cross(b1n, v) * w, axis=1)
+    return np.degrees(np.arctan2(y, x))
+
+
+# ------------------------------------------------------------------------------ equations
+def karplus_hla(phi_deg, substituents=()) -> np.ndarray:
+    """Haasnoot-de Leeuw-Altona vicinal 3J(HH) in Hz.
+
+    Parameters
+    ----------
+    phi_deg : float or ndarray
+        H-C-C-H dihedral angle(s) in degrees.
+    substituents : sequence of (float, float)
+        ``(dchi, xi)`` for each non-H substituent on the two carbons: the group
+        electronegativity difference to H (beta-corrected) and the orientation
+        sign +1/-1.
+    """
+    phi = np.radians(np.asarray(phi_deg, dtype=float))
+    cos = np.cos(phi)
+    j = _c("hla_p1") * cos**2 + _c("hla_p2") * cos + _c("hla_p3")
+    for dchi, xi in substituents:
+        arg = xi * phi + np.radians(_c("hla_p6") * abs(dchi))
+        j = j + dchi * (_c("hla_p4") + _c("hla_p5") * np.cos(arg) ** 2)
+    return j
+
+
+def garbisch_vicinal(phi_deg) -> np.ndarray:
+    """Garbisch 3J between a vinyl H and an allylic H, H-C(sp2)-C(sp3)-H dihedral in degrees."""
+    phi = np.abs(np.asarray(phi_deg, dtype=float))
+    cos2, sin2 = np.cos(np.radians(phi)) ** 2, np.sin(np.radians(phi)) ** 2
+    low = _c("garbisch_3j_a") * cos2 + _c("garbisch_3j_c") * sin2
+    high = _c("garbisch_3j_b") * cos2 + _c("garbisch_3j_c") * sin2
+    return np.where(phi <= 90.0, low, high)
+
+
+def garbisch_allylic(phi_deg) -> np.ndarray:
+    """Garbisch allylic 4J; ``phi_deg`` is the C=C-C-H dihedral in degrees."""
+    phi = np.abs(np.asarray(phi_deg, dtype=float))
+    cos2, sin2 = np.cos(np.radians(phi)) ** 2, np.sin(np.radians(phi)) ** 2
+    low = _c("garbisch_4j_a") * cos2 + _c("garbisch_4j_b") * sin2
+    high = _c("garbisch_4j_b") * sin2
+    return np.where(phi <= 90.0, low, high)
+
+
+# -------------------------------------------------------------------------------- driver
+def predict_couplings(model: Chem.Mol, conformers: ConformerSet, relations: dict[int, AlkeneRelation],
+                      *, exchangeable=frozenset()) -> tuple[np.ndarray, np.ndarray]:
+    """Coupling constants between every pair of H atoms.
+
+    Parameters
+    ----------
+    model : rdkit.Chem.Mol
+        Molecule with explicit H (pseudo-aromatic rings in Kekule form).
+    conformers : ConformerSet
+        From :func:`embed_conformers` on the same atoms (may be empty).
+    relations : dict
+        Cis/trans relations (:func:`~predictors.equivalence.map_alkene_relations`).
+    exchangeable : set of int, keyword-only
+        H atoms in fast exchange (OH, NH, SH): no resolved couplings.
+
+    Returns
+    -------
+    j_hz, j_sd_hz : ndarray, shape (n_atoms, n_atoms)
+        Symmetric signed couplings and their uncertainties (zero for heavy atoms).
+    """
+    n = model.GetNumAtoms()
+    j = np.zeros((n, n))
+    sd = np.zeros((n, n))
+    hs = [a.GetIdx() for a in model.GetAtoms() if a.GetAtomicNum() == 1 and a.GetIdx() not in exchangeable]
+    dist = Chem.GetDistanceMatrix(model)
+    for pos, h1 in enumerate(hs):
+        for h2 in hs[pos + 1:]:
+            if not 2 <= dist[h1, h2] <= 5:
+                continue
+            path = list(Chem.GetShortestPath(model, h1, h2))
+            value, err = _pair_coupling(model, path, conformers, relations)
+            j[h1, h2] = j[h2, h1] = value
+            sd[h1, h2] = sd[h2, h1] = err
+    return j, sd
+
+
+def _pair_coupling(mol, path, conformers, relations) -> tuple[float, float]:
+    heavy = [mol.GetAtomWithIdx(i) for i in path[1:-1]]
+    if len(heavy) == 1:
+        return _geminal(mol, path, heavy[0], relations)
+    if len(heavy) == 2:
+        return _vicinal(mol, path, heavy, conformers, relations)
+    if len(heavy) == 3:
+        return _four_bond(mol, path, heavy, conformers, relations)
+    return _five_bond(mol, heavy)
+
+
+def _geminal(mol, path, carbon, relations) -> tuple[float, float]:
+    if carbon.GetSymbol() != "C":
+        return 0.0, 0.0
+    if carbon.GetIdx() in relations:
+        rel = relations[carbon.GetIdx()]
+        other = mol.GetAtomWithIdx(rel.carbons[1] if rel.carbons[0] == carbon.GetIdx() else rel.carbons[0])
+        subs = [n for n in other.GetNeighbors() if n.GetIdx() != carbon.GetIdx()]
+        dchi = [_chi(n.GetSymbol()) - _c("chi_H") for n in subs]
+        return _c("vinyl_gem_base") - _c("vinyl_gem_slope") * float(np.mean(dchi)), _sd("vinyl_gem_base")
+    if carbon.GetHybridization() != Chem.HybridizationType.SP3:
+        return 0.0, 0.0
+    ring_info = mol.GetRingInfo()
+    if ring_info.IsAtomInRingOfSize(carbon.GetIdx(), 3):
+        return _c("sp3_gem_ring3"), _sd("sp3_gem_ring3")
+    value = _c("sp3_gem_base")
+    for nbr in carbon.GetNeighbors():
+        if nbr.GetSymbol() in ("O", "N", "F", "Cl", "Br", "I"):
+            value += _c("sp3_gem_electronegative")
+        elif nbr.GetSymbol() == "C" and (nbr.GetIsAromatic() or any(
+                b.GetBondType() in (Chem.BondType.DOUBLE, Chem.BondType.TRIPLE) for b in nbr.GetBonds())):
+            value += _c("sp3_gem_pi")
+    return value, _sd("sp3_gem_base")
+
+
+def _is_sp3(atom) -> bool:
+    return atom.GetHybridization() == Chem.HybridizationType.SP3
+
+
+def _is_aldehyde_carbon(atom) -> bool:
+    return atom.GetSymbol() == "C" and any(
+        b.GetBondType() == Chem.BondType.DOUBLE and b.GetOtherAtom(atom).GetSymbol() == "O"
+        for b in atom.GetBonds())
+
+
+def _vicinal(mol, path, heavy, conformers, relations) -> tuple[float, float]:
+    a, b = heavy
+    if a.GetSymbol() != "C" or b.GetSymbol() != "C":
+        return 0.0, 0.0
+    bond = mol.GetBondBetweenAtoms(a.GetIdx(), b.GetIdx())
+    if a.GetIsAromatic() and b.GetIsAromatic():
+        return _aromatic_ortho(mol, a, b)
+    if bond.GetBondType() == Chem.BondType.DOUBLE and a.GetIdx() in relations:
+        return _vinyl_vicinal(mol, path, a, b, relations[a.GetIdx()])
+    if _is_sp3(a) and _is_sp3(b):
+        return _sp3_vicinal(mol, path, conformers)
+    if _is_sp3(a) or _is_sp3(b):
+        sp2 = b if _is_sp3(a) else a
+        if _is_aldehyde_carbon(sp2):
+            return _c("aldehyde_sp3"), _sd("aldehyde_sp3")
+        if sp2.GetIdx() in relations and conformers.n_conformers:
+            phi = _dihedral_deg(conformers.coords, *path)
+            return float(np.dot(conformers.weights, garbisch_vicinal(phi))), _sd("garbisch_3j_a")
+        return 0.0, 0.0
+    if _is_aldehyde_carbon(a) or _is_aldehyde_carbon(b):
+        return _c("aldehyde_sp2"), _sd("aldehyde_sp2")
+    if a.GetIdx() in relations and b.GetIdx() in relations:
+        return _c("diene_single"), _sd("diene_single")
+    return 0.0, 0.0
+
+
+def _aromatic_ortho(mol, a, b) -> tuple[float, float]:
+    ring = _shared_ring(mol, a.GetIdx(), b.GetIdx())
+    if ring is not None and len(ring) == 5:
+        return _c("five_ring_ortho"), _sd("five_ring_ortho")
+    if any(n.GetSymbol() == "N" and n.GetIsAromatic() for x in (a, b) for n in x.GetNeighbors()):
+        return _c("pyridine_ortho_n"), _sd("pyridine_ortho_n")
+    return _c("aromatic_ortho"), _sd("aromatic_ortho")
+
+
+def _shared_ring(mol, *atoms):
+    rings = [r for r in mol.GetRingInfo().AtomRings() if all(x in r for x in atoms)]
+    return min(rings, key=len) if rings else None
+
+
+def _electroneg_excess(atom, reference: float) -> float:
+    return _chi(atom.GetSymbol()) - reference
+
+
+def _vinyl_vicinal(mol, path, a, b, rel: AlkeneRelation) -> tuple[float, float]:
+    h1, h2 = path[0], path[-1]
+    subs = [n for x, h in ((a, h1), (b, h2)) for n in x.GetNeighbors()
+            if n.GetIdx() not in (h, a.GetIdx(), b.GetIdx())]
+    heavy_subs = [n for n in subs if n.GetAtomicNum() > 1]
+    cis = rel.relation(h1, h2) == "cis"
+    ring = _shared_ring(mol, a.GetIdx(), b.GetIdx())
+    if cis and ring is not None and len(ring) <= 7:
+        name = f"ring_cis_{len(ring)}"
+        return _c(name), _sd(name)
+    kind = "cis" if cis else "trans"
+    if len(heavy_subs) <= 1:
+        dchi = sum(_electroneg_excess(n, _c("chi_H")) for n in heavy_subs)
+        value = _c(f"vinyl_{kind}_mono") - _c(f"vinyl_{kind}_slope") * dchi
+    else:
+        dchi = sum(max(0.0, _electroneg_excess(n, _c("chi_C"))) for n in heavy_subs)
+        value = _c(f"vinyl_{kind}_di") - _c(f"vinyl_{kind}_slope") * dchi
+    if cis and any(n.GetIsAromatic() for n in heavy_subs):
+        value += _c("vinyl_cis_aryl_bonus")
+    return value, _sd(f"vinyl_{kind}_mono")
+
+
+def _sp3_vicinal(mol, path, conformers) -> tuple[float, float]:
+    if not conformers.n_conformers:
+        return _c("sp3_vicinal_fallback"), _sd("sp3_vicinal_fallback")
+    h1, c1, c2, h2 = path
+    phi = _dihedral_deg(conformers.coords, h1, c1, c2, h2)
+    subs = []
+    for carbon, other in ((c1, c2), (c2, c1)):
+        for nbr in mol.GetAtomWithIdx(carbon).GetNeighbors():
+            if nbr.GetAtomicNum() == 1 or nbr.GetIdx() == other:
+                continue
+            if carbon == c1:
+                tau = _dihedral_deg(conformers.coords, nbr.GetIdx(), c1, c2, h2)
+            else:
+                tau = _dihedral_deg(conformers.coords, h1, c1, c2, nbr.GetIdx())
+            xi = np.where(((tau - phi + 540.0) % 360.0) - 180.0 > 0, -1.0, 1.0)
+            subs.append((_group_dchi(mol, nbr, carbon), xi))
+    values = karplus_hla(phi, subs)
+    return float(np.dot(conformers.weights, values)), _sd("sp3_vicinal")
+
+
+def _group_dchi(mol, atom, attached_to: int) -> float:
+    """Beta-corrected electronegativity difference of a substituent (HLA)."""
+    chi_h = _c("chi_H")
+    alpha = _chi(atom.GetSymbol()) - chi_h
+    beta = sum(_chi(n.GetSymbol()) - chi_h for n in atom.GetNeighbors() if n.GetIdx() != attached_to)
+    return alpha - _c("hla_p7") * beta
+
+
+def _four_bond(mol, path, heavy, conformers, relations) -> tuple[float, float]:
+    a, b, c = heavy
+    if all(x.GetIsAromatic() for x in heavy):
+        ring = _shared_ring(mol, a.GetIdx(), b.GetIdx(), c.GetIdx())
+        if ring is not None:
+            name = "five_ring_meta" if len(ring) == 5 else "aromatic_meta"
+            return _c(name), _sd(name)
+        return 0.0, 0.0
+    for vinyl, mid, sp3, h_sp3 in ((a, b, c, path[-1]), (c, b, a, path[0])):
+        bond = mol.GetBondBetweenAtoms(vinyl.GetIdx(), mid.GetIdx())
+        if bond.GetBondType() == Chem.BondType.DOUBLE and vinyl.GetIdx() in relations and _is_sp3(sp3):
+            if not conformers.n_conformers:
+                return -1.5, _sd("garbisch_4j_a")
+            phi = _dihedral_deg(conformers.coords, vinyl.GetIdx(), mid.GetIdx(), sp3.GetIdx(), h_sp3)
+            return float(np.dot(conformers.weights, garbisch_allylic(phi))), _sd("garbisch_4j_a")
+        if bond.GetBondType() == Chem.BondType.TRIPLE and _is_sp3(sp3):
+            return _c("propargylic"), _sd("propargylic")
+    return 0.0, 0.0
+
+
+def _five_bond(mol, heavy) -> tuple[float, float]:
+    if all(x.GetIsAromatic() for x in heavy):
+        ring = _shared_ring(mol, *(x.GetIdx() for x in heavy))
+        if ring is not None and len(ring) == 6:
+            return _c("aromatic_para"), _sd("aromatic_para")
+    return 0.0, 0.0

@@ -1,0 +1,165 @@
+"""Predict the 1H spin system of a molecule: sites, shifts +- sd, signed couplings.
+
+:func:`predict_spin_system` ties together proton equivalence
+(:mod:`predictors.equivalence`), shifts (:mod:`predictors.shifts`) and
+couplings (:mod:`predictors.couplings`). Atom indices refer to
+``Chem.AddHs(Chem.MolFromSmiles(system.smiles))`` where ``system.smiles`` is
+RDKit's canonical isomeric SMILES.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from rdkit import Chem
+
+from predictors.core import ProtonSite, SpinSystem
+from predictors.couplings import embed_conformers, predict_couplings
+from predictors.equivalence import check_magnetic_equivalence, find_equivalent_protons, map_alkene_relations
+from predictors.errors import InputError
+from predictors.molecules import parse_molecule
+from predictors.shifts import predict_proton_shifts, prepare_model_molecule
+
+__all__ = ["predict_spin_system", "first_order_multiplicity", "MULTIPLET_NAMES"]
+
+#: First-order multiplet letters by number of equally coupled neighbours.
+MULTIPLET_NAMES = {1: "d", 2: "t", 3: "q", 4: "quint", 5: "sext", 6: "sept"}
+#: Couplings closer than this (Hz) count as one in a first-order description.
+_MERGE_HZ = 1.0
+#: Spin systems whose first-order pattern has more couplings than this are "m".
+_MAX_DISTINCT = 3
+
+
+def predict_spin_system(molecule, *, n_conformers: int = 10, seed: int = 0xC0FFEE) -> SpinSystem:
+    """Predict shifts and couplings for every proton site of a molecule.
+
+    Parameters
+    ----------
+    molecule : str or rdkit.Chem.Mol
+        Isomeric SMILES or a molecule.
+    n_conformers : int, keyword-only
+        Conformers embedded for averaging vicinal and allylic couplings (1-50).
+    seed : int, keyword-only
+        Random seed of the conformer embedding.
+
+    Returns
+    -------
+    SpinSystem
+        Sites ordered by atom index; ``j_hz`` is the mean coupling per proton
+        pair between two sites; ``j_sd_hz`` its uncertainty.
+
+    Raises
+    ------
+    ChemistryError
+        Unparsable structure, radicals, unsupported elements.
+    InputError
+        ``n_conformers`` out of range.
+    """
+    if not isinstance(n_conformers, (int, np.integer)) or not 1 <= n_conformers <= 50:
+        raise InputError(f"n_conformers: expected an integer in 1..50, got {n_conformers!r}")
+    mol = parse_molecule(molecule)
+    smiles = Chem.MolToSmiles(mol, isomericSmiles=True)
+    mol_h = Chem.AddHs(Chem.MolFromSmiles(smiles))
+    model, pseudo = prepare_model_molecule(mol_h)
+    groups = find_equivalent_protons(mol_h, map_alkene_relations(mol_h))
+    relations = map_alkene_relations(model)
+    shifts = predict_proton_shifts(model, pseudo_atoms=pseudo, relations=relations)
+    exchangeable = frozenset(h for h, est in shifts.items() if est.exchangeable)
+    conformers = embed_conformers(mol_h, n_conformers=int(n_conformers), seed=seed)
+    j_atom, sd_atom = predict_couplings(model, conformers, relations, exchangeable=exchangeable)
+    magnetic = check_magnetic_equivalence(groups, _rotor_averaged(mol_h, groups, j_atom), tol_hz=0.5)
+    sites = tuple(_make_site(group, shifts, mag) for group, mag in zip(groups, magnetic, strict=True))
+    j_site, sd_site = _site_matrices(groups, j_atom, sd_atom)
+    if conformers.n_conformers == 0:
+        sites = tuple(_add_flag(s, "no 3D conformer: vicinal couplings from generic values") for s in sites)
+    return SpinSystem(smiles=smiles, sites=sites, j_hz=j_site, j_sd_hz=sd_site)
+
+
+def _make_site(group, shifts, magnetic: bool) -> ProtonSite:
+    estimates = [shifts[h] for h in group]
+    flags = tuple(dict.fromkeys(f for e in estimates for f in e.flags))
+    return ProtonSite(
+        atoms=group,
+        shift_ppm=round(float(np.mean([e.shift_ppm for e in estimates])), 4),
+        shift_sd_ppm=float(max(e.sd_ppm for e in estimates)),
+        label=estimates[0].label,
+        exchangeable=estimates[0].exchangeable,
+        magnetically_equivalent=bool(magnetic),
+        flags=flags,
+    )
+
+
+def _add_flag(site: ProtonSite, flag: str) -> ProtonSite:
+    return ProtonSite(site.atoms, site.shift_ppm, site.shift_sd_ppm, site.label, site.exchangeable,
+                      site.magnetically_equivalent, site.flags + (flag,))
+
+
+def _site_matrices(groups, j_atom, sd_atom) -> tuple[np.ndarray, np.ndarray]:
+    n = len(groups)
+    j = np.zeros((n, n))
+    sd = np.zeros((n, n))
+    for a in range(n):
+        for b in range(a + 1, n):
+            block = np.ix_(groups[a], groups[b])
+            value = float(np.mean(j_atom[block]))
+            j[a, b] = j[b, a] = round(value, 3) if abs(value) >= 0.05 else 0.0
+            sd[a, b] = sd[b, a] = float(np.sqrt(np.mean(sd_atom[block] ** 2)))
+    return j, sd
+
+
+def _rotor_averaged(mol_h, groups, j_atom: np.ndarray) -> np.ndarray:
+    """Average couplings over the equivalent H of each acyclic CH2/CH3 (fast rotation)."""
+    j = np.array(j_atom, dtype=float)
+    group_of = {h: k for k, g in enumerate(groups) for h in g}
+    for atom in mol_h.GetAtoms():
+        hs = [n.GetIdx() for n in atom.GetNeighbors() if n.GetAtomicNum() == 1]
+        if atom.GetSymbol() != "C" or len(hs) < 2 or atom.IsInRing():
+            continue
+        if len({group_of[h] for h in hs}) != 1:
+            continue
+        mean = j[hs, :].mean(axis=0)
+        j[hs, :] = mean
+        j[:, hs] = mean[:, None]
+        j[np.ix_(hs, hs)] = 0.0
+    return j
+
+
+def first_order_multiplicity(system: SpinSystem, site_index: int, *, min_j_hz: float = 0.5) -> str:
+    """First-order multiplet name of a site, e.g. ``"dd"``, ``"dt"``, ``"t"``, ``"m"``.
+
+    Couplings within ``1 Hz`` of each other merge into one (``t`` not ``dd``);
+    more than three distinct couplings, or patterns beyond a septet, give ``"m"``.
+    Exchangeable sites are ``"br s"``.
+
+    Parameters
+    ----------
+    system : SpinSystem
+    site_index : int
+        Index into ``system.sites``.
+    min_j_hz : float, keyword-only
+        Couplings with smaller magnitude are not resolved.
+    """
+    n = len(system.sites)
+    if not isinstance(site_index, (int, np.integer)) or not 0 <= site_index < n:
+        raise InputError(f"site_index: expected an integer in 0..{n - 1}, got {site_index!r}")
+    if system.sites[site_index].exchangeable:
+        return "br s"
+    here = system.sites[site_index]
+    coupled = [k for k in range(n) if k != site_index and abs(system.j_hz[site_index, k]) >= min_j_hz]
+    if not coupled:
+        return "s"
+    if here.n_h > 1 and any(system.sites[k].n_h > 1 and not (
+            here.magnetically_equivalent and system.sites[k].magnetically_equivalent) for k in coupled):
+        return "m"  # AA'XX'-type: not first order
+    partners = [(abs(float(system.j_hz[site_index, k])), system.sites[k].n_h) for k in coupled]
+    clusters: list[list[float]] = []
+    for j, count in sorted(partners, reverse=True):
+        if clusters and abs(np.mean(clusters[-1][1:]) - j) < _MERGE_HZ:
+            clusters[-1][0] += count
+            clusters[-1].append(j)
+        else:
+            clusters.append([count, j])
+    if len(clusters) > _MAX_DISTINCT or any(c[0] > max(MULTIPLET_NAMES) for c in clusters):
+        return "m"
+    if len(clusters) > 1 and any(c[0] > 3 for c in clusters):
+        return "m"
+    return "".join(MULTIPLET_NAMES[int(c[0])] for c in clusters)
