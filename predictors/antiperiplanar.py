@@ -22,7 +22,9 @@ from rdkit.Chem import rdForceFieldHelpers as ff_helpers  # noqa: N813
 
 from predictors.errors import ChemistryError, InputError
 
-__all__ = ["ConformerSet", "PeriplanarResult", "embed_conformers", "find_periplanar", "is_axial"]
+__all__ = [
+    "ConformerSet", "PeriplanarResult", "embed_conformers", "find_periplanar", "is_axial", "local_model",
+]
 
 #: Largest strain (kcal/mol) at which a periplanar conformer still counts as
 #: reachable at room temperature (common practice: a few kcal/mol are paid
@@ -134,6 +136,84 @@ def embed_conformers(mol: Chem.Mol, *, n_conformers: int = 6, seed: int = 0xC0FF
     results = ff_helpers.MMFFOptimizeMoleculeConfs(molh, numThreads=1, maxIters=_MAX_ITERS)
     energies = tuple(float(e) for _, e in results)
     return ConformerSet(mol=molh, conf_ids=tuple(cids), energies_kcal=energies)
+
+
+def _local_atoms(mol: Chem.Mol, centre, radius: int) -> set[int]:
+    heavy = [a.GetIdx() for a in mol.GetAtoms() if a.GetAtomicNum() > 1]
+    dist = Chem.GetDistanceMatrix(mol)
+    keep = {i for i in heavy if min(dist[c][i] for c in centre) <= radius}
+    rings = [set(r) for r in mol.GetRingInfo().AtomRings()]
+    changed = True
+    while changed:
+        changed = False
+        for ring in rings:
+            if keep & ring and not ring <= keep:
+                keep |= ring
+                changed = True
+        for bond in mol.GetBonds():
+            ends = {bond.GetBeginAtomIdx(), bond.GetEndAtomIdx()}
+            if bond.GetBondType() != Chem.BondType.SINGLE and len(ends & keep) == 1:
+                keep |= ends
+                changed = True
+    return keep
+
+
+def local_model(mol: Chem.Mol, *, centre, radius: int = 3) -> tuple[Chem.Mol, dict[int, int]]:
+    """Cut a molecule down to the atoms within ``radius`` bonds of ``centre``.
+
+    Whole rings and both ends of multiple bonds are kept; each cut single bond
+    is capped by turning the first atom outside into a methyl carbon, so every
+    kept stereocentre keeps its neighbours (and its configuration). Hydrogens of
+    kept atoms keep their identity, so diastereotopic H can be followed.
+
+    Parameters
+    ----------
+    mol : rdkit.Chem.Mol
+        Molecule with explicit hydrogens.
+    centre : iterable of int
+        Atoms the model is built around (e.g. the alpha and beta carbons).
+    radius : int, keyword-only
+        Bonds from ``centre`` to keep.
+
+    Returns
+    -------
+    model : rdkit.Chem.Mol
+        Capped fragment with explicit hydrogens.
+    mapping : dict of int to int
+        Original atom index -> model atom index, for every kept heavy atom and its H.
+    """
+    centre = list(centre)
+    keep = _local_atoms(mol, centre, radius)
+    caps = {n.GetIdx() for i in keep for n in mol.GetAtomWithIdx(i).GetNeighbors()
+            if n.GetAtomicNum() > 1 and n.GetIdx() not in keep}
+    retained = set(keep) | caps
+    retained |= {n.GetIdx() for i in keep for n in mol.GetAtomWithIdx(i).GetNeighbors()
+                 if n.GetAtomicNum() == 1}
+    rw = Chem.RWMol(mol)
+    for atom in rw.GetAtoms():
+        atom.SetIntProp("_local", atom.GetIdx())
+    for idx in sorted(set(range(mol.GetNumAtoms())) - retained, reverse=True):
+        rw.RemoveAtom(idx)
+    cap_new = []
+    for atom in rw.GetAtoms():
+        if atom.GetIntProp("_local") in caps:
+            atom.SetAtomicNum(6)
+            atom.SetFormalCharge(0)
+            atom.SetIsAromatic(False)
+            atom.SetChiralTag(Chem.ChiralType.CHI_UNSPECIFIED)
+            atom.SetNoImplicit(False)
+            atom.SetNumExplicitHs(0)
+            cap_new.append(atom.GetIdx())
+    for bond in rw.GetBonds():
+        if bond.GetBeginAtom().GetIntProp("_local") in caps or bond.GetEndAtom().GetIntProp("_local") in caps:
+            bond.SetBondType(Chem.BondType.SINGLE)
+            bond.SetIsAromatic(False)
+    model = rw.GetMol()
+    Chem.SanitizeMol(model)
+    model = Chem.AddHs(model, onlyOnAtoms=tuple(cap_new))
+    mapping = {a.GetIntProp("_local"): a.GetIdx() for a in model.GetAtoms()
+               if a.HasProp("_local") and a.GetIntProp("_local") not in caps}
+    return model, mapping
 
 
 def _angle_gap(a_deg: float, b_deg: float) -> float:
