@@ -1,0 +1,108 @@
+"""``confirm predict SMILES``: predicted 1H sites, shifts +- sd, multiplicities and couplings."""
+
+from __future__ import annotations
+
+import math
+import os
+import tempfile
+from pathlib import Path
+
+import numpy as np
+
+from confirm.commands._common import emit_json, format_table
+from predictors.errors import InputError
+from predictors.prediction import first_order_multiplicity, predict_spin_system
+
+__all__ = ["register", "spin_system_to_json"]
+
+_PLOT_MARGIN_PPM = 0.5
+_PLOT_POINTS = 16384
+_LINE_WIDTH_HZ = 1.0
+
+
+def register(subparsers, parents) -> None:
+    """Add the ``predict`` subcommand."""
+    parser = subparsers.add_parser("predict", parents=parents,
+                                   help="predict the 1H spectrum (shifts, couplings) of a structure")
+    parser.add_argument("smiles", help="isomeric SMILES of the structure")
+    parser.add_argument("--field-mhz", type=float, default=400.0, help="1H frequency in MHz (default 400)")
+    parser.add_argument("--plot", metavar="PNG", help="write the simulated spectrum to this PNG file")
+    parser.set_defaults(handler=_run)
+
+
+def spin_system_to_json(system, *, field_mhz: float) -> dict:
+    """The ``predict`` JSON contract (design.md) for a spin system."""
+    sites = []
+    for i, site in enumerate(system.sites):
+        couplings = [{"to_site": k, "j_hz": float(system.j_hz[i, k])}
+                     for k in range(len(system.sites)) if k != i and system.j_hz[i, k] != 0.0]
+        sites.append({
+            "atoms": list(site.atoms), "n_h": site.n_h, "label": site.label,
+            "shift_ppm": site.shift_ppm, "shift_sd_ppm": site.shift_sd_ppm,
+            "multiplicity": first_order_multiplicity(system, i), "couplings": couplings,
+            "exchangeable": site.exchangeable, "magnetically_equivalent": site.magnetically_equivalent,
+            "flags": list(site.flags),
+        })
+    return {"smiles": system.smiles, "field_mhz": field_mhz, "sites": sites}
+
+
+def _run(args) -> int:
+    field = args.field_mhz
+    if not math.isfinite(field) or not 20.0 <= field <= 1200.0:
+        raise InputError(f"--field-mhz: expected a frequency between 20 and 1200 MHz, got {field!r}")
+    if args.plot is not None and not str(args.plot).lower().endswith(".png"):
+        raise InputError(f"--plot: expected a .png file name, got {args.plot!r}")
+    system = predict_spin_system(args.smiles)
+    if args.plot is not None:
+        _write_plot(system, Path(args.plot), field_mhz=field)
+    if args.json:
+        emit_json(spin_system_to_json(system, field_mhz=field))
+        return 0
+    print(f"{system.smiles}  ({system.n_h} H, {field:g} MHz)")
+    headers = ["site", "label", "nH", "shift ppm", "mult", "J Hz (to site)", "notes"]
+    print(format_table(headers, _rows(system)))
+    return 0
+
+
+def _rows(system) -> list[list[str]]:
+    rows = []
+    for i, site in enumerate(system.sites):
+        j = [f"{abs(system.j_hz[i, k]):.1f}({k})" for k in np.argsort(-np.abs(system.j_hz[i]))
+             if k != i and abs(system.j_hz[i, k]) >= 0.5]
+        notes = "exchangeable" if site.exchangeable else ("; ".join(site.flags) if site.flags else "")
+        rows.append([str(i), site.label, str(site.n_h), f"{site.shift_ppm:.2f} +- {site.shift_sd_ppm:.2f}",
+                     first_order_multiplicity(system, i), ", ".join(j), notes])
+    return rows
+
+
+def _write_plot(system, path: Path, *, field_mhz: float) -> None:
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from predictors.spin import render_lines, simulate_lines
+
+    if not path.parent.exists():
+        raise InputError(f"--plot: folder {str(path.parent)!r} does not exist")
+    lines = simulate_lines(system, field_mhz=field_mhz)
+    low = min(-0.5, float(np.min(system.shifts_ppm)) - _PLOT_MARGIN_PPM)
+    high = max(10.0, float(np.max(system.shifts_ppm)) + _PLOT_MARGIN_PPM)
+    ppm = np.linspace(high, low, _PLOT_POINTS)
+    spectrum = render_lines(lines, ppm, line_width_hz=_LINE_WIDTH_HZ)
+    fig, ax = plt.subplots(figsize=(10, 4))
+    ax.plot(ppm, spectrum, color="black", linewidth=0.7)
+    ax.set_xlim(high, low)
+    ax.set_xlabel("chemical shift (ppm)")
+    ax.set_yticks([])
+    ax.set_title(f"{system.smiles} - predicted 1H, {field_mhz:g} MHz")
+    fd, tmp = tempfile.mkstemp(suffix=".png", dir=path.parent)
+    os.close(fd)
+    try:
+        fig.savefig(tmp, dpi=120, format="png")
+        os.chmod(tmp, 0o644)
+        os.replace(tmp, path)
+    finally:
+        plt.close(fig)
+        if os.path.exists(tmp):
+            os.unlink(tmp)
