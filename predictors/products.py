@@ -438,7 +438,12 @@ def _e2_topological(ctx: _Context, lg: LeavingGroup, beta: int, h_idx: int, mult
 
 def _e2_routes(ctx: _Context, lg: LeavingGroup, betas: tuple[int, ...]) -> list[_Route]:
     factor = max(ctx.reagent.zaitsev_factor * lg.zaitsev_multiplier, 0.05)
-    orient = "Zaitsev" if factor > 1.0 else "Hofmann"
+    if factor >= 3.0:
+        orient = "Zaitsev orientation"
+    elif factor > 1.0:
+        orient = "weak Zaitsev preference, the count of H decides"
+    else:
+        orient = "Hofmann orientation"
     use_3d = _use_3d(ctx, lg, betas)
     routes = []
     for beta in betas:
@@ -448,7 +453,7 @@ def _e2_routes(ctx: _Context, lg: LeavingGroup, betas: tuple[int, ...]) -> list[
             make = _e2_from_3d if use_3d else _e2_topological
             for outcome, weight, why, notes in make(ctx, lg, beta, h_idx, mult):
                 w = weight * _orientation_weight(outcome, factor)
-                rationale = (f"E2 by {ctx.reagent.name} ({ctx.reagent.bulk}): {orient} orientation "
+                rationale = (f"E2 by {ctx.reagent.name} ({ctx.reagent.bulk}): {orient} "
                              f"(x{factor:.2g} per alkyl on C=C); {why}")
                 syn = any(n.startswith("syn") for n in notes)
                 label = "alkene" + (", syn path" if syn else "")

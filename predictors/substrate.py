@@ -159,7 +159,7 @@ def _find_leaving_groups(mol: Chem.Mol, *, acid: bool, base: bool) -> tuple[list
     for compiled in rules_of_kind("leaving group"):
         rule = compiled.rule
         for alpha, lg_atom in compiled.match(mol):
-            if (alpha, lg_atom) in claimed:
+            if (alpha, lg_atom) in claimed or any(alpha in g.lg_atoms for g in groups):
                 continue
             if (rule.needs == "acid" and not acid) or (rule.needs == "base" and not base):
                 continue

@@ -1,0 +1,60 @@
+"""``confirm candidates``: list the products a substrate can give under given conditions."""
+
+from __future__ import annotations
+
+from confirm.commands._common import emit_json, format_table
+from confirm.structures import load_structure
+from predictors.products import enumerate_products
+
+__all__ = ["register"]
+
+
+def register(subparsers, parents) -> None:
+    """Add the ``candidates`` subcommand."""
+    parser = subparsers.add_parser(
+        "candidates", parents=parents,
+        help="list elimination/substitution products with pathway tags and priors",
+        description="Enumerate every elimination and substitution product of a substrate under the "
+                    "given conditions, ranked by a soft prior with a one-line rationale.",
+    )
+    parser.add_argument("structure", metavar="SMILES_OR_MOLFILE", help="substrate SMILES or a .mol/.sdf file")
+    parser.add_argument("--reagent", required=True, help="reagent name or alias, e.g. ethoxide, KOtBu, H2SO4")
+    parser.add_argument("--solvent", default=None, help="solvent name (default: the reagent's usual solvent)")
+    parser.add_argument("--temp-c", type=float, default=25.0, dest="temp_c",
+                        help="reaction temperature in C (default 25)")
+    parser.set_defaults(handler=_run)
+
+
+def _candidate_record(cand) -> dict:
+    return {
+        "smiles": cand.smiles,
+        "pathways": list(cand.pathways),
+        "label": cand.label,
+        "prior": cand.prior,
+        "rationale": cand.rationale,
+        "regio": cand.regio,
+        "geometry": cand.geometry,
+        "notes": list(cand.notes),
+    }
+
+
+def _run(args) -> int:
+    mol = load_structure(args.structure)
+    products = enumerate_products(mol, reagent=args.reagent, solvent=args.solvent, temp_c=args.temp_c)
+    if args.json:
+        emit_json({
+            "substrate": products.substrate_smiles,
+            "reagent": products.reagent.name,
+            "candidates": [_candidate_record(c) for c in products.candidates],
+            "notes": list(products.notes),
+        })
+        return 0
+    rows = [(i + 1, f"{c.prior:.3f}", "+".join(c.pathways), c.label, c.smiles)
+            for i, c in enumerate(products.candidates)]
+    print(f"substrate: {products.substrate_smiles}   reagent: {products.reagent.name}")
+    print(format_table(("rank", "prior", "pathways", "label", "smiles"), rows))
+    for i, c in enumerate(products.candidates):
+        print(f"  {i + 1}. {c.rationale}" + (f" ({'; '.join(c.notes)})" if c.notes else ""))
+    for note in products.notes:
+        print(f"note: {note}")
+    return 0

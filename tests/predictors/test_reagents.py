@@ -1,0 +1,56 @@
+"""The reagent table: names, aliases, pKa values with their sources."""
+
+from __future__ import annotations
+
+import pytest
+
+from predictors.errors import InputError
+from predictors.reagents import get_reagent, list_reagents
+
+REQUIRED = ("hydroxide", "methoxide", "ethoxide", "tert-butoxide", "LDA", "amide", "hydride", "DBU",
+            "triethylamine", "Hunig's base", "cyanide", "azide", "iodide", "thiolate", "acetate", "water",
+            "methanol", "ethanol", "H2SO4", "H3PO4", "TsOH", "HCl", "HBr")
+
+
+@pytest.mark.parametrize("name", REQUIRED)
+def test_required_reagents_are_present_with_a_sourced_pka(name):
+    reagent = get_reagent(name)
+    assert reagent.name == name
+    assert reagent.pka_conj_acid is not None and reagent.pka_source
+    assert reagent.source
+
+
+@pytest.mark.parametrize("alias, name", [("KOtBu", "tert-butoxide"), ("naoet", "ethoxide"),
+                                         ("DIPEA", "Hunig's base"), ("h2so4", "H2SO4"),
+                                         ("Sodium Azide", "azide"), ("p-TsOH", "TsOH")])
+def test_aliases_are_case_insensitive(alias, name):
+    assert get_reagent(alias).name == name
+
+
+def test_unknown_reagent_lists_known_names():
+    with pytest.raises(InputError, match="unknown name 'grignard'.*ethoxide.*HBr"):
+        get_reagent("grignard")
+
+
+def test_pka_order_follows_the_usual_table():
+    # Conjugate-acid pKa order (Clayden et al. 2012, pKa appendix, from memory):
+    # NH3 > iPr2NH > H2 > tBuOH > EtOH > H2O > Et3NH+ > HCN > AcOH > HN3 > H3O+ > HCl > HBr > HI.
+    order = ["amide", "LDA", "hydride", "tert-butoxide", "ethoxide", "hydroxide", "triethylamine",
+             "cyanide", "acetate", "azide", "water", "HCl", "HBr", "iodide"]
+    values = [get_reagent(n).pka_conj_acid for n in order]
+    assert values == sorted(values, reverse=True)
+
+
+def test_roles_follow_common_practice():
+    # Common practice (shared/references.md section 8).
+    assert get_reagent("tert-butoxide").bulk == "large" and get_reagent("LDA").bulk == "large"
+    assert get_reagent("ethoxide").is_strong_base and not get_reagent("azide").is_strong_base
+    assert get_reagent("H2SO4").is_acid and get_reagent("H2SO4").counter_ion_nucleophilicity == "low"
+    assert get_reagent("HBr").counter_ion_nucleophilicity == "high"
+    assert not get_reagent("LDA").is_nucleophile and get_reagent("cyanide").is_nucleophile
+    assert get_reagent("ethoxide").zaitsev_factor > 1 > 0.5 * get_reagent("tert-butoxide").zaitsev_factor
+
+
+def test_names_and_aliases_are_unique():
+    keys = [k.lower() for r in list_reagents() for k in (r.name, *r.aliases)]
+    assert len(keys) == len(set(keys))
