@@ -8,6 +8,7 @@ tests exercise the reporting layer alone.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 
 import numpy as np
@@ -80,12 +81,24 @@ def spin_system_of(smiles: str) -> SpinSystem:
     return SpinSystem(smiles=smiles, sites=tuple(made), j_hz=j)
 
 
+def _axis() -> np.ndarray:
+    return np.linspace(8.5, -0.5, 4096)
+
+
+@functools.lru_cache(maxsize=32)
+def _unit_curve(smiles: str, field_mhz: float) -> np.ndarray:
+    """One molecule's model spectrum on the test axis (pure, so cached)."""
+    curve = model_spectrum(spin_system_of(smiles), _axis(), field_mhz=field_mhz, line_width_hz=2.0)
+    curve.setflags(write=False)
+    return curve
+
+
 def build_result(parts: list[Part], *, major: str | None, confidence: str = "high", snr: float = 400.0,
                  field_mhz: float = 400.0, summary: str | None = None, seed: int = 7,
                  source: str = "synthetic.jdx", warnings: tuple[str, ...] = (),
                  covariance=None, unexplained_ppm: tuple[float, ...] = ()) -> AnalysisResult:
     """A complete AnalysisResult made by hand from the parts."""
-    ppm = np.linspace(9.0, -0.5, 6000)
+    ppm = _axis()
     model = np.zeros_like(ppm)
     components, candidates, systems = [], [], []
     for part in parts:
@@ -102,12 +115,12 @@ def build_result(parts: list[Part], *, major: str | None, confidence: str = "hig
             if detected else ()))
         candidates.append(candidate)
         systems.append(system)
-        model += part.fraction * model_spectrum(system, ppm, field_mhz=field_mhz, line_width_hz=1.2)
+        model += part.fraction * _unit_curve(smiles, field_mhz)
     noise_sd = model.max() / snr if model.max() > 0 else 1e-3
     rng = np.random.default_rng(seed)
     measured = model + rng.normal(0.0, noise_sd, ppm.size)
     fit = MixtureFit(components=tuple(components), ppm=ppm, model=model, residual=measured - model,
-                     line_width_hz=1.2, quality={"snr": snr, "r_squared": 0.995, "noise_sd": noise_sd},
+                     line_width_hz=2.0, quality={"snr": snr, "r_squared": 0.995, "noise_sd": noise_sd},
                      fraction_covariance=covariance, unexplained_ppm=unexplained_ppm)
     spectrum = Spectrum(ppm=ppm, intensity=measured, field_mhz=field_mhz, solvent="CDCl3",
                         metadata={"source": source})

@@ -1,0 +1,649 @@
+"""A self-contained HTML report of one analysis, and the plot/CSV/JSON files beside it.
+
+The report opens offline (no external resources, no scripts): plots are
+inline SVG drawn with matplotlib's Agg/SVG backends, structures inline SVG
+drawn with RDKit. It starts with the verdict in plain words, then the QC
+result and NMR yield when given, the input files with their SHA-256, the
+whole spectrum with the fitted mixture and residual, zoomed diagnostic
+regions with each candidate's model, the candidates, evidence, warnings,
+processing and fit parameters and software versions. Print CSS lays it out
+on A4.
+"""
+
+from __future__ import annotations
+
+import csv
+import html
+import io
+import json
+import os
+from collections.abc import Sequence
+from dataclasses import dataclass, replace
+from datetime import datetime, timezone
+from pathlib import Path
+
+import numpy as np
+
+from confirm.qc import CAUTION, QcResult, qc_to_json, software_versions
+from confirm.qnmr import ProductYield, format_yield_rows, yields_to_json
+from predictors.errors import InputError
+
+__all__ = [
+    "REPORT_CAUTION",
+    "CandidateCurves",
+    "candidate_curves",
+    "choose_diagnostic_regions",
+    "write_html_report",
+    "render_html_report",
+    "export_result_files",
+]
+
+#: Caution printed in every report (the QC caution is the same sentence).
+REPORT_CAUTION = CAUTION
+
+#: Colours of candidate overlays (our own palette, colour-blind friendly order).
+_PALETTE = ("#1b6e8a", "#d1495b", "#edae49", "#5a8f29", "#7b4b94", "#00798c", "#a86a3d", "#3d5a80")
+_MAX_REGIONS = 4
+_PLOT_POINTS = 3000
+
+
+@dataclass(frozen=True, eq=False)
+class CandidateCurves:
+    """Each candidate's model on the fitted axis, scaled to the measured intensity.
+
+    Attributes
+    ----------
+    ppm : ndarray, shape (n,)
+    per_molecule : ndarray, shape (n_candidates, n)
+        Model of one molecule's worth of each candidate (integrates to its
+        proton count), times the common intensity scale.
+    fitted : ndarray, shape (n_candidates, n)
+        ``per_molecule`` times each candidate's fitted mole fraction.
+    labels : tuple of str
+    """
+
+    ppm: np.ndarray
+    per_molecule: np.ndarray
+    fitted: np.ndarray
+    labels: tuple[str, ...]
+
+
+def _refined_system(system, component):
+    shifts = component.refined_shifts_ppm
+    if len(shifts) != len(system.sites):
+        return system
+    sites = tuple(replace(site, shift_ppm=float(s)) for site, s in zip(system.sites, shifts, strict=True))
+    return replace(system, sites=sites)
+
+
+def _label(candidate) -> str:
+    return candidate.label or candidate.smiles
+
+
+def candidate_curves(result) -> CandidateCurves:
+    """Simulate every candidate at its refined shifts on the fit's axis.
+
+    The common intensity scale (per molecule) is the least-squares factor
+    between the fitted mixture and the sum of the fitted components, with a
+    constant offset for the baseline.
+    """
+    from predictors.spin import model_spectrum
+
+    fit = result.fit
+    field_mhz = result.spectrum.field_mhz if result.spectrum is not None else 400.0
+    width = fit.line_width_hz if fit.line_width_hz > 0 else 1.0
+    raw = np.array([
+        model_spectrum(_refined_system(system, comp), fit.ppm, field_mhz=field_mhz, line_width_hz=width)
+        for system, comp in zip(result.spin_systems, fit.components, strict=True)
+    ]).reshape(len(fit.components), fit.ppm.size)
+    fractions = np.array([max(c.mole_fraction, 0.0) for c in fit.components])
+    mixture = fractions @ raw if raw.size else np.zeros_like(fit.ppm)
+    design = np.column_stack([mixture, np.ones_like(mixture)])
+    scale = float(np.linalg.lstsq(design, fit.model, rcond=None)[0][0]) if np.any(mixture) else 0.0
+    if not np.isfinite(scale) or scale <= 0:
+        scale = float(np.max(np.abs(fit.model)) / max(np.max(raw), 1e-12)) if raw.size else 1.0
+    per_molecule = raw * scale
+    return CandidateCurves(ppm=fit.ppm, per_molecule=per_molecule, fitted=per_molecule * fractions[:, None],
+                           labels=tuple(_label(c.candidate) for c in fit.components))
+
+
+def choose_diagnostic_regions(result, curves: CandidateCurves, *, max_regions: int = _MAX_REGIONS,
+                              pad_ppm: float = 0.08,
+                              tolerance_ppm: float = 0.06) -> list[tuple[float, float]]:
+    """Windows (high ppm, low ppm) that tell the candidates apart.
+
+    Every site's multiplet gives a window (shift +- half its total coupling
+    width + ``pad_ppm``); overlapping windows merge. Each candidate's model is
+    normalised to unit area and smoothed over ``tolerance_ppm`` (shifts closer
+    than that do not tell candidates apart). A window is characteristic of
+    candidate k by the part of k's area there that no other candidate covers
+    (``area_k - max_j sum(min(n_k, n_j))``), counted double between 3 and 8 ppm
+    where the vinyl and CH-X protons that separate elimination from
+    substitution products lie (common practice). Each detected candidate,
+    then each other candidate, contributes its most characteristic window;
+    the remaining places go to the windows with the largest pairwise
+    difference. Returned from high to low ppm.
+    """
+    from scipy.ndimage import uniform_filter1d
+
+    windows = _site_windows(result, pad_ppm)
+    if not windows or curves.per_molecule.size == 0:
+        return []
+    norm = curves.per_molecule / np.maximum(curves.per_molecule.sum(axis=1, keepdims=True), 1e-300)
+    step = abs(float(curves.ppm[0] - curves.ppm[-1])) / max(curves.ppm.size - 1, 1)
+    norm = uniform_filter1d(norm, max(1, int(round(tolerance_ppm / step))), axis=1)
+    unique, scores, kept = [], [], []
+    for low, high in windows:
+        inside = (curves.ppm >= low) & (curves.ppm <= high)
+        if inside.sum() < 5:
+            continue
+        weight = 2.0 if 3.0 <= (low + high) / 2 <= 8.0 else 1.0
+        unique_k, score = _window_scores(norm[:, inside])
+        unique.append(weight * unique_k)
+        scores.append(weight * score)
+        kept.append((high, low))
+    if not kept:
+        return []
+    unique_arr = np.array(unique)
+    detected = [k for k, c in enumerate(result.fit.components) if c.detected]
+    ranked = detected + [k for k in range(norm.shape[0]) if k not in detected]
+    order = [int(np.argmax(unique_arr[:, k])) for k in ranked if unique_arr[:, k].max() > 0.02]
+    order += [int(i) for i in np.argsort(scores)[::-1]]
+    chosen = list(dict.fromkeys(order))[:max_regions]
+    return sorted((kept[i] for i in chosen), key=lambda w: -w[0])
+
+
+def _window_scores(block: np.ndarray) -> tuple[np.ndarray, float]:
+    """Per-candidate uncovered area and the summed pairwise difference in one window."""
+    n = block.shape[0]
+    overlap = np.zeros((n, n))
+    score = 0.0
+    for i in range(n):
+        for j in range(i + 1, n):
+            overlap[i, j] = overlap[j, i] = float(np.minimum(block[i], block[j]).sum())
+            score += 0.5 * float(np.abs(block[i] - block[j]).sum())
+    return block.sum(axis=1) - overlap.max(axis=1), score
+
+
+def _site_windows(result, pad_ppm: float) -> list[tuple[float, float]]:
+    field_mhz = result.spectrum.field_mhz if result.spectrum is not None else 400.0
+    spans = []
+    for system, comp in zip(result.spin_systems, result.fit.components, strict=True):
+        refined = _refined_system(system, comp)
+        for k, site in enumerate(refined.sites):
+            half = float(np.sum(np.abs(refined.j_hz[k]) * refined.n_protons)) / field_mhz / 2 + pad_ppm
+            spans.append((site.shift_ppm - half, site.shift_ppm + half))
+    return _merge_spans(spans)
+
+
+def _merge_spans(spans, max_width_ppm: float = 0.5) -> list[tuple[float, float]]:
+    merged: list[list[float]] = []
+    for low, high in sorted(spans):
+        if merged and low <= merged[-1][1] and high - merged[-1][0] <= max_width_ppm:
+            merged[-1][1] = max(merged[-1][1], high)
+        else:
+            merged.append([low, high])
+    return [(a, b) for a, b in merged]
+
+
+# --- plots --------------------------------------------------------------------------------------
+
+
+def _decimate(x: np.ndarray, y: np.ndarray, n_bins: int = _PLOT_POINTS):
+    """Min/max envelope per bin so narrow peaks survive thinning for plotting."""
+    if x.size <= 2 * n_bins:
+        return x, y
+    edges = np.linspace(0, x.size, n_bins + 1).astype(int)
+    xs, ys = [], []
+    for a, b in zip(edges[:-1], edges[1:], strict=True):
+        seg = y[a:b]
+        i, j = sorted((int(np.argmin(seg)), int(np.argmax(seg))))
+        xs += [x[a + i], x[a + j]]
+        ys += [seg[i], seg[j]]
+    return np.array(xs), np.array(ys)
+
+
+def _figure_overview(result):
+    import matplotlib.pyplot as plt
+
+    fit = result.fit
+    fig, ax = plt.subplots(figsize=(9.0, 3.6))
+    if result.spectrum is not None:
+        ax.plot(*_decimate(result.spectrum.ppm, result.spectrum.intensity), color="#222222", lw=0.7,
+                label="measured")
+    ax.plot(*_decimate(fit.ppm, fit.model), color="#d1495b", lw=0.8, alpha=0.85, label="fitted mixture")
+    offset = -0.12 * float(np.max(np.abs(fit.model))) if fit.model.size else 0.0
+    ax.plot(*_decimate(fit.ppm, fit.residual + offset), color="#1b6e8a", lw=0.6, label="residual (offset)")
+    ax.set_xlim(float(fit.ppm.max()), float(fit.ppm.min()))
+    ax.set_xlabel("chemical shift / ppm")
+    ax.set_yticks([])
+    ax.legend(loc="upper left", frameon=False, fontsize=8)
+    ax.spines[["top", "right", "left"]].set_visible(False)
+    fig.tight_layout()
+    return fig
+
+
+def _figure_regions(result, curves: CandidateCurves, regions):
+    import matplotlib.pyplot as plt
+
+    n = max(len(regions), 1)
+    fig, axes = plt.subplots(1, n, figsize=(min(3.2 * n, 10.0), 4.4), squeeze=False)
+    for ax, (high, low) in zip(axes[0], regions, strict=False):
+        _draw_region(ax, result, curves, high, low)
+    if not regions:
+        empty = axes[0][0]
+        empty.text(0.5, 0.5, "no diagnostic region", ha="center", va="center", transform=empty.transAxes)
+        empty.set_axis_off()
+    handles, labels = axes[0][0].get_legend_handles_labels()
+    if handles:
+        fig.legend(handles, labels, loc="lower center", ncol=min(len(labels), 3), frameon=False, fontsize=7.5)
+    fig.tight_layout(rect=(0, 0.16 if handles else 0, 1, 1))
+    return fig
+
+
+def _draw_region(ax, result, curves, high, low):
+    fit = result.fit
+    inside = (fit.ppm <= high) & (fit.ppm >= low)
+    top = float(np.max(fit.model[inside])) if inside.any() else 1.0
+    if result.spectrum is not None:
+        sel = (result.spectrum.ppm <= high) & (result.spectrum.ppm >= low)
+        ax.plot(result.spectrum.ppm[sel], result.spectrum.intensity[sel], color="#222222", lw=0.8,
+                label="measured")
+    ax.plot(fit.ppm[inside], fit.model[inside], color="#888888", lw=0.8, ls="--", label="fitted mixture")
+    peak = max(float(np.max(curves.per_molecule[:, inside])) if inside.any() else 1.0, 1e-300)
+    step = 0.55 * max(top, 1e-300)
+    for k, comp in enumerate(fit.components):
+        base = -(k + 1) * step
+        trace = curves.per_molecule[k, inside] / peak * 0.9 * step
+        colour = _PALETTE[k % len(_PALETTE)]
+        ax.plot(fit.ppm[inside], base + trace, color=colour, lw=0.9, label=_component_legend(comp))
+        ax.plot(fit.ppm[inside], curves.fitted[k, inside], color=colour, lw=0.6, alpha=0.7)
+    ax.set_xlim(high, low)
+    ax.set_yticks([])
+    ax.set_xlabel("ppm")
+    ax.spines[["top", "right", "left"]].set_visible(False)
+
+
+def _component_legend(comp) -> str:
+    name = _label(comp.candidate)
+    if len(name) > 38:
+        name = name[:35] + "..."
+    if comp.detected:
+        return f"{name}: {100 * comp.mole_fraction:.1f} ± {100 * comp.mole_fraction_sd:.1f} %"
+    return f"{name}: not detected (< {100 * comp.detection_limit:.1f} %)"
+
+
+def _svg_of(fig, *, salt: str) -> str:
+    import matplotlib
+    import matplotlib.pyplot as plt
+
+    buffer = io.StringIO()
+    with matplotlib.rc_context({"svg.hashsalt": salt, "svg.fonttype": "none"}):
+        fig.savefig(buffer, format="svg", metadata={"Date": None})
+    plt.close(fig)
+    text = buffer.getvalue()
+    return text[text.index("<svg"):]
+
+
+def _save_figure(fig, stem: Path, *, salt: str) -> list[Path]:
+    import matplotlib
+    import matplotlib.pyplot as plt
+
+    written = []
+    with matplotlib.rc_context({"svg.hashsalt": salt, "svg.fonttype": "none"}):
+        for suffix, options in ((".png", {"dpi": 150}), (".svg", {"metadata": {"Date": None}})):
+            target = stem.with_suffix(suffix)
+            tmp = target.with_name(f".{target.name}.{os.getpid()}.tmp")
+            fig.savefig(tmp, format=suffix[1:], **options)
+            os.replace(tmp, target)
+            written.append(target)
+    plt.close(fig)
+    return written
+
+
+def _structure_svg(smiles: str, *, size: tuple[int, int] = (220, 160)) -> str:
+    from rdkit import Chem
+    from rdkit.Chem.Draw import rdMolDraw2D
+
+    mol = Chem.MolFromSmiles(smiles)
+    if mol is None:
+        return ""
+    drawer = rdMolDraw2D.MolDraw2DSVG(*size)
+    drawer.drawOptions().clearBackground = False
+    rdMolDraw2D.PrepareAndDrawMolecule(drawer, mol)
+    drawer.FinishDrawing()
+    text = drawer.GetDrawingText()
+    return text[text.index("<svg"):]
+
+
+# --- HTML ---------------------------------------------------------------------------------------
+
+_CSS = """
+:root { --ink:#1d2a33; --muted:#5b6b75; --line:#d5dde2; --head:#0f4c5c; --accent:#e36414;
+        --pass:#2b8a3e; --fail:#c92a2a; --unsure:#b7791f; --paper:#fbfaf7; }
+* { box-sizing: border-box; }
+body { font-family: "DejaVu Sans", "Segoe UI", Helvetica, Arial, sans-serif; color: var(--ink);
+       background: var(--paper); margin: 0; line-height: 1.45; font-size: 14px; }
+main { max-width: 1020px; margin: 0 auto; padding: 24px 28px 48px; }
+header.top { background: var(--head); color: #fff; padding: 18px 28px; }
+header.top h1 { margin: 0; font-size: 22px; letter-spacing: .3px; }
+header.top p { margin: 4px 0 0; opacity: .85; font-size: 13px; }
+h2 { color: var(--head); border-bottom: 2px solid var(--accent); padding-bottom: 3px; margin-top: 30px;
+     font-size: 17px; }
+.verdict { border-left: 6px solid var(--head); background: #fff; padding: 14px 18px; margin: 18px 0;
+           box-shadow: 0 1px 3px rgba(0,0,0,.08); }
+.verdict p.summary { font-size: 18px; margin: 0 0 6px; font-weight: 600; }
+.badge { display: inline-block; padding: 2px 10px; border-radius: 12px; font-weight: 700; color: #fff;
+         font-size: 13px; }
+.PASS { background: var(--pass); } .FAIL { background: var(--fail); }
+.INCONCLUSIVE { background: var(--unsure); }
+.conf-high, .conf-moderate { background: var(--pass); } .conf-low { background: var(--unsure); }
+.conf-undecided { background: var(--fail); }
+.caution { background: #fff4e6; border: 1px solid #f5c38b; padding: 10px 14px; font-size: 13px; }
+table { border-collapse: collapse; width: 100%; margin: 8px 0; font-size: 13px; background: #fff; }
+th, td { border-bottom: 1px solid var(--line); padding: 5px 8px; text-align: left; vertical-align: top; }
+th { background: #eef3f5; color: var(--head); font-weight: 600; }
+td.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
+code, .mono { font-family: "DejaVu Sans Mono", Consolas, monospace; font-size: 12px; word-break: break-all; }
+figure { margin: 10px 0; background: #fff; padding: 6px; border: 1px solid var(--line); }
+figure svg { width: 100%; height: auto; }
+figcaption { color: var(--muted); font-size: 12px; }
+.structure svg { width: 150px; height: auto; }
+ul { margin: 6px 0; padding-left: 20px; }
+.muted { color: var(--muted); }
+@page { size: A4; margin: 14mm 12mm 16mm; }
+@media print {
+  body { background: #fff; font-size: 10.5pt; }
+  main { max-width: none; padding: 0; }
+  header.top { background: #fff; color: var(--ink); border-bottom: 3px solid var(--head); padding: 0 0 6px; }
+  h2 { break-after: avoid; }
+  figure, table, .verdict, .caution, tr { break-inside: avoid; }
+  a { color: inherit; text-decoration: none; }
+}
+"""
+
+
+def _e(value) -> str:
+    return html.escape(str(value), quote=True)
+
+
+def _table(headers: Sequence[str], rows: Sequence[Sequence[str]], *, raw_columns: Sequence[int] = (),
+           num_columns: Sequence[int] = ()) -> str:
+    head = "".join(f"<th>{_e(h)}</th>" for h in headers)
+    body = []
+    for row in rows:
+        cells = []
+        for i, cell in enumerate(row):
+            text = cell if i in raw_columns else _e(cell)
+            css = ' class="num"' if i in num_columns else ""
+            cells.append(f"<td{css}>{text}</td>")
+        body.append("<tr>" + "".join(cells) + "</tr>")
+    return f"<table><thead><tr>{head}</tr></thead><tbody>{''.join(body)}</tbody></table>"
+
+
+def _list(items: Sequence[str], *, empty: str) -> str:
+    if not items:
+        return f'<p class="muted">{_e(empty)}</p>'
+    return "<ul>" + "".join(f"<li>{_e(item)}</li>" for item in items) + "</ul>"
+
+
+def _section(title: str, body: str, *, anchor: str) -> str:
+    return f'<section id="{anchor}"><h2>{_e(title)}</h2>{body}</section>'
+
+
+def _verdict_block(result, qc: QcResult | None) -> str:
+    verdict = result.verdict
+    badge = f'<span class="badge conf-{_e(verdict.confidence)}">confidence: {_e(verdict.confidence)}</span>'
+    qc_line = ""
+    if qc is not None:
+        qc_line = (f'<p><span class="badge {_e(qc.status)}">QC {_e(qc.status)}</span> '
+                   f"{_e(qc.summary)}</p>")
+    unresolved = ""
+    if verdict.unresolved or verdict.next_steps:
+        unresolved = ("<p><strong>Not decided by this spectrum:</strong></p>"
+                      + _list(verdict.unresolved, empty="-")
+                      + "<p><strong>What would settle it:</strong></p>"
+                      + _list(verdict.next_steps, empty="-"))
+    return (f'<div class="verdict" id="verdict"><p class="summary">{_e(verdict.summary)}</p>'
+            f"<p>{badge}</p>{qc_line}{unresolved}</div>"
+            f'<p class="caution"><strong>Caution.</strong> {_e(REPORT_CAUTION)}</p>')
+
+
+def _ratios_table(result) -> str:
+    rows = [(r.name, r.ratio_text, f"{100 * r.share:.1f} ± {100 * r.share_sd:.1f} %",
+             "yes" if r.decided else "no (cannot be decided from this spectrum)")
+            for r in result.verdict.ratios]
+    if not rows:
+        return ""
+    return "<h3>Ratios</h3>" + _table(("ratio", "as a:b", "share of the first", "decided"), rows,
+                                      num_columns=(1, 2))
+
+
+def _candidates_section(result) -> str:
+    rows = []
+    for comp in result.fit.components:
+        cand = comp.candidate
+        amount = f"{100 * comp.mole_fraction:.1f} ± {100 * comp.mole_fraction_sd:.1f} %"
+        rows.append((f'<div class="structure">{_structure_svg(cand.smiles)}</div>', _e(_label(cand)),
+                     f"<code>{_e(cand.smiles)}</code>", _e(", ".join(cand.pathways)), _e(amount),
+                     _e(f"{100 * comp.detection_limit:.1f} %"), "yes" if comp.detected else "no"))
+    headers = ("structure", "candidate", "SMILES", "pathways", "mole fraction", "detection limit", "detected")
+    return _table(headers, rows, raw_columns=range(7), num_columns=(4, 5)) + _ratios_table(result)
+
+
+def _evidence_section(result) -> str:
+    lines = list(result.verdict.evidence)
+    for comp in result.fit.components:
+        name = _label(comp.candidate)
+        lines += [text if text.startswith(name) else f"{name}: {text}" for text in comp.evidence]
+    return _list(list(dict.fromkeys(lines)), empty="No evidence lines were recorded.")
+
+
+def _warnings(result) -> list[str]:
+    return list(result.warnings) + [w for w in result.fit.warnings if w not in result.warnings]
+
+
+def _inputs_section(result) -> str:
+    rows = [(record.path, f'<span class="mono">{_e(record.sha256)}</span>') for record in result.inputs]
+    spectrum = result.spectrum
+    facts = []
+    if spectrum is not None:
+        facts = [("field", f"{spectrum.field_mhz:.2f} MHz"), ("nucleus", spectrum.nucleus),
+                 ("solvent", spectrum.solvent or "not recorded"), ("points", str(spectrum.ppm.size))]
+    table = _table(("file", "SHA-256"), [(_e(p), h) for p, h in rows], raw_columns=(0, 1))
+    return table + _table(("property", "value"), facts) if facts else table
+
+
+def _parameters_section(result) -> str:
+    fit = result.fit
+    rows = [("line width (fitted)", f"{fit.line_width_hz:.3g} Hz")]
+    rows += [(f"fit quality: {k}", _fmt(v)) for k, v in fit.quality.items()]
+    rows += [(str(k), _fmt(v)) for k, v in result.parameters.items()]
+    return _table(("parameter", "value"), rows)
+
+
+def _fmt(value) -> str:
+    if isinstance(value, float):
+        return f"{value:.6g}"
+    if isinstance(value, (list, tuple, dict)):
+        return json.dumps(value, default=str)
+    return str(value)
+
+
+def _qc_section(qc: QcResult) -> str:
+    rows = [(c.name, c.limit_text, c.measured_text(),
+             f"{c.interval[0]:.2f} to {c.interval[1]:.2f}" if c.interval else "-",
+             f'<span class="badge {_e(c.status)}">{_e(c.status)}</span>', c.reason) for c in qc.checks]
+    rows = [tuple(_e(x) if i != 4 else x for i, x in enumerate(r)) for r in rows]
+    spec = qc.spec
+    about = (f"<p>Specification: <strong>{_e(spec.name or 'unnamed')}</strong>, expected product "
+             f"<code>{_e(spec.product)}</code>, file SHA-256 "
+             f'<span class="mono">{_e(spec.sha256)}</span>.</p>'
+             '<p class="muted">Each limit is decided from the 95 % interval of the measured value: '
+             "PASS only when the whole interval meets the limit, FAIL only when none of it does.</p>")
+    table = _table(("check", "limit", "measured", "95 % interval", "result", "why"), rows,
+                   raw_columns=range(6), num_columns=(2, 3))
+    return about + table
+
+
+def _yield_section(yields: Sequence[ProductYield]) -> str:
+    headers, rows = format_yield_rows(yields)
+    return _table(headers, rows, num_columns=(2, 3, 4, 5)) + (
+        '<p class="muted">Amounts against the internal standard: n = (I/I<sub>std</sub>)'
+        "(N<sub>std</sub>/N) n<sub>std</sub> (Pauli et al., J. Med. Chem. 2014, 57, 9220); "
+        "uncertainties are standard uncertainties (1 sd).</p>")
+
+
+def _figure(svg: str, caption: str) -> str:
+    return f"<figure>{svg}<figcaption>{_e(caption)}</figcaption></figure>"
+
+
+def render_html_report(result, *, qc: QcResult | None = None,
+                       nmr_yield: Sequence[ProductYield] | None = None) -> str:
+    """The report as one HTML string (see :func:`write_html_report`)."""
+    import matplotlib
+
+    matplotlib.use("Agg", force=False)
+    curves = candidate_curves(result)
+    regions = choose_diagnostic_regions(result, curves)
+    overview = _svg_of(_figure_overview(result), salt="confirm-overview")
+    region_svg = _svg_of(_figure_regions(result, curves, regions), salt="confirm-regions")
+    versions = software_versions()
+    title = "Reaction outcome report" if qc is None else "QC sign-off report"
+    parts = [
+        _verdict_block(result, qc),
+        _section("QC sign-off", _qc_section(qc), anchor="qc") if qc is not None else "",
+        _section("NMR yield", _yield_section(nmr_yield), anchor="yield") if nmr_yield else "",
+        _section("Sample and files", _inputs_section(result), anchor="inputs"),
+        _section("Spectrum and fitted mixture", _figure(
+            overview, "Measured spectrum (black), fitted mixture (red) and residual (blue, shifted down)."),
+            anchor="spectrum"),
+        _section("Diagnostic regions", _figure(
+            region_svg, "Top: measured and fitted. Below: each candidate's model at its refined shifts "
+            "(one molecule's worth, stacked), labelled with its fitted mole fraction; thin coloured lines "
+            "are each candidate's fitted share."), anchor="regions"),
+        _section("Candidates", _candidates_section(result), anchor="candidates"),
+        _section("Evidence", _evidence_section(result), anchor="evidence"),
+        _section("Points to watch", _list(_warnings(result), empty="No warnings."), anchor="warnings"),
+        _section("How it was processed and fitted", _parameters_section(result), anchor="parameters"),
+        _section("Software", _table(("package", "version"), sorted(versions.items())), anchor="software"),
+    ]
+    generated = datetime.now(timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
+    source = result.inputs[0].path if result.inputs else "peak list"
+    return (
+        "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
+        "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">"
+        f"<title>{_e(title)}: {_e(Path(source).name)}</title><style>{_CSS}</style></head><body>"
+        f'<header class="top"><h1>{_e(title)}</h1><p>{_e(source)} &middot; confirm {_e(result.version)} '
+        f"&middot; generated {_e(generated)}</p></header><main>{''.join(parts)}</main></body></html>\n"
+    )
+
+
+def _check_target(path: Path) -> Path:
+    path = Path(path)
+    if not path.parent.resolve().is_dir():
+        raise InputError(f"report path: folder {str(path.parent)!r} does not exist")
+    if path.is_dir():
+        raise InputError(f"report path: {str(path)!r} is a folder; give a file name ending in .html")
+    return path
+
+
+def write_html_report(result, path, *, qc: QcResult | None = None,
+                      nmr_yield: Sequence[ProductYield] | None = None) -> Path:
+    """Write the self-contained HTML report of ``result`` to ``path``.
+
+    Parameters
+    ----------
+    result : confirm.results.AnalysisResult
+    path : str or Path
+        Target file; written through a temporary file and a rename.
+    qc : QcResult, keyword-only
+        Adds the QC sign-off section and the QC status to the verdict.
+    nmr_yield : sequence of ProductYield, keyword-only
+        Adds the NMR-yield section.
+
+    Returns
+    -------
+    Path
+        The written file.
+    """
+    path = _check_target(Path(path))
+    text = render_html_report(result, qc=qc, nmr_yield=nmr_yield)
+    tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
+    try:
+        tmp.write_text(text, encoding="utf-8")
+        os.replace(tmp, path)
+    finally:
+        if tmp.exists():
+            tmp.unlink()
+    return path
+
+
+def _write_text_atomic(path: Path, text: str) -> Path:
+    tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
+    tmp.write_text(text, encoding="utf-8")
+    os.replace(tmp, path)
+    return path
+
+
+def _components_csv(result) -> str:
+    buffer = io.StringIO()
+    writer = csv.writer(buffer, lineterminator="\n")
+    writer.writerow(["smiles", "label", "pathways", "mole_fraction", "mole_fraction_sd", "detection_limit",
+                     "detected"])
+    for comp in result.fit.components:
+        writer.writerow([comp.candidate.smiles, comp.candidate.label, ";".join(comp.candidate.pathways),
+                         f"{comp.mole_fraction:.6f}", f"{comp.mole_fraction_sd:.6f}",
+                         f"{comp.detection_limit:.6f}", int(comp.detected)])
+    return buffer.getvalue()
+
+
+def _spectrum_csv(result, curves: CandidateCurves) -> str:
+    fit = result.fit
+    buffer = io.StringIO()
+    writer = csv.writer(buffer, lineterminator="\n")
+    measured = fit.model + fit.residual
+    writer.writerow(["ppm", "measured", "fitted_mixture", "residual",
+                     *[f"model:{c.candidate.smiles}" for c in fit.components]])
+    for i in range(fit.ppm.size):
+        writer.writerow([f"{fit.ppm[i]:.6f}", f"{measured[i]:.6g}", f"{fit.model[i]:.6g}",
+                         f"{fit.residual[i]:.6g}", *[f"{v:.6g}" for v in curves.fitted[:, i]]])
+    return buffer.getvalue()
+
+
+def export_result_files(result, out_dir, *, qc: QcResult | None = None,
+                        nmr_yield: Sequence[ProductYield] | None = None) -> dict[str, Path]:
+    """Write the plots (PNG and SVG), CSV tables and the JSON result into ``out_dir``.
+
+    Files: ``spectrum.png/.svg`` (whole spectrum, fit, residual),
+    ``regions.png/.svg`` (diagnostic regions), ``components.csv``,
+    ``fitted_spectrum.csv`` (ppm, measured, fitted, residual, each component)
+    and ``result.json`` (the analyze JSON plus QC and yield when given).
+
+    Returns
+    -------
+    dict of str to Path
+        Name of each file to its path.
+    """
+    import matplotlib
+
+    matplotlib.use("Agg", force=False)
+    out = Path(out_dir)
+    if not out.is_dir():
+        raise InputError(f"out_dir: {str(out)!r} is not an existing folder")
+    curves = candidate_curves(result)
+    regions = choose_diagnostic_regions(result, curves)
+    written = _save_figure(_figure_overview(result), out / "spectrum", salt="confirm-overview")
+    written += _save_figure(_figure_regions(result, curves, regions), out / "regions", salt="confirm-regions")
+    written.append(_write_text_atomic(out / "components.csv", _components_csv(result)))
+    written.append(_write_text_atomic(out / "fitted_spectrum.csv", _spectrum_csv(result, curves)))
+    payload = result.to_json()
+    if qc is not None:
+        payload["qc"] = qc_to_json(qc)
+    if nmr_yield:
+        payload["nmr_yield"] = yields_to_json(nmr_yield)
+    from confirm.commands._common import to_jsonable
+
+    written.append(_write_text_atomic(out / "result.json",
+                                      json.dumps(to_jsonable(payload), indent=2, allow_nan=False) + "\n"))
+    return {p.name: p for p in written}

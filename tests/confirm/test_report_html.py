@@ -1,0 +1,196 @@
+"""The self-contained HTML report and the files exported beside it."""
+
+from __future__ import annotations
+
+import csv
+import json
+import re
+import xml.etree.ElementTree as ET
+from html.parser import HTMLParser
+
+import numpy as np
+import pytest
+
+from confirm.qc import CAUTION, evaluate_qc, parse_spec
+from confirm.qnmr import InternalStandard, yield_from_result
+from confirm.report_html import (
+    candidate_curves,
+    choose_diagnostic_regions,
+    export_result_files,
+    render_html_report,
+    write_html_report,
+)
+from predictors.errors import InputError
+from tests.confirm._synthetic_results import (
+    E_PENTENE,
+    PENT_1_ENE,
+    STANDARD,
+    Z_PENTENE,
+    Part,
+    build_result,
+    pentene_mixture,
+)
+
+_VOID = {"meta", "br", "img", "hr", "input", "link", "area", "base", "col", "embed", "source", "track", "wbr"}
+
+
+class _Checker(HTMLParser):
+    """Collects visible text and checks that every element that is opened is closed."""
+
+    def __init__(self):
+        super().__init__()
+        self.stack: list[str] = []
+        self.text: list[str] = []
+        self.errors: list[str] = []
+        self.tags: list[tuple[str, dict]] = []
+
+    def handle_starttag(self, tag, attrs):
+        self.tags.append((tag, dict(attrs)))
+        if tag not in _VOID:
+            self.stack.append(tag)
+
+    def handle_startendtag(self, tag, attrs):
+        self.tags.append((tag, dict(attrs)))
+
+    def handle_endtag(self, tag):
+        if not self.stack or self.stack[-1] != tag:
+            self.errors.append(f"unexpected </{tag}> with open {self.stack[-3:]}")
+        else:
+            self.stack.pop()
+
+    def handle_data(self, data):
+        if self.stack and self.stack[-1] not in ("style",):
+            self.text.append(data)
+
+
+def _parse(text: str) -> _Checker:
+    checker = _Checker()
+    checker.feed(text)
+    checker.close()
+    return checker
+
+
+@pytest.fixture(scope="module")
+def mixture():
+    return pentene_mixture(0.80, 0.15, 0.05, 0.0, summary="The major product is (E)-pent-2-ene (80 %).")
+
+
+@pytest.fixture(scope="module")
+def report_text(mixture):
+    return render_html_report(mixture)
+
+
+def test_report_is_well_formed_and_self_contained(report_text):
+    checker = _parse(report_text)
+    assert checker.errors == [] and checker.stack == []
+    assert report_text.startswith("<!DOCTYPE html>")
+    assert "<script" not in report_text
+    for _tag, attrs in checker.tags:
+        for key in ("src", "href"):
+            value = attrs.get(key) or ""
+            assert not re.match(r"^(https?:)?//", value), f"external resource {value}"
+    assert "@page" in report_text and "A4" in report_text
+
+
+def test_verdict_comes_first_and_caution_is_stated(report_text, mixture):
+    text = " ".join(" ".join(_parse(report_text).text).split())
+    assert text.index(mixture.verdict.summary) < text.index("Candidates")
+    assert CAUTION in text
+    assert "decision aid" in text and "analyst's judgement" in text
+
+
+def test_report_lists_inputs_candidates_and_versions(report_text, mixture):
+    assert mixture.inputs[0].sha256 in report_text
+    for smiles in (E_PENTENE, Z_PENTENE, PENT_1_ENE):
+        assert smiles in report_text
+    assert "80.0 ± 0.3 %" in report_text
+    assert "not detected" in report_text  # the starting material
+    assert report_text.count("<svg") >= 2 + len(mixture.candidates)  # two plots and every structure
+    for name in ("rdkit", "numpy", "matplotlib", "confirm"):
+        assert f"<td>{name}</td>" in report_text
+    assert "lb_hz" in report_text and "E:Z pent-2-ene" in report_text
+
+
+@pytest.fixture(scope="module")
+def small():
+    return build_result([Part(E_PENTENE, 1.0, label="<b>bold</b> & co")], major=E_PENTENE,
+                        summary='Major: "<script>alert(1)</script>"')
+
+
+def test_text_is_escaped(small):
+    text = render_html_report(small)
+    assert "<script>" not in text and "&lt;script&gt;" in text
+    assert "&lt;b&gt;bold&lt;/b&gt; &amp; co" in text
+
+
+def test_qc_and_yield_sections(mixture):
+    spec = parse_spec({"product": "C/C=C/CC", "candidates": ["C/C=C\\CC", "C=CCCC"],
+                       "limits": {"max_other_isomer_percent": 2.0}})
+    qc = evaluate_qc(mixture, spec)
+    with_standard = build_result([Part(STANDARD, 0.4, pathways=("user",)), Part(E_PENTENE, 0.6)],
+                                 major=E_PENTENE)
+    yields = yield_from_result(with_standard, InternalStandard(smiles=STANDARD, n_h=3, mass_mg=16.82),
+                               theoretical_mmol=0.2)
+    text = render_html_report(mixture, qc=qc, nmr_yield=yields)
+    assert qc.status == "FAIL"
+    assert 'class="badge FAIL"' in text and "QC sign-off" in text
+    assert "other isomer: (Z)-pent-2-ene" in text
+    assert "NMR yield" in text and f"{yields[0].yield_percent:.1f} ±" in text
+    assert spec.sha256 in text
+
+
+def test_candidate_curves_reproduce_the_fitted_mixture(mixture):
+    # the hand-built fit model is the sum of fraction * model_spectrum: the curves must add up to it
+    curves = candidate_curves(mixture)
+    assert curves.fitted.shape == (4, mixture.fit.ppm.size)
+    scale = mixture.fit.model.max()
+    np.testing.assert_allclose(curves.fitted.sum(axis=0), mixture.fit.model, atol=1e-6 * scale)
+
+
+def test_diagnostic_regions_include_each_detected_candidates_own_signals(mixture):
+    regions = choose_diagnostic_regions(mixture, candidate_curves(mixture))
+    assert 1 <= len(regions) <= 4
+    assert all(high > low for high, low in regions)
+    assert [r[0] for r in regions] == sorted((r[0] for r in regions), reverse=True)
+    # pent-1-ene's =CH2 (4.97 ppm) is its own; the pent-2-ene vinyl region (5.3-5.5 ppm) tells E from Z
+    assert any(low < 4.97 < high for high, low in regions)
+    assert any(low < 5.42 < high for high, low in regions)
+
+
+def test_write_report_is_atomic_and_checks_the_folder(tmp_path, small):
+    target = write_html_report(small, tmp_path / "report.html")
+    assert target.read_text(encoding="utf-8").startswith("<!DOCTYPE html>")
+    assert [p.name for p in tmp_path.iterdir()] == ["report.html"]
+    with pytest.raises(InputError, match="report path"):
+        write_html_report(small, tmp_path / "missing" / "report.html")
+    with pytest.raises(InputError, match="folder"):
+        write_html_report(small, tmp_path)
+
+
+def test_reports_repeat_except_the_generation_time(mixture, report_text):
+    first, second = report_text, render_html_report(mixture)
+    strip = re.compile(r"generated [0-9-]+ [0-9:]+ UTC")
+    assert strip.sub("", first) == strip.sub("", second)
+
+
+def test_export_writes_plots_tables_and_json(tmp_path, mixture):
+    files = export_result_files(mixture, tmp_path)
+    assert set(files) == {"spectrum.png", "spectrum.svg", "regions.png", "regions.svg", "components.csv",
+                          "fitted_spectrum.csv", "result.json"}
+    for name in ("spectrum.png", "regions.png"):
+        assert files[name].read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    for name in ("spectrum.svg", "regions.svg"):
+        assert ET.parse(files[name]).getroot().tag.endswith("svg")
+    with open(files["components.csv"], newline="") as handle:
+        rows = list(csv.DictReader(handle))
+    assert [r["smiles"] for r in rows] == [c.candidate.smiles for c in mixture.fit.components]
+    assert float(rows[0]["mole_fraction"]) == pytest.approx(0.80)
+    with open(files["fitted_spectrum.csv"], newline="") as handle:
+        header = next(csv.reader(handle))
+        n_rows = sum(1 for _ in handle)
+    assert header[:4] == ["ppm", "measured", "fitted_mixture", "residual"] and n_rows == mixture.fit.ppm.size
+    data = json.loads(files["result.json"].read_text())
+    assert data["verdict"]["major"] == E_PENTENE
+    assert not any(p.name.endswith(".tmp") for p in tmp_path.iterdir())
+    with pytest.raises(InputError, match="out_dir"):
+        export_result_files(mixture, tmp_path / "absent")
