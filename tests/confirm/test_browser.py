@@ -1,0 +1,105 @@
+"""Open an HTML report in real headless Chromium: no console errors, verdict shown, screenshot saved.
+
+Needs Debian's ``chromium`` package (``.ci/run`` installs it when missing); skipped
+with a reason when ``/usr/bin/chromium`` is absent. Set ``CONFIRM_SCREENSHOT_DIR`` to
+keep the screenshot.
+"""
+
+from __future__ import annotations
+
+import html
+import json
+import os
+import re
+import shutil
+import subprocess
+from pathlib import Path
+
+import pytest
+
+from confirm.qc import evaluate_qc, parse_spec
+from confirm.report_html import write_html_report
+from tests.confirm._synthetic_results import pentene_mixture
+
+CHROMIUM = Path("/usr/bin/chromium")
+VERDICT = "The major product is (E)-pent-2-ene, 80 % of the alkenes."
+
+pytestmark = pytest.mark.skipif(not CHROMIUM.exists(),
+                                reason="Debian chromium not installed (/usr/bin/chromium)")
+
+# Recorded into the DOM: uncaught errors and failed resource loads (capture phase), then on load
+# the number of drawn SVG elements and the verdict text as the browser laid it out.
+_PROBE_HEAD = (
+    "<script>window.__problems=[];window.addEventListener('error',function(e){"
+    "var t=e.target;window.__problems.push(String(e.message||(t&&(t.src||t.href))||e.type));},true);"
+    "</script>"
+)
+_PROBE_LOAD = (
+    "<script>window.addEventListener('load',function(){var d=document.createElement('div');"
+    "d.id='probe';var v=document.getElementById('verdict');"
+    "d.setAttribute('data-problems',JSON.stringify(window.__problems));"
+    "d.setAttribute('data-svgs',String(document.querySelectorAll('svg').length));"
+    "d.setAttribute('data-verdict',v?v.innerText:'');"
+    "d.setAttribute('data-verdict-height',v?String(v.getBoundingClientRect().height):'0');"
+    "document.body.appendChild(d);});</script>"
+)
+
+
+def _chromium(profile: Path, *args: str) -> subprocess.CompletedProcess:
+    command = [str(CHROMIUM), "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic",
+               "--no-first-run", "--disable-background-networking", "--disable-component-update",
+               "--disable-sync",
+               f"--user-data-dir={profile}", "--enable-logging=stderr", "--v=0", *args]
+    return subprocess.run(command, capture_output=True, text=True, timeout=120, check=False)
+
+
+def _console_errors(stderr: str) -> list[str]:
+    lines = [line for line in stderr.splitlines() if ":CONSOLE" in line]
+    return [line for line in lines if re.search(r"error|uncaught|failed", line, re.IGNORECASE)]
+
+
+@pytest.fixture(scope="module")
+def report(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("browser")
+    result = pentene_mixture(0.80, 0.15, 0.05, 0.0, summary=VERDICT)
+    spec = parse_spec({"product": "C/C=C/CC", "candidates": ["C/C=C\\CC", "C=CCCC"],
+                       "limits": {"max_other_isomer_percent": 2.0}})
+    return write_html_report(result, folder / "report.html", qc=evaluate_qc(result, spec))
+
+
+@pytest.mark.slow
+def test_report_renders_without_errors_and_shows_the_verdict(report, tmp_path):
+    probed = tmp_path / "probed.html"
+    text = report.read_text(encoding="utf-8")
+    text = text.replace("<head>", "<head>" + _PROBE_HEAD, 1).replace("</body>", _PROBE_LOAD + "</body>")
+    probed.write_text(text, encoding="utf-8")
+    proc = _chromium(tmp_path / "profile", "--virtual-time-budget=5000", "--dump-dom", probed.as_uri())
+    assert proc.returncode == 0, proc.stderr[-2000:]
+    match = re.search(r'<div id="probe"([^>]*)>', proc.stdout)
+    assert match, "the load probe did not run: " + proc.stdout[-500:]
+    attrs = dict(re.findall(r'([\w-]+)="([^"]*)"', match.group(1)))
+    assert json.loads(html.unescape(attrs["data-problems"])) == []
+    assert _console_errors(proc.stderr) == []
+    assert VERDICT in html.unescape(attrs["data-verdict"])
+    assert "QC FAIL" in html.unescape(attrs["data-verdict"])
+    assert float(attrs["data-verdict-height"]) > 0
+    assert int(attrs["data-svgs"]) >= 6  # two plots and four structures
+
+
+@pytest.mark.slow
+def test_screenshot_of_the_report(report, tmp_path):
+    shot = tmp_path / "report.png"
+    proc = _chromium(tmp_path / "profile", "--window-size=1100,1600", "--hide-scrollbars",
+                     f"--screenshot={shot}", report.as_uri())
+    assert proc.returncode == 0, proc.stderr[-2000:]
+    assert _console_errors(proc.stderr) == []
+    data = shot.read_bytes()
+    assert data[:8] == b"\x89PNG\r\n\x1a\n"
+    from matplotlib import image
+
+    pixels = image.imread(shot)
+    assert pixels.shape[0] == 1600 and pixels.shape[1] == 1100
+    assert pixels[..., :3].std() > 0.05  # drawn content, not a blank page
+    keep = os.environ.get("CONFIRM_SCREENSHOT_DIR")
+    if keep:
+        shutil.copy(shot, Path(keep) / "report.png")
