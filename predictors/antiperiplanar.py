@@ -32,7 +32,7 @@ __all__ = [
 MAX_STRAIN_KCAL = 10.0
 #: Largest deviation (deg) from the target dihedral that still counts as periplanar.
 TOLERANCE_DEG = 20.0
-_RESTRAINT_KCAL = 1.0e4
+_RESTRAINT_KCAL = 500.0
 _MAX_ITERS = 600
 
 
@@ -232,8 +232,22 @@ def _start_conformers(confs: ConformerSet, atoms: tuple[int, int, int, int], tar
     return best
 
 
+def _handedness(mol: Chem.Mol, conf) -> tuple[bool, ...]:
+    """Sign of the volume spanned by three neighbours of every four-coordinate atom."""
+    pos = conf.GetPositions()
+    signs = []
+    for atom in mol.GetAtoms():
+        if atom.GetDegree() == 4:
+            c = pos[atom.GetIdx()]
+            n = [pos[x.GetIdx()] - c for x in atom.GetNeighbors()][:3]
+            signs.append(bool(np.linalg.det(np.array(n)) > 0))
+    return tuple(signs)
+
+
 def _constrained_minimum(confs: ConformerSet, cid: int, atoms, target_deg: float) -> tuple[Chem.Mol, float]:
+    """Minimise with the dihedral restrained; energy is inf when a centre was inverted on the way."""
     mol = Chem.Mol(confs.mol, confId=cid)
+    before = _handedness(mol, mol.GetConformer())
     props = ff_helpers.MMFFGetMoleculeProperties(mol)
     field = ff_helpers.MMFFGetMoleculeForceField(mol, props)
     field.MMFFAddTorsionConstraint(*atoms, False, target_deg - 1.0, target_deg + 1.0, _RESTRAINT_KCAL)
@@ -241,6 +255,8 @@ def _constrained_minimum(confs: ConformerSet, cid: int, atoms, target_deg: float
     conf = mol.GetConformer()
     for i, xyz in enumerate(np.asarray(field.Positions()).reshape(-1, 3)):
         conf.SetAtomPosition(i, xyz.tolist())
+    if _handedness(mol, conf) != before:
+        return mol, float("inf")
     energy = ff_helpers.MMFFGetMoleculeForceField(mol, props).CalcEnergy()
     return mol, float(energy)
 
@@ -315,6 +331,8 @@ def find_periplanar(confs: ConformerSet, *, h_idx: int, beta_idx: int, alpha_idx
             best = (score, mol, energy, dihedral)
     _, mol, energy, dihedral = best
     strain = max(0.0, energy - confs.min_energy_kcal)
+    if not np.isfinite(strain):
+        strain = 99.0  # every start inverted a centre: not reachable
     ring = _shared_six_ring(mol, alpha_idx, beta_idx)
     chair_ok = ring is None or _is_chair(mol, ring)
     return PeriplanarResult(
