@@ -1,0 +1,285 @@
+"""Peak picking, integration and first-order multiplet analysis of a 1D spectrum.
+
+``pick_peaks`` finds local maxima above a multiple of the noise, places them by
+parabolic interpolation, measures their full width at half height and
+integrates each over the stretch it owns (bounded by the valleys to its
+neighbours and by +-32 line widths, which holds 99 % of a Lorentzian's area:
+references.md section 5). ``group_multiplets`` joins lines closer than the
+largest expected coupling and takes the multiplet apart as a first-order
+pattern: line heights are turned into whole numbers of "units" (the outer
+lines carry one each), the 2**k unit positions are split pair by pair, the
+smallest remaining spacing being the next coupling (the procedure of Hoye,
+Hanson and Vyvyan, J. Org. Chem. 1994, 59, 4096). Patterns that do not come
+apart this way are reported as ``"m"`` without couplings.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.signal import find_peaks, peak_widths
+
+from predictors.core import Spectrum
+from predictors.errors import InputError
+
+__all__ = ["Peak", "Multiplet", "pick_peaks", "group_multiplets", "integrate_region"]
+
+_MULTIPLICITY_NAMES = {1: "d", 2: "t", 3: "q", 4: "quint", 5: "sext", 6: "sept"}
+
+
+@dataclass(frozen=True)
+class Peak:
+    """One line of a spectrum.
+
+    Attributes
+    ----------
+    ppm : float
+        Interpolated position of the maximum.
+    height : float
+        Interpolated maximum intensity.
+    integral : float
+        Area (intensity x Hz) over the stretch the line owns.
+    width_hz : float
+        Full width at half height.
+    index : int
+        Index of the maximum in the spectrum arrays.
+    start_ppm, stop_ppm : float
+        Integration limits (start > stop).
+    """
+
+    ppm: float
+    height: float
+    integral: float
+    width_hz: float
+    index: int
+    start_ppm: float
+    stop_ppm: float
+
+
+@dataclass(frozen=True)
+class Multiplet:
+    """A group of lines from one proton environment.
+
+    Attributes
+    ----------
+    ppm : float
+        Centre (first-order centre when analysed, else area-weighted).
+    integral : float
+        Sum of the lines' integrals (intensity x Hz).
+    j_hz : tuple of float
+        Couplings, largest first (empty for singlets and unresolved ``"m"``).
+    n_lines : int
+        Number of resolved lines.
+    peak_indices : tuple of int
+        Positions of the lines in the peak tuple given to :func:`group_multiplets`.
+    multiplicity : str
+        ``"s"``, ``"d"``, ``"t"``, ``"dd"``, ``"ddt"``... or ``"m"``.
+    start_ppm, stop_ppm : float
+        Integration limits of the whole multiplet.
+    """
+
+    ppm: float
+    integral: float
+    j_hz: tuple[float, ...]
+    n_lines: int
+    peak_indices: tuple[int, ...]
+    multiplicity: str
+    start_ppm: float
+    stop_ppm: float
+
+
+def integrate_region(spectrum: Spectrum, start_ppm: float, stop_ppm: float) -> float:
+    """Area (intensity x Hz) of ``spectrum`` between two shifts (trapezoid rule)."""
+    lo, hi = sorted((start_ppm, stop_ppm))
+    mask = (spectrum.ppm >= lo) & (spectrum.ppm <= hi)
+    if mask.sum() < 2:
+        return 0.0
+    return float(np.sum(spectrum.intensity[mask]) * spectrum.hz_per_point)
+
+
+def pick_peaks(spectrum: Spectrum, *, noise_sd: float, threshold_snr: float = 8.0,
+               tail_widths: float = 32.0, ppm_range: tuple[float, float] | None = None) -> tuple[Peak, ...]:
+    """Find lines higher than ``threshold_snr`` x ``noise_sd``.
+
+    Parameters
+    ----------
+    spectrum : Spectrum
+        Phased, baseline-corrected spectrum (ppm decreasing).
+    noise_sd : float
+        Standard deviation of the noise, > 0.
+    threshold_snr : float, optional
+        Minimum height and prominence in units of ``noise_sd``.
+    tail_widths : float, optional
+        Integration reaches at most this many line widths beyond a line.
+    ppm_range : (float, float), optional
+        Only report lines inside this range.
+
+    Returns
+    -------
+    tuple of Peak
+        Sorted by decreasing ppm.
+    """
+    if not (isinstance(noise_sd, (int, float, np.floating)) and math.isfinite(noise_sd) and noise_sd > 0):
+        raise InputError(f"noise_sd: expected a finite number > 0, got {noise_sd!r}")
+    if not threshold_snr > 0:
+        raise InputError(f"threshold_snr: expected > 0, got {threshold_snr!r}")
+    y = spectrum.intensity
+    threshold = threshold_snr * noise_sd
+    indices, _ = find_peaks(y, height=threshold, prominence=0.5 * threshold)
+    if ppm_range is not None:
+        lo, hi = sorted(ppm_range)
+        indices = indices[(spectrum.ppm[indices] >= lo) & (spectrum.ppm[indices] <= hi)]
+    hz_per_point = spectrum.hz_per_point
+    widths = _half_height_widths(y, indices)
+    peaks = []
+    for k, i in enumerate(indices):
+        ppm, height = _interpolate_max(spectrum, int(i))
+        width_hz = float(widths[k]) * hz_per_point
+        reach = max(3, int(round(tail_widths * width_hz / hz_per_point)))
+        left = _valley(y, indices[k - 1], i) if k > 0 else 0
+        right = _valley(y, i, indices[k + 1]) if k + 1 < len(indices) else y.size - 1
+        left, right = max(left, int(i) - reach), min(right, int(i) + reach)
+        area = float(np.sum(y[left:right + 1]) * hz_per_point)
+        peaks.append(Peak(ppm=ppm, height=height, integral=area, width_hz=width_hz, index=int(i),
+                          start_ppm=float(spectrum.ppm[left]), stop_ppm=float(spectrum.ppm[right])))
+    return tuple(peaks)
+
+
+def _interpolate_max(spectrum: Spectrum, i: int) -> tuple[float, float]:
+    y, ppm = spectrum.intensity, spectrum.ppm
+    if i == 0 or i == y.size - 1:
+        return float(ppm[i]), float(y[i])
+    a, b, c = y[i - 1], y[i], y[i + 1]
+    denom = a - 2 * b + c
+    shift = 0.5 * (a - c) / denom if denom < 0 else 0.0
+    step = ppm[i + 1] - ppm[i]
+    return float(ppm[i] + shift * step), float(b - 0.25 * (a - c) * shift)
+
+
+def _half_height_widths(y: np.ndarray, indices: np.ndarray) -> np.ndarray:
+    """Full widths (points) at half of each line's own height above zero."""
+    if indices.size == 0:
+        return np.zeros(0)
+    heights = y[indices]
+    bases = (np.zeros(indices.size, dtype=np.intp), np.full(indices.size, y.size - 1, dtype=np.intp))
+    widths = peak_widths(y, indices, rel_height=0.5, prominence_data=(heights, *bases))[0]
+    return np.maximum(widths, 1.0)
+
+
+def _valley(y: np.ndarray, i: int, j: int) -> int:
+    i, j = int(i), int(j)
+    return i + int(np.argmin(y[i:j + 1]))
+
+
+def group_multiplets(peaks: tuple[Peak, ...], *, field_mhz: float, max_j_hz: float = 20.0,
+                     tolerance_hz: float = 0.6, minor_ratio: float = 25.0) -> tuple[Multiplet, ...]:
+    """Group lines into multiplets and extract first-order couplings.
+
+    Parameters
+    ----------
+    peaks : tuple of Peak
+        Lines sorted by decreasing ppm (as :func:`pick_peaks` returns them).
+    field_mhz : float
+        Spectrometer frequency, to turn ppm spacings into Hz.
+    max_j_hz : float, optional
+        Adjacent lines closer than this belong to the same multiplet.
+    tolerance_hz : float, optional
+        How closely line spacings must agree to count as one coupling.
+    minor_ratio : float, optional
+        A line with a line this many times taller within 3 x ``max_j_hz``
+        (a 13C satellite, shoulder or trace impurity) joins no multiplet.
+
+    Returns
+    -------
+    tuple of Multiplet
+        Sorted by decreasing ppm.
+    """
+    if not (field_mhz and math.isfinite(field_mhz) and field_mhz > 0):
+        raise InputError(f"field_mhz: expected a finite number > 0, got {field_mhz!r}")
+    if not max_j_hz > 0 or not tolerance_hz > 0:
+        raise InputError(f"max_j_hz / tolerance_hz: expected > 0, got {max_j_hz!r} / {tolerance_hz!r}")
+    order = sorted(range(len(peaks)), key=lambda k: -peaks[k].ppm)
+    major = [k for k in order if not _is_minor(peaks, k, field_mhz, 3.0 * max_j_hz, minor_ratio)]
+    groups: list[list[int]] = []
+    for k in major:
+        if groups and (peaks[groups[-1][-1]].ppm - peaks[k].ppm) * field_mhz <= max_j_hz:
+            groups[-1].append(k)
+        else:
+            groups.append([k])
+    return tuple(_describe_group([peaks[k] for k in g], tuple(g), field_mhz, tolerance_hz) for g in groups)
+
+
+def _is_minor(peaks, k: int, field_mhz: float, reach_hz: float, ratio: float) -> bool:
+    """True when a line ``ratio`` times taller lies within ``reach_hz`` (a shoulder, satellite or trace)."""
+    return any(abs(p.ppm - peaks[k].ppm) * field_mhz <= reach_hz and p.height > ratio * peaks[k].height
+               for p in peaks)
+
+
+def _describe_group(lines: list[Peak], indices: tuple[int, ...], field_mhz: float,
+                    tolerance_hz: float) -> Multiplet:
+    integral = float(sum(p.integral for p in lines))
+    start, stop = max(p.start_ppm for p in lines), min(p.stop_ppm for p in lines)
+    weights = np.array([max(p.integral, 0.0) for p in lines]) + 1e-300
+    centroid = float(np.average([p.ppm for p in lines], weights=weights))
+    if len(lines) == 1:
+        return Multiplet(lines[0].ppm, integral, (), 1, indices, "s", start, stop)
+    freqs = np.array([p.ppm * field_mhz for p in lines])[::-1]  # ascending Hz
+    heights = np.array([p.height for p in lines])[::-1]
+    analysis = _first_order(freqs, heights, tolerance_hz)
+    if analysis is None:
+        return Multiplet(centroid, integral, (), len(lines), indices, "m", start, stop)
+    centre_hz, couplings = analysis
+    j_sorted = tuple(sorted((round(j, 2) for j in couplings), reverse=True))
+    return Multiplet(centre_hz / field_mhz, integral, j_sorted, len(lines), indices,
+                     _multiplicity_label(j_sorted, tolerance_hz), start, stop)
+
+
+def _first_order(freqs: np.ndarray, heights: np.ndarray, tol: float) -> tuple[float, list[float]] | None:
+    """Split a line pattern into couplings; None when it is not first order."""
+    outer = min(heights[0], heights[-1])
+    for unit in (outer, 0.5 * (heights[0] + heights[-1]), max(heights[0], heights[-1])):
+        if unit <= 0:
+            continue
+        ratios = heights / unit
+        units = np.maximum(1, np.round(ratios)).astype(int)
+        total = int(units.sum())
+        if total & (total - 1) or total > 256 or np.any(np.abs(ratios - units) > 0.35 * units + 0.15):
+            continue
+        positions = sorted(np.repeat(freqs, units).tolist())
+        result = _split_positions(positions, tol)
+        if result is not None:
+            return result
+    return None
+
+
+def _split_positions(positions: list[float], tol: float) -> tuple[float, list[float]] | None:
+    couplings: list[float] = []
+    while len(positions) > 1:
+        spacing = positions[1] - positions[0]
+        if spacing < tol:
+            return None
+        lower, gaps, rest = [], [], list(positions)
+        while rest:
+            x = rest.pop(0)
+            target = x + spacing
+            best = min(range(len(rest)), key=lambda k: abs(rest[k] - target), default=None)
+            if best is None or abs(rest[best] - target) > tol:
+                return None
+            gaps.append(rest.pop(best) - x)
+            lower.append(x)
+        couplings.append(float(np.mean(gaps)))
+        positions = lower
+    return positions[0] + 0.5 * sum(couplings), couplings
+
+
+def _multiplicity_label(j_sorted: tuple[float, ...], tol: float) -> str:
+    label, k = [], 0
+    while k < len(j_sorted):
+        run = 1
+        while k + run < len(j_sorted) and abs(j_sorted[k + run] - j_sorted[k]) <= tol:
+            run += 1
+        label.append(_MULTIPLICITY_NAMES.get(run, "m"))
+        k += run
+    return "".join(label) if all(part != "m" for part in label) else "m"
