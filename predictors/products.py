@@ -705,14 +705,17 @@ def _e1_from_cation(ctx, cat, site, share, notes, label_tail, group) -> list[_Ro
 
 def _sn1_from_cation(ctx, cat, site, share, notes, label_tail, group) -> list[_Route]:
     nucs = _nucleophiles(ctx, for_cation=True)
+    # An added nucleophile outcompetes the solvent (common practice): solvent weight 0.25 beside it.
+    weights = [0.25 if solv and any(not other for _, _, other in nucs) else 1.0 for _, _, solv in nucs]
     routes = []
-    for frag, name, solvolysis in nucs:
+    for (frag, name, solvolysis), nuc_weight in zip(nucs, weights, strict=True):
         outcomes = _captures(ctx, cat, site, frag)
         extra = (f"solvolysis by {name}",) if solvolysis else ()
         config = "both configurations" if len(outcomes) > 1 else "configuration lost"
         for o in outcomes:
             why = f"SN1: {name} traps the {_class_name(cat, site)} cation ({config})"
-            routes.append(_Route(o.smiles, ("SN1",), share / (len(nucs) * len(outcomes)),
+            weight = share * nuc_weight / (sum(weights) * len(outcomes))
+            routes.append(_Route(o.smiles, ("SN1",), weight,
                                  f"substitution ({name}){label_tail}", why, group=group, notes=notes + extra))
     return routes
 
