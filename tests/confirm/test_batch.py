@@ -1,0 +1,182 @@
+"""Batch runs (confirm.batch and ``confirm batch``).
+
+The spectra are JCAMP-DX files written by the project's writer and read back by its
+reader; the analysis behind the batch is a small, obviously correct stand-in (non-negative
+least squares of the measured intensity on the candidates' model spectra) so these tests
+check the batch machinery itself: parallel workers, errors, reruns, summary files.
+"""
+
+from __future__ import annotations
+
+import csv
+import json
+
+import numpy as np
+import pytest
+from scipy.optimize import nnls
+
+from confirm.batch import BatchItem, collect_items, read_manifest, run_batch
+from confirm.reading import read_measurement, write_jcamp_spectrum
+from confirm.results import AnalysisResult, InputRecord
+from predictors.core import Candidate, ComponentFit, MixtureFit, Spectrum, Verdict, canonical_smiles
+from predictors.errors import FileFormatError, InputError
+from tests.confirm._synthetic_results import (
+    E_PENTENE,
+    PENT_1_ENE,
+    SUBSTRATE,
+    Z_PENTENE,
+    _unit_curve,
+    pentene_mixture,
+    spin_system_of,
+)
+
+CANDIDATES = (E_PENTENE, Z_PENTENE, PENT_1_ENE, SUBSTRATE)
+SPEC_TEXT = """
+product = "C/C=C/CC"
+candidates = ["C/C=C\\\\CC", "C=CCCC"]
+starting_material = "CC(Br)CCC"
+[limits]
+max_other_isomer_percent = 2.0
+"""
+
+
+def nnls_analyze(path, *, candidates=None, substrate=None, reagent=None, solvent=None, temp_c=25.0,
+                 field_mhz=None):
+    """Stand-in analysis: read the file, fit non-negative amounts of the four candidates."""
+    raw = read_measurement(path)
+    smiles = [canonical_smiles(s) for s in (candidates or CANDIDATES)]
+    basis = np.array([_unit_curve(s, 400.0) for s in smiles]).T
+    amounts, _ = nnls(basis, np.asarray(raw.intensity))
+    fractions = amounts / amounts.sum()
+    model = basis @ amounts
+    comps = tuple(ComponentFit(candidate=Candidate(smiles=s, pathways=("user",)), mole_fraction=float(x),
+                               mole_fraction_sd=0.002, detection_limit=0.005, detected=bool(x > 0.015))
+                  for s, x in zip(smiles, fractions, strict=True))
+    fit = MixtureFit(components=comps, ppm=raw.ppm, model=model, residual=raw.intensity - model,
+                     line_width_hz=2.0, quality={"snr": 300.0})
+    major = smiles[int(np.argmax(fractions))]
+    return AnalysisResult(
+        spectrum=Spectrum(ppm=raw.ppm, intensity=raw.intensity, field_mhz=400.0),
+        candidates=tuple(c.candidate for c in comps), spin_systems=tuple(spin_system_of(s) for s in smiles),
+        fit=fit, verdict=Verdict(summary=f"major {major}", confidence="high", major=major),
+        inputs=(InputRecord.from_path(path),))
+
+
+def _write_spectra(folder, n, *, corrupt_index=None, z_values=None, terminal=0.02):
+    folder.mkdir(exist_ok=True)
+    paths = []
+    for k in range(n):
+        z = z_values[k] if z_values else 0.01 + 0.01 * k
+        result = pentene_mixture(0.99 - terminal - z, z, terminal, 0.01, seed=k)
+        path = folder / f"lot{k:02d}.jdx"
+        if k == corrupt_index:
+            path.write_bytes(b"##TITLE=broken\n##JCAMP-DX=5.01\n##XYDATA=(X++(Y..Y))\n1 2 3\x00\x00")
+        else:
+            write_jcamp_spectrum(result.spectrum, path)
+        paths.append(path)
+    return paths
+
+
+@pytest.fixture(scope="module")
+def twenty(tmp_path_factory):
+    folder = tmp_path_factory.mktemp("batch") / "spectra"
+    paths = _write_spectra(folder, 20, corrupt_index=7)
+    manifest = folder.parent / "manifest.csv"
+    with open(manifest, "w", newline="") as handle:
+        writer = csv.writer(handle)
+        writer.writerow(["id", "spectrum", "candidates"])
+        for path in paths:
+            writer.writerow([path.stem, f"spectra/{path.name}", " ".join(CANDIDATES)])
+    return manifest
+
+
+@pytest.mark.slow
+def test_twenty_spectra_with_one_corrupt_file_in_two_processes(twenty, tmp_path):
+    items = read_manifest(twenty)
+    assert len(items) == 20 and items[0].candidates == CANDIDATES
+    summary = run_batch(items, tmp_path / "out", jobs=2, analyze=nnls_analyze, write_reports=False,
+                        progress=False)
+    assert summary.counts == {"done": 19, "skipped": 0, "error": 1}
+    (bad,) = [o for o in summary.outcomes if o.status == "error"]
+    assert bad.item_id == "lot07" and "lot07.jdx" in bad.error
+    assert "Traceback" not in bad.error
+    with open(summary.summary_csv, newline="") as handle:
+        rows = list(csv.DictReader(handle))
+    assert [r["id"] for r in rows] == [f"lot{k:02d}" for k in range(20)]
+    assert all(r["major"] == E_PENTENE for r in rows if r["status"] == "done")
+    result = json.loads((tmp_path / "out" / "lot03" / "result.json").read_text())
+    z_fraction = next(c["mole_fraction"] for c in result["components"] if c["smiles"] == Z_PENTENE)
+    assert z_fraction == pytest.approx(0.04, abs=0.005)
+    index = summary.index_html.read_text()
+    assert "lot07" in index and "1 error" in index and "decision aid" in index
+
+
+def test_rerun_skips_finished_items_unless_forced(tmp_path):
+    folder = tmp_path / "spectra"
+    paths = _write_spectra(folder, 3, corrupt_index=2)
+    items = [BatchItem(item_id=p.stem, spectrum=p, candidates=CANDIDATES) for p in paths]
+    first = run_batch(items, tmp_path / "out", analyze=nnls_analyze, write_reports=False, progress=False)
+    assert first.counts == {"done": 2, "skipped": 0, "error": 1}
+    again = run_batch(items, tmp_path / "out", analyze=nnls_analyze, write_reports=False, progress=False)
+    assert again.counts == {"done": 0, "skipped": 2, "error": 1}  # errors are retried, not skipped
+    assert [o.major for o in again.outcomes[:2]] == [o.major for o in first.outcomes[:2]]
+    write_jcamp_spectrum(pentene_mixture(0.5, 0.5, 0.0, 0.0).spectrum, paths[1])  # input changed
+    changed = run_batch(items, tmp_path / "out", analyze=nnls_analyze, write_reports=False, progress=False)
+    assert [o.status for o in changed.outcomes] == ["skipped", "done", "error"]
+    forced = run_batch(items, tmp_path / "out", force=True, analyze=nnls_analyze, write_reports=False,
+                       progress=False)
+    assert forced.counts == {"done": 2, "skipped": 0, "error": 1}
+
+
+def test_folder_with_a_shared_spec_runs_qc_and_writes_reports(tmp_path, run_cli, monkeypatch):
+    from confirm.commands import batch as batch_command
+
+    folder = tmp_path / "spectra"
+    _write_spectra(folder, 2, z_values=(0.005, 0.05), terminal=0.0)
+    spec = tmp_path / "spec.toml"
+    spec.write_text(SPEC_TEXT)
+    monkeypatch.setattr(batch_command, "_analyze", nnls_analyze)
+    out = run_cli("batch", folder, "--out", tmp_path / "out", "--spec", spec, "--json")
+    assert out.exit_code == 0, out.stderr
+    data = json.loads(out.stdout)
+    assert data["counts"]["done"] == 2
+    assert [i["qc_status"] for i in data["items"]] == ["PASS", "FAIL"]  # 0.5 % and 5 % of Z, limit 2 %
+    assert (tmp_path / "out" / "lot00" / "report.html").read_text().count("QC PASS") == 1
+    assert json.loads((tmp_path / "out" / "lot00" / "audit.json").read_text())["qc"]["status"] == "PASS"
+    assert 'href="lot00/report.html"' in (tmp_path / "out" / "index.html").read_text()
+    text = run_cli("batch", folder, "--out", tmp_path / "out", "--spec", spec)
+    assert text.exit_code == 0 and "2 skipped" in text.stdout
+
+
+def test_bad_batch_input(tmp_path, run_cli):
+    with pytest.raises(FileFormatError, match="does not exist"):
+        collect_items(tmp_path / "nothing")
+    empty = tmp_path / "empty"
+    empty.mkdir()
+    with pytest.raises(InputError, match="holds no spectra"):
+        collect_items(empty)
+    manifest = tmp_path / "m.csv"
+    manifest.write_text("path,substrate\na.jdx,CCBr\n")
+    with pytest.raises(InputError, match="'spectrum' column"):
+        read_manifest(manifest)
+    manifest.write_text("spectrum,temp_c\na.jdx,hot\n")
+    with pytest.raises(InputError, match="temp_c"):
+        read_manifest(manifest)
+    out = run_cli("batch", empty, "--out", tmp_path / "o")
+    assert out.exit_code == 2 and out.stderr.startswith("error: batch input")
+    out = run_cli("batch", empty, "--out", tmp_path / "o", "--jobs", "0")
+    assert out.exit_code == 2 and "Traceback" not in out.stderr
+
+
+def test_item_without_candidates_is_an_error_row(tmp_path):
+    path = _write_spectra(tmp_path / "s", 1)[0]
+    summary = run_batch([BatchItem(item_id="x", spectrum=path)], tmp_path / "out", analyze=nnls_analyze,
+                        progress=False)
+    assert summary.outcomes[0].status == "error"
+    assert "no substrate/reagent, candidates or specification" in summary.outcomes[0].error
+
+
+def test_duplicate_ids_are_made_unique(tmp_path):
+    manifest = tmp_path / "m.csv"
+    manifest.write_text("id,spectrum\nlot 1,a.jdx\nlot 1,b.jdx\n")
+    assert [i.item_id for i in read_manifest(manifest)] == ["lot_1", "lot_1_2"]
