@@ -440,7 +440,13 @@ def _evidence_section(result) -> str:
 
 
 def _warnings(result) -> list[str]:
-    return list(result.warnings) + [w for w in result.fit.warnings if w not in result.warnings]
+    found = list(result.warnings) + [w for w in result.fit.warnings if w not in result.warnings]
+    unexplained = tuple(getattr(result.fit, "unexplained_ppm", ()))
+    if unexplained:
+        where = ", ".join(f"{ppm:.2f}" for ppm in unexplained)
+        found.append("Signals above the noise that no candidate explains (unknown components) "
+                     f"at {where} ppm.")
+    return found
 
 
 def _inputs_section(result) -> str:

@@ -194,3 +194,11 @@ def test_export_writes_plots_tables_and_json(tmp_path, mixture):
     assert not any(p.name.endswith(".tmp") for p in tmp_path.iterdir())
     with pytest.raises(InputError, match="out_dir"):
         export_result_files(mixture, tmp_path / "absent")
+
+
+def test_unexplained_signals_are_listed_as_points_to_watch():
+    result = build_result([Part(E_PENTENE, 1.0)], major=E_PENTENE, unexplained_ppm=(3.71, 2.17),
+                          warnings=("baseline roll corrected",))
+    text = render_html_report(result)
+    assert "no candidate explains (unknown components) at 3.71, 2.17 ppm" in text
+    assert "baseline roll corrected" in text
