@@ -180,3 +180,15 @@ def test_duplicate_ids_are_made_unique(tmp_path):
     manifest = tmp_path / "m.csv"
     manifest.write_text("id,spectrum\nlot 1,a.jdx\nlot 1,b.jdx\n")
     assert [i.item_id for i in read_manifest(manifest)] == ["lot_1", "lot_1_2"]
+
+
+def test_manifest_rows_with_their_own_specification(tmp_path):
+    _write_spectra(tmp_path / "spectra", 2, z_values=(0.005, 0.05), terminal=0.0)
+    (tmp_path / "spec.toml").write_text(SPEC_TEXT)
+    rows = ["id,spectrum,spec", "a,spectra/lot00.jdx,spec.toml", "b,spectra/lot01.jdx,nope.toml"]
+    (tmp_path / "m.csv").write_text("\n".join(rows) + "\n")
+    items = read_manifest(tmp_path / "m.csv")
+    summary = run_batch(items, tmp_path / "out", analyze=nnls_analyze, write_reports=False, progress=False)
+    assert [o.status for o in summary.outcomes] == ["done", "error"]
+    assert summary.outcomes[0].qc_status == "PASS"
+    assert "nope.toml" in summary.outcomes[1].error

@@ -257,9 +257,11 @@ def test_cli_pass_fail_and_audit(run_cli, tmp_path, fake_analysis, monkeypatch):
     spectrum.write_text("##TITLE=test\n")
     fake_analysis["result"] = pentene_mixture(0.996, 0.0, 0.0, 0.0, sds=(0.002, 0.001, 0.001, 0.001))
     audit = tmp_path / "audit.json"
-    out = run_cli("qc", "--spec", spec_path, "--spectrum", spectrum, "--audit", audit)
+    report = tmp_path / "lot42.html"
+    out = run_cli("qc", "--spec", spec_path, "--spectrum", spectrum, "--audit", audit, "--report", report)
     assert out.exit_code == 0, out.stderr
     assert "PASS" in out.stdout and "decision aid" in out.stdout
+    assert 'class="badge PASS">QC PASS' in report.read_text()
     record = json.loads(audit.read_text())
     assert record["qc"]["status"] == "PASS" and record["user"] == "qc-user"
     fake_analysis["result"] = pentene_mixture(0.96, 0.04, 0.0, 0.0, sds=(0.004, 0.004, 0.001, 0.001))

@@ -20,6 +20,7 @@ from confirm.report_html import (
     render_html_report,
     write_html_report,
 )
+from confirm.results import AnalysisResult
 from predictors.errors import InputError
 from tests.confirm._synthetic_results import (
     E_PENTENE,
@@ -202,3 +203,12 @@ def test_unexplained_signals_are_listed_as_points_to_watch():
     text = render_html_report(result)
     assert "no candidate explains (unknown components) at 3.71, 2.17 ppm" in text
     assert "baseline roll corrected" in text
+
+
+def test_report_without_a_measured_spectrum(tmp_path):
+    # peak-list input: no processed spectrum, only the fit on its own axis
+    full = build_result([Part(E_PENTENE, 0.9), Part(Z_PENTENE, 0.1)], major=E_PENTENE)
+    result = AnalysisResult(spectrum=None, candidates=full.candidates, spin_systems=full.spin_systems,
+                            fit=full.fit, verdict=full.verdict, inputs=full.inputs)
+    text = write_html_report(result, tmp_path / "peaks.html").read_text()
+    assert full.verdict.summary in text and "<svg" in text
