@@ -17,7 +17,7 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from rdkit import Chem
+from rdkit import Chem, RDLogger
 from rdkit.Chem import AllChem
 
 from predictors.equivalence import AlkeneRelation
@@ -102,17 +102,14 @@ def embed_conformers(mol_h: Chem.Mol, *, n_conformers: int = 10, seed: int = 0xC
     ConformerSet
         Empty (0 conformers) when the molecule cannot be embedded.
     """
-    mol = Chem.Mol(mol_h)
     params = AllChem.ETKDGv3()
     params.randomSeed = int(seed) & 0x7FFFFFFF
     params.pruneRmsThresh = 0.5
-    params.numThreads = 1
-    ids = list(AllChem.EmbedMultipleConfs(mol, numConfs=max(1, int(n_conformers)), params=params))
-    if not ids:
-        params.useRandomCoords = True
-        ids = list(AllChem.EmbedMultipleConfs(mol, numConfs=1, params=params))
-    if not ids:
-        return ConformerSet(np.zeros((0, mol.GetNumAtoms(), 3)), np.zeros(0))
+    params.numThreads = 0
+    mol = _embed_heavy_then_hydrogens(mol_h, int(n_conformers), params)
+    if mol is None:
+        return ConformerSet(np.zeros((0, mol_h.GetNumAtoms(), 3)), np.zeros(0))
+    ids = [c.GetId() for c in mol.GetConformers()]
     energies = _optimise(mol, len(ids))
     coords = np.array([mol.GetConformer(i).GetPositions() for i in ids])
     rel = (energies - energies.min()) / _RT_KCAL
@@ -120,11 +117,40 @@ def embed_conformers(mol_h: Chem.Mol, *, n_conformers: int = 10, seed: int = 0xC
     return ConformerSet(coords, weights / weights.sum())
 
 
+def _embed_heavy_then_hydrogens(mol_h: Chem.Mol, n_conformers: int, params) -> Chem.Mol | None:
+    """Embed the heavy-atom skeleton (fast), then place H; same atom order as ``mol_h``.
+
+    Falls back to embedding ``mol_h`` itself when the atom order would differ.
+    """
+    RDLogger.DisableLog("rdApp.*")
+    try:
+        heavy = Chem.RemoveHs(mol_h)
+        ids = list(AllChem.EmbedMultipleConfs(heavy, numConfs=max(1, n_conformers), params=params))
+        mol = Chem.AddHs(heavy, addCoords=True) if ids else None
+        if mol is not None and _same_atom_order(mol, mol_h):
+            return mol
+        mol = Chem.Mol(mol_h)
+        ids = list(AllChem.EmbedMultipleConfs(mol, numConfs=max(1, n_conformers), params=params))
+        if not ids:
+            params.useRandomCoords = True
+            ids = list(AllChem.EmbedMultipleConfs(mol, numConfs=1, params=params))
+        return mol if ids else None
+    finally:
+        RDLogger.EnableLog("rdApp.*")
+
+
+def _same_atom_order(mol: Chem.Mol, ref: Chem.Mol) -> bool:
+    if [a.GetAtomicNum() for a in mol.GetAtoms()] != [a.GetAtomicNum() for a in ref.GetAtoms()]:
+        return False
+    return all(mol.GetBondBetweenAtoms(b.GetBeginAtomIdx(), b.GetEndAtomIdx()) is not None
+               for b in ref.GetBonds())
+
+
 def _optimise(mol: Chem.Mol, n: int) -> np.ndarray:
     if AllChem.MMFFHasAllMoleculeParams(mol):
-        result = AllChem.MMFFOptimizeMoleculeConfs(mol, numThreads=1, maxIters=300)
+        result = AllChem.MMFFOptimizeMoleculeConfs(mol, numThreads=0, maxIters=60)
     elif AllChem.UFFHasAllMoleculeParams(mol):
-        result = AllChem.UFFOptimizeMoleculeConfs(mol, numThreads=1, maxIters=300)
+        result = AllChem.UFFOptimizeMoleculeConfs(mol, numThreads=0, maxIters=60)
     else:
         return np.zeros(n)
     energies = np.array([e for _, e in result], dtype=float)

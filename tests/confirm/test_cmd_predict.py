@@ -1,0 +1,55 @@
+"""``confirm predict``: table, JSON contract, plot and bad input."""
+
+from __future__ import annotations
+
+import json
+
+import pytest
+from rdkit import Chem
+
+
+def test_table_output(run_cli):
+    result = run_cli("predict", "C=CC(=O)OCCCC")
+    assert result.exit_code == 0, result.stderr
+    assert "vinyl" in result.stdout and "dd" in result.stdout and "+-" in result.stdout
+
+
+def test_json_contract(run_cli):
+    result = run_cli("predict", "OC(C)/C=C/C", "--json", "--field-mhz", "80")
+    assert result.exit_code == 0, result.stderr
+    data = json.loads(result.stdout)
+    assert data["field_mhz"] == 80.0
+    assert data["smiles"] == Chem.MolToSmiles(Chem.MolFromSmiles("OC(C)/C=C/C"))
+    mol_h = Chem.AddHs(Chem.MolFromSmiles(data["smiles"]))
+    seen = []
+    for site in data["sites"]:
+        assert {"atoms", "n_h", "shift_ppm", "shift_sd_ppm", "multiplicity", "couplings"} <= set(site)
+        assert site["n_h"] == len(site["atoms"]) and site["shift_sd_ppm"] > 0
+        assert all(mol_h.GetAtomWithIdx(a).GetAtomicNum() == 1 for a in site["atoms"])
+        for c in site["couplings"]:
+            assert 0 <= c["to_site"] < len(data["sites"])
+        seen += site["atoms"]
+    assert sorted(seen) == [a.GetIdx() for a in mol_h.GetAtoms() if a.GetAtomicNum() == 1]
+
+
+def test_plot_written(run_cli, tmp_path):
+    out = tmp_path / "spectrum.png"
+    result = run_cli("predict", "C=CCc1ccc(OC)cc1", "--plot", str(out), "--field-mhz", "60")
+    assert result.exit_code == 0, result.stderr
+    assert out.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    assert [p.name for p in tmp_path.iterdir()] == ["spectrum.png"]
+
+
+@pytest.mark.parametrize("args, message", [
+    (("[CH3]",), "radicals"),
+    (("C[Hg]C",), "unsupported element"),
+    (("C(C)(C)(C)(C)C",), "cannot parse"),
+    (("CC", "--field-mhz", "0"), "--field-mhz"),
+    (("CC", "--plot", "out.txt"), "--plot"),
+    (("CC", "--plot", "/no/such/dir/out.png"), "does not exist"),
+])
+def test_bad_input_exits_2(run_cli, args, message):
+    result = run_cli("predict", *args)
+    assert result.exit_code == 2
+    assert message in result.stderr and "Traceback" not in result.stderr
+    assert result.stderr.startswith("error:")

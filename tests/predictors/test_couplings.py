@@ -1,0 +1,112 @@
+"""Coupling models against published equations, curves and typical values."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from rdkit import Chem
+
+from predictors.couplings import (
+    embed_conformers,
+    garbisch_allylic,
+    garbisch_vicinal,
+    karplus_hla,
+    predict_couplings,
+)
+from predictors.equivalence import map_alkene_relations
+from predictors.prediction import predict_spin_system
+from predictors.shifts import prepare_model_molecule
+from tests.predictors.alkene_reference import REFERENCE_ALKENES, locate_reference, select_proton
+
+
+def _simple_karplus(phi_deg):
+    # 3J = 7.8 - 1.0 cos(phi) + 5.6 cos(2 phi) (references.md section 2; published simple curve)
+    phi = np.radians(phi_deg)
+    return 7.8 - np.cos(phi) + 5.6 * np.cos(2 * phi)
+
+
+def test_hla_without_substituents_matches_its_parameters():
+    # Haasnoot, de Leeuw, Altona, Tetrahedron 1980, 36, 2783: P1 cos^2 + P2 cos + P3
+    assert karplus_hla(0.0) == pytest.approx(13.70 - 0.73)
+    assert karplus_hla(90.0) == pytest.approx(0.0, abs=1e-9)
+    assert karplus_hla(180.0) == pytest.approx(13.70 + 0.73)
+
+
+@pytest.mark.parametrize("phi, tol", [(0.0, 1.0), (90.0, 2.5), (180.0, 0.5)])
+def test_hla_follows_the_published_karplus_curve(phi, tol):
+    # the two curves differ most near 90 deg (0 vs 2.2 Hz), where couplings are smallest
+    assert abs(float(karplus_hla(phi)) - _simple_karplus(phi)) <= tol
+
+
+@pytest.mark.parametrize("xi", [1.0, -1.0])
+def test_hla_substituent_term(xi):
+    # Haasnoot et al. 1980: + dchi [P4 + P5 cos^2(xi phi + P6 |dchi|)], P4 0.56, P5 -2.47, P6 16.9 deg
+    phi, dchi = 60.0, 1.3
+    bare = 13.70 * np.cos(np.radians(phi)) ** 2 - 0.73 * np.cos(np.radians(phi))
+    term = dchi * (0.56 - 2.47 * np.cos(np.radians(xi * phi + 16.9 * dchi)) ** 2)
+    assert karplus_hla(phi, [(dchi, xi)]) == pytest.approx(bare + term)
+    assert karplus_hla(phi, [(dchi, 1.0)]) != pytest.approx(karplus_hla(phi, [(dchi, -1.0)]))
+
+
+def test_garbisch_relations():
+    # Garbisch, J. Am. Chem. Soc. 1964, 86, 5561 (references.md section 2)
+    assert garbisch_vicinal(0.0) == pytest.approx(6.6)
+    assert garbisch_vicinal(90.0) == pytest.approx(2.6)
+    assert garbisch_vicinal(180.0) == pytest.approx(11.6)
+    assert garbisch_allylic(0.0) == pytest.approx(1.3)
+    assert garbisch_allylic(90.0) == pytest.approx(-2.6)
+    assert garbisch_allylic(180.0) == pytest.approx(0.0, abs=1e-9)
+
+
+@pytest.mark.parametrize("smiles", ["CCc1ccccc1", "CCBr", "CCCl"])
+def test_ethyl_vicinal_coupling_about_7_hz(smiles):
+    # ethyl groups: 3J about 7 Hz (sp3 vicinal 7-8 Hz, references.md section 2; common practice)
+    system = predict_spin_system(smiles, n_conformers=4)
+    ch3 = next(i for i, s in enumerate(system.sites) if s.label == "CH3")
+    ch2 = next(i for i, s in enumerate(system.sites) if s.label == "CH2")
+    assert 6.0 <= system.j_hz[ch3, ch2] <= 8.0
+
+
+@pytest.mark.parametrize("entry", [e for e in REFERENCE_ALKENES if e.geometry], ids=lambda e: e.name)
+def test_vinyl_3j_classifies_geometry(entry):
+    # trans 12-18 Hz, cis 6-12 Hz (published tables; references.md section 2). Checked proton by
+    # proton so that symmetric alkenes (one site for both vinyl H) are covered too.
+    smiles, index = locate_reference(entry)
+    mol_h = Chem.AddHs(Chem.MolFromSmiles(smiles))
+    model, _ = prepare_model_molecule(mol_h)
+    relations = map_alkene_relations(model)
+    j, _ = predict_couplings(model, embed_conformers(mol_h, n_conformers=1), relations)
+    c1 = index[1]
+    c2 = next(c for c in relations[c1].carbons if c != c1)
+    h1, h2 = select_proton(mol_h, c1, None, None), select_proton(mol_h, c2, None, None)
+    if entry.geometry == "trans":
+        assert 12.0 <= j[h1, h2] <= 18.0
+    else:
+        assert 6.0 <= j[h1, h2] < 12.0
+
+
+def test_terminal_vinyl_couplings_match_measured_butyl_acrylate():
+    # measured: 17.3 (trans), 10.4 (cis), 1.4 (gem) Hz (../shared/real_spectra/README.md)
+    system = predict_spin_system("C=CC(=O)OCCCC", n_conformers=2)
+    vinyl = [i for i, s in enumerate(system.sites) if s.label == "vinyl"]
+    values = sorted(abs(system.j_hz[a, b]) for a in vinyl for b in vinyl if a < b)
+    for predicted, measured in zip(values, [1.4, 10.4, 17.3], strict=True):
+        assert abs(predicted - measured) <= 1.0
+
+
+def test_aromatic_couplings_of_toluene():
+    # benzene: ortho 7.5, meta 1.4, para 0.7 Hz (Pretsch coupling table; from memory)
+    system = predict_spin_system("Cc1ccccc1", n_conformers=1)
+    para = next(i for i, s in enumerate(system.sites) if s.label == "aryl" and s.n_h == 1)
+    others = [i for i, s in enumerate(system.sites) if s.label == "aryl" and i != para]
+    assert sorted(round(system.j_hz[para, k], 1) for k in others) == [1.5, 7.6]  # meta, ortho
+    # ortho-H site to meta-H site: each H has one ortho (7.6) and one para (0.7) partner
+    assert system.j_hz[others[0], others[1]] == pytest.approx((7.6 + 0.7) / 2, abs=0.01)
+    assert system.j_sd_hz is not None and np.all(system.j_sd_hz >= 0)
+
+
+def test_diastereotopic_ch2_has_geminal_coupling():
+    system = predict_spin_system("CC(O)CC", n_conformers=2)
+    ch2 = [i for i, s in enumerate(system.sites) if s.label == "CH2"]
+    assert len(ch2) == 2
+    assert -15.0 <= system.j_hz[ch2[0], ch2[1]] <= -10.0  # sp3 2J -10 to -15 Hz (common practice)

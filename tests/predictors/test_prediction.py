@@ -1,0 +1,100 @@
+"""predict_spin_system and first_order_multiplicity: contract, real spectra, bad input."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from rdkit import Chem
+
+from predictors.core import SpinSystem
+from predictors.errors import ChemistryError, InputError
+from predictors.prediction import first_order_multiplicity, predict_spin_system
+
+
+def test_atoms_index_the_canonical_addhs_molecule():
+    system = predict_spin_system("OC(=O)/C=C/C", n_conformers=1)
+    assert isinstance(system, SpinSystem)
+    mol_h = Chem.AddHs(Chem.MolFromSmiles(system.smiles))
+    atoms = sorted(h for s in system.sites for h in s.atoms)
+    assert atoms == [a.GetIdx() for a in mol_h.GetAtoms() if a.GetAtomicNum() == 1]
+    ch3 = next(s for s in system.sites if s.label == "CH3")
+    parent = {mol_h.GetAtomWithIdx(h).GetNeighbors()[0].GetIdx() for h in ch3.atoms}
+    assert len(parent) == 1 and mol_h.GetAtomWithIdx(parent.pop()).GetTotalNumHs(includeNeighbors=True) == 3
+    assert all(s.shift_sd_ppm > 0 for s in system.sites)
+    assert np.allclose(system.j_hz, system.j_hz.T) and system.j_sd_hz.shape == system.j_hz.shape
+
+
+def test_accepts_molecules_and_repeats():
+    mol = Chem.MolFromSmiles("CCOC(C)=O")
+    a = predict_spin_system(mol, n_conformers=3)
+    b = predict_spin_system("CCOC(C)=O", n_conformers=3)
+    assert a.smiles == b.smiles
+    assert np.array_equal(a.j_hz, b.j_hz)
+    assert [s.shift_ppm for s in a.sites] == [s.shift_ppm for s in b.sites]
+
+
+@pytest.mark.parametrize("smiles, label, expected", [
+    ("C=CC(=O)OCCCC", "CH3", "t"),          # butyl acrylate 0.94 (t) (README, measured)
+    ("C=CC(=O)OCCCC", "vinyl", "dd"),       # 6.39 / 6.11 / 5.80 all dd (README, measured)
+    ("C=CCc1ccc(OC)cc1", "CH3", "s"),       # estragole OCH3 3.81 (s) (README, measured)
+])
+def test_first_order_multiplicity(smiles, label, expected):
+    system = predict_spin_system(smiles, n_conformers=2)
+    names = {first_order_multiplicity(system, i) for i, s in enumerate(system.sites) if s.label == label}
+    assert names == {expected}
+
+
+def test_estragole_internal_vinyl_is_ddt():
+    # 5.98 (ddt, 16.9, 10.1, 6.7) (README, measured)
+    system = predict_spin_system("C=CCc1ccc(OC)cc1", n_conformers=4)
+    site = max((i for i, s in enumerate(system.sites) if s.label == "vinyl"),
+               key=lambda i: system.sites[i].shift_ppm)
+    assert first_order_multiplicity(system, site) == "ddt"
+    assert first_order_multiplicity(system, site, min_j_hz=50.0) == "s"
+    with pytest.raises(InputError, match="site_index"):
+        first_order_multiplicity(system, 99)
+
+
+def test_exchangeable_site_is_broad_singlet():
+    system = predict_spin_system("CCO", n_conformers=1)
+    oh = next(i for i, s in enumerate(system.sites) if s.label == "OH")
+    assert first_order_multiplicity(system, oh) == "br s"
+    assert np.all(system.j_hz[oh] == 0)
+
+
+# README values: butyl acrylate and estragole measured, coumarin from memory
+REAL_VINYL = {
+    "butyl_acrylate": [6.39, 6.11, 5.80],
+    "estragole": [5.98, 5.09, 5.09],
+    "coumarin": [7.72, 6.43],
+}
+
+
+@pytest.mark.real_data
+@pytest.mark.parametrize("folder", sorted(REAL_VINYL))
+def test_real_spectra_vinyl_shifts(real_spectra, folder):
+    mol = Chem.MolFromMolFile(str(real_spectra / folder / "structure.mol"))
+    assert mol is not None
+    system = predict_spin_system(mol, n_conformers=2)
+    vinyl = [s for s in system.sites if s.label == "vinyl"]
+    predicted = sorted((s.shift_ppm for s in vinyl for _ in s.atoms), reverse=True)
+    observed = sorted(REAL_VINYL[folder], reverse=True)
+    assert len(predicted) == len(observed)
+    assert np.max(np.abs(np.array(predicted) - observed)) <= 0.25
+
+
+@pytest.mark.parametrize("smiles, message", [
+    ("[CH2]C", "radicals"),
+    ("CC[Sn](C)C", "unsupported element"),
+    ("C(C)(C)(C)(C)C", "cannot parse"),
+    ("C1CC", "cannot parse"),
+])
+def test_bad_structures_raise_chemistry_error(smiles, message):
+    with pytest.raises(ChemistryError, match=message):
+        predict_spin_system(smiles)
+
+
+@pytest.mark.parametrize("n", [0, 51, 2.5])
+def test_bad_conformer_count(n):
+    with pytest.raises(InputError, match="n_conformers"):
+        predict_spin_system("CC", n_conformers=n)
