@@ -69,7 +69,8 @@ class Multiplet:
     integral : float
         Sum of the lines' integrals (intensity x Hz).
     j_hz : tuple of float
-        Couplings, largest first (empty for singlets and unresolved ``"m"``).
+        Distinct couplings, largest first, one per letter of ``multiplicity``
+        (a triplet has one J); empty for singlets and unresolved ``"m"``.
     n_lines : int
         Number of resolved lines.
     peak_indices : tuple of int
@@ -204,11 +205,21 @@ def group_multiplets(peaks: tuple[Peak, ...], *, field_mhz: float, max_j_hz: flo
     major = [k for k in order if not _is_minor(peaks, k, field_mhz, 3.0 * max_j_hz, minor_ratio)]
     groups: list[list[int]] = []
     for k in major:
-        if groups and (peaks[groups[-1][-1]].ppm - peaks[k].ppm) * field_mhz <= max_j_hz:
+        if groups and _joins(peaks[groups[-1][-1]], peaks[k], field_mhz, max_j_hz):
             groups[-1].append(k)
         else:
             groups.append([k])
     return tuple(_describe_group([peaks[k] for k in g], tuple(g), field_mhz, tolerance_hz) for g in groups)
+
+
+def _joins(previous: Peak, line: Peak, field_mhz: float, max_j_hz: float) -> bool:
+    """Adjacent lines share a multiplet when closer than ``max_j_hz``; beyond half of it only when
+    of similar height (large couplings split lines of similar intensity)."""
+    gap_hz = (previous.ppm - line.ppm) * field_mhz
+    if gap_hz > max_j_hz:
+        return False
+    ratio = max(previous.height, line.height) / max(min(previous.height, line.height), 1e-300)
+    return gap_hz <= 0.5 * max_j_hz or ratio <= 2.5
 
 
 def _is_minor(peaks, k: int, field_mhz: float, reach_hz: float, ratio: float) -> bool:
@@ -231,9 +242,20 @@ def _describe_group(lines: list[Peak], indices: tuple[int, ...], field_mhz: floa
     if analysis is None:
         return Multiplet(centroid, integral, (), len(lines), indices, "m", start, stop)
     centre_hz, couplings = analysis
-    j_sorted = tuple(sorted((round(j, 2) for j in couplings), reverse=True))
-    return Multiplet(centre_hz / field_mhz, integral, j_sorted, len(lines), indices,
-                     _multiplicity_label(j_sorted, tolerance_hz), start, stop)
+    j_sorted = tuple(sorted(couplings, reverse=True))
+    return Multiplet(centre_hz / field_mhz, integral, _distinct_couplings(j_sorted, tolerance_hz),
+                     len(lines), indices, _multiplicity_label(j_sorted, tolerance_hz), start, stop)
+
+
+def _distinct_couplings(j_sorted: tuple[float, ...], tol: float) -> tuple[float, ...]:
+    """One value per coupling constant (a triplet has one J), each the mean of its equal spacings."""
+    runs: list[list[float]] = []
+    for j in j_sorted:
+        if runs and abs(runs[-1][0] - j) <= tol:
+            runs[-1].append(j)
+        else:
+            runs.append([j])
+    return tuple(round(float(np.mean(r)), 2) for r in runs)
 
 
 def _first_order(freqs: np.ndarray, heights: np.ndarray, tol: float) -> tuple[float, list[float]] | None:

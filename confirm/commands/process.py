@@ -1,0 +1,181 @@
+"""``confirm process PATH``: read and process a measured 1H data set.
+
+Prints the acquisition summary, SNR, multiplets and warnings (or JSON with
+``--json``); ``--out`` writes the processed spectrum as CSV (ppm, intensity)
+and ``--plot`` a PNG. A peak list is printed as read (no processing).
+"""
+
+from __future__ import annotations
+
+import os
+import tempfile
+from pathlib import Path
+
+from confirm.commands._common import emit_json, format_table
+from confirm.processing import SNR_DEFINITION, ProcessedSpectrum, ProcessingOptions, process_measurement
+from confirm.reading import PeakList, read_measurement
+from predictors.errors import InputError
+
+__all__ = ["register"]
+
+
+def register(subparsers, parents) -> None:
+    """Add the ``process`` subcommand."""
+    parser = subparsers.add_parser(
+        "process", parents=parents,
+        help="read a FID, JCAMP-DX spectrum or peak list and process it (phase, baseline, reference, peaks)")
+    parser.add_argument("path", metavar="PATH", help="FID directory, JCAMP-DX file or peak-list table")
+    parser.add_argument("--out", metavar="CSV", help="write the processed spectrum (ppm, intensity) as CSV")
+    parser.add_argument("--plot", metavar="PNG", help="write a plot of the processed spectrum")
+    parser.add_argument("--lb-hz", type=float, default=0.3, help="exponential line broadening (default 0.3)")
+    parser.add_argument("--solvent", help="solvent, overriding the one recorded in the file")
+    parser.add_argument("--field-mhz", type=float, help="spectrometer frequency when the file lacks it")
+    parser.add_argument("--reference", choices=("auto", "tms", "solvent", "none"), default="auto",
+                        help="how to reference the axis (default: TMS, else solvent, else as acquired)")
+    parser.add_argument("--baseline", choices=("arpls", "asls", "iarpls", "none"), default="arpls",
+                        help="baseline method (default arpls)")
+    parser.add_argument("--threshold-snr", type=float, default=8.0,
+                        help="pick lines higher than this many noise standard deviations (default 8)")
+    parser.set_defaults(handler=_run)
+
+
+def _run(args) -> int:
+    for name in ("out", "plot"):
+        value = getattr(args, name)
+        if value and Path(value).is_dir():
+            raise InputError(f"--{name}: {value!r} is a directory; give a file name")
+    if args.plot and Path(args.plot).suffix.lower() not in (".png", ".pdf", ".svg"):
+        raise InputError(f"--plot: {args.plot!r} must end in .png, .pdf or .svg")
+    raw = read_measurement(args.path)
+    if isinstance(raw, PeakList):
+        if args.out or args.plot:
+            raise InputError(f"--out/--plot: {args.path} is a peak list, not a spectrum; nothing to write")
+        _print_peak_list(raw, as_json=args.json)
+        return 0
+    options = ProcessingOptions(lb_hz=args.lb_hz, solvent=args.solvent, field_mhz=args.field_mhz,
+                                reference=args.reference, baseline=args.baseline,
+                                threshold_snr=args.threshold_snr)
+    result = process_measurement(raw, options=options)
+    if args.out:
+        _write_csv(result, Path(args.out))
+    if args.plot:
+        _write_plot(result, Path(args.plot))
+    if args.json:
+        emit_json(_to_json(result))
+    else:
+        print(_to_text(result))
+    return 0
+
+
+def _to_json(result: ProcessedSpectrum) -> dict:
+    spectrum = result.spectrum
+    return {
+        "source": spectrum.metadata.get("source_path"),
+        "sha256": spectrum.metadata.get("sha256"),
+        "format": spectrum.metadata.get("format"),
+        "field_mhz": spectrum.field_mhz,
+        "nucleus": spectrum.nucleus,
+        "solvent": spectrum.solvent,
+        "snr": result.snr,
+        "snr_definition": SNR_DEFINITION,
+        "noise_sd": result.noise_sd,
+        "reference": result.reference,
+        "phase_deg": list(result.phase_deg),
+        "acquisition": dict(spectrum.metadata.get("acquisition", {})),
+        "peaks": [{"ppm": p.ppm, "height": p.height, "integral": p.integral, "width_hz": p.width_hz}
+                  for p in result.peaks],
+        "multiplets": [{"ppm": m.ppm, "integral": m.integral, "j_hz": list(m.j_hz),
+                        "multiplicity": m.multiplicity, "n_lines": m.n_lines,
+                        "range_ppm": [m.start_ppm, m.stop_ppm]} for m in result.multiplets],
+        "warnings": list(result.warnings),
+    }
+
+
+def _to_text(result: ProcessedSpectrum) -> str:
+    spectrum = result.spectrum
+    meta = spectrum.metadata
+    total = sum(max(m.integral, 0.0) for m in result.multiplets) or 1.0
+    rows = [(f"{m.ppm:.3f}", m.multiplicity, ", ".join(f"{j:.1f}" for j in m.j_hz) or "-", m.n_lines,
+             f"{100.0 * m.integral / total:.2f}") for m in result.multiplets]
+    lines = [
+        f"source:    {meta.get('source_path')} ({meta.get('format')})",
+        f"field:     {spectrum.field_mhz:.2f} MHz {spectrum.nucleus}, "
+        f"solvent {spectrum.solvent or 'unknown'}",
+        f"reference: {result.reference}",
+        f"phase:     {result.phase_deg[0]:.1f} deg (zero order), {result.phase_deg[1]:.1f} deg (first order)",
+        f"SNR:       {result.snr:.0f} (tallest non-solvent line / 2 x noise sd)",
+        "",
+        format_table(["ppm", "mult", "J (Hz)", "lines", "integral %"], rows),
+    ]
+    lines += [f"warning: {w}" for w in result.warnings]
+    return "\n".join(lines)
+
+
+def _print_peak_list(peaks: PeakList, *, as_json: bool) -> None:
+    note = "peak list: printed as read, no processing"
+    if as_json:
+        emit_json({
+            "source": peaks.source_path, "sha256": peaks.sha256, "format": peaks.format,
+            "field_mhz": None, "nucleus": None, "solvent": None, "snr": None,
+            "peaks": [{"ppm": e.ppm, "height": e.intensity, "integral": e.integral, "width_hz": e.width_hz,
+                       "multiplicity": e.multiplicity, "j_hz": list(e.j_hz)} for e in peaks.entries],
+            "multiplets": [{"ppm": e.ppm, "integral": e.integral, "j_hz": list(e.j_hz)}
+                           for e in peaks.entries if e.multiplicity or e.j_hz],
+            "warnings": [note],
+        })
+        return
+    rows = [(f"{e.ppm:.4f}", _fmt(e.intensity), _fmt(e.integral), e.multiplicity or "-",
+             ", ".join(f"{j:.1f}" for j in e.j_hz) or "-") for e in peaks.entries]
+    print(f"source: {peaks.source_path} ({note})")
+    print(format_table(["ppm", "intensity", "integral", "mult", "J (Hz)"], rows))
+
+
+def _fmt(value) -> str:
+    return "-" if value is None else f"{value:.4g}"
+
+
+def _atomic_target(path: Path):
+    path.parent.mkdir(parents=True, exist_ok=True)
+    handle, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=path.suffix, dir=path.parent)
+    os.close(handle)
+    return Path(tmp)
+
+
+def _write_csv(result: ProcessedSpectrum, path: Path) -> None:
+    tmp = _atomic_target(path)
+    try:
+        spectrum = result.spectrum
+        with open(tmp, "w", encoding="utf-8", newline="\n") as out:
+            out.write("ppm,intensity\n")
+            for ppm, value in zip(spectrum.ppm.tolist(), spectrum.intensity.tolist(), strict=True):
+                out.write(f"{ppm!r},{value!r}\n")
+        os.replace(tmp, path)
+    finally:
+        tmp.unlink(missing_ok=True)
+
+
+def _write_plot(result: ProcessedSpectrum, path: Path) -> None:
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    spectrum = result.spectrum
+    tmp = _atomic_target(path)
+    fig, ax = plt.subplots(figsize=(11, 4))
+    try:
+        ax.plot(spectrum.ppm, spectrum.intensity, lw=0.6, color="black")
+        for m in result.multiplets:
+            top = max(result.peaks[i].height for i in m.peak_indices)
+            ax.annotate(f"{m.ppm:.2f}", (m.ppm, top), fontsize=6, ha="center", va="bottom", rotation=90)
+        ax.set_xlim(spectrum.ppm[0], spectrum.ppm[-1])
+        ax.set_xlabel("chemical shift (ppm)")
+        ax.set_yticks([])
+        ax.set_title(f"{Path(str(spectrum.metadata.get('source_path'))).name}: {spectrum.field_mhz:.0f} MHz, "
+                     f"{result.reference}, SNR {result.snr:.0f}", fontsize=9)
+        fig.tight_layout()
+        fig.savefig(tmp, format=path.suffix.lstrip(".").lower() or "png", dpi=120)
+        os.replace(tmp, path)
+    finally:
+        plt.close(fig)
+        tmp.unlink(missing_ok=True)
