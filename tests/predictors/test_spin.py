@@ -23,30 +23,30 @@ from predictors.spin import (
 
 
 def _reference_lines(shifts_ppm, j_hz, n_protons, field_mhz):
-    """Lines (Hz, intensity) from the full Kronecker-product Hamiltonian."""
+    """Lines (Hz, intensity) from the full Kronecker-product Hamiltonian.
+
+    H = sum_i nu_i Iz_i + sum_{i<k} J_ik (Iz_i Iz_k + (I+_i I-_k + I-_i I+_k) / 2), all real.
+    """
     site = np.repeat(np.arange(len(n_protons)), n_protons)
     nu = np.asarray(shifts_ppm, float)[site] * field_mhz
     n = len(nu)
-    sx = np.array([[0, 0.5], [0.5, 0]], dtype=complex)
-    sy = np.array([[0, -0.5j], [0.5j, 0]], dtype=complex)
-    sz = np.array([[0.5, 0], [0, -0.5]], dtype=complex)
+    iz1 = np.array([[0.5, 0.0], [0.0, -0.5]])
+    ip1 = np.array([[0.0, 1.0], [0.0, 0.0]])
 
     def op(single, i):
-        out = np.array([[1.0 + 0j]])
-        for k in range(n):
-            out = np.kron(out, single if k == i else np.eye(2))
-        return out
+        return np.kron(np.kron(np.eye(2**i), single), np.eye(2 ** (n - i - 1)))
 
-    ix, iy, iz = [op(sx, i) for i in range(n)], [op(sy, i) for i in range(n)], [op(sz, i) for i in range(n)]
+    iz = [op(iz1, i) for i in range(n)]
+    ip = [op(ip1, i) for i in range(n)]
     ham = sum(nu[i] * iz[i] for i in range(n))
     for a in range(n):
         for b in range(a + 1, n):
             coupling = j_hz[site[a]][site[b]] if site[a] != site[b] else 0.0
-            ham = ham + coupling * (ix[a] @ ix[b] + iy[a] @ iy[b] + iz[a] @ iz[b])
+            if coupling:
+                ham = ham + coupling * (iz[a] @ iz[b] + 0.5 * (ip[a] @ ip[b].T + ip[a].T @ ip[b]))
     energy, vec = np.linalg.eigh(ham)
-    f_minus = sum(ix[i] - 1j * iy[i] for i in range(n))
-    amp = vec.conj().T @ f_minus @ vec
-    inten = np.abs(amp) ** 2 / 2 ** (n - 1)
+    f_minus = sum(p.T for p in ip)
+    inten = (vec.T @ f_minus @ vec) ** 2 / 2 ** (n - 1)
     lo, up = np.nonzero(inten > 1e-12)
     return energy[up] - energy[lo], inten[lo, up]
 
@@ -329,3 +329,70 @@ def test_plan_clusters_keeps_weak_couplings_apart():
     plan = plan_clusters(shifts, j, [3, 2, 1, 1], field_mhz=60)
     assert sorted(plan.clusters) == [(0, 1), (2, 3)]
     assert plan.cut_strong == () and plan.warnings == ()
+
+
+# ---------------------------------------------------------------------------
+# clusters
+
+
+def _butenyl_system():
+    # CH3-CH=CH-CH2-X plus a remote CH3 with a small long-range coupling (plausible values)
+    shifts = np.array([1.70, 5.45, 5.55, 2.02, 3.40])
+    j = np.zeros((5, 5))
+    for a, b, value in [(0, 1, 6.4), (0, 2, -1.6), (1, 2, 15.2), (2, 3, 6.7), (1, 3, -1.3), (3, 4, 0.6)]:
+        j[a, b] = j[b, a] = value
+    return shifts, j, np.array([3, 1, 1, 2, 3])
+
+
+def test_cluster_split_agrees_with_exact_where_legal():
+    # at 900 MHz every cut coupling has |J|/|dnu| <= 0.002: the split is legal
+    shifts, j, n = _butenyl_system()
+    plan = plan_clusters(shifts, j, n, field_mhz=900)
+    assert len(plan.clusters) >= 3 and plan.warnings == ()
+    ppm = np.linspace(6.2, 0.5, 40000)
+    split = render_lines(simulate_arrays(shifts, j, n, field_mhz=900), ppm, line_width_hz=1.0)
+    exact = render_lines(simulate_arrays(shifts, j, n, field_mhz=900, cluster_ratio=1e-9), ppm,
+                         line_width_hz=1.0)
+    assert _relative_difference(split, exact) < 0.01
+
+
+def test_exact_cluster_matches_full_matrix_for_strongly_coupled_neighbours():
+    # the CH3 next to a strongly coupled vinyl pair: its lines follow the pair's eigenstates
+    shifts, j, n = _butenyl_system()
+    ref_hz, ref_int = _reference_lines(shifts, j, n, 600.0)
+    ppm = np.linspace(1.6, 1.8, 4000)
+    fast = render_lines(simulate_arrays(shifts, j, n, field_mhz=600), ppm, line_width_hz=1.0)
+    slow = _render_hz(ref_hz, ref_int, ppm, 600.0, 1.0)
+    # residual is second order in the cut couplings (J^2 / dnu ~ 0.02 Hz here)
+    assert _relative_difference(fast, slow) < 0.02
+
+
+def test_oversize_cluster_is_cut_with_warning():
+    # eight CH2 groups of a chain with nearly equal shifts: one strongly coupled 16-spin system
+    shifts = 1.25 + 0.01 * np.arange(8)
+    j = np.zeros((8, 8))
+    for a in range(7):
+        j[a, a + 1] = j[a + 1, a] = 7.0
+    lines = simulate_arrays(shifts, j, [2] * 8, field_mhz=60, max_cluster_spins=6)
+    assert lines.warnings and "max_cluster_spins=6" in lines.warnings[0]
+    assert lines.intensity.sum() == pytest.approx(16.0)
+    near = np.abs(lines.ppm - 1.29) < 0.3
+    assert lines.intensity[near].sum() > 0.99 * 16.0
+
+
+@pytest.mark.slow
+def test_sixty_proton_molecule_simulates():
+    # triacontene-like C30H60: CH2=CH- (3 H) + 27 CH2 + CH3 at 60 MHz, default options
+    shifts = np.array([4.93, 4.99, 5.81, 2.04, 1.37] + [1.26 + 0.002 * k for k in range(25)] + [0.88])
+    n = np.array([1, 1, 1, 2, 2] + [2] * 25 + [3])
+    j = np.zeros((31, 31))
+    for a, b, value in [(0, 2, 10.2), (1, 2, 17.1), (0, 1, 2.0), (2, 3, 6.7), (0, 3, -1.2), (1, 3, -1.4)]:
+        j[a, b] = j[b, a] = value
+    for a in range(3, 30):
+        j[a, a + 1] = j[a + 1, a] = 7.0
+    lines = simulate_arrays(shifts, j, n, field_mhz=60)
+    assert n.sum() == 60
+    assert lines.intensity.sum() == pytest.approx(60.0)
+    assert lines.warnings
+    vinyl = np.bincount(lines.site_index, weights=lines.intensity, minlength=31)[:3]
+    np.testing.assert_allclose(vinyl, 1.0, atol=0.05)
