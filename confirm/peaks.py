@@ -26,6 +26,10 @@ from predictors.errors import InputError
 
 __all__ = ["Peak", "Multiplet", "pick_peaks", "group_multiplets", "integrate_region"]
 
+#: 13C satellites sit 1J(CH)/2 (about 60-85 Hz) from their parent at 0.55 % of its height
+#: (references.md section 5): lines that small that close join no multiplet.
+_SATELLITE_REACH_HZ = 90.0
+_SATELLITE_RATIO = 100.0
 _MULTIPLICITY_NAMES = {1: "d", 2: "t", 3: "q", 4: "quint", 5: "sext", 6: "sept"}
 
 
@@ -128,7 +132,7 @@ def pick_peaks(spectrum: Spectrum, *, noise_sd: float, threshold_snr: float = 8.
         raise InputError(f"threshold_snr: expected > 0, got {threshold_snr!r}")
     y = spectrum.intensity
     threshold = threshold_snr * noise_sd
-    indices, _ = find_peaks(y, height=threshold, prominence=0.5 * threshold)
+    indices, _ = find_peaks(y, height=threshold, prominence=threshold)
     if ppm_range is not None:
         lo, hi = sorted(ppm_range)
         indices = indices[(spectrum.ppm[indices] >= lo) & (spectrum.ppm[indices] <= hi)]
@@ -190,7 +194,8 @@ def group_multiplets(peaks: tuple[Peak, ...], *, field_mhz: float, max_j_hz: flo
         How closely line spacings must agree to count as one coupling.
     minor_ratio : float, optional
         A line with a line this many times taller within 3 x ``max_j_hz``
-        (a 13C satellite, shoulder or trace impurity) joins no multiplet.
+        (a shoulder or trace impurity) joins no multiplet; nor does a line
+        100 times smaller than one within 90 Hz (a 13C satellite).
 
     Returns
     -------
@@ -202,7 +207,8 @@ def group_multiplets(peaks: tuple[Peak, ...], *, field_mhz: float, max_j_hz: flo
     if not max_j_hz > 0 or not tolerance_hz > 0:
         raise InputError(f"max_j_hz / tolerance_hz: expected > 0, got {max_j_hz!r} / {tolerance_hz!r}")
     order = sorted(range(len(peaks)), key=lambda k: -peaks[k].ppm)
-    major = [k for k in order if not _is_minor(peaks, k, field_mhz, 3.0 * max_j_hz, minor_ratio)]
+    major = [k for k in order if not _is_minor(peaks, k, field_mhz, 3.0 * max_j_hz, minor_ratio)
+             and not _is_minor(peaks, k, field_mhz, _SATELLITE_REACH_HZ, _SATELLITE_RATIO)]
     groups: list[list[int]] = []
     for k in major:
         if groups and _joins(peaks[groups[-1][-1]], peaks[k], field_mhz, max_j_hz):

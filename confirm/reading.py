@@ -421,7 +421,7 @@ def _decay_ratio(values: np.ndarray) -> float:
 
 
 def _check_byte_order(path: Path, raw: np.ndarray, dtype: np.dtype) -> None:
-    swapped = raw.byteswap().view(dtype.newbyteorder())
+    swapped = raw.byteswap()  # the same bytes read in the other byte order
     with np.errstate(all="ignore"):
         finite = bool(np.all(np.isfinite(raw.astype(float))))
         finite_swapped = bool(np.all(np.isfinite(swapped.astype(float))))
@@ -855,9 +855,11 @@ def _detect_delimiter(lines: list[str]) -> str | None:
     for candidate in ("\t", ";"):
         if all(candidate in ln for ln in lines):
             return candidate
-    if all("," in ln for ln in lines) and not all(re.fullmatch(r"\S+(\s+\S+)+", ln) for ln in lines):
-        return ","
     if all("," in ln for ln in lines):
+        # "7,26  120": whitespace-separated numbers written with a decimal comma
+        number = re.compile(r"[-+]?\d+(?:[.,]\d+)?(?:[eE][-+]?\d+)?")
+        if all(len(ln.split()) >= 2 and all(number.fullmatch(tok) for tok in ln.split()) for ln in lines):
+            return None
         return ","
     return None
 
