@@ -104,8 +104,10 @@ def test_jcamp_writer_output_reads_in_nmrglue(tmp_path):
     assert not list(tmp_path.glob(".*tmp"))  # written through a temporary file
 
 
-_SQZ = {0: "@", **{d: "ABCDEFGHI"[d - 1] for d in range(1, 10)}, **{-d: "abcdefghi"[d - 1] for d in range(1, 10)}}
-_DIF = {0: "%", **{d: "JKLMNOPQR"[d - 1] for d in range(1, 10)}, **{-d: "jklmnopqr"[d - 1] for d in range(1, 10)}}
+_SQZ = {0: "@", **{d: "ABCDEFGHI"[d - 1] for d in range(1, 10)},
+        **{-d: "abcdefghi"[d - 1] for d in range(1, 10)}}
+_DIF = {0: "%", **{d: "JKLMNOPQR"[d - 1] for d in range(1, 10)},
+        **{-d: "jklmnopqr"[d - 1] for d in range(1, 10)}}
 
 
 def _encode(value: int, table) -> str:
@@ -172,8 +174,9 @@ def test_procpar_directory_reads_and_processes(tmp_path):
     udic[0].update(size=fid.size, complex=True, sw=SW_HZ, obs=FIELD_MHZ, car=4.0 * FIELD_MHZ)
     dic = ng.varian.create_dic(udic)
     pp = dic["procpar"]
-    for name, value in (("sfrq", FIELD_MHZ * (1 + 4e-6)), ("reffrq", FIELD_MHZ), ("sw", SW_HZ), ("nt", 8),
-                        ("d1", 14.0), ("temp", 25.0), ("tn", "H1"), ("solvent", "cdcl3"), ("seqfil", "s2pul")):
+    for name, value in (("sfrq", FIELD_MHZ * (1 + 4e-6)), ("reffrq", FIELD_MHZ), ("sw", SW_HZ),
+                        ("nt", 8), ("d1", 14.0), ("temp", 25.0), ("tn", "H1"), ("solvent", "cdcl3"),
+                        ("seqfil", "onepulse")):
         pp[name] = ng.varian.create_pdic_param(name, [str(value)])
     folder = tmp_path / "exp.fid"
     ng.varian.write(str(folder), dic, (fid * 1e6).astype("complex64"), overwrite=True)
