@@ -401,7 +401,9 @@ def _group_rows(values: np.ndarray, weights: np.ndarray) -> tuple[np.ndarray, np
     """Merge rows equal within 1e-6 (Hz or spin units), adding their weights."""
     keys = np.round(values / 1e-6).astype(np.int64)
     _, first, inverse = np.unique(keys, axis=0, return_index=True, return_inverse=True)
-    return values[first], np.bincount(inverse.ravel(), weights=weights)
+    total = np.bincount(inverse.ravel(), weights=weights)
+    keep = total > 0
+    return values[first][keep], total[keep]
 
 
 @dataclass(frozen=True)
@@ -496,6 +498,8 @@ def _lines_per_neighbour_state(cluster: _Cluster, states, nu, j, min_intensity):
 
 def _reduce_states(offsets, weights, max_rows: int = _MAX_SPLIT_STATES):
     """Bin a neighbour's state offsets (Hz) until at most ``max_rows`` remain (weighted means)."""
+    keep = weights > 0
+    offsets, weights = offsets[keep], weights[keep]
     step = _SPLIT_POOL_HZ
     while len(weights) > max_rows:
         keys = np.round(offsets / step).astype(np.int64)
