@@ -203,6 +203,17 @@ def _decimate(x: np.ndarray, y: np.ndarray, n_bins: int = _PLOT_POINTS):
     return np.array(xs), np.array(ys)
 
 
+def _break_gaps(x: np.ndarray, y: np.ndarray):
+    """Insert NaN where the axis jumps (between fitted regions) so no line bridges the gap."""
+    if x.size < 3:
+        return x, y
+    step = np.abs(np.diff(x))
+    jumps = np.nonzero(step > 5 * np.median(step))[0]
+    if not jumps.size:
+        return x, y
+    return np.insert(x.astype(float), jumps + 1, np.nan), np.insert(y.astype(float), jumps + 1, np.nan)
+
+
 def _figure_overview(result):
     import matplotlib.pyplot as plt
 
@@ -211,9 +222,11 @@ def _figure_overview(result):
     if result.spectrum is not None:
         ax.plot(*_decimate(result.spectrum.ppm, result.spectrum.intensity), color="#222222", lw=0.7,
                 label="measured")
-    ax.plot(*_decimate(fit.ppm, fit.model), color="#d1495b", lw=0.8, alpha=0.85, label="fitted mixture")
+    ax.plot(*_break_gaps(*_decimate(fit.ppm, fit.model)), color="#d1495b", lw=0.8, alpha=0.85,
+            label="fitted mixture")
     offset = -0.12 * float(np.max(np.abs(fit.model))) if fit.model.size else 0.0
-    ax.plot(*_decimate(fit.ppm, fit.residual + offset), color="#1b6e8a", lw=0.6, label="residual (offset)")
+    ax.plot(*_break_gaps(*_decimate(fit.ppm, fit.residual + offset)), color="#1b6e8a", lw=0.6,
+            label="residual (offset)")
     ax.set_xlim(float(fit.ppm.max()), float(fit.ppm.min()))
     ax.set_xlabel("chemical shift / ppm")
     ax.set_yticks([])
@@ -249,15 +262,18 @@ def _draw_region(ax, result, curves, high, low):
         sel = (result.spectrum.ppm <= high) & (result.spectrum.ppm >= low)
         ax.plot(result.spectrum.ppm[sel], result.spectrum.intensity[sel], color="#222222", lw=0.8,
                 label="measured")
-    ax.plot(fit.ppm[inside], fit.model[inside], color="#888888", lw=0.8, ls="--", label="fitted mixture")
+    ax.plot(*_break_gaps(fit.ppm[inside], fit.model[inside]), color="#888888", lw=0.8, ls="--",
+            label="fitted mixture")
     peak = max(float(np.max(curves.per_molecule[:, inside])) if inside.any() else 1.0, 1e-300)
     step = 0.55 * max(top, 1e-300)
     for k, comp in enumerate(fit.components):
         base = -(k + 1) * step
         trace = curves.per_molecule[k, inside] / peak * 0.9 * step
         colour = _PALETTE[k % len(_PALETTE)]
-        ax.plot(fit.ppm[inside], base + trace, color=colour, lw=0.9, label=_component_legend(comp))
-        ax.plot(fit.ppm[inside], curves.fitted[k, inside], color=colour, lw=0.6, alpha=0.7)
+        ax.plot(*_break_gaps(fit.ppm[inside], base + trace), color=colour, lw=0.9,
+                label=f"{k + 1}. {_component_legend(comp)}")
+        ax.plot(*_break_gaps(fit.ppm[inside], curves.fitted[k, inside]), color=colour, lw=0.6, alpha=0.7)
+        ax.text(low, base + 0.15 * step, f" {k + 1}", color=colour, fontsize=7, ha="left", va="bottom")
     ax.set_xlim(high, low)
     ax.set_yticks([])
     ax.set_xlabel("ppm")
