@@ -1,0 +1,1117 @@
+"""Explain a processed 1H spectrum as a mixture of candidate molecules.
+
+The measured spectrum is modelled as a non-negative sum of the candidates' simulated
+spectra (one molecule each, so amounts are proportional to moles) plus a smooth baseline
+in each fitted region. The site shifts of each candidate may move within a few predicted
+standard deviations, the larger couplings within about 1 Hz, and all lines share one
+Lorentzian width. The fit runs in three stages:
+
+1. *start*: every site's predicted multiplet is slid across its window of allowed shifts
+   and placed where it best matches the observed shape (normalised cross-correlation with a
+   weak prior pulling towards the prediction);
+2. *refine*: a bounded nonlinear least-squares fit (scipy ``least_squares``) of amounts,
+   baseline, site shifts (lines translate with their site), couplings and width, with an
+   analytic Jacobian; the spin system is re-simulated at the refined shifts between rounds
+   so strongly coupled patterns stay exact;
+3. *uncertainty*: the covariance of the amounts from the Jacobian, inflated by the reduced
+   chi-square and by the measured correlation of neighbouring noise points, checked against a
+   block bootstrap of the residual (the larger of the two is reported).
+
+Residual solvent, water, TMS and common impurity signals are masked; 13C satellites of every
+candidate line are part of the model, so none of them can be taken for a product.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.optimize import least_squares
+
+from predictors.core import Candidate, ComponentFit, MixtureFit, Spectrum, SpinSystem
+from predictors.errors import FitError, InputError
+
+__all__ = ["FitOptions", "fit_mixture", "estimate_noise_sd", "estimate_line_width_hz"]
+
+#: 13C natural abundance: each satellite is 0.55 % of its parent (references.md section 5).
+SATELLITE_SHARE = 0.0055
+#: One-bond C-H couplings (Hz) for satellite positions: sp2 ~158, sp3 ~128.
+# common practice (textbook ranges of 1J(C,H))
+_J_CH_SP2_HZ = 158.0
+_J_CH_SP3_HZ = 128.0
+_SP2_LABELS = ("vinyl", "aryl", "aromatic", "alkene", "aldehyde", "CHO", "olefinic")
+
+
+@dataclass(frozen=True)
+class FitOptions:
+    """Settings of :func:`fit_mixture` (defaults suit crude reaction spectra).
+
+    Attributes
+    ----------
+    shift_window_sd : float
+        Site shifts may move this many predicted standard deviations.
+    min_shift_window_ppm, max_shift_window_ppm : float
+        Bounds on that window whatever the predicted sd.
+    j_window_hz : float
+        Couplings of at least ``min_refined_j_hz`` may change by this much.
+    min_refined_j_hz : float
+    refine_couplings : bool
+    line_width_hz : float or None
+        Starting line width (FWHM); estimated from the spectrum when None.
+    max_line_width_hz : float
+    points_per_width : float
+        Target grid points per line width after binning.
+    baseline_degree : int
+        Degree of the polynomial baseline in each fitted region.
+    mask_solvent : bool
+        Mask residual solvent, water, TMS and common impurity signals.
+    detection_sigma : float
+        Amount must exceed this many standard deviations to count as detected.
+    n_bootstrap : int
+        Block-bootstrap draws used to check the covariance standard deviations.
+    rounds : int
+        Re-simulation rounds of the refinement.
+    uncertainty_scale : float
+        Extra factor on every standard deviation (peak-list input uses > 1).
+    seed : int
+        Seed of the bootstrap (results repeat exactly).
+    """
+
+    shift_window_sd: float = 3.0
+    min_shift_window_ppm: float = 0.02
+    max_shift_window_ppm: float = 0.6
+    j_window_hz: float = 1.0
+    min_refined_j_hz: float = 4.0
+    refine_couplings: bool = True
+    line_width_hz: float | None = None
+    max_line_width_hz: float = 8.0
+    points_per_width: float = 3.0
+    baseline_degree: int = 1
+    mask_solvent: bool = True
+    detection_sigma: float = 3.0
+    n_bootstrap: int = 40
+    rounds: int = 2
+    coarse_blur_hz: float = 2.5
+    uncertainty_scale: float = 1.0
+    seed: int = 7
+
+    def __post_init__(self) -> None:
+        for name in ("shift_window_sd", "min_shift_window_ppm", "max_shift_window_ppm", "points_per_width",
+                     "detection_sigma", "uncertainty_scale", "max_line_width_hz"):
+            value = getattr(self, name)
+            if not np.isfinite(value) or value <= 0:
+                raise InputError(f"{name}: must be a positive number, got {value!r}")
+        if self.line_width_hz is not None and not 0.05 <= self.line_width_hz <= self.max_line_width_hz:
+            raise InputError(f"line_width_hz: must be in 0.05-{self.max_line_width_hz} Hz, "
+                             f"got {self.line_width_hz!r}")
+        if self.baseline_degree not in (0, 1, 2, 3):
+            raise InputError(f"baseline_degree: must be 0-3, got {self.baseline_degree!r}")
+        if self.rounds < 1 or self.n_bootstrap < 0:
+            raise InputError("rounds must be >= 1 and n_bootstrap >= 0")
+
+
+# --------------------------------------------------------------------------------------------
+# Spectrum statistics
+# --------------------------------------------------------------------------------------------
+
+def estimate_noise_sd(intensity: np.ndarray, *, n_blocks: int = 32) -> float:
+    """Noise standard deviation of a spectrum from its quietest stretches.
+
+    The spectrum is cut into ``n_blocks`` blocks; in each, the sd of the first difference
+    divided by sqrt(2) estimates the noise (insensitive to smooth baseline). The median of the
+    quietest quarter of blocks is returned, so signals do not inflate it.
+    """
+    y = np.asarray(intensity, dtype=float)
+    if y.size < 4 * n_blocks:
+        n_blocks = max(1, y.size // 16)
+    blocks = np.array_split(np.diff(y), n_blocks)
+    sds = np.sort([np.std(b) / np.sqrt(2.0) for b in blocks if b.size > 3])
+    quiet = sds[: max(1, len(sds) // 4)]
+    sd = float(np.median(quiet))
+    if not np.isfinite(sd) or sd <= 0:
+        sd = float(np.std(y)) * 1e-3 or 1e-12
+    return sd
+
+
+def _noise_correlation_factor(intensity: np.ndarray, noise_sd: float, *, max_lag: int = 6) -> float:
+    """Variance inflation of sums over correlated noise, sqrt(1 + 2 sum rho_k), from quiet data."""
+    y = np.asarray(intensity, dtype=float)
+    n_blocks = 32
+    blocks = np.array_split(y, n_blocks)
+    scores = [np.std(np.diff(b)) for b in blocks]
+    quiet = [blocks[i] for i in np.argsort(scores)[: max(2, n_blocks // 4)]]
+    rhos = np.zeros(max_lag)
+    for block in quiet:
+        z = block - np.convolve(block, np.ones(15) / 15, mode="same")  # remove slow baseline
+        z = z[8:-8]
+        if z.size <= max_lag * 4:
+            continue
+        var = np.dot(z, z)
+        rhos += [np.dot(z[:-k], z[k:]) / var for k in range(1, max_lag + 1)]
+    rhos /= max(1, len(quiet))
+    return float(np.sqrt(max(1.0, 1.0 + 2.0 * np.sum(np.clip(rhos, 0.0, None)))))
+
+
+def estimate_line_width_hz(spectrum: Spectrum, *, noise_sd: float | None = None) -> float:
+    """Median full width at half height (Hz) of the tallest isolated peaks of a spectrum."""
+    y = np.asarray(spectrum.intensity, dtype=float)
+    sd = noise_sd or estimate_noise_sd(y)
+    hz = abs(spectrum.hz_per_point)
+    order = np.argsort(-y)
+    widths, used = [], np.zeros(y.size, bool)
+    for i in order[:2000]:
+        if y[i] < 30 * sd or len(widths) >= 12:
+            break
+        if used[i] or not (0 < i < y.size - 1) or y[i] < y[i - 1] or y[i] < y[i + 1]:
+            continue
+        half = y[i] / 2
+        lo, hi = i, i
+        while lo > 0 and y[lo] > half:
+            lo -= 1
+        while hi < y.size - 1 and y[hi] > half:
+            hi += 1
+        used[max(0, lo - (hi - lo)): hi + (hi - lo)] = True
+        left = lo + (half - y[lo]) / (y[lo + 1] - y[lo])
+        right = hi - (half - y[hi]) / (y[hi - 1] - y[hi])
+        widths.append((right - left) * hz)
+    if not widths:
+        return 1.0
+    return float(np.clip(np.percentile(widths, 30), 2.5 * hz, 6.0))
+
+
+# --------------------------------------------------------------------------------------------
+# Candidate models
+# --------------------------------------------------------------------------------------------
+
+@dataclass
+class _Model:
+    """Working copy of one candidate's spin system (only non-exchangeable sites)."""
+
+    sites: np.ndarray          # indices into the SpinSystem's sites
+    shift0: np.ndarray         # predicted shifts (ppm)
+    window: np.ndarray         # allowed half-window of each shift (ppm)
+    n_h: np.ndarray
+    j0: np.ndarray             # predicted couplings, shape (n, n)
+    j_pairs: list              # (a, b) couplings refined
+    sp2: np.ndarray            # bool per site (satellite J)
+    labels: tuple
+
+
+def _build_model(system: SpinSystem, options: FitOptions) -> _Model:
+    keep = np.array([i for i, s in enumerate(system.sites) if not s.exchangeable], dtype=int)
+    if keep.size == 0:
+        raise FitError(f"systems: candidate {system.smiles} has no non-exchangeable protons to fit")
+    sites = [system.sites[i] for i in keep]
+    sd = np.array([s.shift_sd_ppm for s in sites])
+    window = np.clip(options.shift_window_sd * sd, options.min_shift_window_ppm, options.max_shift_window_ppm)
+    j0 = np.asarray(system.j_hz, dtype=float)[np.ix_(keep, keep)]
+    pairs = [(a, b) for a in range(len(keep)) for b in range(a + 1, len(keep))
+             if abs(j0[a, b]) >= options.min_refined_j_hz] if options.refine_couplings else []
+    labels = tuple(s.label for s in sites)
+    sp2 = np.array([any(k.lower() in lab.lower() for k in _SP2_LABELS) for lab in labels])
+    return _Model(sites=keep, shift0=np.array([s.shift_ppm for s in sites]), window=window,
+                  n_h=np.array([s.n_h for s in sites]), j0=j0, j_pairs=pairs, sp2=sp2, labels=labels)
+
+
+def _model_lines(model: _Model, shifts: np.ndarray, j: np.ndarray, field_mhz: float):
+    """Lines of one molecule with 13C satellites: (ppm, intensity, site) arrays."""
+    from predictors.spin import simulate_arrays
+
+    lines = simulate_arrays(shifts, j, model.n_h, field_mhz=field_mhz)
+    ppm, inten, site = np.asarray(lines.ppm), np.asarray(lines.intensity), np.asarray(lines.site_index)
+    half = np.where(model.sp2[site], _J_CH_SP2_HZ, _J_CH_SP3_HZ) / 2.0 / field_mhz
+    ppm = np.concatenate([ppm, ppm + half, ppm - half])
+    inten = np.concatenate([inten * (1 - 2 * SATELLITE_SHARE), inten * SATELLITE_SHARE,
+                            inten * SATELLITE_SHARE])
+    return ppm, inten, np.concatenate([site, site, site])
+
+
+def _j_matrix(model: _Model, dj: np.ndarray) -> np.ndarray:
+    j = model.j0.copy()
+    for (a, b), d in zip(model.j_pairs, dj, strict=True):
+        j[a, b] = j[b, a] = j[a, b] + np.sign(j[a, b]) * d
+    return j
+
+
+# --------------------------------------------------------------------------------------------
+# Regions, masks and the working grid
+# --------------------------------------------------------------------------------------------
+
+def _merge_intervals(intervals):
+    merged = []
+    for lo, hi in sorted(intervals):
+        if merged and lo <= merged[-1][1]:
+            merged[-1][1] = max(merged[-1][1], hi)
+        else:
+            merged.append([lo, hi])
+    return merged
+
+
+def _fit_intervals(models, field_mhz: float, lw_hz: float):
+    intervals = []
+    for m in models:
+        spread = np.abs(m.j0).sum(axis=1) / field_mhz / 2 + 20 * lw_hz / field_mhz + 0.03
+        sat = _J_CH_SP2_HZ / 2 / field_mhz
+        for s, w, half in zip(m.shift0, m.window, spread, strict=True):
+            intervals.append((s - w - half, s + w + half))
+            if field_mhz < 150:  # at low field the satellites stay close; at high field they are tiny
+                continue
+            intervals.append((s - w - half - sat, s - w - half))
+    return _merge_intervals(intervals)
+
+
+def _mask_intervals(solvent: str | None, field_mhz: float, lw_hz: float, models) -> tuple[list, list]:
+    """Windows never fitted (residual solvent, water, TMS, impurities) and notes on them."""
+    from confirm.solvents import impurity_signals, solvent_signals
+
+    half = max(0.02, 6 * lw_hz / field_mhz)
+    spots = [(0.0, half, "TMS")]
+    notes = []
+    if solvent:
+        try:
+            info = solvent_signals(solvent)
+        except Exception:  # unknown solvent name: mask nothing solvent-specific, say so
+            info = None
+            notes.append(f"solvent {solvent!r} not in the residual-signal table: its signals are not masked")
+        if info is not None:
+            for ppm in np.atleast_1d(info.residual_ppm):
+                spots.append((float(ppm), half, "residual solvent"))
+            for ppm in np.atleast_1d(info.water_ppm if info.water_ppm is not None else []):
+                spots.append((float(ppm), max(0.06, 10 * lw_hz / field_mhz), "water"))
+            predicted = np.concatenate([m.shift0 for m in models])
+            for imp in impurity_signals(solvent):
+                for ppm in np.atleast_1d(imp.ppm):
+                    if np.min(np.abs(predicted - ppm)) > 0.05:  # never mask a candidate's own signal
+                        spots.append((float(ppm), half, imp.name))
+    else:
+        notes.append("solvent unknown: residual solvent and water signals are not masked")
+    sat = 209.0 / 2 / field_mhz  # 1J(C,H) of CHCl3 ~209 Hz: its satellites are solvent too
+    extra = [(p + d, h, f"{name} 13C satellite") for p, h, name in spots if name == "residual solvent"
+             for d in (sat, -sat)]
+    return [(p - h, p + h, name) for p, h, name in spots + extra], notes
+
+
+@dataclass
+class _Grid:
+    x: np.ndarray        # ppm, increasing
+    y: np.ndarray        # binned intensity
+    weight: np.ndarray   # 0 in masked windows, 1 elsewhere
+    region: np.ndarray   # region index of each point
+    n_regions: int
+    dx_ppm: float
+
+
+def _build_grid(spectrum: Spectrum, intervals, masks, lw_hz: float, options: FitOptions, *,
+                blur_hz: float = 0.0) -> _Grid:
+    ppm = np.asarray(spectrum.ppm)[::-1]
+    y = np.asarray(spectrum.intensity, dtype=float)[::-1]
+    hz = abs(spectrum.hz_per_point)
+    if blur_hz > 0:  # convolve with a unit-area Lorentzian of FWHM blur_hz (widths add)
+        freq = np.fft.rfftfreq(y.size, d=hz)
+        y = np.fft.irfft(np.fft.rfft(y) * np.exp(-np.pi * blur_hz * freq), n=y.size)
+    factor = max(1, int(round(lw_hz / options.points_per_width / hz)))
+    xs, ys, regs = [], [], []
+    for r, (lo, hi) in enumerate(intervals):
+        i0, i1 = np.searchsorted(ppm, [lo, hi])
+        n = (i1 - i0) // factor * factor
+        if n < 8 * factor:
+            continue
+        xs.append(ppm[i0:i0 + n].reshape(-1, factor).mean(1))
+        ys.append(y[i0:i0 + n].reshape(-1, factor).mean(1))
+        regs.append(np.full(n // factor, len(regs)))
+    if not xs:
+        raise FitError("spectrum: no candidate signal falls inside the spectral window "
+                       f"({spectrum.ppm[-1]:.2f}-{spectrum.ppm[0]:.2f} ppm)")
+    x, yb, region = np.concatenate(xs), np.concatenate(ys), np.concatenate(regs)
+    weight = np.ones(x.size)
+    for lo, hi, _ in masks:
+        weight[(x >= lo) & (x <= hi)] = 0.0
+    return _Grid(x=x, y=yb, weight=weight, region=region, n_regions=len(xs), dx_ppm=hz * factor / spectrum.field_mhz)
+
+
+def _baseline_basis(grid: _Grid, degree: int) -> np.ndarray:
+    cols = []
+    for r in range(grid.n_regions):
+        sel = grid.region == r
+        x = grid.x[sel]
+        t = 2 * (x - x.min()) / max(x.max() - x.min(), 1e-9) - 1
+        deg = degree if (x.max() - x.min()) > 0.15 else min(degree, 1)
+        for d in range(deg + 1):
+            col = np.zeros(grid.x.size)
+            col[sel] = np.polynomial.legendre.legval(t, [0] * d + [1])
+            cols.append(col)
+    return np.array(cols).T
+
+
+# --------------------------------------------------------------------------------------------
+# Rendering (Lorentzian lines on the working grid, with derivatives)
+# --------------------------------------------------------------------------------------------
+
+def _render(grid: _Grid, ppm, inten, group, n_groups: int, lw_ppm: float, *, derivs: bool):
+    """Sum of Lorentzians per group; optionally d/d(position) and d/d(width) per group.
+
+    Each line is evaluated only within +-40 half-widths (the tails beyond carry ~1.6 % of the area
+    for every line alike, so ratios between candidates are unaffected).
+    """
+    n = grid.x.size
+    gamma = lw_ppm / 2
+    span = int(np.ceil(40 * gamma / grid.dx_ppm)) + 1
+    centre = np.searchsorted(grid.x, ppm)
+    idx = centre[:, None] + np.arange(-span, span + 1)[None, :]
+    valid = (idx >= 0) & (idx < n)
+    idx = np.clip(idx, 0, n - 1)
+    d = grid.x[idx] - ppm[:, None]
+    den = d * d + gamma * gamma
+    amp = np.where(valid, inten[:, None], 0.0)
+    val = amp * gamma / np.pi / den
+    flat = (idx + n * group[:, None]).ravel()
+    out = np.bincount(flat, weights=val.ravel(), minlength=n * n_groups).reshape(n_groups, n)
+    if not derivs:
+        return out, None, None
+    dpos = np.bincount(flat, weights=(val * 2 * d / den).ravel(), minlength=n * n_groups).reshape(n_groups, n)
+    dgam = amp / np.pi * (den - 2 * gamma * gamma) / (den * den)
+    dwidth = np.bincount(flat, weights=(dgam / 2).ravel(), minlength=n * n_groups).reshape(n_groups, n)
+    return out, dpos, dwidth
+
+
+# --------------------------------------------------------------------------------------------
+# The fit
+# --------------------------------------------------------------------------------------------
+
+@dataclass
+class _State:
+    """Lines of every candidate at the shifts of the last simulation."""
+
+    base_shift: list   # per candidate: shifts the lines were simulated at
+    lines: list        # per candidate: (ppm, inten, site)
+    dj: list           # per candidate: coupling offsets used
+
+
+def _simulate_all(models, shifts, djs, field_mhz: float) -> _State:
+    lines = [_model_lines(m, s, _j_matrix(m, d), field_mhz) for m, s, d in zip(models, shifts, djs, strict=True)]
+    return _State(base_shift=[s.copy() for s in shifts], lines=lines, dj=[d.copy() for d in djs])
+
+
+def _translated(state: _State, k: int, shifts: np.ndarray):
+    ppm, inten, site = state.lines[k]
+    return ppm + (shifts - state.base_shift[k])[site], inten, site
+
+
+def _site_offsets(models):
+    offsets, total = [], 0
+    for m in models:
+        offsets.append(total)
+        total += m.shift0.size
+    return offsets, total
+
+
+def _components(grid, models, state, shifts, lw_ppm, *, derivs: bool):
+    """Per-candidate columns (and per-site position derivatives, width derivatives)."""
+    offsets, n_sites = _site_offsets(models)
+    ppm, inten, group = [], [], []
+    for k in range(len(models)):
+        p, i, s = _translated(state, k, shifts[k])
+        ppm.append(p)
+        inten.append(i)
+        group.append(s + offsets[k])
+    ppm, inten, group = np.concatenate(ppm), np.concatenate(inten), np.concatenate(group)
+    per_site, dpos, dwidth = _render(grid, ppm, inten, group, n_sites, lw_ppm, derivs=derivs)
+    cols = np.array([per_site[o:o + m.shift0.size].sum(0) for o, m in zip(offsets, models, strict=True)])
+    if not derivs:
+        return cols, per_site, None, None
+    dw = np.array([dwidth[o:o + m.shift0.size].sum(0) for o, m in zip(offsets, models, strict=True)])
+    return cols, per_site, dpos, dw
+
+
+def _solve_linear(cols: np.ndarray, basis: np.ndarray, grid: _Grid):
+    """Non-negative amounts and free baseline coefficients for fixed columns.
+
+    The baseline is eliminated by projection; the amounts then solve a small non-negative
+    least-squares problem in Gram (normal-equation) form, so the cost does not grow with the
+    number of grid points beyond forming the Gram matrices.
+    """
+    from scipy.optimize import nnls
+
+    w = grid.weight
+    a_mat, b_mat, y = cols.T * w[:, None], basis * w[:, None], grid.y * w
+    bb = b_mat.T @ b_mat
+    bb_inv = np.linalg.pinv(bb, hermitian=True)
+    ab = a_mat.T @ b_mat
+    gram = a_mat.T @ a_mat - ab @ bb_inv @ ab.T
+    rhs = a_mat.T @ y - ab @ bb_inv @ (b_mat.T @ y)
+    scale = np.sqrt(np.clip(np.diag(gram), 0, None))
+    scale[scale == 0] = 1.0
+    g = gram / np.outer(scale, scale) + 1e-12 * np.eye(gram.shape[0])
+    chol = np.linalg.cholesky(g)
+    amounts, _ = nnls(chol.T, np.linalg.solve(chol, rhs / scale))
+    amounts = amounts / scale
+    base = bb_inv @ (b_mat.T @ y - ab.T @ amounts)
+    return amounts, base
+
+
+def _search_start(grid: _Grid, models, state: _State, lw_ppm: float, noise_sd: float):
+    """Slide every site's multiplet across its window; keep the best normalised match."""
+    shifts = [m.shift0.copy() for m in models]
+    target = (grid.y - np.median(grid.y)) * grid.weight
+    for k, m in enumerate(models):
+        ppm, inten, site = state.lines[k]
+        for s in range(m.shift0.size):
+            sel = site == s
+            if sel.any():
+                shifts[k][s] = m.shift0[s] + _best_offset(grid, target, ppm[sel], inten[sel], lw_ppm,
+                                                           m.window[s], noise_sd)
+    return shifts
+
+
+def _best_offset(grid, target, ppm, inten, lw_ppm, window, noise_sd) -> float:
+    """Offset (ppm) of a multiplet that best matches the data within +-window.
+
+    Score: normalised cross-correlation of the multiplet with the data over its support,
+    minus a weak quadratic pull towards the prediction; offsets where the matched-filter
+    signal is below 5 noise sd are not considered (a noise blip must not attract a site).
+    """
+    pad = 10 * lw_ppm
+    i0, i1 = np.searchsorted(grid.x, [ppm.min() - window - pad, ppm.max() + window + pad])
+    j0, j1 = np.searchsorted(grid.x, [ppm.min() - pad, ppm.max() + pad])
+    if j1 - j0 < 3 or i1 - i0 <= j1 - j0:
+        return 0.0
+    x, t = grid.x[i0:i1], target[i0:i1]
+    gamma = lw_ppm / 2
+    px = grid.x[j0:j1]
+    pattern = (inten[:, None] * gamma / np.pi / ((px[None, :] - ppm[:, None]) ** 2 + gamma ** 2)).sum(0)
+    support = (pattern > 0.02 * pattern.max()).astype(float)
+    if np.dot(pattern * support, grid.weight[j0:j1]) < 0.5 * np.dot(pattern, support):
+        return 0.0  # the site sits mostly under a masked window: no evidence to move it
+    pattern = pattern * support  # numerator and energy over the same points keep the score <= 1
+    num = np.correlate(t, pattern, mode="valid")
+    energy = np.correlate(t * t, support, mode="valid")
+    norm_p = np.linalg.norm(pattern)
+    offsets = x[: num.size] - px[0]
+    ncc = num / (norm_p * np.sqrt(energy) + 1e-300)
+    strength = num / (norm_p * noise_sd)
+    score = ncc - 0.15 * (offsets / max(window, 1e-9)) ** 2
+    score[(strength < 5) | (np.abs(offsets) > window)] = -np.inf
+    if not np.isfinite(score).any():
+        return 0.0
+    return float(offsets[int(np.argmax(score))])
+
+
+def _coarse_start(spectrum, models, masks, lw_hz, noise_sd, field_mhz, options):
+    """Starting shifts found on a blurred copy of the data (model blurred alike), where
+    couplings that are off by ~1 Hz still match and every site sees a wider basin."""
+    blur_hz = options.coarse_blur_hz
+    grid = _build_grid(spectrum, _fit_intervals(models, field_mhz, lw_hz), masks, lw_hz + blur_hz, options,
+                       blur_hz=blur_hz)
+    basis = _baseline_basis(grid, options.baseline_degree)
+    lw_ppm = (lw_hz + blur_hz) / field_mhz
+    state = _simulate_all(models, [m.shift0 for m in models], [np.zeros(len(m.j_pairs)) for m in models],
+                          field_mhz)
+    shifts, amounts = _pursue(grid, models, state, lw_ppm, noise_sd)
+    return _sweep_sites(grid, models, state, shifts, lw_ppm, basis, amounts=amounts)
+
+
+def _pursue(grid, models, state, lw_ppm, noise_sd):
+    """Greedy start: the candidate that explains most of the still-unexplained signal is placed
+    first (each site where its multiplet matches best, one amount for the molecule), its model
+    is subtracted, and so on (a matching pursuit over molecules)."""
+    offsets, _ = _site_offsets(models)
+    shifts0 = [m.shift0.copy() for m in models]
+    _, per_site, _, _ = _components(grid, models, state, shifts0, lw_ppm, derivs=False)
+    resid = (grid.y - np.median(grid.y)) * grid.weight
+    shifts, amounts = [s.copy() for s in shifts0], np.zeros(len(models))
+    remaining = list(range(len(models)))
+    while remaining:
+        trials = {k: _place(grid, models[k], per_site[offsets[k]:offsets[k] + models[k].shift0.size], resid,
+                            noise_sd) for k in remaining}
+        best = max(remaining, key=lambda k: trials[k][2])
+        shifts[best], amounts[best], _, col = trials[best]
+        resid = resid - amounts[best] * col * grid.weight
+        remaining.remove(best)
+    return shifts, amounts
+
+
+def _place(grid, model: _Model, units, resid, noise_sd):
+    """Best positions and one amount for a molecule against a residual: (shifts, amount, gain, column)."""
+    w = grid.weight
+    shifts, moved, alphas = model.shift0.copy(), [], []
+    for s in range(model.shift0.size):
+        unit = units[s]
+        best = _best_joint_move(grid, resid, np.zeros_like(unit), unit, model.shift0[s], model.shift0[s],
+                                model.window[s], max(noise_sd ** 2, 1e-300) * 1e4, model.window[s] / 3.0)
+        if best is None:
+            moved.append(unit)
+            continue
+        shifts[s] = best[0]
+        u = _translate_column(grid, unit, best[0] - model.shift0[s])
+        moved.append(u)
+        full, seen = np.dot(u, u), np.dot(u * w, u * w)
+        if full > 0 and seen > 0.5 * full:
+            alphas.append(best[1])
+    col = np.sum(moved, axis=0)
+    amount = float(np.percentile(alphas, 25)) if alphas else 0.0
+    r = resid - amount * col * w
+    gain = float(np.dot(resid, resid) - np.dot(r, r))
+    return shifts, amount, gain, col
+
+
+def _start_amounts(grid, models, state, shifts, lw_ppm, basis):
+    """Robust first amounts: per site, the amplitude that best matches the data under it; per
+    candidate, a low quantile over its sites (overlapping signals only ever inflate a site's
+    estimate, masked sites are skipped)."""
+    cols, per_site, _, _ = _components(grid, models, state, shifts, lw_ppm, derivs=False)
+    _, base = _solve_linear(cols, basis, grid)
+    target = (grid.y - basis @ base) * grid.weight
+    offsets, _ = _site_offsets(models)
+    amounts = np.zeros(len(models))
+    for k, m in enumerate(models):
+        estimates = []
+        for s in range(m.shift0.size):
+            p = per_site[offsets[k] + s] * grid.weight
+            full = per_site[offsets[k] + s]
+            if np.dot(full, full) <= 0 or np.dot(p, p) < 0.5 * np.dot(full, full):
+                continue
+            estimates.append(max(0.0, float(np.dot(p, target) / np.dot(p, p))))
+        amounts[k] = np.percentile(estimates, 25) if estimates else 0.0
+    return amounts
+
+
+def _sweep_sites(grid, models, state, shifts, lw_ppm, basis, *, n_sweeps: int = 3, amounts=None):
+    """Coordinate descent on site shifts: each site, together with its candidate's amount,
+    jumps to its least-squares best position within the site's window.
+
+    With everything else fixed, placing site s at offset d and re-solving the amount a of its
+    candidate explains ``A(d)^2 / B(d)`` of the squared residual, with
+    ``A = <r_k, rest + u(d)>``, ``B = ||rest + u(d)||^2`` (u: the site's unit pattern, rest: the
+    candidate's other sites, r_k: the residual plus the candidate's own contribution); both
+    follow from cross-correlations. A Gaussian prior (predicted sd) breaks ties, weighted by
+    the current misfit per point.
+    """
+    shifts = [s.copy() for s in shifts]
+    offsets, _ = _site_offsets(models)
+    w = grid.weight
+    for sweep in range(n_sweeps):
+        cols, per_site, _, _ = _components(grid, models, state, shifts, lw_ppm, derivs=False)
+        solved, base = _solve_linear(cols, basis, grid)
+        if amounts is None or sweep > 0:
+            amounts = solved
+        amounts = np.array(amounts, dtype=float)
+        resid = (grid.y - amounts @ cols - basis @ base) * w
+        var = max(float(np.mean(resid[w > 0] ** 2)), 1e-300)
+        moved = 0.0
+        for k, m in enumerate(models):
+            for s in range(m.shift0.size):
+                unit = per_site[offsets[k] + s]
+                col = per_site[offsets[k]:offsets[k] + m.shift0.size].sum(0)
+                rest = col - unit
+                r_k = resid + amounts[k] * col * w
+                best = _best_joint_move(grid, r_k, rest, unit, shifts[k][s], m.shift0[s], m.window[s], var,
+                                        m.window[s] / 3.0)
+                if best is None:
+                    continue
+                new_shift, new_amount = best
+                shifted = _translate_column(grid, unit, new_shift - shifts[k][s])
+                moved = max(moved, abs(new_shift - shifts[k][s]))
+                resid = r_k - new_amount * (rest + shifted) * w
+                per_site[offsets[k] + s] = shifted
+                shifts[k][s], amounts[k] = new_shift, new_amount
+        swapped = _swap_sites(grid, models, state, shifts, lw_ppm, basis)
+        if moved < 0.5 * grid.dx_ppm and sweep > 0 and not swapped:
+            break
+    return shifts
+
+
+def _linear_cost(grid, cols, basis) -> float:
+    amounts, base = _solve_linear(cols, basis, grid)
+    r = (grid.y - amounts @ cols - basis @ base) * grid.weight
+    return float(np.dot(r, r))
+
+
+def _swap_sites(grid, models, state, shifts, lw_ppm, basis) -> bool:
+    """Exchange the positions of two sites of different candidates when that lowers the cost.
+
+    Coordinate moves cannot undo a swap (two similar multiplets each taken by the wrong
+    molecule): moving either site alone makes the fit worse. Shifts are updated in place.
+    """
+    offsets, _ = _site_offsets(models)
+    cols, per_site, _, _ = _components(grid, models, state, shifts, lw_ppm, derivs=False)
+    cost = _linear_cost(grid, cols, basis)
+    min_sep = 2 * grid.dx_ppm
+    any_swap = False
+    for k in range(len(models)):
+        for k2 in range(k + 1, len(models)):
+            m, m2 = models[k], models[k2]
+            for s in range(m.shift0.size):
+                for s2 in range(m2.shift0.size):
+                    a, b = shifts[k][s], shifts[k2][s2]
+                    if (abs(a - b) < min_sep or abs(b - m.shift0[s]) > m.window[s]
+                            or abs(a - m2.shift0[s2]) > m2.window[s2]):
+                        continue
+                    u = _translate_column(grid, per_site[offsets[k] + s], b - a)
+                    u2 = _translate_column(grid, per_site[offsets[k2] + s2], a - b)
+                    trial = cols.copy()
+                    trial[k] += u - per_site[offsets[k] + s]
+                    trial[k2] += u2 - per_site[offsets[k2] + s2]
+                    new_cost = _linear_cost(grid, trial, basis)
+                    if new_cost < cost * (1 - 1e-6):
+                        cost, cols = new_cost, trial
+                        per_site[offsets[k] + s], per_site[offsets[k2] + s2] = u, u2
+                        shifts[k][s], shifts[k2][s2] = b, a
+                        any_swap = True
+    return any_swap
+
+
+def _translate_column(grid, column, delta_ppm):
+    """Column moved by delta along the grid (interpolated; exact for whole grid steps)."""
+    return np.interp(grid.x - delta_ppm, grid.x, column, left=0.0, right=0.0)
+
+
+def _best_joint_move(grid, r_k, rest, unit, current, centre, window, var, prior_sd):
+    """Best (shift, amount) of one site within centre +- window, or None when undefined."""
+    if unit.max() <= 0:
+        return None
+    nz = np.flatnonzero(unit > 1e-3 * unit.max())
+    j0, j1 = nz[0], nz[-1] + 1
+    lo_ppm, hi_ppm = centre - window - current, centre + window - current   # allowed moves
+    i0 = max(0, j0 + int(np.floor(lo_ppm / grid.dx_ppm)))
+    i1 = min(grid.x.size, j1 + int(np.ceil(hi_ppm / grid.dx_ppm)))
+    if i1 - i0 <= j1 - j0:
+        return None
+    u = unit[j0:j1]
+    w = grid.weight
+    rest_w = rest * w
+    a_num = np.dot(r_k, rest_w) + np.correlate(r_k[i0:i1] * w[i0:i1], u, mode="valid")
+    b_den = (np.dot(rest_w, rest_w) + 2 * np.correlate(rest_w[i0:i1] * w[i0:i1], u, mode="valid")
+             + np.correlate(w[i0:i1] ** 2, u * u, mode="valid"))
+    moves = grid.x[i0:i0 + a_num.size] - grid.x[j0]
+    gain = np.where(a_num > 0, a_num ** 2 / np.maximum(b_den, 1e-300), 0.0)
+    score = gain / var - ((current + moves - centre) / prior_sd) ** 2
+    score[(moves < lo_ppm - 1e-12) | (moves > hi_ppm + 1e-12)] = -np.inf
+    if not np.isfinite(score).any():
+        return None
+    i = int(np.argmax(score))
+    return float(current + moves[i]), float(max(0.0, a_num[i] / max(b_den[i], 1e-300)))
+
+
+def _pack_bounds(models, shifts0_all, djs, lw_hz, options, n_amounts, n_base):
+    """Parameter vector layout: [shifts..., dj..., lw, amounts..., baseline...]."""
+    lo, hi, x0 = [], [], []
+    for m, s in zip(models, shifts0_all, strict=True):
+        x0 += list(s)
+        lo += list(m.shift0 - m.window)
+        hi += list(m.shift0 + m.window)
+    for d in djs:
+        x0 += list(d)
+        lo += [-options.j_window_hz] * d.size
+        hi += [options.j_window_hz] * d.size
+    return x0, lo, hi
+
+
+class _Problem:
+    """Residual and Jacobian of the full model for ``least_squares``.
+
+    Site shifts translate the lines simulated at the start of the round; coupling changes act
+    through derivative columns computed once per round (a Gauss-Newton linearisation that is
+    renewed by re-simulating in the next round).
+    """
+
+    def __init__(self, grid, models, state, basis, field_mhz, jcols):
+        self.grid, self.models, self.state, self.basis = grid, models, state, basis
+        self.field = field_mhz
+        self.jcols = jcols
+        self.n_sites = sum(m.shift0.size for m in models)
+        self.n_dj = sum(len(m.j_pairs) for m in models)
+        self.k = len(models)
+
+    def unpack(self, theta):
+        shifts, pos = [], 0
+        for m in self.models:
+            shifts.append(theta[pos:pos + m.shift0.size])
+            pos += m.shift0.size
+        djs = []
+        for m in self.models:
+            djs.append(theta[pos:pos + len(m.j_pairs)])
+            pos += len(m.j_pairs)
+        lw = theta[pos]
+        amounts = theta[pos + 1:pos + 1 + self.k]
+        base = theta[pos + 1 + self.k:]
+        return shifts, djs, lw, amounts, base
+
+    def columns(self, theta, *, derivs: bool):
+        shifts, djs, lw, amounts, base = self.unpack(theta)
+        cols, per_site, dpos, dw = _components(self.grid, self.models, self.state, shifts, lw / self.field,
+                                               derivs=derivs)
+        cols = cols.copy()
+        for k in range(self.k):
+            if self.jcols[k] is not None:
+                cols[k] += (djs[k] - self.state.dj[k]) @ self.jcols[k]
+        return cols, per_site, dpos, dw
+
+    def residual(self, theta):
+        _, _, _, amounts, base = self.unpack(theta)
+        cols, _, _, _ = self.columns(theta, derivs=False)
+        return (amounts @ cols + self.basis @ base - self.grid.y) * self.grid.weight
+
+    def jacobian(self, theta):
+        _, _, _, amounts, _ = self.unpack(theta)
+        cols, _, dpos, dw = self.columns(theta, derivs=True)
+        site_amount = np.concatenate([np.full(m.shift0.size, a) for m, a in zip(self.models, amounts, strict=True)])
+        parts = [(dpos * site_amount[:, None]).T]
+        for k in range(self.k):
+            if self.jcols[k] is not None:
+                parts.append((self.jcols[k] * amounts[k]).T)
+        parts.append(((amounts @ dw) / self.field)[:, None])
+        parts.append(cols.T)
+        parts.append(self.basis)
+        return np.hstack(parts) * self.grid.weight[:, None]
+
+
+def _coupling_columns(grid, models, state, lw_ppm, field_mhz, *, step_hz: float = 0.1):
+    """Per candidate, d(unit-amount column)/d(coupling offset) by re-simulation (None if none)."""
+    out = []
+    for k, m in enumerate(models):
+        if not m.j_pairs:
+            out.append(None)
+            continue
+        base_ppm, base_int, _ = state.lines[k]
+        base, _, _ = _render(grid, base_ppm, base_int, np.zeros(base_ppm.size, int), 1, lw_ppm, derivs=False)
+        rows = []
+        for p in range(len(m.j_pairs)):
+            dj = state.dj[k].copy()
+            dj[p] += step_hz
+            ppm, inten, _ = _model_lines(m, state.base_shift[k], _j_matrix(m, dj), field_mhz)
+            col, _, _ = _render(grid, ppm, inten, np.zeros(ppm.size, int), 1, lw_ppm, derivs=False)
+            rows.append((col[0] - base[0]) / step_hz)
+        out.append(np.array(rows))
+    return out
+
+
+def _refine(grid, models, state, shifts, djs, lw_hz, basis, field_mhz, options):
+    jcols = _coupling_columns(grid, models, state, lw_hz / field_mhz, field_mhz)
+    problem = _Problem(grid, models, state, basis, field_mhz, jcols)
+    cols, _, _, _ = _components(grid, models, state, shifts, lw_hz / field_mhz, derivs=False)
+    amounts, base = _solve_linear(cols, basis, grid)
+    x0, lo, hi = _pack_bounds(models, shifts, djs, lw_hz, options, len(models), basis.shape[1])
+    lw_lo = max(0.1, 1.5 * grid.dx_ppm * field_mhz / options.points_per_width)
+    x0 = np.array(x0 + [np.clip(lw_hz, lw_lo * 1.01, options.max_line_width_hz * 0.99)] + list(amounts) + list(base))
+    lo = np.array(lo + [lw_lo] + [0.0] * len(models) + [-np.inf] * basis.shape[1])
+    hi = np.array(hi + [options.max_line_width_hz] + [np.inf] * (len(models) + basis.shape[1]))
+    x0 = np.clip(x0, lo, hi)
+    result = least_squares(problem.residual, x0, jac=problem.jacobian, bounds=(lo, hi), method="trf",
+                           x_scale="jac", max_nfev=40, ftol=1e-6, xtol=1e-6, tr_solver="lsmr")
+    return problem, result
+
+
+# --------------------------------------------------------------------------------------------
+# Uncertainty
+# --------------------------------------------------------------------------------------------
+
+def _fraction_covariance(amounts: np.ndarray, cov: np.ndarray) -> np.ndarray:
+    total = amounts.sum()
+    if total <= 0:
+        return np.zeros_like(cov)
+    grad = (np.eye(amounts.size) * total - amounts[:, None]) / total ** 2   # d x_i / d a_j
+    return grad @ cov @ grad.T
+
+
+def _amount_covariance(jac: np.ndarray, n_amount_start: int, k: int, sigma2: float) -> np.ndarray:
+    norms = np.linalg.norm(jac, axis=0)
+    live = norms > 1e-12 * max(norms.max(), 1e-300)
+    sub = jac[:, live] / norms[live]
+    cov_scaled = np.linalg.pinv(sub.T @ sub, rcond=1e-12, hermitian=True)
+    cov_live = cov_scaled / np.outer(norms[live], norms[live]) * sigma2
+    full = np.zeros((jac.shape[1], jac.shape[1]))
+    full[np.ix_(live, live)] = cov_live
+    amount_idx = np.arange(n_amount_start, n_amount_start + k)
+    cov = full[np.ix_(amount_idx, amount_idx)]
+    dead = ~live[amount_idx]
+    if dead.any():
+        cov[dead, dead] = sigma2 / 1e-300
+    return cov
+
+
+def _bootstrap_fractions(cols, basis, grid, model, residual, options, detected_mask):
+    """Fractions re-solved after adding block-resampled residuals to the fitted model."""
+    if options.n_bootstrap < 2:
+        return None
+    rng = np.random.default_rng(options.seed)
+    n = residual.size
+    block = max(8, n // 200)
+    starts = np.arange(0, n, block)
+    draws = []
+    for _ in range(options.n_bootstrap):
+        picks = rng.integers(0, max(1, n - block), size=starts.size)
+        noise = np.concatenate([residual[p:p + block] for p in picks])[:n]
+        noise = noise * rng.choice([-1.0, 1.0], size=starts.size).repeat(block)[:n]
+        fake = _Grid(x=grid.x, y=model + noise, weight=grid.weight, region=grid.region,
+                     n_regions=grid.n_regions, dx_ppm=grid.dx_ppm)
+        a, _ = _solve_linear(cols, basis, fake)
+        a = np.where(detected_mask, a, 0.0)
+        draws.append(a / a.sum() if a.sum() > 0 else a)
+    return np.std(np.array(draws), axis=0, ddof=1)
+
+
+# --------------------------------------------------------------------------------------------
+# Evidence
+# --------------------------------------------------------------------------------------------
+
+def _site_evidence(grid, models, per_site, amounts, shifts, state, y_clean, noise_sd, field_mhz):
+    """Per site: how strongly it is seen (sigma), its shape match, and how much it overlaps."""
+    offsets, _ = _site_offsets(models)
+    contrib = np.concatenate([per_site[o:o + m.shift0.size] * a for o, m, a in
+                              zip(offsets, models, amounts, strict=True)])
+    total = contrib.sum(0)
+    out = []
+    for k, m in enumerate(models):
+        rows = []
+        for s in range(m.shift0.size):
+            c = contrib[offsets[k] + s]
+            sel = (c > 0.05 * c.max()) & (grid.weight > 0) if c.max() > 0 else np.zeros(c.size, bool)
+            if sel.sum() < 3:
+                rows.append((0.0, 0.0, 1.0))
+                continue
+            others = total[sel] - c[sel]
+            own = y_clean[sel] - others
+            sigma = float(np.dot(c[sel], own) / (noise_sd * np.linalg.norm(c[sel]) + 1e-300))
+            shape = float(np.dot(c[sel], own) / (np.linalg.norm(c[sel]) * np.linalg.norm(own) + 1e-300))
+            overlap = float(np.dot(others, c[sel]) / (np.dot(c[sel], c[sel]) + np.dot(others, c[sel]) + 1e-300))
+            rows.append((sigma, shape, overlap))
+        out.append(rows)
+    return out
+
+
+def _observed_j_text(model: _Model, j: np.ndarray, s: int) -> str:
+    big = [abs(j[s, t]) for t in range(j.shape[0]) if t != s and abs(j[s, t]) >= 4.0]
+    return ", ".join(f"{v:.1f}" for v in sorted(big, reverse=True))
+
+
+def _evidence_lines(models, k, system, shifts, djs, site_rows, field_mhz):
+    m = models[k]
+    j_fit = _j_matrix(m, djs[k])
+    lines = []
+    for s in range(m.shift0.size):
+        sigma, shape, overlap = site_rows[s]
+        site = system.sites[m.sites[s]]
+        j_obs, j_pred = _observed_j_text(m, j_fit, s), _observed_j_text(m, m.j0, s)
+        j_part = f"; J = {j_obs} Hz (predicted {j_pred})" if j_obs else ""
+        seen = "observed" if sigma >= 5 and shape >= 0.5 else "not clearly seen"
+        lines.append(f"{site.label or 'H'} ({site.n_h}H) {seen} at {shifts[k][s]:.3f} ppm (predicted "
+                     f"{site.shift_ppm:.2f} +- {site.shift_sd_ppm:.2f}){j_part}; {sigma:.0f} sigma, "
+                     f"shape match {shape:.2f}, overlap {overlap:.0%}")
+    return tuple(lines)
+
+
+def _diagnostic_ok(rows, model: _Model) -> bool:
+    """At least one well-separated site of the candidate is clearly seen with its own shape,
+    and no well-separated site that should be strong is missing."""
+    seen = [sig >= 5 and shape >= 0.6 and overlap < 0.5 for sig, shape, overlap in rows]
+    missing = [sig < 2 and overlap < 0.3 for sig, shape, overlap in rows]
+    return any(seen) and sum(missing) <= max(0, len(rows) // 3 - 1)
+
+
+# --------------------------------------------------------------------------------------------
+# Unknown signals
+# --------------------------------------------------------------------------------------------
+
+def _unexplained_signals(spectrum, fit_grid, model_full, masks, noise_sd, corr, field_mhz, total_area):
+    """Residual peaks above the noise outside masks: (ppm, share of proton signal) pairs."""
+    ppm = np.asarray(spectrum.ppm)[::-1]
+    y = np.asarray(spectrum.intensity, dtype=float)[::-1]
+    resid = y.copy()
+    inside = np.zeros(y.size, bool)
+    idx = np.searchsorted(ppm, fit_grid.x)
+    # subtract the model where it was fitted (interpolated from the binned grid)
+    lo, hi = fit_grid.x.min(), fit_grid.x.max()
+    sel = (ppm >= lo) & (ppm <= hi)
+    resid[sel] -= np.interp(ppm[sel], fit_grid.x, model_full)
+    inside[np.clip(idx, 0, y.size - 1)] = True
+    for a, b, _ in masks:
+        resid[(ppm >= a) & (ppm <= b)] = 0.0
+    width = max(3, int(round(0.5 / abs(spectrum.hz_per_point))))
+    smooth = np.convolve(resid, np.ones(width) / width, mode="same")
+    thresh = max(8 * noise_sd * corr / np.sqrt(width), 0.0)
+    found = []
+    order = np.argsort(-smooth)
+    taken = np.zeros(y.size, bool)
+    hz = abs(spectrum.hz_per_point)
+    for i in order[:5000]:
+        if smooth[i] < thresh or len(found) >= 10:
+            break
+        if taken[i]:
+            continue
+        j0, j1 = max(0, i - int(15 / hz)), min(y.size, i + int(15 / hz))
+        taken[j0:j1] = True
+        area = float(np.clip(resid[j0:j1], 0, None).sum() * hz / field_mhz)
+        share = area / total_area if total_area > 0 else 0.0
+        if share >= 0.005:
+            found.append((float(ppm[i]), share))
+    return found
+
+
+# --------------------------------------------------------------------------------------------
+# Public entry point
+# --------------------------------------------------------------------------------------------
+
+def _check_inputs(spectrum, systems, candidates):
+    if not isinstance(spectrum, Spectrum):
+        raise InputError(f"spectrum: expected a Spectrum, got {type(spectrum).__name__}")
+    if str(spectrum.nucleus).upper().replace(" ", "") not in ("1H", "H1", "H"):
+        raise InputError(f"spectrum: nucleus is {spectrum.nucleus!r}; only 1H spectra can be fitted")
+    systems, candidates = tuple(systems), tuple(candidates)
+    if not candidates:
+        raise FitError("candidates: at least one candidate is needed to fit a spectrum")
+    if len(systems) != len(candidates):
+        raise InputError(f"systems: got {len(systems)} spin systems for {len(candidates)} candidates")
+    for sys_, cand in zip(systems, candidates, strict=True):
+        if not isinstance(sys_, SpinSystem) or not isinstance(cand, Candidate):
+            raise InputError("systems/candidates: expected SpinSystem and Candidate objects")
+    return systems, candidates
+
+
+def fit_mixture(spectrum: Spectrum, systems: Sequence[SpinSystem], candidates: Sequence[Candidate], *,
+                noise_sd: float | None = None, options: FitOptions | None = None) -> MixtureFit:
+    """Fit a processed 1H spectrum as a non-negative mixture of candidate spectra.
+
+    Parameters
+    ----------
+    spectrum : Spectrum
+        Phased, baseline-corrected and referenced 1H spectrum.
+    systems : sequence of SpinSystem
+        Predicted (or known) spin system of each candidate.
+    candidates : sequence of Candidate
+        The candidates, same order as ``systems``.
+    noise_sd : float, optional
+        Noise standard deviation of ``spectrum.intensity``; estimated when None.
+    options : FitOptions, optional
+
+    Returns
+    -------
+    MixtureFit
+        One :class:`ComponentFit` per candidate (same order), the model and residual on the
+        fitted (binned) axis, the common line width and quality figures.
+
+    Raises
+    ------
+    FitError
+        No candidates, no signal in the fitted regions, or a fit that cannot converge.
+    InputError
+        Wrong nucleus or mismatched inputs.
+    """
+    options = options or FitOptions()
+    systems, candidates = _check_inputs(spectrum, systems, candidates)
+    field = float(spectrum.field_mhz)
+    y_all = np.asarray(spectrum.intensity, dtype=float)
+    noise = float(noise_sd) if noise_sd else estimate_noise_sd(y_all)
+    if not np.isfinite(noise) or noise <= 0:
+        raise InputError(f"noise_sd: must be a positive number, got {noise_sd!r}")
+    lw = options.line_width_hz or estimate_line_width_hz(spectrum, noise_sd=noise)
+    models = [_build_model(s, options) for s in systems]
+    masks, notes = ([], []) if not options.mask_solvent else _mask_intervals(spectrum.solvent, field, lw, models)
+    grid = _build_grid(spectrum, _fit_intervals(models, field, lw), masks, lw, options)
+    if np.max(np.abs(grid.y * grid.weight)) < 5 * noise:
+        raise FitError("spectrum: no signal above 5x the noise where the candidates have signals")
+    basis = _baseline_basis(grid, options.baseline_degree)
+    djs = [np.zeros(len(m.j_pairs)) for m in models]
+    shifts = _coarse_start(spectrum, models, masks, lw, noise, field, options)
+    for _ in range(options.rounds):
+        state = _simulate_all(models, shifts, djs, field)
+        shifts = _sweep_sites(grid, models, state, shifts, lw / field, basis, n_sweeps=2)
+        state = _simulate_all(models, shifts, djs, field)
+        problem, result = _refine(grid, models, state, shifts, djs, lw, basis, field, options)
+        shifts, djs, lw, amounts, base = problem.unpack(result.x)
+        shifts, djs = [s.copy() for s in shifts], [d.copy() for d in djs]
+    return _finish(spectrum, systems, candidates, models, grid, problem, result, basis, masks, notes,
+                   noise, options)
+
+
+def _finish(spectrum, systems, candidates, models, grid, problem, result, basis, masks, notes, noise, options):
+    field = float(spectrum.field_mhz)
+    shifts, djs, lw, amounts, base = problem.unpack(result.x)
+    state = problem.state
+    cols, per_site, _, _ = problem.columns(result.x, derivs=False)
+    model = amounts @ cols + basis @ base
+    resid = grid.y - model
+    w = grid.weight > 0
+    n_par = result.x.size
+    factor = int(round(grid.dx_ppm * field / abs(spectrum.hz_per_point)))
+    noise_bin = noise / np.sqrt(max(1, factor))
+    corr = _noise_correlation_factor(np.asarray(spectrum.intensity)[:: max(1, factor)], noise_bin)
+    chi2 = float(np.sum((resid[w] / noise_bin) ** 2) / max(1, w.sum() - n_par)) / corr ** 2
+    inflate = corr * np.sqrt(max(1.0, chi2)) * options.uncertainty_scale
+    k = len(models)
+    start = problem.n_sites + problem.n_dj + 1
+    cov_a = _amount_covariance(result.jac, start, k, noise_bin ** 2) * inflate ** 2
+    y_clean = grid.y - basis @ base
+    rows = _site_evidence(grid, models, per_site, amounts, shifts, state, y_clean, noise_bin * corr, field)
+    sd_a = np.sqrt(np.clip(np.diag(cov_a), 0, None))
+    significant = amounts > options.detection_sigma * sd_a
+    detected = np.array([significant[i] and _diagnostic_ok(rows[i], models[i]) for i in range(k)])
+    frac, frac_sd, frac_cov, limits = _fractions(amounts, cov_a, detected, options)
+    boot = _bootstrap_fractions(cols, basis, grid, model, resid, options, detected)
+    if boot is not None:
+        frac_sd = np.where(detected, np.maximum(frac_sd, boot * options.uncertainty_scale), frac_sd)
+    components = []
+    for i, cand in enumerate(candidates):
+        refined = _refined_shifts(systems[i], models[i], shifts[i])
+        components.append(ComponentFit(
+            candidate=cand, mole_fraction=float(np.clip(frac[i], 0, 1)), mole_fraction_sd=float(frac_sd[i]),
+            detection_limit=float(limits[i]), detected=bool(detected[i]), refined_shifts_ppm=refined,
+            evidence=_evidence_lines(models, i, systems[i], shifts, djs, rows[i], field)))
+    total_area = float(sum(a * m.n_h.sum() for a, m in zip(amounts, models, strict=True)))
+    unknown = _unexplained_signals(spectrum, grid, model, masks, noise, corr, field, total_area)
+    warnings = list(notes) + [f"unexplained signal at {p:.2f} ppm (~{100 * s:.1f} % of the fitted proton "
+                              f"signal): an unknown component or a missing candidate" for p, s in unknown]
+    if not detected.any():
+        warnings.append("no candidate is clearly present in this spectrum")
+    quality = _quality(grid, model, resid, noise_bin, chi2, corr, lw, unknown, np.asarray(spectrum.intensity), noise,
+                       result)
+    return MixtureFit(components=tuple(components), ppm=grid.x[::-1], model=model[::-1], residual=resid[::-1],
+                      line_width_hz=float(lw), quality=quality, warnings=tuple(warnings),
+                      fraction_covariance=frac_cov, unexplained_ppm=tuple(p for p, _ in unknown))
+
+
+def _fractions(amounts, cov_a, detected, options):
+    k = amounts.size
+    det_amounts = np.where(detected, amounts, 0.0)
+    total = det_amounts.sum()
+    frac = np.zeros(k)
+    frac_cov = np.zeros((k, k))
+    sd = np.sqrt(np.clip(np.diag(cov_a), 0, None))
+    if total > 0:
+        frac = np.where(detected, amounts / total, amounts / (total + amounts))
+        idx = np.flatnonzero(detected)
+        frac_cov[np.ix_(idx, idx)] = _fraction_covariance(amounts[idx], cov_a[np.ix_(idx, idx)])
+        limits = options.detection_sigma * sd / (total + options.detection_sigma * sd)
+    else:
+        limits = np.ones(k)
+    frac_sd = np.sqrt(np.clip(np.diag(frac_cov), 0, None))
+    undetected_sd = np.where(total + amounts > 0, sd / np.maximum(total + amounts, 1e-300), 0.0)
+    frac_sd = np.where(detected, frac_sd, np.minimum(undetected_sd, 1.0))
+    return frac, frac_sd, frac_cov, np.clip(limits, 0.0, 1.0)
+
+
+def _refined_shifts(system: SpinSystem, model: _Model, shifts: np.ndarray) -> tuple[float, ...]:
+    out = [s.shift_ppm for s in system.sites]
+    for idx, value in zip(model.sites, shifts, strict=True):
+        out[idx] = float(value)
+    return tuple(out)
+
+
+def _quality(grid, model, resid, noise_bin, chi2, corr, lw, unknown, y_all, noise, result) -> dict:
+    w = grid.weight > 0
+    y = grid.y[w]
+    ss_tot = float(np.sum((y - y.mean()) ** 2)) or 1.0
+    explained = 1.0 - float(np.sum(np.abs(resid[w]))) / max(float(np.sum(np.abs(y))), 1e-300)
+    return {
+        "r_squared": 1.0 - float(np.sum(resid[w] ** 2)) / ss_tot,
+        "explained_fraction": explained,
+        "reduced_chi2": chi2,
+        "noise_sd": float(noise),
+        "noise_correlation_factor": float(corr),
+        "snr": float(np.max(y_all) / noise),
+        "line_width_hz": float(lw),
+        "n_unexplained": float(len(unknown)),
+        "unexplained_share": float(sum(s for _, s in unknown)),
+        "n_points_fitted": float(w.sum()),
+        "n_function_evaluations": float(result.nfev),
+    }
