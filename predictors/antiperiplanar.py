@@ -82,6 +82,14 @@ class PeriplanarResult:
         Dihedral within :data:`TOLERANCE_DEG`, strain below :data:`MAX_STRAIN_KCAL`
         and, when both carbons are in a six-membered ring, that ring a chair
         (so the H and the leaving group are trans-diaxial).
+    periplanar : bool
+        Dihedral within tolerance (and chair, in a six-membered ring), whatever the strain.
+    energy_kcal : float
+        Unconstrained MMFF94 energy of the periplanar geometry.
+    relaxed_kcal : float
+        Energy after releasing the restraint and minimising again: a local
+        minimum that may lie below every embedded conformer, so callers can use
+        the lowest value seen as a better reference for strain.
     cis_pairs : tuple of (int, int)
         (substituent on alpha, substituent on beta) heavy-atom pairs that face
         each other and end up cis in the alkene.
@@ -97,12 +105,15 @@ class PeriplanarResult:
     dihedral_deg: float
     strain_kcal: float
     reachable: bool
+    periplanar: bool
+    energy_kcal: float
+    relaxed_kcal: float
     cis_pairs: tuple[tuple[int, int], ...]
     lg_axial: bool | None
 
 
 def embed_conformers(mol: Chem.Mol, *, n_conformers: int = 6, seed: int = 0xC0FFEE) -> ConformerSet:
-    """Embed (ETKDG v3) and MMFF-minimise a few conformers.
+    """Embed (ETKDG v3 with small-ring torsions) and MMFF-minimise a few conformers.
 
     Parameters
     ----------
@@ -123,19 +134,59 @@ def embed_conformers(mol: Chem.Mol, *, n_conformers: int = 6, seed: int = 0xC0FF
     molh = Chem.AddHs(mol) if mol.GetNumAtoms() == mol.GetNumHeavyAtoms() else Chem.Mol(mol)
     if not ff_helpers.MMFFHasAllMoleculeParams(molh):
         raise ChemistryError("structure: MMFF94 has no parameters for this molecule; 3D analysis unavailable")
-    params = AllChem.ETKDGv3()
+    # Small-ring torsion preferences (srETKDG v3) put cyclohexanes in chairs; plain ETKDG often
+    # leaves them in twist forms (seen on substituted cyclohexanes).
+    params = AllChem.srETKDGv3()
     params.randomSeed = int(seed) & 0x7FFFFFFF
     params.numThreads = 1
     params.pruneRmsThresh = 0.25
     cids = list(AllChem.EmbedMultipleConfs(molh, numConfs=n_conformers, params=params))
-    if not cids:
-        params.useRandomCoords = True
-        cids = list(AllChem.EmbedMultipleConfs(molh, numConfs=n_conformers, params=params))
+    # A second batch from random coordinates widens the sampling of open chains.
+    extra = Chem.Mol(molh)
+    params = AllChem.ETKDGv3()
+    params.numThreads = 1
+    params.pruneRmsThresh = 0.25
+    params.useRandomCoords = True
+    params.randomSeed = (int(seed) + 1) & 0x7FFFFFFF
+    for cid in AllChem.EmbedMultipleConfs(extra, numConfs=max(2, n_conformers // 2), params=params):
+        cids.append(molh.AddConformer(extra.GetConformer(cid), assignId=True))
     if not cids:
         raise ChemistryError("structure: 3D embedding failed; cannot test anti-periplanar geometry")
     results = ff_helpers.MMFFOptimizeMoleculeConfs(molh, numThreads=1, maxIters=_MAX_ITERS)
-    energies = tuple(float(e) for _, e in results)
-    return ConformerSet(mol=molh, conf_ids=tuple(cids), energies_kcal=energies)
+    energies = [float(e) for _, e in results]
+    kept = _align_hydrogen_labels(molh, cids)
+    for cid in cids:
+        if cid not in kept:
+            molh.RemoveConformer(cid)
+    return ConformerSet(mol=molh, conf_ids=tuple(kept),
+                        energies_kcal=tuple(energies[cids.index(c)] for c in kept))
+
+
+def _align_hydrogen_labels(mol: Chem.Mol, cids: list[int]) -> list[int]:
+    """Give every conformer the hydrogen labelling of the first; drop conformers of another stereoisomer.
+
+    The embedding places the two H of a CH2 either way round, so "the first H" can point to
+    different faces in different conformers. Swapping their coordinates where the handedness
+    differs from the first conformer makes H indices mean the same face everywhere; a
+    difference at an atom with fewer than two H is a wrong configuration and drops the conformer.
+    """
+    ref_signs = _handedness(mol, mol.GetConformer(cids[0]))
+    return [cids[0]] + [cid for cid in cids[1:] if _restore_labels(mol, mol.GetConformer(cid), ref_signs)]
+
+
+def _restore_labels(mol: Chem.Mol, conf, ref_signs: tuple[bool, ...]) -> bool:
+    """Swap H pairs back to the reference handedness; False when a true stereocentre differs."""
+    centres = [a for a in mol.GetAtoms() if a.GetDegree() == 4]
+    for atom, ref, now in zip(centres, ref_signs, _handedness(mol, conf), strict=True):
+        if ref == now:
+            continue
+        hs = [n.GetIdx() for n in atom.GetNeighbors() if n.GetAtomicNum() == 1]
+        if len(hs) < 2:
+            return False
+        first, second = conf.GetAtomPosition(hs[0]), conf.GetAtomPosition(hs[1])
+        conf.SetAtomPosition(hs[0], second)
+        conf.SetAtomPosition(hs[1], first)
+    return True
 
 
 def _local_atoms(mol: Chem.Mol, centre, radius: int) -> set[int]:
@@ -220,16 +271,30 @@ def _angle_gap(a_deg: float, b_deg: float) -> float:
     return abs((a_deg - b_deg + 180.0) % 360.0 - 180.0)
 
 
+def _starts(confs: ConformerSet, atoms, target_deg: float, ring):
+    """Start geometries, best first; in a six-membered ring the flipped lowest chair comes third."""
+    cids = _start_conformers(confs, atoms, target_deg)
+    for n, cid in enumerate(cids):
+        if n == 2 and ring is not None:
+            flipped = _flipped_chair(Chem.Mol(confs.mol, confId=confs.lowest_conf_id), ring)
+            if flipped is not None:
+                yield flipped
+        yield Chem.Mol(confs.mol, confId=cid)
+
+
 def _start_conformers(confs: ConformerSet, atoms: tuple[int, int, int, int], target_deg: float) -> list[int]:
-    """Closest conformer to the target dihedral, plus the lowest one when different."""
+    """Closest conformer to the target dihedral, the lowest one, then up to three more by closeness.
+
+    The caller stops after the first two when they already give a periplanar geometry, so the
+    extra starts are only paid for hydrogens that are hard to bring anti (e.g. a ring flip).
+    """
     gaps = [
         _angle_gap(rdMolTransforms.GetDihedralDeg(confs.mol.GetConformer(cid), *atoms), target_deg)
         for cid in confs.conf_ids
     ]
-    best = [confs.conf_ids[int(np.argmin(gaps))]]
-    if confs.lowest_conf_id not in best:
-        best.append(confs.lowest_conf_id)
-    return best
+    by_gap = [confs.conf_ids[i] for i in np.argsort(gaps, kind="stable")]
+    order = [by_gap[0]] + [confs.lowest_conf_id] + by_gap[1:]
+    return list(dict.fromkeys(order))[:5]
 
 
 def _handedness(mol: Chem.Mol, conf) -> tuple[bool, ...]:
@@ -244,21 +309,47 @@ def _handedness(mol: Chem.Mol, conf) -> tuple[bool, ...]:
     return tuple(signs)
 
 
-def _constrained_minimum(confs: ConformerSet, cid: int, atoms, target_deg: float) -> tuple[Chem.Mol, float]:
+def _positions_into(mol: Chem.Mol, field) -> None:
+    conf = mol.GetConformer()
+    for i, xyz in enumerate(np.asarray(field.Positions()).reshape(-1, 3)):
+        conf.SetAtomPosition(i, xyz.tolist())
+
+
+def _constrained_minimum(start: Chem.Mol, atoms, target_deg: float) -> tuple[Chem.Mol, float]:
     """Minimise with the dihedral restrained; energy is inf when a centre was inverted on the way."""
-    mol = Chem.Mol(confs.mol, confId=cid)
+    mol = Chem.Mol(start)
     before = _handedness(mol, mol.GetConformer())
     props = ff_helpers.MMFFGetMoleculeProperties(mol)
     field = ff_helpers.MMFFGetMoleculeForceField(mol, props)
     field.MMFFAddTorsionConstraint(*atoms, False, target_deg - 1.0, target_deg + 1.0, _RESTRAINT_KCAL)
     field.Minimize(maxIts=_MAX_ITERS)
-    conf = mol.GetConformer()
-    for i, xyz in enumerate(np.asarray(field.Positions()).reshape(-1, 3)):
-        conf.SetAtomPosition(i, xyz.tolist())
-    if _handedness(mol, conf) != before:
+    _positions_into(mol, field)
+    if _handedness(mol, mol.GetConformer()) != before:
         return mol, float("inf")
     energy = ff_helpers.MMFFGetMoleculeForceField(mol, props).CalcEnergy()
     return mol, float(energy)
+
+
+def _flipped_chair(start: Chem.Mol, ring: tuple[int, ...]) -> Chem.Mol | None:
+    """The other chair: every ring torsion driven to minus its value, then released."""
+    mol = Chem.Mol(start)
+    before = _handedness(mol, mol.GetConformer())
+    quads = [tuple(ring[(i + k) % 6] for k in range(4)) for i in range(6)]
+    props = ff_helpers.MMFFGetMoleculeProperties(mol)
+    field = ff_helpers.MMFFGetMoleculeForceField(mol, props)
+    for quad in quads:
+        flipped = -rdMolTransforms.GetDihedralDeg(mol.GetConformer(), *quad)
+        field.MMFFAddTorsionConstraint(*quad, False, flipped - 5.0, flipped + 5.0, 100.0)
+    field.Minimize(maxIts=_MAX_ITERS)
+    _positions_into(mol, field)
+    if not _restore_labels(mol, mol.GetConformer(), before):
+        return None
+    field = ff_helpers.MMFFGetMoleculeForceField(mol, props)
+    field.Minimize(maxIts=_MAX_ITERS)
+    _positions_into(mol, field)
+    if _handedness(mol, mol.GetConformer()) != before or not _is_chair(mol, ring):
+        return None
+    return mol
 
 
 def is_axial(mol: Chem.Mol, *, ring_atom: int, substituent: int, conf_id: int = -1) -> bool | None:
@@ -278,6 +369,22 @@ def is_axial(mol: Chem.Mol, *, ring_atom: int, substituent: int, conf_id: int = 
     bond = pos[substituent] - pos[ring_atom]
     cos = abs(float(np.dot(bond, normal))) / float(np.linalg.norm(bond))
     return bool(cos > np.cos(np.radians(35.0)))
+
+
+def _relaxed_energy(mol: Chem.Mol, energy: float) -> float:
+    if not np.isfinite(energy):
+        return float("inf")
+    relaxed = Chem.Mol(mol)
+    before = _handedness(relaxed, relaxed.GetConformer())
+    props = ff_helpers.MMFFGetMoleculeProperties(relaxed)
+    field = ff_helpers.MMFFGetMoleculeForceField(relaxed, props)
+    field.Minimize(maxIts=_MAX_ITERS)
+    conf = relaxed.GetConformer()
+    for i, xyz in enumerate(np.asarray(field.Positions()).reshape(-1, 3)):
+        conf.SetAtomPosition(i, xyz.tolist())
+    if _handedness(relaxed, conf) != before:
+        return float("inf")
+    return float(field.CalcEnergy())
 
 
 def _shared_six_ring(mol: Chem.Mol, a: int, b: int) -> tuple[int, ...] | None:
@@ -322,24 +429,29 @@ def find_periplanar(confs: ConformerSet, *, h_idx: int, beta_idx: int, alpha_idx
         180 for anti-periplanar, 0 for syn-periplanar.
     """
     atoms = (h_idx, beta_idx, alpha_idx, lg_idx)
+    ring = _shared_six_ring(confs.mol, alpha_idx, beta_idx)
     best = None
-    for cid in _start_conformers(confs, atoms, target_deg):
-        mol, energy = _constrained_minimum(confs, cid, atoms, target_deg)
+    for n_tried, start in enumerate(_starts(confs, atoms, target_deg, ring)):
+        if n_tried >= 2 and not best[0][0]:
+            break  # a periplanar geometry was found from the first two starts
+        mol, energy = _constrained_minimum(start, atoms, target_deg)
         dihedral = rdMolTransforms.GetDihedralDeg(mol.GetConformer(), *atoms)
-        score = (_angle_gap(dihedral, target_deg) > TOLERANCE_DEG, energy)
+        bad = _angle_gap(dihedral, target_deg) > TOLERANCE_DEG or not np.isfinite(energy) or (
+            ring is not None and not _is_chair(mol, ring))
+        score = (bad, energy)
         if best is None or score < best[0]:
             best = (score, mol, energy, dihedral)
     _, mol, energy, dihedral = best
     strain = max(0.0, energy - confs.min_energy_kcal)
     if not np.isfinite(strain):
         strain = 99.0  # every start inverted a centre: not reachable
-    ring = _shared_six_ring(mol, alpha_idx, beta_idx)
     chair_ok = ring is None or _is_chair(mol, ring)
+    periplanar = chair_ok and _angle_gap(dihedral, target_deg) <= TOLERANCE_DEG and np.isfinite(energy)
     return PeriplanarResult(
         h_idx=h_idx, beta_idx=beta_idx, alpha_idx=alpha_idx, lg_idx=lg_idx, target_deg=float(target_deg),
-        dihedral_deg=float(dihedral), strain_kcal=float(strain),
-        reachable=chair_ok and _angle_gap(dihedral, target_deg) <= TOLERANCE_DEG
-        and strain <= MAX_STRAIN_KCAL,
+        dihedral_deg=float(dihedral), strain_kcal=float(strain), energy_kcal=float(energy),
+        relaxed_kcal=_relaxed_energy(mol, energy), periplanar=periplanar,
+        reachable=periplanar and strain <= MAX_STRAIN_KCAL,
         cis_pairs=_cis_pairs(mol, h_idx, beta_idx, alpha_idx, lg_idx),
         lg_axial=is_axial(mol, ring_atom=alpha_idx, substituent=lg_idx),
     )

@@ -26,7 +26,14 @@ from dataclasses import dataclass, field, replace
 from rdkit import Chem
 from rdkit.Chem import rdCIPLabeler
 
-from predictors.antiperiplanar import ConformerSet, embed_conformers, find_periplanar, is_axial, local_model
+from predictors.antiperiplanar import (
+    MAX_STRAIN_KCAL,
+    ConformerSet,
+    embed_conformers,
+    find_periplanar,
+    is_axial,
+    local_model,
+)
 from predictors.core import PATHWAYS, Candidate
 from predictors.errors import ChemistryError, ConfirmError, InputError
 from predictors.reagents import Reagent, get_reagent
@@ -385,39 +392,52 @@ def _beta_hydrogens(ctx: _Context, beta: int) -> list[tuple[int, int]]:
     return [(hs[0], 3)] if len(hs) == 3 else [(h, 1) for h in hs]
 
 
-def _ring_note(ctx: _Context, lg: LeavingGroup, result) -> tuple[str, ...]:
-    if result.lg_axial is None or not result.reachable:
+def _ring_note(ctx: _Context, lg: LeavingGroup, result, strain_kcal: float) -> tuple[str, ...]:
+    if result.lg_axial is None:
         return ()
     model = _model(ctx, lg)
     at_min = is_axial(model.confs.mol, ring_atom=model.idx(lg.alpha_idx),
                       substituent=model.idx(lg.lg_atom_idx), conf_id=model.confs.lowest_conf_id)
     if at_min is False:
         return (f"trans-diaxial H: the ring must flip to put the leaving group axial "
-                f"(cost {result.strain_kcal:.1f} kcal/mol, MMFF94)",)
+                f"(cost {strain_kcal:.1f} kcal/mol, MMFF94)",)
     return ("trans-diaxial H (leaving group axial in the lowest chair)",)
 
 
-def _e2_from_3d(ctx: _Context, lg: LeavingGroup, beta: int, h_idx: int, mult: int) -> list[tuple]:
+def _periplanar_results(ctx: _Context, lg: LeavingGroup, betas) -> tuple[dict, float]:
+    """Anti-periplanar result for every beta-H, and the lowest energy seen (strain reference)."""
     model = _model(ctx, lg)
-    res = find_periplanar(model.confs, h_idx=model.idx(h_idx), beta_idx=model.idx(beta),
-                          alpha_idx=model.idx(lg.alpha_idx), lg_idx=model.idx(lg.lg_atom_idx))
+    results = {}
+    for beta in betas:
+        for h_idx, _ in _beta_hydrogens(ctx, beta):
+            results[h_idx] = find_periplanar(
+                model.confs, h_idx=model.idx(h_idx), beta_idx=model.idx(beta),
+                alpha_idx=model.idx(lg.alpha_idx), lg_idx=model.idx(lg.lg_atom_idx))
+    reference = min([model.confs.min_energy_kcal, *(r.relaxed_kcal for r in results.values())])
+    return results, reference
+
+
+def _e2_from_3d(ctx: _Context, lg: LeavingGroup, beta: int, h_idx: int, mult: int, res,
+                reference_kcal: float) -> list[tuple]:
+    model = _model(ctx, lg)
+    strain = min(res.energy_kcal - reference_kcal, 99.0)
     rw, a, b = _e2_skeleton(ctx, lg, beta, h_idx)
     anti = {(model.original(sa), model.original(sb)) for sa, sb in res.cis_pairs}
     every = {(sa, sb) for sa in _sub_tags(ctx.mol_h, lg.alpha_idx, (beta, lg.lg_atom_idx))
              for sb in _sub_tags(ctx.mol_h, beta, (lg.alpha_idx, h_idx))}
     out = []
-    if res.reachable:
-        why = f"H anti-periplanar at {res.strain_kcal:.1f} kcal/mol strain"
-        weight = mult * math.exp(-res.strain_kcal / ctx.rt_kcal)
-        notes = _ring_note(ctx, lg, res)
+    if res.periplanar and strain <= MAX_STRAIN_KCAL:
+        why = f"H anti-periplanar at {strain:.1f} kcal/mol strain"
+        weight = mult * math.exp(-strain / ctx.rt_kcal)
+        notes = _ring_note(ctx, lg, res, strain)
     else:
-        why = f"no anti-periplanar arrangement for this H (best {abs(res.dihedral_deg):.0f} deg)"
+        why = "no anti-periplanar arrangement for this H within reach"
         weight, notes = mult * _BLOCKED_FACTOR, ("H cannot reach anti-periplanar: minor at best",)
     for o in _alkene_outcomes(rw, a, b, cis_pairs=anti):
         out.append((o, weight, why, notes))
     if ctx.mol_h.GetBondBetweenAtoms(lg.alpha_idx, beta).IsInRing():
         return out  # in a ring the syn path gives the same alkene as the anti path
-    syn_weight = mult * _SYN_FACTOR * math.exp(-min(res.strain_kcal, 10.0) / ctx.rt_kcal)
+    syn_weight = mult * _SYN_FACTOR * math.exp(-min(strain, 10.0) / ctx.rt_kcal)
     for o in _alkene_outcomes(rw, a, b, cis_pairs=every - anti):
         out.append((o, syn_weight, "syn-periplanar elimination (minor path)",
                     ("syn elimination (minor path): geometry opposite to the anti path from the same H",)))
@@ -445,13 +465,17 @@ def _e2_routes(ctx: _Context, lg: LeavingGroup, betas: tuple[int, ...]) -> list[
     else:
         orient = "Hofmann orientation"
     use_3d = _use_3d(ctx, lg, betas)
+    results, reference = _periplanar_results(ctx, lg, betas) if use_3d else ({}, 0.0)
     routes = []
     for beta in betas:
         tags = ("E2", "E1cB") if beta in lg.activated_betas else ("E2",)
-        for h_idx, mult in (_beta_hydrogens(ctx, beta) if use_3d else [(_hydrogens(ctx.mol_h, beta)[0],
-                                                                          len(_hydrogens(ctx.mol_h, beta)))]):
-            make = _e2_from_3d if use_3d else _e2_topological
-            for outcome, weight, why, notes in make(ctx, lg, beta, h_idx, mult):
+        hydrogens = _hydrogens(ctx.mol_h, beta)
+        for h_idx, mult in (_beta_hydrogens(ctx, beta) if use_3d else [(hydrogens[0], len(hydrogens))]):
+            if use_3d:
+                made = _e2_from_3d(ctx, lg, beta, h_idx, mult, results[h_idx], reference)
+            else:
+                made = _e2_topological(ctx, lg, beta, h_idx, mult)
+            for outcome, weight, why, notes in made:
                 w = weight * _orientation_weight(outcome, factor)
                 rationale = (f"E2 by {ctx.reagent.name} ({ctx.reagent.bulk}): {orient} "
                              f"(x{factor:.2g} per alkyl on C=C); {why}")
@@ -787,6 +811,27 @@ def _merge(routes: list[_Route], scale: float) -> list[Candidate]:
     return candidates
 
 
+def _mirror_smiles(smiles: str) -> str:
+    mol = Chem.MolFromSmiles(smiles)
+    for atom in mol.GetAtoms():
+        atom.InvertChirality()
+    return Chem.MolToSmiles(mol)
+
+
+def _merge_mirror_images(routes: list[_Route]) -> list[_Route]:
+    """An achiral substrate gives chiral products as racemates: list each mirror pair once."""
+    present = {r.smiles for r in routes}
+    out = []
+    for r in routes:
+        mirror = _mirror_smiles(r.smiles)
+        if mirror != r.smiles and mirror in present:
+            keep = min(r.smiles, mirror)
+            note = "formed as the racemate with its mirror image (same NMR spectrum)"
+            r = replace(r, smiles=keep, notes=r.notes + (note,))
+        out.append(r)
+    return out
+
+
 def _label(route: _Route) -> str:
     if route.n_subst is None:
         return route.label
@@ -892,6 +937,9 @@ def enumerate_products(substrate, *, reagent: str, solvent: str | None = None, t
         1.0 - _STARTING_MATERIAL_PRIOR), "starting material", "unreacted starting material (incomplete "
         "conversion is common)")
     scale = 1.0 / (total + sm.weight)
-    candidates = _merge(_label_regio(routes) + [sm], scale)
+    routes = _label_regio(routes)
+    if _mirror_smiles(perceived.smiles) == perceived.smiles:
+        routes = _merge_mirror_images(routes)
+    candidates = _merge(routes + [sm], scale)
     candidates.sort(key=lambda c: (-c.prior, c.smiles))
     return ProductSet(perceived.smiles, reagent_obj, tuple(candidates), tuple(dict.fromkeys(notes)))

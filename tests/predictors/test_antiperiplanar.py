@@ -103,3 +103,18 @@ def test_local_model_keeps_stereocentres_and_hydrogen_identity():
 def test_bad_conformer_count():
     with pytest.raises(InputError, match="n_conformers"):
         embed_conformers(Chem.MolFromSmiles("CCBr"), n_conformers=0)
+
+
+@pytest.mark.parametrize("seed", [1, 7])
+def test_tert_butyl_lock_decides_which_isomer_eliminates_easily(seed):
+    # cis-4-tert-butylcyclohexyl bromide has Br axial with two anti H (fast E2); the trans isomer must
+    # put tert-butyl axial (A-value ~5 kcal/mol, from memory) or twist the ring (common practice).
+    for smiles, easy in (("CC(C)(C)[C@H]1CC[C@@H](Br)CC1", True), ("CC(C)(C)[C@H]1CC[C@H](Br)CC1", False)):
+        confs = embed_conformers(Chem.AddHs(Chem.MolFromSmiles(smiles)), n_conformers=6, seed=seed)
+        results = [find_periplanar(confs, h_idx=h, beta_idx=b, alpha_idx=7, lg_idx=8)
+                   for b in (6, 9) for h in _hs(confs.mol, b)]
+        best = sorted(r.strain_kcal for r in results if r.periplanar)
+        if easy:
+            assert len(best) == 2 and best[1] < 2.5  # one axial H on each side
+        else:
+            assert not best or best[0] > 4.0

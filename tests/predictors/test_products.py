@@ -257,3 +257,12 @@ def test_no_beta_hydrogen_and_no_nucleophile_is_an_error():
 def test_bad_conditions_raise_input_error(kwargs, message):
     with pytest.raises(InputError, match=message):
         enumerate_products("CCC(C)Br", **kwargs)
+
+
+def test_achiral_substrate_lists_a_racemic_product_once():
+    # cis-4-tert-butylcyclohexyl bromide is achiral; the two anti H give mirror-image alkenes, which
+    # have one NMR spectrum and are listed once as the racemate (common practice).
+    products = enumerate_products("CC(C)(C)[C@H]1CC[C@@H](Br)CC1", reagent="ethoxide")
+    alkenes = [c for c in products.candidates if "E2" in c.pathways]
+    assert len(alkenes) == 1
+    assert any("racemate" in n for n in alkenes[0].notes)
