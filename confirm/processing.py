@@ -32,7 +32,7 @@ after removing a straight line (blocks holding lines are thereby ignored).
 from __future__ import annotations
 
 import math
-from dataclasses import asdict, dataclass, replace
+from dataclasses import asdict, dataclass
 
 import numpy as np
 from scipy.optimize import minimize
@@ -318,6 +318,12 @@ def apply_phase(spec: np.ndarray, phase_deg: tuple[float, float]) -> np.ndarray:
     return spec * np.exp(1j * np.deg2rad(phase_deg[0] + phase_deg[1] * x))
 
 
+def apply_phase_at(spec: np.ndarray, phase_deg: tuple[float, float], index: np.ndarray) -> np.ndarray:
+    """``apply_phase(spec, phase_deg)[index]`` without phasing the whole array."""
+    x = index / spec.size - 0.5
+    return spec[index] * np.exp(1j * np.deg2rad(phase_deg[0] + phase_deg[1] * x))
+
+
 def _phase_subset(spec: np.ndarray, max_points: int = 12000) -> tuple[np.ndarray, np.ndarray]:
     """Indices of the lines and their near wings (magnitude >= 1 % of the tallest, padded).
 
@@ -391,40 +397,52 @@ def _refine_phase(spec: np.ndarray, phases: tuple[float, float], idx: np.ndarray
     that region's residual phase; a weighted straight-line fit of these angles
     against position gives the zero- and first-order corrections. Entropy
     minimisation alone leaves a few degrees of bias on well-resolved spectra.
+    The polish is kept only when the regions agree with one straight line to
+    within 2 degrees (rms); otherwise (overlapping or distorted lines) the
+    entropy result stands.
     """
     breaks = np.flatnonzero(np.diff(idx) > 1) + 1
     segments = [seg for seg in np.split(idx, breaks) if seg.size >= 8]
+    refined = phases
     for _ in range(3):
-        corrected = apply_phase(spec, phases)
-        xs, angles, weights = [], [], []
-        for seg in segments:
-            power = np.maximum(corrected[seg].real, 0.0) ** 2 + 1e-300
-            centre = int(round(float(np.sum(seg * power) / np.sum(power))))
-            half = max(centre - seg[0], seg[-1] - centre)
-            lo, hi = max(0, centre - half), min(spec.size - 1, centre + half)
-            values = corrected[lo:hi + 1]
-            # symmetric window: the region's own dispersion cancels; the straight line through the
-            # (averaged) ends removes the slowly varying dispersion background of distant lines
-            k = max(1, values.size // 16)
-            left, right = values[:k].mean(), values[-k:].mean()
-            ramp = left + (right - left) * (np.arange(values.size) - (k - 1) / 2) / (values.size - k)
-            area = np.sum(values - ramp)
-            xs.append(centre / spec.size - 0.5)
-            angles.append(np.degrees(np.angle(area)))
-            weights.append(abs(area))
-        if len(xs) == 0:
+        xs, angles, weights = _region_angles(spec, refined, segments)
+        if xs.size == 0:
             return phases
-        w = np.asarray(weights) / max(weights)
-        keep = w > 0.02
-        xs_k, ang_k, w_k = np.asarray(xs)[keep], np.asarray(angles)[keep], w[keep]
-        if np.any(np.abs(ang_k) > 45):
-            return phases  # the entropy result is not close enough for a linear refinement
-        if keep.sum() >= 3 and np.ptp(xs_k) > 0.05:
-            slope, intercept = np.polyfit(xs_k, ang_k, 1, w=np.sqrt(w_k))
+        if xs.size >= 3 and np.ptp(xs) > 0.05:
+            slope, intercept = np.polyfit(xs, angles, 1, w=np.sqrt(weights))
         else:
-            slope, intercept = 0.0, float(np.average(ang_k, weights=w_k))
-        phases = (phases[0] - intercept, phases[1] - slope)
-    return phases
+            slope, intercept = 0.0, float(np.average(angles, weights=weights))
+        refined = (refined[0] - intercept, refined[1] - slope)
+    xs, angles, weights = _region_angles(spec, refined, segments)
+    if xs.size < 2 or np.sqrt(np.average(angles ** 2, weights=weights)) > 2.0:
+        return phases
+    return refined
+
+
+def _region_angles(spec, phases, segments):
+    """Position (-0.5..0.5), residual phase (deg) and relative weight of each strong region."""
+    xs, angles, weights = [], [], []
+    for seg in segments:
+        power = np.maximum(apply_phase_at(spec, phases, seg).real, 0.0) ** 2 + 1e-300
+        centre = int(round(float(np.sum(seg * power) / np.sum(power))))
+        half = max(centre - seg[0], seg[-1] - centre)
+        window = np.arange(max(0, centre - half), min(spec.size - 1, centre + half) + 1)
+        values = apply_phase_at(spec, phases, window)
+        # symmetric window: the region's own dispersion cancels; the straight line through the
+        # (averaged) ends removes the slowly varying dispersion background of distant lines
+        k = max(1, values.size // 16)
+        left, right = values[:k].mean(), values[-k:].mean()
+        ramp = left + (right - left) * (np.arange(values.size) - (k - 1) / 2) / (values.size - k)
+        area = np.sum(values - ramp)
+        xs.append(centre / spec.size - 0.5)
+        angles.append(np.degrees(np.angle(area)))
+        weights.append(abs(area))
+    if not xs:
+        return np.zeros(0), np.zeros(0), np.zeros(0)
+    xs, angles, weights = np.asarray(xs), np.asarray(angles), np.asarray(weights) / max(weights)
+    # small regions and regions far off (overlaps, distorted lines) do not vote
+    keep = (weights > 0.02) & (np.abs(angles) < 30.0)
+    return xs[keep], angles[keep], weights[keep]
 
 
 def _fid_quality_warnings(stored: np.ndarray, fid: np.ndarray, delay_points: float) -> list[str]:
@@ -601,6 +619,9 @@ def _orient_and_reference(raw, ppm, y, noise_sd, field_mhz, solvent, options):
                 ppm, y = mirrored_ppm, y[::-1].copy()
                 warnings.append(f"spectrum came out mirrored about the carrier (the residual "
                                 f"{residual.residual_label} line is found only after mirroring): mirrored")
+            elif found is None:
+                warnings.append(f"orientation taken from the {raw.format} convention: no isolated residual "
+                                f"{residual.residual_label} line to verify it")
     shift, reference, ref_warnings = _reference_shift(ppm, y, noise_sd, field_mhz, residual, options)
     warnings += ref_warnings
     return ppm + shift, y, reference, warnings
@@ -622,6 +643,9 @@ def _reference_shift(ppm, y, noise_sd, field_mhz, residual, options):
         consistent = solvent_pos is None or abs((solvent_pos - tms) - residual.residual_ppm) <= 0.03
         if consistent or options.reference == "tms":
             return TMS_PPM - tms, "TMS at 0.00 ppm", []
+        note = (f"a singlet near 0 ppm ({tms:.3f} as acquired) disagrees with the residual "
+                f"{residual.residual_label} line; it is not TMS (grease?): referenced to the solvent")
+        return residual.residual_ppm - solvent_pos, label, [note]
     if solvent_pos is not None:
         return residual.residual_ppm - solvent_pos, label, []
     if options.reference == "tms":
@@ -632,7 +656,3 @@ def _reference_shift(ppm, y, noise_sd, field_mhz, residual, options):
     return 0.0, f"as acquired ({reason})", [f"axis not referenced ({reason}): shifts as acquired, "
                                             "may be off by 0.1 ppm"]
 
-
-def with_options(options: ProcessingOptions | None, **changes) -> ProcessingOptions:
-    """A copy of ``options`` (defaults when None) with ``changes`` applied."""
-    return replace(options or ProcessingOptions(), **changes)

@@ -1,0 +1,112 @@
+"""``confirm process``: output, JSON contract, files written atomically, one-line errors."""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+import pytest
+
+from tests.confirm.test_processing import synthetic_fid, write_fid_directory
+
+
+@pytest.fixture(scope="module")
+def fid_dir(tmp_path_factory):
+    return write_fid_directory(tmp_path_factory.mktemp("cli") / "exp1",
+                               synthetic_fid(phase_deg=20.0, group_delay=71.625, shift_ppm=0.03))
+
+
+def _assert_bad_input(result):
+    assert result.exit_code == 2
+    assert result.stderr.startswith("error: ")
+    assert len(result.stderr.strip().splitlines()) == 1
+    assert "Traceback" not in result.stderr
+
+
+def test_json_contract(run_cli, fid_dir):
+    result = run_cli("process", fid_dir, "--json")
+    assert result.exit_code == 0, result.stderr
+    data = json.loads(result.stdout)
+    for key in ("field_mhz", "nucleus", "solvent", "snr", "peaks", "multiplets", "warnings"):
+        assert key in data
+    assert data["nucleus"] == "1H" and data["solvent"] == "CDCl3"
+    assert {"ppm", "height", "integral"} <= set(data["peaks"][0])
+    assert {"ppm", "integral", "j_hz"} <= set(data["multiplets"][0])
+    quartet = [m for m in data["multiplets"] if abs(m["ppm"] - 4.12) < 0.002]
+    assert quartet and quartet[0]["j_hz"] == pytest.approx([7.1], abs=0.1)
+    assert "snr_definition" in data and data["reference"] == "TMS at 0.00 ppm"
+
+
+def test_text_output_and_files(run_cli, fid_dir, tmp_path):
+    out, plot = tmp_path / "s.csv", tmp_path / "s.png"
+    result = run_cli("process", fid_dir, "--out", out, "--plot", plot)
+    assert result.exit_code == 0, result.stderr
+    assert "TMS at 0.00 ppm" in result.stdout and "q" in result.stdout
+    table = np.loadtxt(out, delimiter=",", skiprows=1)
+    assert table.shape[1] == 2 and np.all(np.diff(table[:, 0]) < 0)
+    assert plot.read_bytes()[:4] == b"\x89PNG"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["s.csv", "s.png"]  # no temporary leftovers
+
+
+def test_peak_list_is_printed(run_cli, tmp_path):
+    table = tmp_path / "peaks.csv"
+    table.write_text("ppm,intensity,multiplicity,J\n6.39,100,dd,17.3 1.4\n2.05,300,s,\n")
+    result = run_cli("process", table, "--json")
+    assert result.exit_code == 0
+    data = json.loads(result.stdout)
+    assert [p["ppm"] for p in data["peaks"]] == [6.39, 2.05]
+    assert data["multiplets"][0]["j_hz"] == [17.3, 1.4]
+    text = run_cli("process", table)
+    assert "6.3900" in text.stdout
+    _assert_bad_input(run_cli("process", table, "--out", tmp_path / "x.csv"))
+    assert not (tmp_path / "x.csv").exists()
+
+
+@pytest.mark.parametrize("case", ["missing", "empty", "text_in_number", "two_d", "nan", "nothing_nmr",
+                                  "no_parameters", "truncated", "bad_option"])
+def test_bad_input_one_line_exit_2_no_output(run_cli, tmp_path, case):
+    target = tmp_path / "in"
+    if case == "empty":
+        target = tmp_path / "empty.jdx"
+        target.write_text("")
+    elif case == "text_in_number":
+        target = tmp_path / "peaks.csv"
+        target.write_text("ppm,intensity\n7.26,1\nseven,2\n")
+    elif case == "two_d":
+        target = tmp_path / "2d.dx"
+        target.write_text("##TITLE=t\n##JCAMP-DX=6.0\n##DATA TYPE=nD NMR FID\n##NUM DIM=2\n##END=\n")
+    elif case == "nan":
+        fid = synthetic_fid()
+        fid[7] = np.nan
+        target = write_fid_directory(tmp_path / "nan", fid, dtypa=2)
+    elif case == "nothing_nmr":
+        target.mkdir()
+        (target / "readme.md").write_text("no data here")
+    elif case == "no_parameters":
+        target = write_fid_directory(tmp_path / "nopar", synthetic_fid())
+        (target / "acqus").unlink()
+    elif case == "truncated":
+        target = write_fid_directory(tmp_path / "trunc", synthetic_fid())
+        (target / "fid").write_bytes((target / "fid").read_bytes()[:1000])
+    out = tmp_path / "out.csv"
+    args = ["process", target, "--out", out]
+    if case == "bad_option":
+        target = write_fid_directory(tmp_path / "ok", synthetic_fid())
+        args = ["process", target, "--out", out, "--lb-hz", "-3"]
+    _assert_bad_input(run_cli(*args))
+    assert not out.exists()
+
+
+def test_bad_plot_name(run_cli, fid_dir, tmp_path):
+    _assert_bad_input(run_cli("process", fid_dir, "--plot", tmp_path / "plot.csv"))
+
+
+@pytest.mark.real_data
+def test_real_butyl_acrylate_json(run_cli, real_spectra):
+    result = run_cli("process", real_spectra / "butyl_acrylate" / "1h.fid.dx", "--json")
+    assert result.exit_code == 0
+    data = json.loads(result.stdout)
+    assert data["field_mhz"] == pytest.approx(600.13, abs=0.01)
+    dd = [m for m in data["multiplets"] if abs(m["ppm"] - 6.11) < 0.02]
+    assert dd and dd[0]["j_hz"] == pytest.approx([17.3, 10.4], abs=0.3)
+    assert any("repetition time" in w for w in data["warnings"])
