@@ -246,7 +246,6 @@ def _check_signals(result, expected, tol):
 
 
 @pytest.mark.real_data
-@pytest.mark.slow
 @pytest.mark.parametrize("name", sorted(REAL_EXPECTED))
 def test_real_measured_signals(real_spectra, name):
     result = load_spectrum(real_spectra / name / "1h.fid.dx")
@@ -255,7 +254,6 @@ def test_real_measured_signals(real_spectra, name):
 
 
 @pytest.mark.real_data
-@pytest.mark.slow
 @pytest.mark.parametrize("name", sorted(REAL_MEMORY))
 def test_real_memory_signals(real_spectra, name):
     result = load_spectrum(real_spectra / name)
