@@ -205,13 +205,25 @@ def _build_model(system: SpinSystem, options: FitOptions) -> _Model:
     sites = [system.sites[i] for i in keep]
     sd = np.array([s.shift_sd_ppm for s in sites])
     window = np.clip(options.shift_window_sd * sd, options.min_shift_window_ppm, options.max_shift_window_ppm)
-    j0 = np.asarray(system.j_hz, dtype=float)[np.ix_(keep, keep)]
+    j0 = np.asarray(system.j_hz, dtype=float)[np.ix_(keep, keep)].copy()
+    _fold_aa_xx(j0, sites)
     pairs = [(a, b) for a in range(len(keep)) for b in range(a + 1, len(keep))
              if abs(j0[a, b]) >= options.min_refined_j_hz] if options.refine_couplings else []
     labels = tuple(s.label for s in sites)
     sp2 = np.array([any(k.lower() in lab.lower() for k in _SP2_LABELS) for lab in labels])
     return _Model(sites=keep, shift0=np.array([s.shift_ppm for s in sites]), window=window,
                   n_h=np.array([s.n_h for s in sites]), j0=j0, j_pairs=pairs, sp2=sp2, labels=labels)
+
+
+def _fold_aa_xx(j: np.ndarray, sites) -> None:
+    """Two 2H sites that are not magnetically equivalent (AA'XX', e.g. a para-disubstituted
+    ring) are simulated as A2X2 with the splitting N = J_AX + J_AX' that the AA'XX' doublets show;
+    the spin system's mean site coupling is (J_AX + J_AX') / 2, so it is doubled here."""
+    for a, sa in enumerate(sites):
+        for b, sb in enumerate(sites):
+            if (a != b and sa.n_h == 2 and sb.n_h == 2 and not sa.magnetically_equivalent
+                    and not sb.magnetically_equivalent):
+                j[a, b] = 2.0 * j[a, b]
 
 
 def _model_lines(model: _Model, shifts: np.ndarray, j: np.ndarray, field_mhz: float):
@@ -532,27 +544,83 @@ def _pursue(grid, models, state, lw_ppm, noise_sd):
 
 
 def _place(grid, model: _Model, units, resid, noise_sd):
-    """Best positions and one amount for a molecule against a residual: (shifts, amount, gain, column)."""
+    """Best positions and one amount for a molecule against a residual: (shifts, amount, gain, column).
+
+    Each site first goes where its multiplet shape matches best (normalised cross-correlation),
+    which gives one amplitude per site; the molecule's amount is a low quantile of those
+    (overlaps only inflate them); then each site is re-placed by least squares at that amount,
+    so a multiplet cannot sit on a peak much larger or smaller than the molecule allows.
+    """
     w = grid.weight
-    shifts, moved, alphas = model.shift0.copy(), [], []
+    shifts, alphas = model.shift0.copy(), []
     for s in range(model.shift0.size):
         unit = units[s]
-        best = _best_joint_move(grid, resid, np.zeros_like(unit), unit, model.shift0[s], model.shift0[s],
-                                model.window[s], max(noise_sd ** 2, 1e-300) * 1e4, model.window[s] / 3.0)
-        if best is None:
-            moved.append(unit)
+        nz = np.flatnonzero(unit > 1e-3 * unit.max()) if unit.max() > 0 else []
+        if len(nz) < 2:
             continue
-        shifts[s] = best[0]
-        u = _translate_column(grid, unit, best[0] - model.shift0[s])
-        moved.append(u)
-        full, seen = np.dot(u, u), np.dot(u * w, u * w)
-        if full > 0 and seen > 0.5 * full:
-            alphas.append(best[1])
-    col = np.sum(moved, axis=0)
+        lines_ppm = grid.x[nz[np.argsort(-unit[nz])[:1]]]
+        offset = _best_offset_column(grid, resid, unit, model.window[s], noise_sd)
+        shifts[s] = model.shift0[s] + offset
+        u = _translate_column(grid, unit, offset) * w
+        if np.dot(u, u) > 0.5 * np.dot(unit, unit) and lines_ppm.size:
+            alphas.append(max(0.0, float(np.dot(u, resid) / np.dot(u, u))))
     amount = float(np.percentile(alphas, 25)) if alphas else 0.0
+    moved = []
+    for s in range(model.shift0.size):
+        unit = units[s]
+        if amount > 0:
+            shifts[s] = _best_fixed_amount(grid, resid, unit, amount, model.shift0[s], model.window[s],
+                                           model.window[s] / 3.0, noise_sd)
+        moved.append(_translate_column(grid, unit, shifts[s] - model.shift0[s]))
+    col = np.sum(moved, axis=0)
     r = resid - amount * col * w
     gain = float(np.dot(resid, resid) - np.dot(r, r))
     return shifts, amount, gain, col
+
+
+def _best_offset_column(grid, target, unit, window, noise_sd) -> float:
+    """Offset (ppm) where a unit column's shape best matches ``target`` (see :func:`_best_offset`)."""
+    nz = np.flatnonzero(unit > 0.02 * unit.max())
+    j0, j1 = nz[0], nz[-1] + 1
+    steps = int(np.ceil(window / grid.dx_ppm))
+    i0, i1 = max(0, j0 - steps), min(grid.x.size, j1 + steps)
+    if i1 - i0 <= j1 - j0:
+        return 0.0
+    if np.dot(unit[j0:j1], grid.weight[j0:j1]) < 0.5 * unit[j0:j1].sum():
+        return 0.0  # the site sits mostly under a masked window: no evidence to move it
+    p = unit[j0:j1] * (unit[j0:j1] > 0.02 * unit.max())
+    t = target[i0:i1]
+    num = np.correlate(t, p, mode="valid")
+    energy = np.correlate(t * t, (p > 0).astype(float), mode="valid")
+    offsets = grid.x[i0:i0 + num.size] - grid.x[j0]
+    norm_p = np.linalg.norm(p)
+    ncc = num / (norm_p * np.sqrt(energy) + 1e-300)
+    score = ncc - 0.15 * (offsets / max(window, 1e-9)) ** 2
+    score[(num / (norm_p * noise_sd) < 5) | (np.abs(offsets) > window)] = -np.inf
+    if not np.isfinite(score).any():
+        return 0.0
+    return float(offsets[int(np.argmax(score))])
+
+
+def _best_fixed_amount(grid, resid, unit, amount, centre, window, prior_sd, noise_sd) -> float:
+    """Least-squares best position of a site whose amount is fixed."""
+    nz = np.flatnonzero(unit > 1e-3 * unit.max())
+    j0, j1 = nz[0], nz[-1] + 1
+    steps = int(np.ceil(window / grid.dx_ppm))
+    i0, i1 = max(0, j0 - steps), min(grid.x.size, j1 + steps)
+    if i1 - i0 <= j1 - j0:
+        return centre
+    u = unit[j0:j1] * amount
+    w = grid.weight
+    gain = 2 * np.correlate(resid[i0:i1] * w[i0:i1], u, mode="valid") - np.correlate(w[i0:i1] ** 2, u * u,
+                                                                                      mode="valid")
+    moves = grid.x[i0:i0 + gain.size] - grid.x[j0]
+    var = max(noise_sd ** 2, float(np.mean(resid[w > 0] ** 2)))
+    score = gain / var - (moves / prior_sd) ** 2
+    score[np.abs(moves) > window] = -np.inf
+    if not np.isfinite(score).any():
+        return centre
+    return float(centre + moves[int(np.argmax(score))])
 
 
 def _start_amounts(grid, models, state, shifts, lw_ppm, basis):
@@ -639,10 +707,10 @@ def _swap_sites(grid, models, state, shifts, lw_ppm, basis) -> bool:
     min_sep = 2 * grid.dx_ppm
     any_swap = False
     for k in range(len(models)):
-        for k2 in range(k + 1, len(models)):
+        for k2 in range(k, len(models)):
             m, m2 = models[k], models[k2]
             for s in range(m.shift0.size):
-                for s2 in range(m2.shift0.size):
+                for s2 in range(s + 1 if k2 == k else 0, m2.shift0.size):
                     a, b = shifts[k][s], shifts[k2][s2]
                     if (abs(a - b) < min_sep or abs(b - m.shift0[s]) > m.window[s]
                             or abs(a - m2.shift0[s2]) > m2.window[s2]):
@@ -650,8 +718,8 @@ def _swap_sites(grid, models, state, shifts, lw_ppm, basis) -> bool:
                     u = _translate_column(grid, per_site[offsets[k] + s], b - a)
                     u2 = _translate_column(grid, per_site[offsets[k2] + s2], a - b)
                     trial = cols.copy()
-                    trial[k] += u - per_site[offsets[k] + s]
-                    trial[k2] += u2 - per_site[offsets[k2] + s2]
+                    trial[k] = trial[k] + u - per_site[offsets[k] + s]
+                    trial[k2] = trial[k2] + u2 - per_site[offsets[k2] + s2]
                     new_cost = _linear_cost(grid, trial, basis)
                     if new_cost < cost * (1 - 1e-6):
                         cost, cols = new_cost, trial
@@ -798,7 +866,7 @@ def _refine(grid, models, state, shifts, djs, lw_hz, basis, field_mhz, options):
     hi = np.array(hi + [options.max_line_width_hz] + [np.inf] * (len(models) + basis.shape[1]))
     x0 = np.clip(x0, lo, hi)
     result = least_squares(problem.residual, x0, jac=problem.jacobian, bounds=(lo, hi), method="trf",
-                           x_scale="jac", max_nfev=40, ftol=1e-6, xtol=1e-6, tr_solver="lsmr")
+                           x_scale="jac", max_nfev=40, ftol=1e-8, xtol=1e-8, tr_solver="lsmr")
     return problem, result
 
 
@@ -855,8 +923,11 @@ def _bootstrap_fractions(cols, basis, grid, model, residual, options, detected_m
 # Evidence
 # --------------------------------------------------------------------------------------------
 
-def _site_evidence(grid, models, per_site, amounts, shifts, state, y_clean, noise_sd, field_mhz):
-    """Per site: how strongly it is seen (sigma), its shape match, and how much it overlaps."""
+def _site_evidence(grid, models, per_site, amounts, y_clean, noise_sd):
+    """Per site: (sigma seen, shape match, overlap share, expected height in noise sd, support).
+
+    ``support`` is the share of the predicted intensity that the data under the site (minus
+    the other components) actually holds: 1 when fully there, 0 when absent."""
     offsets, _ = _site_offsets(models)
     contrib = np.concatenate([per_site[o:o + m.shift0.size] * a for o, m, a in
                               zip(offsets, models, amounts, strict=True)])
@@ -868,14 +939,16 @@ def _site_evidence(grid, models, per_site, amounts, shifts, state, y_clean, nois
             c = contrib[offsets[k] + s]
             sel = (c > 0.05 * c.max()) & (grid.weight > 0) if c.max() > 0 else np.zeros(c.size, bool)
             if sel.sum() < 3:
-                rows.append((0.0, 0.0, 1.0))
+                rows.append((0.0, 0.0, 1.0, 0.0, 0.0))
                 continue
-            others = total[sel] - c[sel]
+            cs, others = c[sel], total[sel] - c[sel]
             own = y_clean[sel] - others
-            sigma = float(np.dot(c[sel], own) / (noise_sd * np.linalg.norm(c[sel]) + 1e-300))
-            shape = float(np.dot(c[sel], own) / (np.linalg.norm(c[sel]) * np.linalg.norm(own) + 1e-300))
-            overlap = float(np.dot(others, c[sel]) / (np.dot(c[sel], c[sel]) + np.dot(others, c[sel]) + 1e-300))
-            rows.append((sigma, shape, overlap))
+            norm_c = np.linalg.norm(cs)
+            sigma = float(np.dot(cs, own) / (noise_sd * norm_c + 1e-300))
+            shape = float(np.dot(cs, own) / (norm_c * np.linalg.norm(own) + 1e-300))
+            overlap = float(np.dot(others, cs) / (np.dot(cs, cs) + np.dot(others, cs) + 1e-300))
+            support = float(np.dot(cs, own) / (np.dot(cs, cs) + 1e-300))
+            rows.append((sigma, shape, overlap, float(cs.max() / noise_sd), support))
         out.append(rows)
     return out
 
@@ -890,7 +963,7 @@ def _evidence_lines(models, k, system, shifts, djs, site_rows, field_mhz):
     j_fit = _j_matrix(m, djs[k])
     lines = []
     for s in range(m.shift0.size):
-        sigma, shape, overlap = site_rows[s]
+        sigma, shape, overlap, _, _ = site_rows[s]
         site = system.sites[m.sites[s]]
         j_obs, j_pred = _observed_j_text(m, j_fit, s), _observed_j_text(m, m.j0, s)
         j_part = f"; J = {j_obs} Hz (predicted {j_pred})" if j_obs else ""
@@ -901,12 +974,22 @@ def _evidence_lines(models, k, system, shifts, djs, site_rows, field_mhz):
     return tuple(lines)
 
 
+def _diagnostic_sites(model: _Model) -> list[int]:
+    """Sites that identify the molecule: its vinyl H when it has any, else every site."""
+    vinyl = [s for s, lab in enumerate(model.labels) if "vinyl" in lab.lower() or "olefin" in lab.lower()]
+    return vinyl or list(range(len(model.labels)))
+
+
 def _diagnostic_ok(rows, model: _Model) -> bool:
-    """At least one well-separated site of the candidate is clearly seen with its own shape,
-    and no well-separated site that should be strong is missing."""
-    seen = [sig >= 5 and shape >= 0.6 and overlap < 0.5 for sig, shape, overlap in rows]
-    missing = [sig < 2 and overlap < 0.3 for sig, shape, overlap in rows]
-    return any(seen) and sum(missing) <= max(0, len(rows) // 3 - 1)
+    """The candidate's own diagnostic signals are there: at least one of them is clearly seen,
+    with its own multiplet shape and most of its predicted intensity, where no other component
+    overlaps it, and none of them that should stand above the noise is absent."""
+    diag = [rows[s] for s in _diagnostic_sites(model)]
+    seen = [sig >= 5 and shape >= 0.6 and overlap < 0.5 and support >= 0.5
+            for sig, shape, overlap, _, support in diag]
+    missing = [expected >= 3 and overlap < 0.5 and (support < 0.3 or shape < 0.3)
+               for _, shape, overlap, expected, support in rows]
+    return any(seen) and not any(missing)
 
 
 # --------------------------------------------------------------------------------------------
@@ -923,7 +1006,9 @@ def _unexplained_signals(spectrum, fit_grid, model_full, masks, noise_sd, corr, 
     # subtract the model where it was fitted (interpolated from the binned grid)
     lo, hi = fit_grid.x.min(), fit_grid.x.max()
     sel = (ppm >= lo) & (ppm <= hi)
-    resid[sel] -= np.interp(ppm[sel], fit_grid.x, model_full)
+    model_at = np.zeros(y.size)
+    model_at[sel] = np.interp(ppm[sel], fit_grid.x, model_full)
+    resid -= model_at
     inside[np.clip(idx, 0, y.size - 1)] = True
     for a, b, _ in masks:
         resid[(ppm >= a) & (ppm <= b)] = 0.0
@@ -941,6 +1026,8 @@ def _unexplained_signals(spectrum, fit_grid, model_full, masks, noise_sd, corr, 
             continue
         j0, j1 = max(0, i - int(15 / hz)), min(y.size, i + int(15 / hz))
         taken[j0:j1] = True
+        if model_at[i] > 0.5 * smooth[i]:
+            continue  # misfit of a modelled multiplet, not a new signal
         area = float(np.clip(resid[j0:j1], 0, None).sum() * hz / field_mhz)
         share = area / total_area if total_area > 0 else 0.0
         if share >= 0.005:
@@ -1026,36 +1113,47 @@ def fit_mixture(spectrum: Spectrum, systems: Sequence[SpinSystem], candidates: S
 
 def _finish(spectrum, systems, candidates, models, grid, problem, result, basis, masks, notes, noise, options):
     field = float(spectrum.field_mhz)
-    shifts, djs, lw, amounts, base = problem.unpack(result.x)
-    state = problem.state
-    cols, per_site, _, _ = problem.columns(result.x, derivs=False)
-    model = amounts @ cols + basis @ base
-    resid = grid.y - model
-    w = grid.weight > 0
-    n_par = result.x.size
+    theta = result.x.copy()
+    shifts, djs, lw, amounts, base = problem.unpack(theta)
+    cols, per_site, _, _ = problem.columns(theta, derivs=False)
     factor = int(round(grid.dx_ppm * field / abs(spectrum.hz_per_point)))
     noise_bin = noise / np.sqrt(max(1, factor))
     corr = _noise_correlation_factor(np.asarray(spectrum.intensity)[:: max(1, factor)], noise_bin)
-    chi2 = float(np.sum((resid[w] / noise_bin) ** 2) / max(1, w.sum() - n_par)) / corr ** 2
-    inflate = corr * np.sqrt(max(1.0, chi2)) * options.uncertainty_scale
+    w = grid.weight > 0
+    resid = grid.y - amounts @ cols - basis @ base
+    chi2 = float(np.sum((resid[w] / noise_bin) ** 2) / max(1, w.sum() - theta.size)) / corr ** 2
+    noise_eff = noise_bin * corr * np.sqrt(max(1.0, chi2))
+    rows = _site_evidence(grid, models, per_site, amounts, grid.y - basis @ base, noise_eff)
     k = len(models)
     start = problem.n_sites + problem.n_dj + 1
-    cov_a = _amount_covariance(result.jac, start, k, noise_bin ** 2) * inflate ** 2
-    y_clean = grid.y - basis @ base
-    rows = _site_evidence(grid, models, per_site, amounts, shifts, state, y_clean, noise_bin * corr, field)
-    sd_a = np.sqrt(np.clip(np.diag(cov_a), 0, None))
-    significant = amounts > options.detection_sigma * sd_a
-    detected = np.array([significant[i] and _diagnostic_ok(rows[i], models[i]) for i in range(k)])
-    frac, frac_sd, frac_cov, limits = _fractions(amounts, cov_a, detected, options)
+    inflate = corr * np.sqrt(max(1.0, chi2)) * options.uncertainty_scale
+    cov_full = _amount_covariance(result.jac, start, k, noise_bin ** 2) * inflate ** 2
+    significant = amounts > options.detection_sigma * np.sqrt(np.clip(np.diag(cov_full), 0, None))
+    detected = np.array([bool(significant[i]) and _diagnostic_ok(rows[i], models[i]) for i in range(k)])
+    upper = amounts.copy()
+    if detected.any() and not detected.all():
+        # amounts of the detected components alone: an undetected candidate must not keep signal
+        amounts_det, base = _solve_linear(cols[detected], basis, grid)
+        theta[start:start + k] = 0.0
+        theta[start + np.flatnonzero(detected)] = amounts_det
+        theta[start + k:] = base
+        amounts = theta[start:start + k]
+    jac = problem.jacobian(theta) if detected.any() and not detected.all() else result.jac
+    model = amounts @ cols + basis @ base
+    resid = grid.y - model
+    cov_a = _amount_covariance(jac, start, k, noise_bin ** 2) * inflate ** 2
+    sd_up = np.sqrt(np.clip(np.diag(cov_full), 0, None))
+    cov_a[~detected, ~detected] = sd_up[~detected] ** 2
+    frac, frac_sd, frac_cov, limits = _fractions(np.where(detected, amounts, upper), cov_a, detected, options)
     boot = _bootstrap_fractions(cols, basis, grid, model, resid, options, detected)
     if boot is not None:
         frac_sd = np.where(detected, np.maximum(frac_sd, boot * options.uncertainty_scale), frac_sd)
     components = []
     for i, cand in enumerate(candidates):
-        refined = _refined_shifts(systems[i], models[i], shifts[i])
         components.append(ComponentFit(
             candidate=cand, mole_fraction=float(np.clip(frac[i], 0, 1)), mole_fraction_sd=float(frac_sd[i]),
-            detection_limit=float(limits[i]), detected=bool(detected[i]), refined_shifts_ppm=refined,
+            detection_limit=float(limits[i]), detected=bool(detected[i]),
+            refined_shifts_ppm=_refined_shifts(systems[i], models[i], shifts[i]),
             evidence=_evidence_lines(models, i, systems[i], shifts, djs, rows[i], field)))
     total_area = float(sum(a * m.n_h.sum() for a, m in zip(amounts, models, strict=True)))
     unknown = _unexplained_signals(spectrum, grid, model, masks, noise, corr, field, total_area)
@@ -1063,8 +1161,8 @@ def _finish(spectrum, systems, candidates, models, grid, problem, result, basis,
                               f"signal): an unknown component or a missing candidate" for p, s in unknown]
     if not detected.any():
         warnings.append("no candidate is clearly present in this spectrum")
-    quality = _quality(grid, model, resid, noise_bin, chi2, corr, lw, unknown, np.asarray(spectrum.intensity), noise,
-                       result)
+    quality = _quality(grid, model, resid, noise_bin, chi2, corr, lw, unknown,
+                       np.asarray(spectrum.intensity), noise, result)
     return MixtureFit(components=tuple(components), ppm=grid.x[::-1], model=model[::-1], residual=resid[::-1],
                       line_width_hz=float(lw), quality=quality, warnings=tuple(warnings),
                       fraction_covariance=frac_cov, unexplained_ppm=tuple(p for p, _ in unknown))
@@ -1101,7 +1199,8 @@ def _quality(grid, model, resid, noise_bin, chi2, corr, lw, unknown, y_all, nois
     w = grid.weight > 0
     y = grid.y[w]
     ss_tot = float(np.sum((y - y.mean()) ** 2)) or 1.0
-    explained = 1.0 - float(np.sum(np.abs(resid[w]))) / max(float(np.sum(np.abs(y))), 1e-300)
+    strong = w & (np.abs(grid.y) > 10 * noise_bin * corr)   # signal points only: noise is not "unexplained"
+    explained = 1.0 - float(np.sum(np.abs(resid[strong]))) / max(float(np.sum(np.abs(grid.y[strong]))), 1e-300)
     return {
         "r_squared": 1.0 - float(np.sum(resid[w] ** 2)) / ss_tot,
         "explained_fraction": explained,

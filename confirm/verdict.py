@@ -1,0 +1,270 @@
+"""Turn a mixture fit into a verdict a chemist can act on.
+
+The verdict names the major product, gives the E:Z ratio of every alkene pair, the
+regioisomer ratio, elimination vs substitution and the starting material left, each with its
+uncertainty, and says plainly what the spectrum cannot decide (and which experiment would).
+A candidate is only ever claimed when the fit detected it, which requires its diagnostic
+signals to be seen (see :mod:`confirm.fitting`).
+"""
+
+from __future__ import annotations
+
+import re
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+from predictors.core import Candidate, MixtureFit, RatioEstimate, SpinSystem, Verdict
+from predictors.errors import InputError
+
+__all__ = ["decide", "alkene_facts", "AlkeneFacts"]
+
+_ELIMINATION = {"E2", "E1", "E1cB"}
+_SUBSTITUTION = {"SN2", "SN1"}
+_EVIDENCE = re.compile(r"^(?P<label>.+?) \((?P<n>\d+)H\) (?P<seen>observed|not clearly seen) at "
+                       r"(?P<ppm>-?[\d.]+) ppm .*?; (?P<sigma>-?\d+) sigma, shape match (?P<shape>-?[\d.]+), "
+                       r"overlap (?P<overlap>\d+)%$")
+
+
+@dataclass(frozen=True)
+class AlkeneFacts:
+    """What the structure says about a candidate's C=C bonds.
+
+    Attributes
+    ----------
+    n_alkenes : int
+        Non-aromatic C=C bonds.
+    geometry : str or None
+        ``"E"``/``"Z"`` of the first stereogenic C=C, None otherwise.
+    vicinal_vinyl_h : bool
+        Some stereogenic C=C has an H on both carbons (a 3J cis/trans coupling to read).
+    substitution : int
+        Largest number of non-H substituents on the C=C carbons (2 = 1,1- or 1,2-, 3 = tri...).
+    skeleton : str
+        Canonical SMILES without stereochemistry (groups geometric isomers).
+    """
+
+    n_alkenes: int
+    geometry: str | None
+    vicinal_vinyl_h: bool
+    substitution: int
+    skeleton: str
+
+
+def alkene_facts(smiles: str) -> AlkeneFacts:
+    """Describe the C=C bonds of a SMILES (raises InputError when it does not parse)."""
+    from rdkit import Chem
+
+    mol = Chem.MolFromSmiles(smiles)
+    if mol is None:
+        raise InputError(f"smiles: RDKit cannot parse {smiles!r}")
+    Chem.AssignStereochemistry(mol, cleanIt=True, force=True)
+    n, geometry, vicinal, subst = 0, None, False, 0
+    for bond in mol.GetBonds():
+        if bond.GetBondType() != Chem.BondType.DOUBLE or bond.GetIsAromatic():
+            continue
+        a, b = bond.GetBeginAtom(), bond.GetEndAtom()
+        if a.GetSymbol() != "C" or b.GetSymbol() != "C":
+            continue
+        n += 1
+        subst = max(subst, (a.GetDegree() - 1) + (b.GetDegree() - 1))
+        stereo = bond.GetStereo()
+        if stereo in (Chem.BondStereo.STEREOE, Chem.BondStereo.STEREOTRANS):
+            geometry = geometry or "E"
+        elif stereo in (Chem.BondStereo.STEREOZ, Chem.BondStereo.STEREOCIS):
+            geometry = geometry or "Z"
+        if stereo != Chem.BondStereo.STEREONONE and a.GetTotalNumHs() > 0 and b.GetTotalNumHs() > 0:
+            vicinal = True
+    flat = Chem.Mol(mol)
+    Chem.RemoveStereochemistry(flat)
+    return AlkeneFacts(n_alkenes=n, geometry=geometry, vicinal_vinyl_h=vicinal, substitution=subst,
+                       skeleton=Chem.MolToSmiles(flat))
+
+
+@dataclass(frozen=True)
+class _SiteSeen:
+    label: str
+    seen: bool
+    overlap: float
+
+
+def _sites(evidence: Sequence[str]) -> list[_SiteSeen]:
+    out = []
+    for line in evidence:
+        match = _EVIDENCE.match(line)
+        if match:
+            out.append(_SiteSeen(match["label"], match["seen"] == "observed", int(match["overlap"]) / 100))
+    return out
+
+
+def _share(fit: MixtureFit, num: Sequence[int], den: Sequence[int]) -> tuple[float, float]:
+    x = np.array([c.mole_fraction if c.detected else 0.0 for c in fit.components])
+    a, b = x[list(num)].sum(), x[list(den)].sum()
+    if a + b <= 0:
+        return 0.0, 0.0
+    share = a / (a + b)
+    grad = np.zeros(x.size)
+    grad[list(num)] = b / (a + b) ** 2
+    grad[list(den)] = -a / (a + b) ** 2
+    cov = fit.fraction_covariance
+    if cov is None:
+        sd = np.array([c.mole_fraction_sd for c in fit.components])
+        cov = np.diag(sd ** 2)
+    return float(share), float(np.sqrt(max(0.0, grad @ cov @ grad)))
+
+
+def _name(candidate: Candidate) -> str:
+    return candidate.label or candidate.smiles
+
+
+def _ez_ratios(fit, facts, vinyl_overlapped):
+    ratios, unresolved, steps = [], [], []
+    groups: dict[str, list[int]] = {}
+    for i, f in enumerate(facts):
+        if f.geometry:
+            groups.setdefault(f.skeleton, []).append(i)
+    for members in groups.values():
+        e = [i for i in members if facts[i].geometry == "E"]
+        z = [i for i in members if facts[i].geometry == "Z"]
+        if not e or not z:
+            continue
+        if not any(fit.components[i].detected for i in members):
+            continue
+        share, sd = _share(fit, e, z)
+        decided = True
+        name = _name(fit.components[e[0]].candidate)
+        if not all(facts[i].vicinal_vinyl_h for i in members):
+            decided = False
+            unresolved.append(f"E/Z of {name}: trisubstituted alkene without a vicinal vinyl H-H coupling; "
+                              "the assignment rests on predicted shifts only")
+            steps.append("1D NOE (or NOESY) from the vinyl H to the allylic substituents settles E/Z")
+            steps.append("13C: the allylic carbon cis to the larger group lies several ppm upfield "
+                         "(gamma-gauche effect)")
+        elif all(vinyl_overlapped[i] for i in members):
+            decided = False
+            unresolved.append(f"E/Z of {name}: the diagnostic vinyl signals of the isomers overlap")
+            steps.append("record the spectrum at higher field (or in C6D6) to separate the vinyl multiplets")
+        ratios.append(RatioEstimate(name="E:Z" if len(groups) == 1 else f"E:Z {name}", numerator="E",
+                                    denominator="Z", share=share, share_sd=sd, decided=decided))
+    return ratios, unresolved, steps
+
+
+def _group_ratio(fit, name, num_label, den_label, num, den):
+    if not num or not den or not any(fit.components[i].detected for i in list(num) + list(den)):
+        return None
+    share, sd = _share(fit, num, den)
+    return RatioEstimate(name=name, numerator=num_label, denominator=den_label, share=share, share_sd=sd)
+
+
+def _regio_labels(candidates, facts):
+    labels = [c.regio for c in candidates]
+    if any(labels):
+        return labels
+    alkenes = [i for i, f in enumerate(facts) if f.n_alkenes and "starting material" not in candidates[i].pathways]
+    degrees = {facts[i].substitution for i in alkenes}
+    if len(degrees) < 2:
+        return labels
+    top = max(degrees)
+    return [("more substituted" if facts[i].substitution == top else "less substituted") if i in alkenes
+            else None for i in range(len(candidates))]
+
+
+def _confidence(fit, major, ratios, unresolved, detected_products) -> str:
+    q = fit.quality
+    if major is None:
+        return "undecided"
+    explained = float(q.get("explained_fraction", 1.0))
+    unknown = float(q.get("unexplained_share", 0.0))
+    if explained < 0.6 or unknown > 0.3:
+        return "low"
+    if len(detected_products) > 1:
+        xs = sorted((c.mole_fraction, c.mole_fraction_sd) for c in detected_products)
+        (x2, s2), (x1, s1) = xs[-2], xs[-1]
+        if x1 - x2 < 2 * np.hypot(s1, s2):
+            return "low"
+    if unresolved or explained < 0.85 or unknown > 0.1:
+        return "moderate"
+    return "high"
+
+
+def decide(fit: MixtureFit, systems: Sequence[SpinSystem], candidates: Sequence[Candidate], *,
+           context: Mapping | None = None) -> Verdict:
+    """Decide what the sample contains from a mixture fit.
+
+    Parameters
+    ----------
+    fit : MixtureFit
+        Result of :func:`confirm.fitting.fit_mixture` for ``candidates``.
+    systems : sequence of SpinSystem
+        Spin systems used in the fit (same order).
+    candidates : sequence of Candidate
+    context : mapping, optional
+        ``{"input": "peak list"}`` notes that amounts came from a peak list.
+
+    Returns
+    -------
+    Verdict
+    """
+    candidates = tuple(candidates)
+    if len(fit.components) != len(candidates) or len(systems) != len(candidates):
+        raise InputError("fit: components, systems and candidates must correspond one to one")
+    facts = [alkene_facts(c.smiles) for c in candidates]
+    comps = fit.components
+    sites = [_sites(c.evidence) for c in comps]
+    vinyl_overlapped = [all(s.overlap >= 0.5 or not s.seen for s in ss if "vinyl" in s.label.lower()) and
+                        any("vinyl" in s.label.lower() for s in ss) for ss in sites]
+    is_sm = ["starting material" in c.pathways for c in candidates]
+    products = [i for i in range(len(candidates)) if not is_sm[i]]
+    detected_products = [comps[i] for i in products if comps[i].detected]
+    major_i = max((i for i in products if comps[i].detected), key=lambda i: comps[i].mole_fraction, default=None)
+    ratios, unresolved, steps = _ez_ratios(fit, facts, vinyl_overlapped)
+    regio = _regio_labels(candidates, facts)
+    more = [i for i in products if regio[i] == "more substituted"]
+    less = [i for i in products if regio[i] == "less substituted"]
+    extra = [_group_ratio(fit, "regioisomers", "more substituted", "less substituted", more, less),
+             _group_ratio(fit, "elimination:substitution", "elimination", "substitution",
+                          [i for i in products if _ELIMINATION & set(candidates[i].pathways)],
+                          [i for i in products if _SUBSTITUTION & set(candidates[i].pathways)]),
+             _group_ratio(fit, "starting material left", "starting material", "products",
+                          [i for i in range(len(candidates)) if is_sm[i]], products)]
+    ratios += [r for r in extra if r is not None]
+    major = comps[major_i].candidate.smiles if major_i is not None else None
+    confidence = _confidence(fit, major, ratios, unresolved, detected_products)
+    evidence = _verdict_evidence(fit, major_i)
+    if fit.unexplained_ppm:
+        unresolved.append("signals no candidate explains at " + ", ".join(f"{p:.2f}" for p in fit.unexplained_ppm)
+                          + " ppm (unknown components)")
+        steps.append("identify the unknown signals (2D COSY/HSQC) or add the missing candidate")
+    if context and context.get("input") == "peak list":
+        unresolved.append("amounts come from a peak list (no line shapes): uncertainties are wider")
+    summary = _summary(comps, major_i, ratios, confidence, facts)
+    identified = tuple(c.candidate.smiles for c in comps if c.detected)
+    return Verdict(summary=summary, confidence=confidence, major=major, identified=identified,
+                   ratios=tuple(ratios), evidence=evidence, unresolved=tuple(dict.fromkeys(unresolved)),
+                   next_steps=tuple(dict.fromkeys(steps)))
+
+
+def _verdict_evidence(fit, major_i) -> tuple[str, ...]:
+    if major_i is None:
+        return ()
+    comp = fit.components[major_i]
+    seen = [e for e in comp.evidence if " observed at " in e]
+    return tuple(f"{_name(comp.candidate)}: {e}" for e in seen[:4])
+
+
+def _summary(comps, major_i, ratios, confidence, facts) -> str:
+    if major_i is None:
+        if any(c.detected for c in comps):
+            names = ", ".join(_name(c.candidate) for c in comps if c.detected)
+            return f"No product detected; only {names} is seen."
+        return "None of the candidates is clearly present: the spectrum does not support any of them."
+    major = comps[major_i]
+    kind = "alkene" if facts[major_i].n_alkenes else "product"
+    parts = [f"Major {kind}: {_name(major.candidate)} ({100 * major.mole_fraction:.1f} +- "
+             f"{100 * major.mole_fraction_sd:.1f} mol %)."]
+    for r in ratios:
+        tag = "" if r.decided else " (not decided by this spectrum)"
+        parts.append(f"{r.name} {r.ratio_text} (+- {100 * r.share_sd:.1f}){tag}.")
+    parts.append(f"Confidence: {confidence}.")
+    return " ".join(parts)
