@@ -1,0 +1,80 @@
+"""``confirm demo``: the whole job on the bundled sample spectra (an invented scenario)."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import tempfile
+from importlib import resources
+from pathlib import Path
+
+from confirm.commands._common import emit_json, to_jsonable
+
+__all__ = ["register", "DEMO_SUBSTRATE", "DEMO_REAGENT", "DEMO_SOLVENT", "DEMO_TEMP_C", "sample_files"]
+
+#: The scenario of sample_spectra/README.md: dehydrobromination of an anisyl secondary bromide.
+DEMO_SUBSTRATE = "CC(Br)Cc1ccc(OC)cc1"
+DEMO_REAGENT = "hydroxide"
+DEMO_SOLVENT = "DMSO"
+DEMO_TEMP_C = 80.0
+_SAMPLES = ("anisyl_elimination_400mhz", "anisyl_elimination_60mhz.jdx")
+
+
+def register(subparsers, parents) -> None:
+    """Add the ``demo`` subcommand."""
+    parser = subparsers.add_parser(
+        "demo", parents=parents, help="run the whole analysis on the bundled sample spectra",
+        description="Analyse the bundled sample spectra (400 MHz raw FID and 60 MHz JCAMP-DX of an invented "
+                    "dehydrobromination, see sample_spectra/README.md) from the substrate and reagent.")
+    parser.add_argument("--out", metavar="DIR", help="also write one JSON result per sample into DIR")
+    parser.set_defaults(handler=_run)
+
+
+def sample_files() -> list[Path]:
+    """Paths of the bundled sample spectra (installed package data or the source tree)."""
+    base = Path(str(resources.files("confirm.sample_spectra")))
+    if not (base / _SAMPLES[0]).exists():
+        base = Path(__file__).resolve().parents[2] / "sample_spectra"
+    return [base / name for name in _SAMPLES]
+
+
+def _run(args: argparse.Namespace) -> int:
+    from confirm.analysis import analyze_path
+    from confirm.commands.analyze import format_result
+    from predictors.errors import FileFormatError
+
+    results = {}
+    for path in sample_files():
+        if not path.exists():
+            raise FileFormatError(f"sample spectra: {path} is missing; regenerate with "
+                                  "python scripts/make_sample_spectra.py")
+        results[path.name] = analyze_path(path, substrate=DEMO_SUBSTRATE, reagent=DEMO_REAGENT,
+                                          solvent=DEMO_SOLVENT, temp_c=DEMO_TEMP_C)
+    if args.out:
+        _write_results(results, Path(args.out))
+    if args.json:
+        emit_json({"scenario": {"substrate": DEMO_SUBSTRATE, "reagent": DEMO_REAGENT, "solvent": DEMO_SOLVENT,
+                                "temp_c": DEMO_TEMP_C},
+                   "results": {name: r.to_json() for name, r in results.items()}})
+        return 0
+    print(f"Demo: {DEMO_SUBSTRATE} + {DEMO_REAGENT} in {DEMO_SOLVENT} at {DEMO_TEMP_C:.0f} C "
+          "(invented scenario; see sample_spectra/README.md for the true composition)")
+    for name, result in results.items():
+        print(f"\n=== {name} ({result.spectrum.field_mhz:.0f} MHz) ===")
+        print(format_result(result))
+    return 0
+
+
+def _write_results(results, out_dir: Path) -> None:
+    out_dir.mkdir(parents=True, exist_ok=True)
+    for name, result in results.items():
+        target = out_dir / (Path(name).stem + ".json")
+        fd, tmp = tempfile.mkstemp(dir=out_dir, prefix=".tmp_", suffix=".json")
+        try:
+            with os.fdopen(fd, "w") as handle:
+                json.dump(to_jsonable(result.to_json()), handle, indent=2, allow_nan=False)
+            os.replace(tmp, target)
+        finally:
+            if os.path.exists(tmp):
+                os.unlink(tmp)
