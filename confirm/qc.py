@@ -253,7 +253,8 @@ class LimitCheck:
     """One acceptance check: the limit, the measured value with its 95 % interval, the decision.
 
     Values are in the check's ``unit`` (``"%"`` or ``""`` for SNR); ``measured``
-    is None when the value could not be measured.
+    is None when the value could not be measured, or when the component was
+    not detected (then ``interval`` is ``(0, detection limit)``).
     """
 
     name: str
@@ -266,8 +267,10 @@ class LimitCheck:
     unit: str = ""
 
     def measured_text(self) -> str:
-        """``"96.0 ± 0.8 %"`` or ``"not measured"``."""
+        """``"96.0 ± 0.8 %"``, ``"not detected (< 0.5 %)"`` or ``"not measured"``."""
         if self.measured is None:
+            if self.interval is not None:
+                return f"not detected (< {self.interval[1]:.1f} {self.unit})".replace(" )", ")")
             return "not measured"
         digits = 1 if self.unit == "%" else 0
         text = f"{self.measured:.{digits}f} ± {(self.measured_sd or 0.0):.{digits}f}"
@@ -319,10 +322,23 @@ def _formula(smiles: str) -> str:
     return CalcMolFormula(Chem.MolFromSmiles(smiles))
 
 
-def _upper(comp, scale: float = 1.0) -> float:
-    """Conservative upper 95 % bound of a component's fraction (detection limit when not detected)."""
-    high = (comp.mole_fraction + Z_95 * comp.mole_fraction_sd) / scale
-    return high if comp.detected else max(high, comp.detection_limit / scale)
+def _amount(comp) -> float:
+    """A component's fraction for totals: its fitted value when detected, else 0 (below detection).
+
+    The analysis normalises the fractions over the detected components; the
+    fraction of an undetected one only says how much of the shared signal its
+    model could take, so it counts as "below its detection limit".
+    """
+    return comp.mole_fraction if comp.detected else 0.0
+
+
+def _below_detection(name: str, limit_text: str, lod: float, limit: float) -> LimitCheck:
+    """Check of a maximum for a component that was not detected: it lies in [0, LOD]."""
+    status = decide_interval(0.0, 100 * lod, maximum=limit)
+    reason = ("not detected; its detection limit is within the limit" if status == "PASS" else
+              "not detected, but the spectrum cannot detect it down to the limit")
+    return LimitCheck(name=name, limit_text=limit_text, status=status, reason=reason,
+                      interval=(0.0, 100 * lod), unit="%")
 
 
 def _percent_check(name: str, limit_text: str, value: float, sd: float, low: float, high: float, *,
@@ -347,7 +363,7 @@ def _identity_check(result, product_fit, spec: QcSpec) -> LimitCheck:
     common = {"measured": 100 * value, "measured_sd": 100 * sd, "unit": "%", "name": "identity",
               "limit_text": limit}
     unexplained = tuple(getattr(result.fit, "unexplained_ppm", ()))
-    if not product_fit.detected and value + Z_95 * sd < 0.5 and product_fit.detection_limit < 0.5:
+    if not product_fit.detected and product_fit.detection_limit < 0.5:
         reason = ("expected product not detected (detection limit "
                   f"{100 * product_fit.detection_limit:.1f} %): it cannot be the major component")
         return LimitCheck(status="FAIL", reason=reason, **common)
@@ -392,23 +408,24 @@ def _sd_of(fit, gradient: Mapping[int, float]) -> float:
 
 def _share_gradient(fit, k: int, group: list[int]) -> tuple[float, dict[int, float]]:
     """Share x_k / sum(x_group) and its gradient with respect to the fractions of the group."""
-    total = sum(fit.components[j].mole_fraction for j in group)
-    x_k = fit.components[k].mole_fraction
+    total = sum(_amount(fit.components[j]) for j in group)
+    x_k = _amount(fit.components[k])
     grad = {j: ((total - x_k) if j == k else -x_k) / total**2 for j in group}
     return x_k / total, grad
 
 
 def _purity_check(fit, product_index: int, isomers: list[int], limit: float) -> LimitCheck:
     name, text = "isomeric purity", f">= {limit:g} %"
-    group = [product_index, *isomers]
-    if sum(fit.components[j].mole_fraction for j in group) <= 0:
-        return _not_measured(name, text, "no product or isomer was fitted")
+    seen = [j for j in isomers if fit.components[j].detected]
+    group = [product_index, *seen]
+    x_p = _amount(fit.components[product_index])
+    if x_p <= 0:
+        return _not_measured(name, text, "the expected product was not detected")
     purity, grad = _share_gradient(fit, product_index, group)
     sd = _sd_of(fit, grad)
-    x_p = fit.components[product_index].mole_fraction
-    hidden = sum(max(fit.components[j].mole_fraction, 0.0 if fit.components[j].detected
-                     else fit.components[j].detection_limit) for j in isomers)
-    worst = x_p / (x_p + hidden) if x_p > 0 else 0.0
+    hidden = sum(fit.components[j].detection_limit for j in isomers if j not in seen)
+    total = sum(_amount(fit.components[j]) for j in group)
+    worst = x_p / (total + hidden)
     return _percent_check(name, text, purity, sd, min(purity - Z_95 * sd, worst), purity + Z_95 * sd,
                           minimum=limit)
 
@@ -418,18 +435,20 @@ def _other_isomer_checks(fit, product_index: int, isomers: list[int], limit: flo
     if not isomers:
         return [_not_measured("any other isomer", text, "no other isomer among the candidates; "
                               "list them in the specification")]
-    group = [product_index, *isomers]
-    total = sum(fit.components[j].mole_fraction for j in group)
+    group = [product_index, *[j for j in isomers if fit.components[j].detected]]
+    total = sum(_amount(fit.components[j]) for j in group)
     if total <= 0:
-        return [_not_measured("any other isomer", text, "no product or isomer was fitted")]
+        return [_not_measured("any other isomer", text, "neither the product nor an isomer was detected")]
     checks = []
     for k in isomers:
         comp = fit.components[k]
+        name = f"other isomer: {comp.candidate.label or comp.candidate.smiles}"
+        if not comp.detected:
+            checks.append(_below_detection(name, text, comp.detection_limit / total, limit))
+            continue
         share, grad = _share_gradient(fit, k, group)
         sd = _sd_of(fit, grad)
-        high = max(share + Z_95 * sd, _upper(comp, total))
-        label = comp.candidate.label or comp.candidate.smiles
-        checks.append(_percent_check(f"other isomer: {label}", text, share, sd, share - Z_95 * sd, high,
+        checks.append(_percent_check(name, text, share, sd, share - Z_95 * sd, share + Z_95 * sd,
                                      maximum=limit))
     return checks
 
@@ -442,10 +461,13 @@ def _starting_material_check(result, spec: QcSpec, limit: float) -> LimitCheck:
                if (sm and c.candidate.smiles == sm) or "starting material" in c.candidate.pathways]
     if not indices:
         return _not_measured(name, text, "the starting material was not among the fitted candidates")
-    value = sum(fit.components[k].mole_fraction for k in indices)
-    sd = _sd_of(fit, dict.fromkeys(indices, 1.0))
-    high = max(value + Z_95 * sd, max(_upper(fit.components[k]) for k in indices))
-    return _percent_check(name, text, value, sd, value - Z_95 * sd, high, maximum=limit)
+    seen = [k for k in indices if fit.components[k].detected]
+    hidden = sum(fit.components[k].detection_limit for k in indices if k not in seen)
+    if not seen:
+        return _below_detection(name, text, hidden, limit)
+    value = sum(fit.components[k].mole_fraction for k in seen)
+    sd = _sd_of(fit, dict.fromkeys(seen, 1.0))
+    return _percent_check(name, text, value, sd, value - Z_95 * sd, value + Z_95 * sd + hidden, maximum=limit)
 
 
 def _snr_check(result, limit: float) -> LimitCheck:
