@@ -36,6 +36,7 @@ __all__ = [
     "molar_mass_g_mol",
     "nmr_yield",
     "yield_from_result",
+    "analyze_with_standard",
     "yields_to_json",
     "format_yield_rows",
     "add_yield_arguments",
@@ -315,6 +316,39 @@ def yield_from_result(result, standard: InternalStandard, *, sample_mass_mg: flo
                      standard_integral_sd=std_fit.mole_fraction_sd * standard.n_h,
                      sample_mass_mg=sample_mass_mg, theoretical_mmol=theoretical_mmol,
                      method_rel_sd=method_rel_sd)
+
+
+def analyze_with_standard(path, standard: InternalStandard, *, substrate: str | None = None,
+                          reagent: str | None = None, candidates=None, solvent: str | None = None,
+                          temp_c: float = 25.0, field_mhz: float | None = None):
+    """Analyse a spectrum with the internal standard fitted as one more component.
+
+    Same arguments as ``confirm.analysis.analyze_path``; the standard is added to the
+    candidates (enumerated or given) with the pathway tag ``"user"`` and the label
+    ``"internal standard"``, so :func:`yield_from_result` can use its fitted amount.
+    """
+    from confirm.analysis import analyze_peak_list, analyze_spectrum, build_candidates
+    from confirm.processing import ProcessingOptions, process_measurement
+    from confirm.reading import PeakList, read_measurement
+    from confirm.results import InputRecord
+    from predictors.core import Candidate
+
+    cands, notes = build_candidates(substrate=substrate, reagent=reagent, candidates=candidates,
+                                    solvent=solvent, temp_c=temp_c)
+    if standard.smiles not in {c.smiles for c in cands}:
+        cands = (*cands, Candidate(smiles=standard.smiles, pathways=("user",), label="internal standard",
+                                   rationale="weighed internal standard for the NMR yield"))
+    raw = read_measurement(path)
+    record = InputRecord(path=str(path), sha256=raw.sha256)
+    params = {"substrate": substrate, "reagent": reagent, "reaction_solvent": solvent, "temp_c": temp_c,
+              "internal_standard": standard.smiles, "standard_mass_mg": standard.mass_mg,
+              "standard_purity": standard.purity, "standard_n_h": standard.n_h}
+    if isinstance(raw, PeakList):
+        return analyze_peak_list(raw, cands, field_mhz=field_mhz or raw.parameters.field_mhz,
+                                 inputs=(record,), notes=notes, parameters=params)
+    options = ProcessingOptions(field_mhz=field_mhz) if field_mhz else None
+    return analyze_spectrum(process_measurement(raw, options=options), cands, inputs=(record,), notes=notes,
+                            parameters=params)
 
 
 def yields_to_json(yields: Sequence[ProductYield], standard: InternalStandard | None = None) -> dict:
