@@ -230,7 +230,12 @@ def _model_lines(model: _Model, shifts: np.ndarray, j: np.ndarray, field_mhz: fl
     """Lines of one molecule with 13C satellites: (ppm, intensity, site) arrays."""
     from predictors.spin import simulate_arrays
 
-    lines = simulate_arrays(shifts, j, model.n_h, field_mhz=field_mhz)
+    try:
+        lines = simulate_arrays(shifts, j, model.n_h, field_mhz=field_mhz)
+    except np.linalg.LinAlgError:
+        # exactly degenerate sites can stall the eigensolver: nudge them apart by < 0.01 Hz/MHz and retry
+        lines = simulate_arrays(np.asarray(shifts) + 1e-5 * np.arange(len(shifts)), j, model.n_h,
+                                field_mhz=field_mhz)
     ppm, inten, site = np.asarray(lines.ppm), np.asarray(lines.intensity), np.asarray(lines.site_index)
     half = np.where(model.sp2[site], _J_CH_SP2_HZ, _J_CH_SP3_HZ) / 2.0 / field_mhz
     ppm = np.concatenate([ppm, ppm + half, ppm - half])
