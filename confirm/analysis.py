@@ -9,7 +9,6 @@ candidate's spin system, fits the mixture and decides the verdict. The result is
 from __future__ import annotations
 
 from collections.abc import Sequence
-from pathlib import Path
 
 import numpy as np
 
@@ -22,14 +21,18 @@ from predictors.errors import ChemistryError, InputError
 __all__ = ["analyze_path", "analyze_spectrum", "analyze_peak_list", "build_candidates", "predict_systems"]
 
 #: Shown with every verdict, in every output format.
-CAUTION = ("This result supports, it does not replace, the analyst's judgement and the site's "
-           "QA procedures.")
+CAUTION = "This result supports, it does not replace, the analyst's judgement and the site's QA procedures."
 _DEFAULT_NMR_SOLVENT = "CDCl3"
 
 
-def build_candidates(*, substrate: str | None = None, reagent: str | None = None,
-                     candidates: Sequence[str] | None = None, solvent: str | None = None,
-                     temp_c: float = 25.0) -> tuple[tuple[Candidate, ...], tuple[str, ...]]:
+def build_candidates(
+    *,
+    substrate: str | None = None,
+    reagent: str | None = None,
+    candidates: Sequence[str] | None = None,
+    solvent: str | None = None,
+    temp_c: float = 25.0,
+) -> tuple[tuple[Candidate, ...], tuple[str, ...]]:
     """Candidates from a substrate and reagent, or from a list of SMILES (exactly one of the two).
 
     Returns
@@ -43,8 +46,10 @@ def build_candidates(*, substrate: str | None = None, reagent: str | None = None
     if candidates:
         return _user_candidates(candidates), ()
     if not substrate or not reagent:
-        raise InputError("candidates: no candidate given; pass --candidates SMILES [SMILES ...] or "
-                         "--substrate SMILES with --reagent NAME")
+        raise InputError(
+            "candidates: no candidate given; pass --candidates SMILES [SMILES ...] or "
+            "--substrate SMILES with --reagent NAME"
+        )
     from predictors.products import enumerate_products
 
     products = enumerate_products(substrate, reagent=reagent, solvent=solvent, temp_c=temp_c)
@@ -54,8 +59,9 @@ def build_candidates(*, substrate: str | None = None, reagent: str | None = None
 
 
 def _user_candidates(smiles_list: Sequence[str]) -> tuple[Candidate, ...]:
-    from confirm.structures import load_structure
     from rdkit import Chem
+
+    from confirm.structures import load_structure
 
     out, seen = [], set()
     for text in smiles_list:
@@ -65,8 +71,15 @@ def _user_candidates(smiles_list: Sequence[str]) -> tuple[Candidate, ...]:
             continue
         seen.add(smiles)
         facts = alkene_facts(smiles)
-        out.append(Candidate(smiles=smiles, pathways=("user",), label=smiles, geometry=facts.geometry,
-                             rationale="given by the user"))
+        out.append(
+            Candidate(
+                smiles=smiles,
+                pathways=("user",),
+                label=smiles,
+                geometry=facts.geometry,
+                rationale="given by the user",
+            )
+        )
     if not out:
         raise InputError("candidates: the list of candidate SMILES is empty")
     return tuple(out)
@@ -79,9 +92,16 @@ def predict_systems(candidates: Sequence[Candidate], *, n_conformers: int = 6) -
     return tuple(predict_spin_system(c.smiles, n_conformers=n_conformers) for c in candidates)
 
 
-def analyze_spectrum(processed, candidates: Sequence[Candidate], *, systems: Sequence[SpinSystem] | None = None,
-                     inputs: Sequence[InputRecord] = (), notes: Sequence[str] = (),
-                     options: FitOptions | None = None, parameters: dict | None = None) -> AnalysisResult:
+def analyze_spectrum(
+    processed,
+    candidates: Sequence[Candidate],
+    *,
+    systems: Sequence[SpinSystem] | None = None,
+    inputs: Sequence[InputRecord] = (),
+    notes: Sequence[str] = (),
+    options: FitOptions | None = None,
+    parameters: dict | None = None,
+) -> AnalysisResult:
     """Analyse an already processed spectrum (a ``ProcessedSpectrum`` or a bare ``Spectrum``).
 
     Parameters
@@ -105,18 +125,35 @@ def analyze_spectrum(processed, candidates: Sequence[Candidate], *, systems: Seq
     _check_nucleus(spectrum.nucleus)
     if spectrum.solvent is None:
         warnings.append(f"NMR solvent not recorded: residual signals of {_DEFAULT_NMR_SOLVENT} are masked")
-        spectrum = Spectrum(ppm=spectrum.ppm, intensity=spectrum.intensity, field_mhz=spectrum.field_mhz,
-                            nucleus=spectrum.nucleus, solvent=_DEFAULT_NMR_SOLVENT, metadata=spectrum.metadata)
+        spectrum = Spectrum(
+            ppm=spectrum.ppm,
+            intensity=spectrum.intensity,
+            field_mhz=spectrum.field_mhz,
+            nucleus=spectrum.nucleus,
+            solvent=_DEFAULT_NMR_SOLVENT,
+            metadata=spectrum.metadata,
+        )
     systems = tuple(systems) if systems is not None else predict_systems(candidates)
     fit = fit_mixture(spectrum, systems, candidates, noise_sd=noise_sd, options=options)
     context = {"input": "peak list"} if (parameters or {}).get("input") == "peak list" else None
     verdict = decide(fit, systems, candidates, context=context)
-    params = {"field_mhz": spectrum.field_mhz, "nmr_solvent": spectrum.solvent,
-              "line_width_hz": fit.line_width_hz, "caution": CAUTION}
+    params = {
+        "field_mhz": spectrum.field_mhz,
+        "nmr_solvent": spectrum.solvent,
+        "line_width_hz": fit.line_width_hz,
+        "caution": CAUTION,
+    }
     params.update(parameters or {})
-    return AnalysisResult(spectrum=spectrum, candidates=candidates, spin_systems=systems, fit=fit,
-                          verdict=verdict, inputs=tuple(inputs), warnings=tuple(dict.fromkeys(
-                              list(notes) + warnings + list(fit.warnings))), parameters=params)
+    return AnalysisResult(
+        spectrum=spectrum,
+        candidates=candidates,
+        spin_systems=systems,
+        fit=fit,
+        verdict=verdict,
+        inputs=tuple(inputs),
+        warnings=tuple(dict.fromkeys(list(notes) + warnings + list(fit.warnings))),
+        parameters=params,
+    )
 
 
 def _unpack(processed):
@@ -124,7 +161,9 @@ def _unpack(processed):
         return processed, None, []
     spectrum = getattr(processed, "spectrum", None)
     if not isinstance(spectrum, Spectrum):
-        raise InputError(f"processed: expected a ProcessedSpectrum or Spectrum, got {type(processed).__name__}")
+        raise InputError(
+            f"processed: expected a ProcessedSpectrum or Spectrum, got {type(processed).__name__}"
+        )
     return spectrum, float(processed.noise_sd), list(processed.warnings)
 
 
@@ -134,9 +173,16 @@ def _check_nucleus(nucleus) -> None:
         raise InputError(f"spectrum: nucleus is {nucleus!r}; confirm analyses 1H spectra only")
 
 
-def analyze_path(path, *, substrate: str | None = None, reagent: str | None = None,
-                 candidates: Sequence[str] | None = None, solvent=None, temp_c: float = 25.0,
-                 field_mhz: float | None = None) -> AnalysisResult:
+def analyze_path(
+    path,
+    *,
+    substrate: str | None = None,
+    reagent: str | None = None,
+    candidates: Sequence[str] | None = None,
+    solvent=None,
+    temp_c: float = 25.0,
+    field_mhz: float | None = None,
+) -> AnalysisResult:
     """Read, process and analyse one measurement (raw FID, stored spectrum or peak list).
 
     Parameters
@@ -163,24 +209,39 @@ def analyze_path(path, *, substrate: str | None = None, reagent: str | None = No
 
     if field_mhz is not None and not (np.isfinite(field_mhz) and 20 <= field_mhz <= 1500):
         raise InputError(f"field_mhz: expected 20-1500 MHz, got {field_mhz!r}")
-    cands, notes = build_candidates(substrate=substrate, reagent=reagent, candidates=candidates,
-                                    solvent=solvent, temp_c=temp_c)
+    cands, notes = build_candidates(
+        substrate=substrate, reagent=reagent, candidates=candidates, solvent=solvent, temp_c=temp_c
+    )
     raw = read_measurement(path)
     _check_nucleus(raw.parameters.nucleus)
     record = InputRecord(path=str(path), sha256=raw.sha256)
     params = {"substrate": substrate, "reagent": reagent, "reaction_solvent": solvent, "temp_c": temp_c}
     if isinstance(raw, PeakList):
-        return analyze_peak_list(raw, cands, field_mhz=field_mhz or raw.parameters.field_mhz,
-                                 inputs=(record,), notes=notes, parameters=params)
+        return analyze_peak_list(
+            raw,
+            cands,
+            field_mhz=field_mhz or raw.parameters.field_mhz,
+            inputs=(record,),
+            notes=notes,
+            parameters=params,
+        )
     from confirm.processing import ProcessingOptions, process_measurement
 
-    processed = process_measurement(raw, options=ProcessingOptions(field_mhz=field_mhz) if field_mhz else None)
+    processed = process_measurement(
+        raw, options=ProcessingOptions(field_mhz=field_mhz) if field_mhz else None
+    )
     return analyze_spectrum(processed, cands, inputs=(record,), notes=notes, parameters=params)
 
 
-def analyze_peak_list(peaks, candidates: Sequence[Candidate], *, field_mhz: float | None,
-                      inputs: Sequence[InputRecord] = (), notes: Sequence[str] = (),
-                      parameters: dict | None = None) -> AnalysisResult:
+def analyze_peak_list(
+    peaks,
+    candidates: Sequence[Candidate],
+    *,
+    field_mhz: float | None,
+    inputs: Sequence[InputRecord] = (),
+    notes: Sequence[str] = (),
+    parameters: dict | None = None,
+) -> AnalysisResult:
     """Analyse a peak list by assignment and per-site integration.
 
     Each listed peak becomes a Lorentzian line of its listed width (1 Hz when absent) and its
@@ -190,7 +251,9 @@ def analyze_peak_list(peaks, candidates: Sequence[Candidate], *, field_mhz: floa
     reports twice the fitted uncertainty.
     """
     if not field_mhz:
-        raise InputError("field_mhz: a peak list does not record the spectrometer frequency; pass --field-mhz")
+        raise InputError(
+            "field_mhz: a peak list does not record the spectrometer frequency; pass --field-mhz"
+        )
     entries = tuple(peaks.entries)
     if not entries:
         raise InputError(f"peaks: {peaks.source_path} lists no peaks")
@@ -199,10 +262,16 @@ def analyze_peak_list(peaks, candidates: Sequence[Candidate], *, field_mhz: floa
     params = dict(parameters or {})
     params["input"] = "peak list"
     options = FitOptions(uncertainty_scale=2.0, mask_solvent=True, line_width_hz=None)
-    rendered = _PeakListSpectrum(spectrum=spectrum, noise_sd=noise,
-                                 warnings=["peak-list input: amounts from assignment and per-site integration, "
-                                           "with wider uncertainty"])
-    return analyze_spectrum(rendered, candidates, inputs=inputs, notes=notes, options=options, parameters=params)
+    rendered = _PeakListSpectrum(
+        spectrum=spectrum,
+        noise_sd=noise,
+        warnings=[
+            "peak-list input: amounts from assignment and per-site integration, with wider uncertainty"
+        ],
+    )
+    return analyze_spectrum(
+        rendered, candidates, inputs=inputs, notes=notes, options=options, parameters=params
+    )
 
 
 class _PeakListSpectrum:
@@ -226,11 +295,16 @@ def _render_peak_list(entries, field_mhz: float, solvent: str | None) -> Spectru
             areas.append(1.0)
     areas = np.clip(np.array(areas), 0.0, None)
     hi, lo = max(12.0, shifts.max() + 1.0), min(-1.0, shifts.min() - 1.0)
-    n = int(min(2 ** 17, max(4096, (hi - lo) * field_mhz / 0.2)))
+    n = int(min(2**17, max(4096, (hi - lo) * field_mhz / 0.2)))
     ppm = np.linspace(hi, lo, n)
     y = np.zeros(n)
     for x0, g, a in zip(shifts, gamma_ppm, areas, strict=True):
         y += a * g / np.pi / ((ppm - x0) ** 2 + g * g)
-    return Spectrum(ppm=ppm, intensity=y, field_mhz=float(field_mhz), nucleus="1H", solvent=solvent,
-                    metadata={"source": "peak list"})
-
+    return Spectrum(
+        ppm=ppm,
+        intensity=y,
+        field_mhz=float(field_mhz),
+        nucleus="1H",
+        solvent=solvent,
+        metadata={"source": "peak list"},
+    )

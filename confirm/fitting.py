@@ -6,9 +6,12 @@ in each fitted region. The site shifts of each candidate may move within a few p
 standard deviations, the larger couplings within about 1 Hz, and all lines share one
 Lorentzian width. The fit runs in three stages:
 
-1. *start*: every site's predicted multiplet is slid across its window of allowed shifts
-   and placed where it best matches the observed shape (normalised cross-correlation with a
-   weak prior pulling towards the prediction);
+1. *start*: on a blurred copy of the data (so couplings off by ~1 Hz still match), a matching
+   pursuit over molecules places the candidate that explains most of the still unexplained
+   signal first (each site where its multiplet shape matches best, one amount per molecule),
+   subtracts it and goes on; then coordinate sweeps move each site, with its molecule's
+   amount, to its least-squares best position, and pairwise swaps undo sites taken by the
+   wrong molecule;
 2. *refine*: a bounded nonlinear least-squares fit (scipy ``least_squares``) of amounts,
    baseline, site shifts (lines translate with their site), couplings and width, with an
    analytic Jacobian; the spin system is re-simulated at the refined shifts between rounds
@@ -97,14 +100,22 @@ class FitOptions:
     seed: int = 7
 
     def __post_init__(self) -> None:
-        for name in ("shift_window_sd", "min_shift_window_ppm", "max_shift_window_ppm", "points_per_width",
-                     "detection_sigma", "uncertainty_scale", "max_line_width_hz"):
+        for name in (
+            "shift_window_sd",
+            "min_shift_window_ppm",
+            "max_shift_window_ppm",
+            "points_per_width",
+            "detection_sigma",
+            "uncertainty_scale",
+            "max_line_width_hz",
+        ):
             value = getattr(self, name)
             if not np.isfinite(value) or value <= 0:
                 raise InputError(f"{name}: must be a positive number, got {value!r}")
         if self.line_width_hz is not None and not 0.05 <= self.line_width_hz <= self.max_line_width_hz:
-            raise InputError(f"line_width_hz: must be in 0.05-{self.max_line_width_hz} Hz, "
-                             f"got {self.line_width_hz!r}")
+            raise InputError(
+                f"line_width_hz: must be in 0.05-{self.max_line_width_hz} Hz, got {self.line_width_hz!r}"
+            )
         if self.baseline_degree not in (0, 1, 2, 3):
             raise InputError(f"baseline_degree: must be 0-3, got {self.baseline_degree!r}")
         if self.rounds < 1 or self.n_bootstrap < 0:
@@ -114,6 +125,7 @@ class FitOptions:
 # --------------------------------------------------------------------------------------------
 # Spectrum statistics
 # --------------------------------------------------------------------------------------------
+
 
 def estimate_noise_sd(intensity: np.ndarray, *, n_blocks: int = 32) -> float:
     """Noise standard deviation of a spectrum from its quietest stretches.
@@ -171,7 +183,7 @@ def estimate_line_width_hz(spectrum: Spectrum, *, noise_sd: float | None = None)
             lo -= 1
         while hi < y.size - 1 and y[hi] > half:
             hi += 1
-        used[max(0, lo - (hi - lo)): hi + (hi - lo)] = True
+        used[max(0, lo - (hi - lo)) : hi + (hi - lo)] = True
         left = lo + (half - y[lo]) / (y[lo + 1] - y[lo])
         right = hi - (half - y[hi]) / (y[hi - 1] - y[hi])
         widths.append((right - left) * hz)
@@ -184,17 +196,18 @@ def estimate_line_width_hz(spectrum: Spectrum, *, noise_sd: float | None = None)
 # Candidate models
 # --------------------------------------------------------------------------------------------
 
+
 @dataclass
 class _Model:
     """Working copy of one candidate's spin system (only non-exchangeable sites)."""
 
-    sites: np.ndarray          # indices into the SpinSystem's sites
-    shift0: np.ndarray         # predicted shifts (ppm)
-    window: np.ndarray         # allowed half-window of each shift (ppm)
+    sites: np.ndarray  # indices into the SpinSystem's sites
+    shift0: np.ndarray  # predicted shifts (ppm)
+    window: np.ndarray  # allowed half-window of each shift (ppm)
     n_h: np.ndarray
-    j0: np.ndarray             # predicted couplings, shape (n, n)
-    j_pairs: list              # (a, b) couplings refined
-    sp2: np.ndarray            # bool per site (satellite J)
+    j0: np.ndarray  # predicted couplings, shape (n, n)
+    j_pairs: list  # (a, b) couplings refined
+    sp2: np.ndarray  # bool per site (satellite J)
     labels: tuple
 
 
@@ -207,12 +220,28 @@ def _build_model(system: SpinSystem, options: FitOptions) -> _Model:
     window = np.clip(options.shift_window_sd * sd, options.min_shift_window_ppm, options.max_shift_window_ppm)
     j0 = np.asarray(system.j_hz, dtype=float)[np.ix_(keep, keep)].copy()
     _fold_aa_xx(j0, sites)
-    pairs = [(a, b) for a in range(len(keep)) for b in range(a + 1, len(keep))
-             if abs(j0[a, b]) >= options.min_refined_j_hz] if options.refine_couplings else []
+    pairs = (
+        [
+            (a, b)
+            for a in range(len(keep))
+            for b in range(a + 1, len(keep))
+            if abs(j0[a, b]) >= options.min_refined_j_hz
+        ]
+        if options.refine_couplings
+        else []
+    )
     labels = tuple(s.label for s in sites)
     sp2 = np.array([any(k.lower() in lab.lower() for k in _SP2_LABELS) for lab in labels])
-    return _Model(sites=keep, shift0=np.array([s.shift_ppm for s in sites]), window=window,
-                  n_h=np.array([s.n_h for s in sites]), j0=j0, j_pairs=pairs, sp2=sp2, labels=labels)
+    return _Model(
+        sites=keep,
+        shift0=np.array([s.shift_ppm for s in sites]),
+        window=window,
+        n_h=np.array([s.n_h for s in sites]),
+        j0=j0,
+        j_pairs=pairs,
+        sp2=sp2,
+        labels=labels,
+    )
 
 
 def _fold_aa_xx(j: np.ndarray, sites) -> None:
@@ -221,8 +250,13 @@ def _fold_aa_xx(j: np.ndarray, sites) -> None:
     the spin system's mean site coupling is (J_AX + J_AX') / 2, so it is doubled here."""
     for a, sa in enumerate(sites):
         for b, sb in enumerate(sites):
-            if (a != b and sa.n_h == 2 and sb.n_h == 2 and not sa.magnetically_equivalent
-                    and not sb.magnetically_equivalent):
+            if (
+                a != b
+                and sa.n_h == 2
+                and sb.n_h == 2
+                and not sa.magnetically_equivalent
+                and not sb.magnetically_equivalent
+            ):
                 j[a, b] = 2.0 * j[a, b]
 
 
@@ -234,13 +268,15 @@ def _model_lines(model: _Model, shifts: np.ndarray, j: np.ndarray, field_mhz: fl
         lines = simulate_arrays(shifts, j, model.n_h, field_mhz=field_mhz)
     except np.linalg.LinAlgError:
         # exactly degenerate sites can stall the eigensolver: nudge them apart by < 0.01 Hz/MHz and retry
-        lines = simulate_arrays(np.asarray(shifts) + 1e-5 * np.arange(len(shifts)), j, model.n_h,
-                                field_mhz=field_mhz)
+        lines = simulate_arrays(
+            np.asarray(shifts) + 1e-5 * np.arange(len(shifts)), j, model.n_h, field_mhz=field_mhz
+        )
     ppm, inten, site = np.asarray(lines.ppm), np.asarray(lines.intensity), np.asarray(lines.site_index)
     half = np.where(model.sp2[site], _J_CH_SP2_HZ, _J_CH_SP3_HZ) / 2.0 / field_mhz
     ppm = np.concatenate([ppm, ppm + half, ppm - half])
-    inten = np.concatenate([inten * (1 - 2 * SATELLITE_SHARE), inten * SATELLITE_SHARE,
-                            inten * SATELLITE_SHARE])
+    inten = np.concatenate(
+        [inten * (1 - 2 * SATELLITE_SHARE), inten * SATELLITE_SHARE, inten * SATELLITE_SHARE]
+    )
     return ppm, inten, np.concatenate([site, site, site])
 
 
@@ -254,6 +290,7 @@ def _j_matrix(model: _Model, dj: np.ndarray) -> np.ndarray:
 # --------------------------------------------------------------------------------------------
 # Regions, masks and the working grid
 # --------------------------------------------------------------------------------------------
+
 
 def _merge_intervals(intervals):
     merged = []
@@ -304,23 +341,28 @@ def _mask_intervals(solvent: str | None, field_mhz: float, lw_hz: float, models)
     else:
         notes.append("solvent unknown: residual solvent and water signals are not masked")
     sat = 209.0 / 2 / field_mhz  # 1J(C,H) of CHCl3 ~209 Hz: its satellites are solvent too
-    extra = [(p + d, h, f"{name} 13C satellite") for p, h, name in spots if name == "residual solvent"
-             for d in (sat, -sat)]
+    extra = [
+        (p + d, h, f"{name} 13C satellite")
+        for p, h, name in spots
+        if name == "residual solvent"
+        for d in (sat, -sat)
+    ]
     return [(p - h, p + h, name) for p, h, name in spots + extra], notes
 
 
 @dataclass
 class _Grid:
-    x: np.ndarray        # ppm, increasing
-    y: np.ndarray        # binned intensity
-    weight: np.ndarray   # 0 in masked windows, 1 elsewhere
-    region: np.ndarray   # region index of each point
+    x: np.ndarray  # ppm, increasing
+    y: np.ndarray  # binned intensity
+    weight: np.ndarray  # 0 in masked windows, 1 elsewhere
+    region: np.ndarray  # region index of each point
     n_regions: int
     dx_ppm: float
 
 
-def _build_grid(spectrum: Spectrum, intervals, masks, lw_hz: float, options: FitOptions, *,
-                blur_hz: float = 0.0) -> _Grid:
+def _build_grid(
+    spectrum: Spectrum, intervals, masks, lw_hz: float, options: FitOptions, *, blur_hz: float = 0.0
+) -> _Grid:
     ppm = np.asarray(spectrum.ppm)[::-1]
     y = np.asarray(spectrum.intensity, dtype=float)[::-1]
     hz = abs(spectrum.hz_per_point)
@@ -329,22 +371,26 @@ def _build_grid(spectrum: Spectrum, intervals, masks, lw_hz: float, options: Fit
         y = np.fft.irfft(np.fft.rfft(y) * np.exp(-np.pi * blur_hz * freq), n=y.size)
     factor = max(1, int(round(lw_hz / options.points_per_width / hz)))
     xs, ys, regs = [], [], []
-    for r, (lo, hi) in enumerate(intervals):
+    for lo, hi in intervals:
         i0, i1 = np.searchsorted(ppm, [lo, hi])
         n = (i1 - i0) // factor * factor
         if n < 8 * factor:
             continue
-        xs.append(ppm[i0:i0 + n].reshape(-1, factor).mean(1))
-        ys.append(y[i0:i0 + n].reshape(-1, factor).mean(1))
+        xs.append(ppm[i0 : i0 + n].reshape(-1, factor).mean(1))
+        ys.append(y[i0 : i0 + n].reshape(-1, factor).mean(1))
         regs.append(np.full(n // factor, len(regs)))
     if not xs:
-        raise FitError("spectrum: no candidate signal falls inside the spectral window "
-                       f"({spectrum.ppm[-1]:.2f}-{spectrum.ppm[0]:.2f} ppm)")
+        raise FitError(
+            "spectrum: no candidate signal falls inside the spectral window "
+            f"({spectrum.ppm[-1]:.2f}-{spectrum.ppm[0]:.2f} ppm)"
+        )
     x, yb, region = np.concatenate(xs), np.concatenate(ys), np.concatenate(regs)
     weight = np.ones(x.size)
     for lo, hi, _ in masks:
         weight[(x >= lo) & (x <= hi)] = 0.0
-    return _Grid(x=x, y=yb, weight=weight, region=region, n_regions=len(xs), dx_ppm=hz * factor / spectrum.field_mhz)
+    return _Grid(
+        x=x, y=yb, weight=weight, region=region, n_regions=len(xs), dx_ppm=hz * factor / spectrum.field_mhz
+    )
 
 
 def _baseline_basis(grid: _Grid, degree: int) -> np.ndarray:
@@ -364,6 +410,7 @@ def _baseline_basis(grid: _Grid, degree: int) -> np.ndarray:
 # --------------------------------------------------------------------------------------------
 # Rendering (Lorentzian lines on the working grid, with derivatives)
 # --------------------------------------------------------------------------------------------
+
 
 def _render(grid: _Grid, ppm, inten, group, n_groups: int, lw_ppm: float, *, derivs: bool):
     """Sum of Lorentzians per group; optionally d/d(position) and d/d(width) per group.
@@ -396,17 +443,20 @@ def _render(grid: _Grid, ppm, inten, group, n_groups: int, lw_ppm: float, *, der
 # The fit
 # --------------------------------------------------------------------------------------------
 
+
 @dataclass
 class _State:
     """Lines of every candidate at the shifts of the last simulation."""
 
-    base_shift: list   # per candidate: shifts the lines were simulated at
-    lines: list        # per candidate: (ppm, inten, site)
-    dj: list           # per candidate: coupling offsets used
+    base_shift: list  # per candidate: shifts the lines were simulated at
+    lines: list  # per candidate: (ppm, inten, site)
+    dj: list  # per candidate: coupling offsets used
 
 
 def _simulate_all(models, shifts, djs, field_mhz: float) -> _State:
-    lines = [_model_lines(m, s, _j_matrix(m, d), field_mhz) for m, s, d in zip(models, shifts, djs, strict=True)]
+    lines = [
+        _model_lines(m, s, _j_matrix(m, d), field_mhz) for m, s, d in zip(models, shifts, djs, strict=True)
+    ]
     return _State(base_shift=[s.copy() for s in shifts], lines=lines, dj=[d.copy() for d in djs])
 
 
@@ -434,10 +484,10 @@ def _components(grid, models, state, shifts, lw_ppm, *, derivs: bool):
         group.append(s + offsets[k])
     ppm, inten, group = np.concatenate(ppm), np.concatenate(inten), np.concatenate(group)
     per_site, dpos, dwidth = _render(grid, ppm, inten, group, n_sites, lw_ppm, derivs=derivs)
-    cols = np.array([per_site[o:o + m.shift0.size].sum(0) for o, m in zip(offsets, models, strict=True)])
+    cols = np.array([per_site[o : o + m.shift0.size].sum(0) for o, m in zip(offsets, models, strict=True)])
     if not derivs:
         return cols, per_site, None, None
-    dw = np.array([dwidth[o:o + m.shift0.size].sum(0) for o, m in zip(offsets, models, strict=True)])
+    dw = np.array([dwidth[o : o + m.shift0.size].sum(0) for o, m in zip(offsets, models, strict=True)])
     return cols, per_site, dpos, dw
 
 
@@ -467,63 +517,18 @@ def _solve_linear(cols: np.ndarray, basis: np.ndarray, grid: _Grid):
     return amounts, base
 
 
-def _search_start(grid: _Grid, models, state: _State, lw_ppm: float, noise_sd: float):
-    """Slide every site's multiplet across its window; keep the best normalised match."""
-    shifts = [m.shift0.copy() for m in models]
-    target = (grid.y - np.median(grid.y)) * grid.weight
-    for k, m in enumerate(models):
-        ppm, inten, site = state.lines[k]
-        for s in range(m.shift0.size):
-            sel = site == s
-            if sel.any():
-                shifts[k][s] = m.shift0[s] + _best_offset(grid, target, ppm[sel], inten[sel], lw_ppm,
-                                                           m.window[s], noise_sd)
-    return shifts
-
-
-def _best_offset(grid, target, ppm, inten, lw_ppm, window, noise_sd) -> float:
-    """Offset (ppm) of a multiplet that best matches the data within +-window.
-
-    Score: normalised cross-correlation of the multiplet with the data over its support,
-    minus a weak quadratic pull towards the prediction; offsets where the matched-filter
-    signal is below 5 noise sd are not considered (a noise blip must not attract a site).
-    """
-    pad = 10 * lw_ppm
-    i0, i1 = np.searchsorted(grid.x, [ppm.min() - window - pad, ppm.max() + window + pad])
-    j0, j1 = np.searchsorted(grid.x, [ppm.min() - pad, ppm.max() + pad])
-    if j1 - j0 < 3 or i1 - i0 <= j1 - j0:
-        return 0.0
-    x, t = grid.x[i0:i1], target[i0:i1]
-    gamma = lw_ppm / 2
-    px = grid.x[j0:j1]
-    pattern = (inten[:, None] * gamma / np.pi / ((px[None, :] - ppm[:, None]) ** 2 + gamma ** 2)).sum(0)
-    support = (pattern > 0.02 * pattern.max()).astype(float)
-    if np.dot(pattern * support, grid.weight[j0:j1]) < 0.5 * np.dot(pattern, support):
-        return 0.0  # the site sits mostly under a masked window: no evidence to move it
-    pattern = pattern * support  # numerator and energy over the same points keep the score <= 1
-    num = np.correlate(t, pattern, mode="valid")
-    energy = np.correlate(t * t, support, mode="valid")
-    norm_p = np.linalg.norm(pattern)
-    offsets = x[: num.size] - px[0]
-    ncc = num / (norm_p * np.sqrt(energy) + 1e-300)
-    strength = num / (norm_p * noise_sd)
-    score = ncc - 0.15 * (offsets / max(window, 1e-9)) ** 2
-    score[(strength < 5) | (np.abs(offsets) > window)] = -np.inf
-    if not np.isfinite(score).any():
-        return 0.0
-    return float(offsets[int(np.argmax(score))])
-
-
 def _coarse_start(spectrum, models, masks, lw_hz, noise_sd, field_mhz, options):
     """Starting shifts found on a blurred copy of the data (model blurred alike), where
     couplings that are off by ~1 Hz still match and every site sees a wider basin."""
     blur_hz = options.coarse_blur_hz
-    grid = _build_grid(spectrum, _fit_intervals(models, field_mhz, lw_hz), masks, lw_hz + blur_hz, options,
-                       blur_hz=blur_hz)
+    grid = _build_grid(
+        spectrum, _fit_intervals(models, field_mhz, lw_hz), masks, lw_hz + blur_hz, options, blur_hz=blur_hz
+    )
     basis = _baseline_basis(grid, options.baseline_degree)
     lw_ppm = (lw_hz + blur_hz) / field_mhz
-    state = _simulate_all(models, [m.shift0 for m in models], [np.zeros(len(m.j_pairs)) for m in models],
-                          field_mhz)
+    state = _simulate_all(
+        models, [m.shift0 for m in models], [np.zeros(len(m.j_pairs)) for m in models], field_mhz
+    )
     shifts, amounts = _pursue(grid, models, state, lw_ppm, noise_sd)
     return _sweep_sites(grid, models, state, shifts, lw_ppm, basis, amounts=amounts)
 
@@ -539,8 +544,12 @@ def _pursue(grid, models, state, lw_ppm, noise_sd):
     shifts, amounts = [s.copy() for s in shifts0], np.zeros(len(models))
     remaining = list(range(len(models)))
     while remaining:
-        trials = {k: _place(grid, models[k], per_site[offsets[k]:offsets[k] + models[k].shift0.size], resid,
-                            noise_sd) for k in remaining}
+        trials = {
+            k: _place(
+                grid, models[k], per_site[offsets[k] : offsets[k] + models[k].shift0.size], resid, noise_sd
+            )
+            for k in remaining
+        }
         best = max(remaining, key=lambda k: trials[k][2])
         shifts[best], amounts[best], _, col = trials[best]
         resid = resid - amounts[best] * col * grid.weight
@@ -574,8 +583,9 @@ def _place(grid, model: _Model, units, resid, noise_sd):
     for s in range(model.shift0.size):
         unit = units[s]
         if amount > 0:
-            shifts[s] = _best_fixed_amount(grid, resid, unit, amount, model.shift0[s], model.window[s],
-                                           model.window[s] / 3.0, noise_sd)
+            shifts[s] = _best_fixed_amount(
+                grid, resid, unit, amount, model.shift0[s], model.window[s], model.window[s] / 3.0, noise_sd
+            )
         moved.append(_translate_column(grid, unit, shifts[s] - model.shift0[s]))
     col = np.sum(moved, axis=0)
     r = resid - amount * col * w
@@ -597,7 +607,7 @@ def _best_offset_column(grid, target, unit, window, noise_sd) -> float:
     t = target[i0:i1]
     num = np.correlate(t, p, mode="valid")
     energy = np.correlate(t * t, (p > 0).astype(float), mode="valid")
-    offsets = grid.x[i0:i0 + num.size] - grid.x[j0]
+    offsets = grid.x[i0 : i0 + num.size] - grid.x[j0]
     norm_p = np.linalg.norm(p)
     ncc = num / (norm_p * np.sqrt(energy) + 1e-300)
     score = ncc - 0.15 * (offsets / max(window, 1e-9)) ** 2
@@ -617,36 +627,16 @@ def _best_fixed_amount(grid, resid, unit, amount, centre, window, prior_sd, nois
         return centre
     u = unit[j0:j1] * amount
     w = grid.weight
-    gain = 2 * np.correlate(resid[i0:i1] * w[i0:i1], u, mode="valid") - np.correlate(w[i0:i1] ** 2, u * u,
-                                                                                      mode="valid")
-    moves = grid.x[i0:i0 + gain.size] - grid.x[j0]
-    var = max(noise_sd ** 2, float(np.mean(resid[w > 0] ** 2)))
+    gain = 2 * np.correlate(resid[i0:i1] * w[i0:i1], u, mode="valid") - np.correlate(
+        w[i0:i1] ** 2, u * u, mode="valid"
+    )
+    moves = grid.x[i0 : i0 + gain.size] - grid.x[j0]
+    var = max(noise_sd**2, float(np.mean(resid[w > 0] ** 2)))
     score = gain / var - (moves / prior_sd) ** 2
     score[np.abs(moves) > window] = -np.inf
     if not np.isfinite(score).any():
         return centre
     return float(centre + moves[int(np.argmax(score))])
-
-
-def _start_amounts(grid, models, state, shifts, lw_ppm, basis):
-    """Robust first amounts: per site, the amplitude that best matches the data under it; per
-    candidate, a low quantile over its sites (overlapping signals only ever inflate a site's
-    estimate, masked sites are skipped)."""
-    cols, per_site, _, _ = _components(grid, models, state, shifts, lw_ppm, derivs=False)
-    _, base = _solve_linear(cols, basis, grid)
-    target = (grid.y - basis @ base) * grid.weight
-    offsets, _ = _site_offsets(models)
-    amounts = np.zeros(len(models))
-    for k, m in enumerate(models):
-        estimates = []
-        for s in range(m.shift0.size):
-            p = per_site[offsets[k] + s] * grid.weight
-            full = per_site[offsets[k] + s]
-            if np.dot(full, full) <= 0 or np.dot(p, p) < 0.5 * np.dot(full, full):
-                continue
-            estimates.append(max(0.0, float(np.dot(p, target) / np.dot(p, p))))
-        amounts[k] = np.percentile(estimates, 25) if estimates else 0.0
-    return amounts
 
 
 def _sweep_sites(grid, models, state, shifts, lw_ppm, basis, *, n_sweeps: int = 3, amounts=None):
@@ -675,11 +665,12 @@ def _sweep_sites(grid, models, state, shifts, lw_ppm, basis, *, n_sweeps: int = 
         for k, m in enumerate(models):
             for s in range(m.shift0.size):
                 unit = per_site[offsets[k] + s]
-                col = per_site[offsets[k]:offsets[k] + m.shift0.size].sum(0)
+                col = per_site[offsets[k] : offsets[k] + m.shift0.size].sum(0)
                 rest = col - unit
                 r_k = resid + amounts[k] * col * w
-                best = _best_joint_move(grid, r_k, rest, unit, shifts[k][s], m.shift0[s], m.window[s], var,
-                                        m.window[s] / 3.0)
+                best = _best_joint_move(
+                    grid, r_k, rest, unit, shifts[k][s], m.shift0[s], m.window[s], var, m.window[s] / 3.0
+                )
                 if best is None:
                     continue
                 new_shift, new_amount = best
@@ -717,8 +708,11 @@ def _swap_sites(grid, models, state, shifts, lw_ppm, basis) -> bool:
             for s in range(m.shift0.size):
                 for s2 in range(s + 1 if k2 == k else 0, m2.shift0.size):
                     a, b = shifts[k][s], shifts[k2][s2]
-                    if (abs(a - b) < min_sep or abs(b - m.shift0[s]) > m.window[s]
-                            or abs(a - m2.shift0[s2]) > m2.window[s2]):
+                    if (
+                        abs(a - b) < min_sep
+                        or abs(b - m.shift0[s]) > m.window[s]
+                        or abs(a - m2.shift0[s2]) > m2.window[s2]
+                    ):
                         continue
                     u = _translate_column(grid, per_site[offsets[k] + s], b - a)
                     u2 = _translate_column(grid, per_site[offsets[k2] + s2], a - b)
@@ -745,7 +739,7 @@ def _best_joint_move(grid, r_k, rest, unit, current, centre, window, var, prior_
         return None
     nz = np.flatnonzero(unit > 1e-3 * unit.max())
     j0, j1 = nz[0], nz[-1] + 1
-    lo_ppm, hi_ppm = centre - window - current, centre + window - current   # allowed moves
+    lo_ppm, hi_ppm = centre - window - current, centre + window - current  # allowed moves
     i0 = max(0, j0 + int(np.floor(lo_ppm / grid.dx_ppm)))
     i1 = min(grid.x.size, j1 + int(np.ceil(hi_ppm / grid.dx_ppm)))
     if i1 - i0 <= j1 - j0:
@@ -754,10 +748,13 @@ def _best_joint_move(grid, r_k, rest, unit, current, centre, window, var, prior_
     w = grid.weight
     rest_w = rest * w
     a_num = np.dot(r_k, rest_w) + np.correlate(r_k[i0:i1] * w[i0:i1], u, mode="valid")
-    b_den = (np.dot(rest_w, rest_w) + 2 * np.correlate(rest_w[i0:i1] * w[i0:i1], u, mode="valid")
-             + np.correlate(w[i0:i1] ** 2, u * u, mode="valid"))
-    moves = grid.x[i0:i0 + a_num.size] - grid.x[j0]
-    gain = np.where(a_num > 0, a_num ** 2 / np.maximum(b_den, 1e-300), 0.0)
+    b_den = (
+        np.dot(rest_w, rest_w)
+        + 2 * np.correlate(rest_w[i0:i1] * w[i0:i1], u, mode="valid")
+        + np.correlate(w[i0:i1] ** 2, u * u, mode="valid")
+    )
+    moves = grid.x[i0 : i0 + a_num.size] - grid.x[j0]
+    gain = np.where(a_num > 0, a_num**2 / np.maximum(b_den, 1e-300), 0.0)
     score = gain / var - ((current + moves - centre) / prior_sd) ** 2
     score[(moves < lo_ppm - 1e-12) | (moves > hi_ppm + 1e-12)] = -np.inf
     if not np.isfinite(score).any():
@@ -799,21 +796,22 @@ class _Problem:
     def unpack(self, theta):
         shifts, pos = [], 0
         for m in self.models:
-            shifts.append(theta[pos:pos + m.shift0.size])
+            shifts.append(theta[pos : pos + m.shift0.size])
             pos += m.shift0.size
         djs = []
         for m in self.models:
-            djs.append(theta[pos:pos + len(m.j_pairs)])
+            djs.append(theta[pos : pos + len(m.j_pairs)])
             pos += len(m.j_pairs)
         lw = theta[pos]
-        amounts = theta[pos + 1:pos + 1 + self.k]
-        base = theta[pos + 1 + self.k:]
+        amounts = theta[pos + 1 : pos + 1 + self.k]
+        base = theta[pos + 1 + self.k :]
         return shifts, djs, lw, amounts, base
 
     def columns(self, theta, *, derivs: bool):
         shifts, djs, lw, amounts, base = self.unpack(theta)
-        cols, per_site, dpos, dw = _components(self.grid, self.models, self.state, shifts, lw / self.field,
-                                               derivs=derivs)
+        cols, per_site, dpos, dw = _components(
+            self.grid, self.models, self.state, shifts, lw / self.field, derivs=derivs
+        )
         cols = cols.copy()
         for k in range(self.k):
             if self.jcols[k] is not None:
@@ -828,7 +826,9 @@ class _Problem:
     def jacobian(self, theta):
         _, _, _, amounts, _ = self.unpack(theta)
         cols, _, dpos, dw = self.columns(theta, derivs=True)
-        site_amount = np.concatenate([np.full(m.shift0.size, a) for m, a in zip(self.models, amounts, strict=True)])
+        site_amount = np.concatenate(
+            [np.full(m.shift0.size, a) for m, a in zip(self.models, amounts, strict=True)]
+        )
         parts = [(dpos * site_amount[:, None]).T]
         for k in range(self.k):
             if self.jcols[k] is not None:
@@ -866,12 +866,24 @@ def _refine(grid, models, state, shifts, djs, lw_hz, basis, field_mhz, options):
     amounts, base = _solve_linear(cols, basis, grid)
     x0, lo, hi = _pack_bounds(models, shifts, djs, lw_hz, options, len(models), basis.shape[1])
     lw_lo = max(0.1, 1.5 * grid.dx_ppm * field_mhz / options.points_per_width)
-    x0 = np.array(x0 + [np.clip(lw_hz, lw_lo * 1.01, options.max_line_width_hz * 0.99)] + list(amounts) + list(base))
+    x0 = np.array(
+        x0 + [np.clip(lw_hz, lw_lo * 1.01, options.max_line_width_hz * 0.99)] + list(amounts) + list(base)
+    )
     lo = np.array(lo + [lw_lo] + [0.0] * len(models) + [-np.inf] * basis.shape[1])
     hi = np.array(hi + [options.max_line_width_hz] + [np.inf] * (len(models) + basis.shape[1]))
     x0 = np.clip(x0, lo, hi)
-    result = least_squares(problem.residual, x0, jac=problem.jacobian, bounds=(lo, hi), method="trf",
-                           x_scale="jac", max_nfev=40, ftol=1e-8, xtol=1e-8, tr_solver="lsmr")
+    result = least_squares(
+        problem.residual,
+        x0,
+        jac=problem.jacobian,
+        bounds=(lo, hi),
+        method="trf",
+        x_scale="jac",
+        max_nfev=40,
+        ftol=1e-8,
+        xtol=1e-8,
+        tr_solver="lsmr",
+    )
     return problem, result
 
 
@@ -879,11 +891,12 @@ def _refine(grid, models, state, shifts, djs, lw_hz, basis, field_mhz, options):
 # Uncertainty
 # --------------------------------------------------------------------------------------------
 
+
 def _fraction_covariance(amounts: np.ndarray, cov: np.ndarray) -> np.ndarray:
     total = amounts.sum()
     if total <= 0:
         return np.zeros_like(cov)
-    grad = (np.eye(amounts.size) * total - amounts[:, None]) / total ** 2   # d x_i / d a_j
+    grad = (np.eye(amounts.size) * total - amounts[:, None]) / total**2  # d x_i / d a_j
     return grad @ cov @ grad.T
 
 
@@ -914,10 +927,16 @@ def _bootstrap_fractions(cols, basis, grid, model, residual, options, detected_m
     draws = []
     for _ in range(options.n_bootstrap):
         picks = rng.integers(0, max(1, n - block), size=starts.size)
-        noise = np.concatenate([residual[p:p + block] for p in picks])[:n]
+        noise = np.concatenate([residual[p : p + block] for p in picks])[:n]
         noise = noise * rng.choice([-1.0, 1.0], size=starts.size).repeat(block)[:n]
-        fake = _Grid(x=grid.x, y=model + noise, weight=grid.weight, region=grid.region,
-                     n_regions=grid.n_regions, dx_ppm=grid.dx_ppm)
+        fake = _Grid(
+            x=grid.x,
+            y=model + noise,
+            weight=grid.weight,
+            region=grid.region,
+            n_regions=grid.n_regions,
+            dx_ppm=grid.dx_ppm,
+        )
         a, _ = _solve_linear(cols, basis, fake)
         a = np.where(detected_mask, a, 0.0)
         draws.append(a / a.sum() if a.sum() > 0 else a)
@@ -928,14 +947,16 @@ def _bootstrap_fractions(cols, basis, grid, model, residual, options, detected_m
 # Evidence
 # --------------------------------------------------------------------------------------------
 
+
 def _site_evidence(grid, models, per_site, amounts, y_clean, noise_sd):
     """Per site: (sigma seen, shape match, overlap share, expected height in noise sd, support).
 
     ``support`` is the share of the predicted intensity that the data under the site (minus
     the other components) actually holds: 1 when fully there, 0 when absent."""
     offsets, _ = _site_offsets(models)
-    contrib = np.concatenate([per_site[o:o + m.shift0.size] * a for o, m, a in
-                              zip(offsets, models, amounts, strict=True)])
+    contrib = np.concatenate(
+        [per_site[o : o + m.shift0.size] * a for o, m, a in zip(offsets, models, amounts, strict=True)]
+    )
     total = contrib.sum(0)
     out = []
     for k, m in enumerate(models):
@@ -973,9 +994,11 @@ def _evidence_lines(models, k, system, shifts, djs, site_rows, field_mhz):
         j_obs, j_pred = _observed_j_text(m, j_fit, s), _observed_j_text(m, m.j0, s)
         j_part = f"; J = {j_obs} Hz (predicted {j_pred})" if j_obs else ""
         seen = "observed" if sigma >= 5 and shape >= 0.5 else "not clearly seen"
-        lines.append(f"{site.label or 'H'} ({site.n_h}H) {seen} at {shifts[k][s]:.3f} ppm (predicted "
-                     f"{site.shift_ppm:.2f} +- {site.shift_sd_ppm:.2f}){j_part}; {sigma:.0f} sigma, "
-                     f"shape match {shape:.2f}, overlap {overlap:.0%}")
+        lines.append(
+            f"{site.label or 'H'} ({site.n_h}H) {seen} at {shifts[k][s]:.3f} ppm (predicted "
+            f"{site.shift_ppm:.2f} +- {site.shift_sd_ppm:.2f}){j_part}; {sigma:.0f} sigma, "
+            f"shape match {shape:.2f}, overlap {overlap:.0%}"
+        )
     return tuple(lines)
 
 
@@ -990,16 +1013,21 @@ def _diagnostic_ok(rows, model: _Model) -> bool:
     with its own multiplet shape and most of its predicted intensity, where no other component
     overlaps it, and none of them that should stand above the noise is absent."""
     diag = [rows[s] for s in _diagnostic_sites(model)]
-    seen = [sig >= 5 and shape >= 0.6 and overlap < 0.5 and support >= 0.5
-            for sig, shape, overlap, _, support in diag]
-    missing = [expected >= 3 and overlap < 0.5 and (support < 0.3 or shape < 0.3)
-               for _, shape, overlap, expected, support in rows]
+    seen = [
+        sig >= 5 and shape >= 0.6 and overlap < 0.5 and support >= 0.5
+        for sig, shape, overlap, _, support in diag
+    ]
+    missing = [
+        expected >= 3 and overlap < 0.5 and (support < 0.3 or shape < 0.3)
+        for _, shape, overlap, expected, support in rows
+    ]
     return any(seen) and not any(missing)
 
 
 # --------------------------------------------------------------------------------------------
 # Unknown signals
 # --------------------------------------------------------------------------------------------
+
 
 def _unexplained_signals(spectrum, fit_grid, model_full, masks, noise_sd, corr, field_mhz, total_area):
     """Residual peaks above the noise outside masks: (ppm, share of proton signal) pairs."""
@@ -1044,6 +1072,7 @@ def _unexplained_signals(spectrum, fit_grid, model_full, masks, noise_sd, corr, 
 # Public entry point
 # --------------------------------------------------------------------------------------------
 
+
 def _check_inputs(spectrum, systems, candidates):
     if not isinstance(spectrum, Spectrum):
         raise InputError(f"spectrum: expected a Spectrum, got {type(spectrum).__name__}")
@@ -1060,8 +1089,14 @@ def _check_inputs(spectrum, systems, candidates):
     return systems, candidates
 
 
-def fit_mixture(spectrum: Spectrum, systems: Sequence[SpinSystem], candidates: Sequence[Candidate], *,
-                noise_sd: float | None = None, options: FitOptions | None = None) -> MixtureFit:
+def fit_mixture(
+    spectrum: Spectrum,
+    systems: Sequence[SpinSystem],
+    candidates: Sequence[Candidate],
+    *,
+    noise_sd: float | None = None,
+    options: FitOptions | None = None,
+) -> MixtureFit:
     """Fit a processed 1H spectrum as a non-negative mixture of candidate spectra.
 
     Parameters
@@ -1098,7 +1133,9 @@ def fit_mixture(spectrum: Spectrum, systems: Sequence[SpinSystem], candidates: S
         raise InputError(f"noise_sd: must be a positive number, got {noise_sd!r}")
     lw = options.line_width_hz or estimate_line_width_hz(spectrum, noise_sd=noise)
     models = [_build_model(s, options) for s in systems]
-    masks, notes = ([], []) if not options.mask_solvent else _mask_intervals(spectrum.solvent, field, lw, models)
+    masks, notes = (
+        ([], []) if not options.mask_solvent else _mask_intervals(spectrum.solvent, field, lw, models)
+    )
     grid = _build_grid(spectrum, _fit_intervals(models, field, lw), masks, lw, options)
     if np.max(np.abs(grid.y * grid.weight)) < 5 * noise:
         raise FitError("spectrum: no signal above 5x the noise where the candidates have signals")
@@ -1112,11 +1149,14 @@ def fit_mixture(spectrum: Spectrum, systems: Sequence[SpinSystem], candidates: S
         problem, result = _refine(grid, models, state, shifts, djs, lw, basis, field, options)
         shifts, djs, lw, amounts, base = problem.unpack(result.x)
         shifts, djs = [s.copy() for s in shifts], [d.copy() for d in djs]
-    return _finish(spectrum, systems, candidates, models, grid, problem, result, basis, masks, notes,
-                   noise, options)
+    return _finish(
+        spectrum, systems, candidates, models, grid, problem, result, basis, masks, notes, noise, options
+    )
 
 
-def _finish(spectrum, systems, candidates, models, grid, problem, result, basis, masks, notes, noise, options):
+def _finish(
+    spectrum, systems, candidates, models, grid, problem, result, basis, masks, notes, noise, options
+):
     field = float(spectrum.field_mhz)
     theta = result.x.copy()
     shifts, djs, lw, amounts, base = problem.unpack(theta)
@@ -1126,27 +1166,27 @@ def _finish(spectrum, systems, candidates, models, grid, problem, result, basis,
     corr = _noise_correlation_factor(np.asarray(spectrum.intensity)[:: max(1, factor)], noise_bin)
     w = grid.weight > 0
     resid = grid.y - amounts @ cols - basis @ base
-    chi2 = float(np.sum((resid[w] / noise_bin) ** 2) / max(1, w.sum() - theta.size)) / corr ** 2
+    chi2 = float(np.sum((resid[w] / noise_bin) ** 2) / max(1, w.sum() - theta.size)) / corr**2
     noise_eff = noise_bin * corr * np.sqrt(max(1.0, chi2))
     rows = _site_evidence(grid, models, per_site, amounts, grid.y - basis @ base, noise_eff)
     k = len(models)
     start = problem.n_sites + problem.n_dj + 1
     inflate = corr * np.sqrt(max(1.0, chi2)) * options.uncertainty_scale
-    cov_full = _amount_covariance(result.jac, start, k, noise_bin ** 2) * inflate ** 2
+    cov_full = _amount_covariance(result.jac, start, k, noise_bin**2) * inflate**2
     significant = amounts > options.detection_sigma * np.sqrt(np.clip(np.diag(cov_full), 0, None))
     detected = np.array([bool(significant[i]) and _diagnostic_ok(rows[i], models[i]) for i in range(k)])
     upper = amounts.copy()
     if detected.any() and not detected.all():
         # amounts of the detected components alone: an undetected candidate must not keep signal
         amounts_det, base = _solve_linear(cols[detected], basis, grid)
-        theta[start:start + k] = 0.0
+        theta[start : start + k] = 0.0
         theta[start + np.flatnonzero(detected)] = amounts_det
-        theta[start + k:] = base
-        amounts = theta[start:start + k]
+        theta[start + k :] = base
+        amounts = theta[start : start + k]
     jac = problem.jacobian(theta) if detected.any() and not detected.all() else result.jac
     model = amounts @ cols + basis @ base
     resid = grid.y - model
-    cov_a = _amount_covariance(jac, start, k, noise_bin ** 2) * inflate ** 2
+    cov_a = _amount_covariance(jac, start, k, noise_bin**2) * inflate**2
     sd_up = np.sqrt(np.clip(np.diag(cov_full), 0, None))
     cov_a[~detected, ~detected] = sd_up[~detected] ** 2
     frac, frac_sd, frac_cov, limits = _fractions(np.where(detected, amounts, upper), cov_a, detected, options)
@@ -1155,22 +1195,40 @@ def _finish(spectrum, systems, candidates, models, grid, problem, result, basis,
         frac_sd = np.where(detected, np.maximum(frac_sd, boot * options.uncertainty_scale), frac_sd)
     components = []
     for i, cand in enumerate(candidates):
-        components.append(ComponentFit(
-            candidate=cand, mole_fraction=float(np.clip(frac[i], 0, 1)), mole_fraction_sd=float(frac_sd[i]),
-            detection_limit=float(limits[i]), detected=bool(detected[i]),
-            refined_shifts_ppm=_refined_shifts(systems[i], models[i], shifts[i]),
-            evidence=_evidence_lines(models, i, systems[i], shifts, djs, rows[i], field)))
+        components.append(
+            ComponentFit(
+                candidate=cand,
+                mole_fraction=float(np.clip(frac[i], 0, 1)),
+                mole_fraction_sd=float(frac_sd[i]),
+                detection_limit=float(limits[i]),
+                detected=bool(detected[i]),
+                refined_shifts_ppm=_refined_shifts(systems[i], models[i], shifts[i]),
+                evidence=_evidence_lines(models, i, systems[i], shifts, djs, rows[i], field),
+            )
+        )
     total_area = float(sum(a * m.n_h.sum() for a, m in zip(amounts, models, strict=True)))
     unknown = _unexplained_signals(spectrum, grid, model, masks, noise, corr, field, total_area)
-    warnings = list(notes) + [f"unexplained signal at {p:.2f} ppm (~{100 * s:.1f} % of the fitted proton "
-                              f"signal): an unknown component or a missing candidate" for p, s in unknown]
+    warnings = list(notes) + [
+        f"unexplained signal at {p:.2f} ppm (~{100 * s:.1f} % of the fitted proton "
+        f"signal): an unknown component or a missing candidate"
+        for p, s in unknown
+    ]
     if not detected.any():
         warnings.append("no candidate is clearly present in this spectrum")
-    quality = _quality(grid, model, resid, noise_bin, chi2, corr, lw, unknown,
-                       np.asarray(spectrum.intensity), noise, result)
-    return MixtureFit(components=tuple(components), ppm=grid.x[::-1], model=model[::-1], residual=resid[::-1],
-                      line_width_hz=float(lw), quality=quality, warnings=tuple(warnings),
-                      fraction_covariance=frac_cov, unexplained_ppm=tuple(p for p, _ in unknown))
+    quality = _quality(
+        grid, model, resid, noise_bin, chi2, corr, lw, unknown, np.asarray(spectrum.intensity), noise, result
+    )
+    return MixtureFit(
+        components=tuple(components),
+        ppm=grid.x[::-1],
+        model=model[::-1],
+        residual=resid[::-1],
+        line_width_hz=float(lw),
+        quality=quality,
+        warnings=tuple(warnings),
+        fraction_covariance=frac_cov,
+        unexplained_ppm=tuple(p for p, _ in unknown),
+    )
 
 
 def _fractions(amounts, cov_a, detected, options):
@@ -1204,8 +1262,10 @@ def _quality(grid, model, resid, noise_bin, chi2, corr, lw, unknown, y_all, nois
     w = grid.weight > 0
     y = grid.y[w]
     ss_tot = float(np.sum((y - y.mean()) ** 2)) or 1.0
-    strong = w & (np.abs(grid.y) > 10 * noise_bin * corr)   # signal points only: noise is not "unexplained"
-    explained = 1.0 - float(np.sum(np.abs(resid[strong]))) / max(float(np.sum(np.abs(grid.y[strong]))), 1e-300)
+    strong = w & (np.abs(grid.y) > 10 * noise_bin * corr)  # signal points only: noise is not "unexplained"
+    explained = 1.0 - float(np.sum(np.abs(resid[strong]))) / max(
+        float(np.sum(np.abs(grid.y[strong]))), 1e-300
+    )
     return {
         "r_squared": 1.0 - float(np.sum(resid[w] ** 2)) / ss_tot,
         "explained_fraction": explained,

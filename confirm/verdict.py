@@ -22,9 +22,11 @@ __all__ = ["decide", "alkene_facts", "AlkeneFacts"]
 
 _ELIMINATION = {"E2", "E1", "E1cB"}
 _SUBSTITUTION = {"SN2", "SN1"}
-_EVIDENCE = re.compile(r"^(?P<label>.+?) \((?P<n>\d+)H\) (?P<seen>observed|not clearly seen) at "
-                       r"(?P<ppm>-?[\d.]+) ppm .*?; (?P<sigma>-?\d+) sigma, shape match (?P<shape>-?[\d.]+), "
-                       r"overlap (?P<overlap>\d+)%$")
+_EVIDENCE = re.compile(
+    r"^(?P<label>.+?) \((?P<n>\d+)H\) (?P<seen>observed|not clearly seen) at "
+    r"(?P<ppm>-?[\d.]+) ppm .*?; (?P<sigma>-?\d+) sigma, shape match (?P<shape>-?[\d.]+), "
+    r"overlap (?P<overlap>\d+)%$"
+)
 
 
 @dataclass(frozen=True)
@@ -78,8 +80,13 @@ def alkene_facts(smiles: str) -> AlkeneFacts:
             vicinal = True
     flat = Chem.Mol(mol)
     Chem.RemoveStereochemistry(flat)
-    return AlkeneFacts(n_alkenes=n, geometry=geometry, vicinal_vinyl_h=vicinal, substitution=subst,
-                       skeleton=Chem.MolToSmiles(flat))
+    return AlkeneFacts(
+        n_alkenes=n,
+        geometry=geometry,
+        vicinal_vinyl_h=vicinal,
+        substitution=subst,
+        skeleton=Chem.MolToSmiles(flat),
+    )
 
 
 @dataclass(frozen=True)
@@ -110,7 +117,7 @@ def _share(fit: MixtureFit, num: Sequence[int], den: Sequence[int]) -> tuple[flo
     cov = fit.fraction_covariance
     if cov is None:
         sd = np.array([c.mole_fraction_sd for c in fit.components])
-        cov = np.diag(sd ** 2)
+        cov = np.diag(sd**2)
     return float(share), float(np.sqrt(max(0.0, grad @ cov @ grad)))
 
 
@@ -136,17 +143,29 @@ def _ez_ratios(fit, facts, vinyl_overlapped):
         name = _name(fit.components[e[0]].candidate)
         if not all(facts[i].vicinal_vinyl_h for i in members):
             decided = False
-            unresolved.append(f"E/Z of {name}: trisubstituted alkene without a vicinal vinyl H-H coupling; "
-                              "the assignment rests on predicted shifts only")
+            unresolved.append(
+                f"E/Z of {name}: trisubstituted alkene without a vicinal vinyl H-H coupling; "
+                "the assignment rests on predicted shifts only"
+            )
             steps.append("1D NOE (or NOESY) from the vinyl H to the allylic substituents settles E/Z")
-            steps.append("13C: the allylic carbon cis to the larger group lies several ppm upfield "
-                         "(gamma-gauche effect)")
+            steps.append(
+                "13C: the allylic carbon cis to the larger group lies several ppm upfield "
+                "(gamma-gauche effect)"
+            )
         elif all(vinyl_overlapped[i] for i in members):
             decided = False
             unresolved.append(f"E/Z of {name}: the diagnostic vinyl signals of the isomers overlap")
             steps.append("record the spectrum at higher field (or in C6D6) to separate the vinyl multiplets")
-        ratios.append(RatioEstimate(name="E:Z" if len(groups) == 1 else f"E:Z {name}", numerator="E",
-                                    denominator="Z", share=share, share_sd=sd, decided=decided))
+        ratios.append(
+            RatioEstimate(
+                name="E:Z" if len(groups) == 1 else f"E:Z {name}",
+                numerator="E",
+                denominator="Z",
+                share=share,
+                share_sd=sd,
+                decided=decided,
+            )
+        )
     return ratios, unresolved, steps
 
 
@@ -161,13 +180,17 @@ def _regio_labels(candidates, facts):
     labels = [c.regio for c in candidates]
     if any(labels):
         return labels
-    alkenes = [i for i, f in enumerate(facts) if f.n_alkenes and "starting material" not in candidates[i].pathways]
+    alkenes = [
+        i for i, f in enumerate(facts) if f.n_alkenes and "starting material" not in candidates[i].pathways
+    ]
     degrees = {facts[i].substitution for i in alkenes}
     if len(degrees) < 2:
         return labels
     top = max(degrees)
-    return [("more substituted" if facts[i].substitution == top else "less substituted") if i in alkenes
-            else None for i in range(len(candidates))]
+    return [
+        ("more substituted" if facts[i].substitution == top else "less substituted") if i in alkenes else None
+        for i in range(len(candidates))
+    ]
 
 
 def _confidence(fit, major, ratios, unresolved, detected_products) -> str:
@@ -188,8 +211,13 @@ def _confidence(fit, major, ratios, unresolved, detected_products) -> str:
     return "high"
 
 
-def decide(fit: MixtureFit, systems: Sequence[SpinSystem], candidates: Sequence[Candidate], *,
-           context: Mapping | None = None) -> Verdict:
+def decide(
+    fit: MixtureFit,
+    systems: Sequence[SpinSystem],
+    candidates: Sequence[Candidate],
+    *,
+    context: Mapping | None = None,
+) -> Verdict:
     """Decide what the sample contains from a mixture fit.
 
     Parameters
@@ -212,37 +240,65 @@ def decide(fit: MixtureFit, systems: Sequence[SpinSystem], candidates: Sequence[
     facts = [alkene_facts(c.smiles) for c in candidates]
     comps = fit.components
     sites = [_sites(c.evidence) for c in comps]
-    vinyl_overlapped = [all(s.overlap >= 0.5 or not s.seen for s in ss if "vinyl" in s.label.lower()) and
-                        any("vinyl" in s.label.lower() for s in ss) for ss in sites]
+    vinyl_overlapped = [
+        all(s.overlap >= 0.5 or not s.seen for s in ss if "vinyl" in s.label.lower())
+        and any("vinyl" in s.label.lower() for s in ss)
+        for ss in sites
+    ]
     is_sm = ["starting material" in c.pathways for c in candidates]
     products = [i for i in range(len(candidates)) if not is_sm[i]]
     detected_products = [comps[i] for i in products if comps[i].detected]
-    major_i = max((i for i in products if comps[i].detected), key=lambda i: comps[i].mole_fraction, default=None)
+    major_i = max(
+        (i for i in products if comps[i].detected), key=lambda i: comps[i].mole_fraction, default=None
+    )
     ratios, unresolved, steps = _ez_ratios(fit, facts, vinyl_overlapped)
     regio = _regio_labels(candidates, facts)
     more = [i for i in products if regio[i] == "more substituted"]
     less = [i for i in products if regio[i] == "less substituted"]
-    extra = [_group_ratio(fit, "regioisomers", "more substituted", "less substituted", more, less),
-             _group_ratio(fit, "elimination:substitution", "elimination", "substitution",
-                          [i for i in products if _ELIMINATION & set(candidates[i].pathways)],
-                          [i for i in products if _SUBSTITUTION & set(candidates[i].pathways)]),
-             _group_ratio(fit, "starting material left", "starting material", "products",
-                          [i for i in range(len(candidates)) if is_sm[i]], products)]
+    extra = [
+        _group_ratio(fit, "regioisomers", "more substituted", "less substituted", more, less),
+        _group_ratio(
+            fit,
+            "elimination:substitution",
+            "elimination",
+            "substitution",
+            [i for i in products if _ELIMINATION & set(candidates[i].pathways)],
+            [i for i in products if _SUBSTITUTION & set(candidates[i].pathways)],
+        ),
+        _group_ratio(
+            fit,
+            "starting material left",
+            "starting material",
+            "products",
+            [i for i in range(len(candidates)) if is_sm[i]],
+            products,
+        ),
+    ]
     ratios += [r for r in extra if r is not None]
     major = comps[major_i].candidate.smiles if major_i is not None else None
     confidence = _confidence(fit, major, ratios, unresolved, detected_products)
     evidence = _verdict_evidence(fit, major_i)
     if fit.unexplained_ppm:
-        unresolved.append("signals no candidate explains at " + ", ".join(f"{p:.2f}" for p in fit.unexplained_ppm)
-                          + " ppm (unknown components)")
+        unresolved.append(
+            "signals no candidate explains at "
+            + ", ".join(f"{p:.2f}" for p in fit.unexplained_ppm)
+            + " ppm (unknown components)"
+        )
         steps.append("identify the unknown signals (2D COSY/HSQC) or add the missing candidate")
     if context and context.get("input") == "peak list":
         unresolved.append("amounts come from a peak list (no line shapes): uncertainties are wider")
     summary = _summary(comps, major_i, ratios, confidence, facts)
     identified = tuple(c.candidate.smiles for c in comps if c.detected)
-    return Verdict(summary=summary, confidence=confidence, major=major, identified=identified,
-                   ratios=tuple(ratios), evidence=evidence, unresolved=tuple(dict.fromkeys(unresolved)),
-                   next_steps=tuple(dict.fromkeys(steps)))
+    return Verdict(
+        summary=summary,
+        confidence=confidence,
+        major=major,
+        identified=identified,
+        ratios=tuple(ratios),
+        evidence=evidence,
+        unresolved=tuple(dict.fromkeys(unresolved)),
+        next_steps=tuple(dict.fromkeys(steps)),
+    )
 
 
 def _verdict_evidence(fit, major_i) -> tuple[str, ...]:
@@ -261,8 +317,10 @@ def _summary(comps, major_i, ratios, confidence, facts) -> str:
         return "None of the candidates is clearly present: the spectrum does not support any of them."
     major = comps[major_i]
     kind = "alkene" if facts[major_i].n_alkenes else "product"
-    parts = [f"Major {kind}: {_name(major.candidate)} ({100 * major.mole_fraction:.1f} +- "
-             f"{100 * major.mole_fraction_sd:.1f} mol %)."]
+    parts = [
+        f"Major {kind}: {_name(major.candidate)} ({100 * major.mole_fraction:.1f} +- "
+        f"{100 * major.mole_fraction_sd:.1f} mol %)."
+    ]
     for r in ratios:
         tag = "" if r.decided else " (not decided by this spectrum)"
         parts.append(f"{r.name} {r.ratio_text} (+- {100 * r.share_sd:.1f}){tag}.")

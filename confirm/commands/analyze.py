@@ -12,17 +12,28 @@ __all__ = ["register", "format_result"]
 def register(subparsers, parents) -> None:
     """Add the ``analyze`` subcommand."""
     parser = subparsers.add_parser(
-        "analyze", parents=parents, help="decide which candidate products a 1H spectrum shows, with ratios",
+        "analyze",
+        parents=parents,
+        help="decide which candidate products a 1H spectrum shows, with ratios",
         description="Fit a 1H spectrum (raw FID folder, JCAMP-DX file or peak list) as a mixture of "
-                    "candidate products and decide the major product, E:Z and regioisomer ratios, "
-                    "elimination vs substitution and the starting material left.")
-    parser.add_argument("--spectrum", required=True, metavar="PATH", help="raw FID folder, JCAMP-DX file or peak list")
-    parser.add_argument("--substrate", metavar="SMILES", help="substrate SMILES (or molfile); needs --reagent")
+        "candidate products and decide the major product, E:Z and regioisomer ratios, "
+        "elimination vs substitution and the starting material left.",
+    )
+    parser.add_argument(
+        "--spectrum", required=True, metavar="PATH", help="raw FID folder, JCAMP-DX file or peak list"
+    )
+    parser.add_argument(
+        "--substrate", metavar="SMILES", help="substrate SMILES (or molfile); needs --reagent"
+    )
     parser.add_argument("--reagent", metavar="NAME", help="base, nucleophile or acid used")
     parser.add_argument("--solvent", metavar="S", help="reaction solvent (not the NMR solvent)")
     parser.add_argument("--temp-c", type=float, default=25.0, metavar="T", help="reaction temperature, deg C")
-    parser.add_argument("--candidates", nargs="+", metavar="SMILES", help="candidate SMILES (instead of --substrate)")
-    parser.add_argument("--field-mhz", type=float, metavar="F", help="spectrometer frequency (peak lists) or override")
+    parser.add_argument(
+        "--candidates", nargs="+", metavar="SMILES", help="candidate SMILES (instead of --substrate)"
+    )
+    parser.add_argument(
+        "--field-mhz", type=float, metavar="F", help="spectrometer frequency (peak lists) or override"
+    )
     parser.add_argument("--report", metavar="OUT.html", help="also write a self-contained HTML report")
     parser.set_defaults(handler=_run)
 
@@ -34,11 +45,19 @@ def _run(args: argparse.Namespace) -> int:
     if args.candidates and (args.substrate or args.reagent):
         raise InputError("--candidates: give either --candidates or --substrate with --reagent, not both")
     if not args.candidates and not (args.substrate and args.reagent):
-        raise InputError("--candidates: no candidate given; pass --candidates SMILES [SMILES ...] or "
-                         "--substrate SMILES with --reagent NAME")
-    result = analyze_path(args.spectrum, substrate=args.substrate, reagent=args.reagent,
-                          candidates=args.candidates, solvent=args.solvent, temp_c=args.temp_c,
-                          field_mhz=args.field_mhz)
+        raise InputError(
+            "--candidates: no candidate given; pass --candidates SMILES [SMILES ...] or "
+            "--substrate SMILES with --reagent NAME"
+        )
+    result = analyze_path(
+        args.spectrum,
+        substrate=args.substrate,
+        reagent=args.reagent,
+        candidates=args.candidates,
+        solvent=args.solvent,
+        temp_c=args.temp_c,
+        field_mhz=args.field_mhz,
+    )
     if args.report:
         from confirm.report_html import write_html_report
 
@@ -60,16 +79,24 @@ def format_result(result) -> str:
     lines = [v.summary, ""]
     rows = []
     for c in result.fit.components:
-        rows.append([c.candidate.label or c.candidate.smiles, ",".join(c.candidate.pathways),
-                     f"{100 * c.mole_fraction:.1f} +- {100 * c.mole_fraction_sd:.1f}",
-                     f"{100 * c.detection_limit:.1f}", "yes" if c.detected else "no"])
+        rows.append(
+            [
+                c.candidate.label or c.candidate.smiles,
+                ",".join(c.candidate.pathways),
+                f"{100 * c.mole_fraction:.1f} +- {100 * c.mole_fraction_sd:.1f}",
+                f"{100 * c.detection_limit:.1f}",
+                "yes" if c.detected else "no",
+            ]
+        )
     lines.append(format_table(["component", "pathway", "mol %", "LOD %", "detected"], rows))
     if v.ratios:
         lines += ["", "Ratios:"]
         for r in v.ratios:
             note = "" if r.decided else "  (not decided by this spectrum)"
-            lines.append(f"  {r.name}: {r.numerator}:{r.denominator} = {r.ratio_text} "
-                         f"(share {100 * r.share:.1f} +- {100 * r.share_sd:.1f} %){note}")
+            lines.append(
+                f"  {r.name}: {r.numerator}:{r.denominator} = {r.ratio_text} "
+                f"(share {100 * r.share:.1f} +- {100 * r.share_sd:.1f} %){note}"
+            )
     if v.evidence:
         lines += ["", "Evidence:"] + [f"  {e}" for e in v.evidence]
     if v.unresolved:

@@ -24,9 +24,12 @@ _SAMPLES = ("anisyl_elimination_400mhz", "anisyl_elimination_60mhz.jdx")
 def register(subparsers, parents) -> None:
     """Add the ``demo`` subcommand."""
     parser = subparsers.add_parser(
-        "demo", parents=parents, help="run the whole analysis on the bundled sample spectra",
+        "demo",
+        parents=parents,
+        help="run the whole analysis on the bundled sample spectra",
         description="Analyse the bundled sample spectra (400 MHz raw FID and 60 MHz JCAMP-DX of an invented "
-                    "dehydrobromination, see sample_spectra/README.md) from the substrate and reagent.")
+        "dehydrobromination, see sample_spectra/README.md) from the substrate and reagent.",
+    )
     parser.add_argument("--out", metavar="DIR", help="also write one JSON result per sample into DIR")
     parser.set_defaults(handler=_run)
 
@@ -47,19 +50,31 @@ def _run(args: argparse.Namespace) -> int:
     results = {}
     for path in sample_files():
         if not path.exists():
-            raise FileFormatError(f"sample spectra: {path} is missing; regenerate with "
-                                  "python scripts/make_sample_spectra.py")
-        results[path.name] = analyze_path(path, substrate=DEMO_SUBSTRATE, reagent=DEMO_REAGENT,
-                                          solvent=DEMO_SOLVENT, temp_c=DEMO_TEMP_C)
+            raise FileFormatError(
+                f"sample spectra: {path} is missing; regenerate with python scripts/make_sample_spectra.py"
+            )
+        results[path.name] = analyze_path(
+            path, substrate=DEMO_SUBSTRATE, reagent=DEMO_REAGENT, solvent=DEMO_SOLVENT, temp_c=DEMO_TEMP_C
+        )
     if args.out:
         _write_results(results, Path(args.out))
     if args.json:
-        emit_json({"scenario": {"substrate": DEMO_SUBSTRATE, "reagent": DEMO_REAGENT, "solvent": DEMO_SOLVENT,
-                                "temp_c": DEMO_TEMP_C},
-                   "results": {name: r.to_json() for name, r in results.items()}})
+        emit_json(
+            {
+                "scenario": {
+                    "substrate": DEMO_SUBSTRATE,
+                    "reagent": DEMO_REAGENT,
+                    "solvent": DEMO_SOLVENT,
+                    "temp_c": DEMO_TEMP_C,
+                },
+                "results": {name: r.to_json() for name, r in results.items()},
+            }
+        )
         return 0
-    print(f"Demo: {DEMO_SUBSTRATE} + {DEMO_REAGENT} in {DEMO_SOLVENT} at {DEMO_TEMP_C:.0f} C "
-          "(invented scenario; see sample_spectra/README.md for the true composition)")
+    print(
+        f"Demo: {DEMO_SUBSTRATE} + {DEMO_REAGENT} in {DEMO_SOLVENT} at {DEMO_TEMP_C:.0f} C "
+        "(invented scenario; see sample_spectra/README.md for the true composition)"
+    )
     for name, result in results.items():
         print(f"\n=== {name} ({result.spectrum.field_mhz:.0f} MHz) ===")
         print(format_result(result))

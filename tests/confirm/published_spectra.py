@@ -21,8 +21,17 @@ from predictors.core import Candidate, ProtonSite, SpinSystem
 
 #: One-bond C-H couplings used to place 13C satellites (Hz); sp3 ~125-130, sp2 ~155-160.
 # common practice (textbook ranges, e.g. Pretsch et al., 13C-1H coupling section; from memory)
-J_CH_HZ = {"vinyl": 157.0, "aryl": 159.0, "CH3": 127.0, "CH2": 128.0, "CH": 130.0, "OCH3": 144.0,
-           "OCH2": 146.0, "OCH": 143.0, "CHBr": 152.0}
+J_CH_HZ = {
+    "vinyl": 157.0,
+    "aryl": 159.0,
+    "CH3": 127.0,
+    "CH2": 128.0,
+    "CH": 130.0,
+    "OCH3": 144.0,
+    "OCH2": 146.0,
+    "OCH": 143.0,
+    "CHBr": 152.0,
+}
 #: Natural abundance of 13C: each satellite carries 0.55 % of its parent line.
 SATELLITE_SHARE = 0.0055  # references.md section 5 (each 13C satellite ~0.55 %)
 
@@ -55,11 +64,19 @@ class PublishedCompound:
 E_ANETHOLE = PublishedCompound(
     name="(E)-anethole",
     smiles="C/C=C/c1ccc(OC)cc1",
-    sites=((7.27, 2, "aryl"), (6.84, 2, "aryl"), (6.36, 1, "vinyl"), (6.11, 1, "vinyl"),
-           (3.80, 3, "OCH3"), (1.86, 3, "CH3")),
+    sites=(
+        (7.27, 2, "aryl"),
+        (6.84, 2, "aryl"),
+        (6.36, 1, "vinyl"),
+        (6.11, 1, "vinyl"),
+        (3.80, 3, "OCH3"),
+        (1.86, 3, "CH3"),
+    ),
     couplings=((0, 1, 8.7), (2, 3, 15.8), (3, 5, 6.6), (2, 5, 1.6)),
     source="trans-anethole, CDCl3, literature values (from memory)",
-    geometry="E", regio="more substituted", pathways=("E2",),
+    geometry="E",
+    regio="more substituted",
+    pathways=("E2",),
 )
 
 # (Z)-anethole, CDCl3: 7.23 (d, 8.7), 6.88 (d, 8.7), 6.36 (dq, 11.6, 1.8), 5.72 (dq, 11.6, 7.2),
@@ -67,11 +84,19 @@ E_ANETHOLE = PublishedCompound(
 Z_ANETHOLE = PublishedCompound(
     name="(Z)-anethole",
     smiles="C/C=C\\c1ccc(OC)cc1",
-    sites=((7.23, 2, "aryl"), (6.88, 2, "aryl"), (6.36, 1, "vinyl"), (5.72, 1, "vinyl"),
-           (3.81, 3, "OCH3"), (1.90, 3, "CH3")),
+    sites=(
+        (7.23, 2, "aryl"),
+        (6.88, 2, "aryl"),
+        (6.36, 1, "vinyl"),
+        (5.72, 1, "vinyl"),
+        (3.81, 3, "OCH3"),
+        (1.90, 3, "CH3"),
+    ),
     couplings=((0, 1, 8.7), (2, 3, 11.6), (3, 5, 7.2), (2, 5, 1.8)),
     source="cis-anethole, CDCl3, literature values (from memory)",
-    geometry="Z", regio="more substituted", pathways=("E2",),
+    geometry="Z",
+    regio="more substituted",
+    pathways=("E2",),
 )
 
 # Estragole (4-allylanisole), CDCl3. Multiplet centres measured on the shared real spectrum
@@ -81,12 +106,19 @@ Z_ANETHOLE = PublishedCompound(
 ESTRAGOLE = PublishedCompound(
     name="estragole",
     smiles="C=CCc1ccc(OC)cc1",
-    sites=((7.14, 2, "aryl"), (6.87, 2, "aryl"), (5.98, 1, "vinyl"), (5.08, 1, "vinyl"),
-           (5.06, 1, "vinyl"), (3.81, 3, "OCH3"), (3.36, 2, "CH2")),
-    couplings=((0, 1, 8.6), (2, 3, 16.9), (2, 4, 10.1), (2, 6, 6.7), (3, 4, 1.9), (3, 6, -1.6),
-               (4, 6, -1.3)),
+    sites=(
+        (7.14, 2, "aryl"),
+        (6.87, 2, "aryl"),
+        (5.98, 1, "vinyl"),
+        (5.08, 1, "vinyl"),
+        (5.06, 1, "vinyl"),
+        (3.81, 3, "OCH3"),
+        (3.36, 2, "CH2"),
+    ),
+    couplings=((0, 1, 8.6), (2, 3, 16.9), (2, 4, 10.1), (2, 6, 6.7), (3, 4, 1.9), (3, 6, -1.6), (4, 6, -1.3)),
     source="estragole, CDCl3, measured centres from real_spectra/README.md; 2J/4J from memory",
-    regio="less substituted", pathways=("E2",),
+    regio="less substituted",
+    pathways=("E2",),
 )
 
 # 1-(4-Methoxyphenyl)propan-2-ol, CDCl3: 7.12 (d, 8.6, 2H), 6.86 (d, 8.6, 2H), 3.97 (m, 1H),
@@ -95,8 +127,15 @@ ESTRAGOLE = PublishedCompound(
 ANISYL_PROPANOL = PublishedCompound(
     name="1-(4-methoxyphenyl)propan-2-ol",
     smiles="CC(O)Cc1ccc(OC)cc1",
-    sites=((7.12, 2, "aryl"), (6.86, 2, "aryl"), (3.97, 1, "OCH"), (3.80, 3, "OCH3"),
-           (2.73, 1, "CH2"), (2.63, 1, "CH2"), (1.23, 3, "CH3")),
+    sites=(
+        (7.12, 2, "aryl"),
+        (6.86, 2, "aryl"),
+        (3.97, 1, "OCH"),
+        (3.80, 3, "OCH3"),
+        (2.73, 1, "CH2"),
+        (2.63, 1, "CH2"),
+        (1.23, 3, "CH3"),
+    ),
     couplings=((0, 1, 8.6), (2, 4, 4.8), (2, 5, 7.9), (2, 6, 6.2), (4, 5, -13.6)),
     source="1-(4-methoxyphenyl)-2-propanol, CDCl3, literature values (from memory)",
     pathways=("SN2",),
@@ -108,8 +147,15 @@ ANISYL_PROPANOL = PublishedCompound(
 ANISYL_BROMIDE = PublishedCompound(
     name="1-(2-bromopropyl)-4-methoxybenzene",
     smiles="CC(Br)Cc1ccc(OC)cc1",
-    sites=((7.12, 2, "aryl"), (6.86, 2, "aryl"), (4.22, 1, "CHBr"), (3.80, 3, "OCH3"),
-           (3.16, 1, "CH2"), (2.99, 1, "CH2"), (1.68, 3, "CH3")),
+    sites=(
+        (7.12, 2, "aryl"),
+        (6.86, 2, "aryl"),
+        (4.22, 1, "CHBr"),
+        (3.80, 3, "OCH3"),
+        (3.16, 1, "CH2"),
+        (2.99, 1, "CH2"),
+        (1.68, 3, "CH3"),
+    ),
     couplings=((0, 1, 8.6), (2, 4, 6.9), (2, 5, 7.4), (2, 6, 6.6), (4, 5, -14.1)),
     source="2-bromopropyl arene, CDCl3, literature values by analogy (from memory)",
     pathways=("starting material",),
@@ -124,11 +170,12 @@ ANISYL_BROMIDE = PublishedCompound(
 E_CROTONATE = PublishedCompound(
     name="ethyl (E)-crotonate",
     smiles="C/C=C/C(=O)OCC",
-    sites=((6.97, 1, "vinyl"), (5.84, 1, "vinyl"), (4.18, 2, "OCH2"), (1.87, 3, "CH3"),
-           (1.28, 3, "CH3")),
+    sites=((6.97, 1, "vinyl"), (5.84, 1, "vinyl"), (4.18, 2, "OCH2"), (1.87, 3, "CH3"), (1.28, 3, "CH3")),
     couplings=((0, 1, 15.6), (0, 3, 6.9), (1, 3, 1.7), (2, 4, 7.1)),
     source="ethyl trans-crotonate, CDCl3, literature values (from memory)",
-    geometry="E", regio="more substituted", pathways=("E1cB",),
+    geometry="E",
+    regio="more substituted",
+    pathways=("E1cB",),
 )
 
 # Ethyl (Z)-crotonate (ethyl isocrotonate), CDCl3: 6.36 (dq, 11.5, 7.3), 5.77 (dq, 11.5, 1.8),
@@ -136,11 +183,12 @@ E_CROTONATE = PublishedCompound(
 Z_CROTONATE = PublishedCompound(
     name="ethyl (Z)-crotonate",
     smiles="C/C=C\\C(=O)OCC",
-    sites=((6.36, 1, "vinyl"), (5.77, 1, "vinyl"), (4.16, 2, "OCH2"), (2.14, 3, "CH3"),
-           (1.28, 3, "CH3")),
+    sites=((6.36, 1, "vinyl"), (5.77, 1, "vinyl"), (4.16, 2, "OCH2"), (2.14, 3, "CH3"), (1.28, 3, "CH3")),
     couplings=((0, 1, 11.5), (0, 3, 7.3), (1, 3, 1.8), (2, 4, 7.1)),
     source="ethyl cis-crotonate, CDCl3, literature values (from memory)",
-    geometry="Z", regio="more substituted", pathways=("E1cB",),
+    geometry="Z",
+    regio="more substituted",
+    pathways=("E1cB",),
 )
 
 # Ethyl but-3-enoate, CDCl3: 5.92 (ddt, 17.2, 10.2, 6.9), 5.17 (dq, 17.2, 1.5), 5.14 (dq, 10.2,
@@ -148,12 +196,18 @@ Z_CROTONATE = PublishedCompound(
 BUTENOATE = PublishedCompound(
     name="ethyl but-3-enoate",
     smiles="C=CCC(=O)OCC",
-    sites=((5.92, 1, "vinyl"), (5.17, 1, "vinyl"), (5.14, 1, "vinyl"), (4.14, 2, "OCH2"),
-           (3.07, 2, "CH2"), (1.26, 3, "CH3")),
-    couplings=((0, 1, 17.2), (0, 2, 10.2), (0, 4, 6.9), (1, 2, 1.5), (1, 4, -1.5), (2, 4, -1.4),
-               (3, 5, 7.1)),
+    sites=(
+        (5.92, 1, "vinyl"),
+        (5.17, 1, "vinyl"),
+        (5.14, 1, "vinyl"),
+        (4.14, 2, "OCH2"),
+        (3.07, 2, "CH2"),
+        (1.26, 3, "CH3"),
+    ),
+    couplings=((0, 1, 17.2), (0, 2, 10.2), (0, 4, 6.9), (1, 2, 1.5), (1, 4, -1.5), (2, 4, -1.4), (3, 5, 7.1)),
     source="ethyl 3-butenoate, CDCl3, literature values (from memory)",
-    regio="less substituted", pathways=("E1cB",),
+    regio="less substituted",
+    pathways=("E1cB",),
 )
 
 # ---------------------------------------------------------------------------------------------
@@ -166,8 +220,15 @@ BUTENOATE = PublishedCompound(
 BUTYL_ACRYLATE = PublishedCompound(
     name="butyl acrylate",
     smiles="C=CC(=O)OCCCC",
-    sites=((6.39, 1, "vinyl"), (6.11, 1, "vinyl"), (5.80, 1, "vinyl"), (4.15, 2, "OCH2"),
-           (1.66, 2, "CH2"), (1.40, 2, "CH2"), (0.94, 3, "CH3")),
+    sites=(
+        (6.39, 1, "vinyl"),
+        (6.11, 1, "vinyl"),
+        (5.80, 1, "vinyl"),
+        (4.15, 2, "OCH2"),
+        (1.66, 2, "CH2"),
+        (1.40, 2, "CH2"),
+        (0.94, 3, "CH3"),
+    ),
     couplings=((0, 1, 17.3), (0, 2, 1.4), (1, 2, 10.4), (3, 4, 6.7), (4, 5, 7.4), (5, 6, 7.4)),
     source="butyl acrylate, CDCl3, measured centres from real_spectra/README.md",
 )
@@ -177,8 +238,7 @@ BUTYL_ACRYLATE = PublishedCompound(
 ASPIRIN = PublishedCompound(
     name="aspirin",
     smiles="CC(=O)Oc1ccccc1C(=O)O",
-    sites=((8.12, 1, "aryl"), (7.62, 1, "aryl"), (7.35, 1, "aryl"), (7.14, 1, "aryl"),
-           (2.36, 3, "CH3")),
+    sites=((8.12, 1, "aryl"), (7.62, 1, "aryl"), (7.35, 1, "aryl"), (7.14, 1, "aryl"), (2.36, 3, "CH3")),
     couplings=((0, 1, 1.7), (0, 2, 7.9), (1, 2, 7.6), (1, 3, 8.1), (2, 3, 1.1)),
     source="acetylsalicylic acid, CDCl3, real_spectra/README.md (from memory)",
 )
@@ -189,31 +249,31 @@ ASPIRIN = PublishedCompound(
 E_METHYLPENTENE = PublishedCompound(
     name="(E)-3-methylpent-2-ene",
     smiles="C/C=C(\\C)CC",
-    sites=((5.21, 1, "vinyl"), (1.57, 3, "CH3"), (1.60, 3, "CH3"), (2.01, 2, "CH2"),
-           (0.98, 3, "CH3")),
+    sites=((5.21, 1, "vinyl"), (1.57, 3, "CH3"), (1.60, 3, "CH3"), (2.01, 2, "CH2"), (0.98, 3, "CH3")),
     couplings=((0, 1, 6.7), (3, 4, 7.5), (0, 2, 1.3)),
     source="(E)-3-methyl-2-pentene, CDCl3, approximate literature values (from memory)",
-    geometry="E", pathways=("E2",),
+    geometry="E",
+    pathways=("E2",),
 )
 Z_METHYLPENTENE = PublishedCompound(
     name="(Z)-3-methylpent-2-ene",
     smiles="C/C=C(/C)CC",
-    sites=((5.13, 1, "vinyl"), (1.55, 3, "CH3"), (1.67, 3, "CH3"), (2.05, 2, "CH2"),
-           (0.96, 3, "CH3")),
+    sites=((5.13, 1, "vinyl"), (1.55, 3, "CH3"), (1.67, 3, "CH3"), (2.05, 2, "CH2"), (0.96, 3, "CH3")),
     couplings=((0, 1, 6.8), (3, 4, 7.5), (0, 2, 1.4)),
     source="(Z)-3-methyl-2-pentene, CDCl3, approximate literature values (from memory)",
-    geometry="Z", pathways=("E2",),
+    geometry="Z",
+    pathways=("E2",),
 )
 
 ANISYL_FAMILY = (E_ANETHOLE, Z_ANETHOLE, ESTRAGOLE, ANISYL_PROPANOL, ANISYL_BROMIDE)
 BUTENOATE_FAMILY = (E_CROTONATE, Z_CROTONATE, BUTENOATE)
-ALL_COMPOUNDS = ANISYL_FAMILY + BUTENOATE_FAMILY + (BUTYL_ACRYLATE, ASPIRIN, E_METHYLPENTENE,
-                                                   Z_METHYLPENTENE)
+ALL_COMPOUNDS = ANISYL_FAMILY + BUTENOATE_FAMILY + (BUTYL_ACRYLATE, ASPIRIN, E_METHYLPENTENE, Z_METHYLPENTENE)
 
 
 # ---------------------------------------------------------------------------------------------
 # Builders
 # ---------------------------------------------------------------------------------------------
+
 
 def coupling_matrix(compound: PublishedCompound) -> np.ndarray:
     """Symmetric site coupling matrix (Hz) of a published compound."""
@@ -224,8 +284,13 @@ def coupling_matrix(compound: PublishedCompound) -> np.ndarray:
     return j
 
 
-def published_system(compound: PublishedCompound, *, shift_sd_ppm: float = 0.05,
-                     shift_offsets_ppm=None, j_offsets_hz: float = 0.0) -> SpinSystem:
+def published_system(
+    compound: PublishedCompound,
+    *,
+    shift_sd_ppm: float = 0.05,
+    shift_offsets_ppm=None,
+    j_offsets_hz: float = 0.0,
+) -> SpinSystem:
     """SpinSystem of a published compound (atom indices are placeholders 0..n_H-1).
 
     ``shift_offsets_ppm`` (per site) and ``j_offsets_hz`` (added to every non-zero coupling)
@@ -234,19 +299,29 @@ def published_system(compound: PublishedCompound, *, shift_sd_ppm: float = 0.05,
     offsets = np.zeros(len(compound.sites)) if shift_offsets_ppm is None else np.asarray(shift_offsets_ppm)
     sites, start = [], 0
     for (shift, n_h, label), off in zip(compound.sites, offsets, strict=True):
-        sites.append(ProtonSite(atoms=tuple(range(start, start + n_h)), shift_ppm=shift + off,
-                                shift_sd_ppm=shift_sd_ppm, label=label))
+        sites.append(
+            ProtonSite(
+                atoms=tuple(range(start, start + n_h)),
+                shift_ppm=shift + off,
+                shift_sd_ppm=shift_sd_ppm,
+                label=label,
+            )
+        )
         start += n_h
     j = coupling_matrix(compound)
     j = np.where(j != 0, j + np.sign(j) * j_offsets_hz, 0.0)
-    return SpinSystem(smiles=compound.smiles, sites=tuple(sites), j_hz=j,
-                      j_sd_hz=np.where(j != 0, 0.7, 0.0))
+    return SpinSystem(smiles=compound.smiles, sites=tuple(sites), j_hz=j, j_sd_hz=np.where(j != 0, 0.7, 0.0))
 
 
 def published_candidate(compound: PublishedCompound) -> Candidate:
     """Candidate for a published compound, with its geometry, regio and pathway labels."""
-    return Candidate(smiles=compound.smiles, pathways=compound.pathways, label=compound.name,
-                     geometry=compound.geometry, regio=compound.regio)
+    return Candidate(
+        smiles=compound.smiles,
+        pathways=compound.pathways,
+        label=compound.name,
+        geometry=compound.geometry,
+        regio=compound.regio,
+    )
 
 
 def mixture_lines(mixture, *, field_mhz: float, solvent_lines: bool = True):
@@ -265,8 +340,12 @@ def mixture_lines(mixture, *, field_mhz: float, solvent_lines: bool = True):
 
     ppm, inten = [], []
     for compound, amount in mixture:
-        lines = simulate_arrays([s[0] for s in compound.sites], coupling_matrix(compound),
-                                [s[1] for s in compound.sites], field_mhz=field_mhz)
+        lines = simulate_arrays(
+            [s[0] for s in compound.sites],
+            coupling_matrix(compound),
+            [s[1] for s in compound.sites],
+            field_mhz=field_mhz,
+        )
         labels = np.array([compound.sites[i][2] for i in lines.site_index])
         half = np.array([J_CH_HZ.get(lab, 130.0) for lab in labels]) / 2.0 / field_mhz
         base_ppm, base_i = np.asarray(lines.ppm), np.asarray(lines.intensity) * amount
@@ -276,8 +355,11 @@ def mixture_lines(mixture, *, field_mhz: float, solvent_lines: bool = True):
     widths = np.full(ppm.size, 0.0)
     if solvent_lines:
         total = sum(amount * c.n_h for c, amount in mixture)
-        extra = [(7.26, 0.02 * total, 0.0, 209.0), (1.56, 0.03 * total, 3.0, 0.0),
-                 (0.00, 0.01 * total, 0.0, 118.0)]
+        extra = [
+            (7.26, 0.02 * total, 0.0, 209.0),
+            (1.56, 0.03 * total, 3.0, 0.0),
+            (0.00, 0.01 * total, 0.0, 118.0),
+        ]
         for shift, area, extra_width, j_ch in extra:
             sat = SATELLITE_SHARE if j_ch else 0.0
             ppm = np.concatenate([ppm, [shift, shift + j_ch / 2 / field_mhz, shift - j_ch / 2 / field_mhz]])
@@ -286,10 +368,21 @@ def mixture_lines(mixture, *, field_mhz: float, solvent_lines: bool = True):
     return ppm, inten, widths
 
 
-def synthesize_fid(mixture, *, field_mhz: float, sw_hz: float, n_points: int, carrier_ppm: float = 5.0,
-                   line_width_hz: float = 1.0, snr: float = 300.0, phase_deg: float = 0.0,
-                   group_delay_points: float = 0.0, baseline_roll: float = 0.0, seed: int = 0,
-                   solvent_lines: bool = True) -> np.ndarray:
+def synthesize_fid(
+    mixture,
+    *,
+    field_mhz: float,
+    sw_hz: float,
+    n_points: int,
+    carrier_ppm: float = 5.0,
+    line_width_hz: float = 1.0,
+    snr: float = 300.0,
+    phase_deg: float = 0.0,
+    group_delay_points: float = 0.0,
+    baseline_roll: float = 0.0,
+    seed: int = 0,
+    solvent_lines: bool = True,
+) -> np.ndarray:
     """Complex FID of a mixture, as a spectrometer with a digital filter would record it.
 
     The signal is a sum of exponentially decaying complex lines (Lorentzian of FWHM
@@ -304,7 +397,9 @@ def synthesize_fid(mixture, *, field_mhz: float, sw_hz: float, n_points: int, ca
     keep = np.abs(freq_hz) < sw_hz / 2
     t = np.arange(n_points) / sw_hz
     decay = np.pi * (line_width_hz + extra_w[keep])
-    fid = (inten[keep, None] * np.exp((2j * np.pi * freq_hz[keep, None] - decay[:, None]) * t[None, :])).sum(0)
+    fid = (inten[keep, None] * np.exp((2j * np.pi * freq_hz[keep, None] - decay[:, None]) * t[None, :])).sum(
+        0
+    )
     fid *= np.exp(1j * np.deg2rad(phase_deg))
     fid[0] *= 0.5  # the first point of a sampled FID carries half weight in the discrete transform
     peak = np.abs(np.fft.fft(fid)).max()

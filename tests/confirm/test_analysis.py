@@ -20,8 +20,9 @@ from tests.confirm.test_fitting import render_mixture
 def test_analyze_spectrum_with_published_systems():
     spectrum = render_mixture(((E_CROTONATE, 0.75), (Z_CROTONATE, 0.25)), field_mhz=400.0, n=16384, seed=2)
     cands = [published_candidate(E_CROTONATE), published_candidate(Z_CROTONATE)]
-    result = analyze_spectrum(spectrum, cands, systems=[published_system(E_CROTONATE),
-                                                        published_system(Z_CROTONATE)])
+    result = analyze_spectrum(
+        spectrum, cands, systems=[published_system(E_CROTONATE), published_system(Z_CROTONATE)]
+    )
     assert result.verdict.major == cands[0].smiles
     data = result.to_json()
     assert {"components", "ratios", "verdict", "warnings", "inputs", "version"} <= set(data)
@@ -30,10 +31,14 @@ def test_analyze_spectrum_with_published_systems():
 
 def test_peak_list_gives_the_same_verdict(tmp_path):
     """Peak list of a 70:30 E/Z crotonate mixture (lines from published data) -> same major, wider sd."""
-    ppm, inten, _ = mixture_lines(((E_CROTONATE, 0.7), (Z_CROTONATE, 0.3)), field_mhz=400.0, solvent_lines=False)
+    ppm, inten, _ = mixture_lines(
+        ((E_CROTONATE, 0.7), (Z_CROTONATE, 0.3)), field_mhz=400.0, solvent_lines=False
+    )
     keep = inten > 0.01
     path = tmp_path / "peaks.csv"
-    rows = "\n".join(f"{p:.5f},{i:.6f}" for p, i in sorted(zip(ppm[keep], inten[keep], strict=True), reverse=True))
+    rows = "\n".join(
+        f"{p:.5f},{i:.6f}" for p, i in sorted(zip(ppm[keep], inten[keep], strict=True), reverse=True)
+    )
     path.write_text("ppm,integral\n" + rows + "\n")
     result = analyze_path(path, candidates=[E_CROTONATE.smiles, Z_CROTONATE.smiles], field_mhz=400.0)
     assert result.verdict.major == published_candidate(E_CROTONATE).smiles

@@ -18,7 +18,9 @@ ANETHOLES = ["C/C=C/c1ccc(OC)cc1", "C/C=C\\c1ccc(OC)cc1", "C=CCc1ccc(OC)cc1"]
 def test_analyze_raw_fid_json(run_cli, tmp_path):
     fid_dir = sample_files()[0]
     report = tmp_path / "out.html"
-    result = run_cli("analyze", "--spectrum", fid_dir, "--candidates", *ANETHOLES, "--json", "--report", report)
+    result = run_cli(
+        "analyze", "--spectrum", fid_dir, "--candidates", *ANETHOLES, "--json", "--report", report
+    )
     assert result.exit_code == 0, result.stderr
     data = json.loads(result.stdout)
     assert [c["smiles"] for c in data["components"]] == ANETHOLES
@@ -37,11 +39,14 @@ def test_analyze_text_output_has_verdict_table_and_caution(run_cli):
     assert "does not replace" in result.stdout
 
 
-@pytest.mark.parametrize("args, message", [
-    (["--candidates", "C1CC"], "C1CC"),
-    ([], "no candidate"),
-    (["--candidates", "C=C", "--substrate", "CCBr", "--reagent", "ethoxide"], "not both"),
-])
+@pytest.mark.parametrize(
+    "args, message",
+    [
+        (["--candidates", "C1CC"], "C1CC"),
+        ([], "no candidate"),
+        (["--candidates", "C=C", "--substrate", "CCBr", "--reagent", "ethoxide"], "not both"),
+    ],
+)
 def test_bad_candidates_exit_2(run_cli, args, message):
     result = run_cli("analyze", "--spectrum", sample_files()[0], *args)
     assert result.exit_code == 2
@@ -52,8 +57,16 @@ def test_bad_candidates_exit_2(run_cli, args, message):
 def test_wrong_nucleus_exit_2(run_cli, tmp_path):
     ppm = np.linspace(200, 0, 4096)
     path = tmp_path / "carbon.jdx"
-    write_jcamp_spectrum(Spectrum(ppm=ppm, intensity=np.exp(-((ppm - 77) / 0.1) ** 2), field_mhz=100.6,
-                                  nucleus="13C", solvent="CDCl3"), path)
+    write_jcamp_spectrum(
+        Spectrum(
+            ppm=ppm,
+            intensity=np.exp(-(((ppm - 77) / 0.1) ** 2)),
+            field_mhz=100.6,
+            nucleus="13C",
+            solvent="CDCl3",
+        ),
+        path,
+    )
     result = run_cli("analyze", "--spectrum", path, "--candidates", "C=C")
     assert result.exit_code == 2
     assert "nucleus" in result.stderr and "Traceback" not in result.stderr

@@ -27,5 +27,7 @@ def test_demo_json_and_out_dir(run_cli, tmp_path):
     assert res400["verdict"]["major"] == E_ANETHOLE
     e = [c for c in res400["components"] if c["smiles"] == E_ANETHOLE][0]
     assert e["detected"] and abs(e["mole_fraction"] - 0.56) < 0.05
-    assert sorted(p.name for p in tmp_path.glob("*.json")) == ["anisyl_elimination_400mhz.json",
-                                                                 "anisyl_elimination_60mhz.json"]
+    assert sorted(p.name for p in tmp_path.glob("*.json")) == [
+        "anisyl_elimination_400mhz.json",
+        "anisyl_elimination_60mhz.json",
+    ]

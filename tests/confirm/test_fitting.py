@@ -27,8 +27,13 @@ from tests.confirm.published_spectra import (
     published_system,
 )
 
-ANISYL_MIX = ((E_ANETHOLE, 0.55), (Z_ANETHOLE, 0.15), (ESTRAGOLE, 0.12), (ANISYL_PROPANOL, 0.08),
-              (ANISYL_BROMIDE, 0.10))
+ANISYL_MIX = (
+    (E_ANETHOLE, 0.55),
+    (Z_ANETHOLE, 0.15),
+    (ESTRAGOLE, 0.12),
+    (ANISYL_PROPANOL, 0.08),
+    (ANISYL_BROMIDE, 0.10),
+)
 
 
 def render_mixture(mixture, *, field_mhz, n=32768, line_width_hz=1.0, snr=300.0, roll=0.0, seed=0):
@@ -52,7 +57,7 @@ def fit_published(spectrum, compounds, **kw):
 
 def truth_fractions(mixture, compounds):
     total = sum(a for _, a in mixture)
-    amounts = dict((c.name, a / total) for c, a in mixture)
+    amounts = {c.name: a / total for c, a in mixture}
     return np.array([amounts.get(c.name, 0.0) for c in compounds])
 
 
@@ -76,8 +81,10 @@ def test_crotonate_e_z_at_400mhz_with_shifted_start():
     mix = ((E_CROTONATE, 0.7), (Z_CROTONATE, 0.3))
     spectrum = render_mixture(mix, field_mhz=400.0, n=16384, snr=500.0, seed=5)
     offsets = [0.04, -0.03, 0.03, -0.05, 0.02]
-    systems = [published_system(E_CROTONATE, shift_sd_ppm=0.06, shift_offsets_ppm=offsets),
-               published_system(Z_CROTONATE, shift_sd_ppm=0.06, shift_offsets_ppm=offsets[::-1])]
+    systems = [
+        published_system(E_CROTONATE, shift_sd_ppm=0.06, shift_offsets_ppm=offsets),
+        published_system(Z_CROTONATE, shift_sd_ppm=0.06, shift_offsets_ppm=offsets[::-1]),
+    ]
     fit = fit_mixture(spectrum, systems, [published_candidate(E_CROTONATE), published_candidate(Z_CROTONATE)])
     e, z = fit.components
     assert e.detected and z.detected

@@ -22,14 +22,34 @@ from tests.confirm.published_spectra import (
 def make_fit(compounds, fractions, detected, sd=0.01, evidence=None):
     comps = []
     for i, (c, x, d) in enumerate(zip(compounds, fractions, detected, strict=True)):
-        ev = evidence[i] if evidence else (
-            "vinyl (1H) observed at 6.000 ppm (predicted 6.00 +- 0.10); 40 sigma, shape match 0.95, overlap 5%",)
-        comps.append(ComponentFit(candidate=published_candidate(c), mole_fraction=x, mole_fraction_sd=sd,
-                                  detection_limit=0.01, detected=d, evidence=ev))
-    cov = np.diag([sd ** 2 if d else 0.0 for d in detected])
-    return MixtureFit(components=comps, ppm=np.array([1.0, 0.0]), model=np.zeros(2), residual=np.zeros(2),
-                      line_width_hz=1.0, quality={"explained_fraction": 0.97, "unexplained_share": 0.0},
-                      fraction_covariance=cov)
+        ev = (
+            evidence[i]
+            if evidence
+            else (
+                "vinyl (1H) observed at 6.000 ppm (predicted 6.00 +- 0.10); 40 sigma, shape match 0.95, "
+                "overlap 5%",
+            )
+        )
+        comps.append(
+            ComponentFit(
+                candidate=published_candidate(c),
+                mole_fraction=x,
+                mole_fraction_sd=sd,
+                detection_limit=0.01,
+                detected=d,
+                evidence=ev,
+            )
+        )
+    cov = np.diag([sd**2 if d else 0.0 for d in detected])
+    return MixtureFit(
+        components=comps,
+        ppm=np.array([1.0, 0.0]),
+        model=np.zeros(2),
+        residual=np.zeros(2),
+        line_width_hz=1.0,
+        quality={"explained_fraction": 0.97, "unexplained_share": 0.0},
+        fraction_covariance=cov,
+    )
 
 
 def test_alkene_facts_geometry_and_vicinal_coupling():
@@ -52,7 +72,7 @@ def test_major_ratios_and_starting_material():
     ratios = {r.name: r for r in verdict.ratios}
     assert ratios["E:Z"].share == pytest.approx(0.75)
     # share = E/(E+Z) with independent sd 0.01: sd = sqrt((Z^2 + E^2) * 0.01^2) / (E+Z)^2
-    assert ratios["E:Z"].share_sd == pytest.approx(np.sqrt(0.2 ** 2 + 0.6 ** 2) * 0.01 / 0.8 ** 2)
+    assert ratios["E:Z"].share_sd == pytest.approx(np.sqrt(0.2**2 + 0.6**2) * 0.01 / 0.8**2)
     assert ratios["regioisomers"].share == pytest.approx(0.8 / 0.9)
     assert ratios["starting material left"].share == pytest.approx(0.1)
     assert verdict.confidence == "high"
@@ -62,7 +82,9 @@ def test_major_ratios_and_starting_material():
 def test_undetected_candidate_is_never_claimed():
     compounds = [E_ANETHOLE, Z_ANETHOLE]
     fit = make_fit(compounds, [0.9, 0.1], [False, True])
-    verdict = decide(fit, [published_system(c) for c in compounds], [published_candidate(c) for c in compounds])
+    verdict = decide(
+        fit, [published_system(c) for c in compounds], [published_candidate(c) for c in compounds]
+    )
     assert verdict.major == published_candidate(Z_ANETHOLE).smiles
     assert published_candidate(E_ANETHOLE).smiles not in verdict.identified
 
@@ -70,14 +92,18 @@ def test_undetected_candidate_is_never_claimed():
 def test_nothing_detected_is_undecided():
     compounds = [E_ANETHOLE, Z_ANETHOLE]
     fit = make_fit(compounds, [0.5, 0.5], [False, False])
-    verdict = decide(fit, [published_system(c) for c in compounds], [published_candidate(c) for c in compounds])
+    verdict = decide(
+        fit, [published_system(c) for c in compounds], [published_candidate(c) for c in compounds]
+    )
     assert verdict.major is None and verdict.confidence == "undecided"
 
 
 def test_trisubstituted_pair_is_undecided_and_names_noe():
     compounds = [E_METHYLPENTENE, Z_METHYLPENTENE]
     fit = make_fit(compounds, [0.7, 0.3], [True, True])
-    verdict = decide(fit, [published_system(c) for c in compounds], [published_candidate(c) for c in compounds])
+    verdict = decide(
+        fit, [published_system(c) for c in compounds], [published_candidate(c) for c in compounds]
+    )
     ez = [r for r in verdict.ratios if r.name.startswith("E:Z")][0]
     assert not ez.decided
     assert verdict.confidence != "high"
@@ -85,10 +111,13 @@ def test_trisubstituted_pair_is_undecided_and_names_noe():
 
 
 def test_overlapped_vinyl_signals_leave_e_z_undecided():
-    overlapped = ("vinyl (1H) observed at 6.000 ppm (predicted 6.00 +- 0.10); 40 sigma, shape match 0.95, "
-                  "overlap 80%",)
+    overlapped = (
+        "vinyl (1H) observed at 6.000 ppm (predicted 6.00 +- 0.10); 40 sigma, shape match 0.95, overlap 80%",
+    )
     compounds = [E_ANETHOLE, Z_ANETHOLE]
     fit = make_fit(compounds, [0.6, 0.4], [True, True], evidence=[overlapped, overlapped])
-    verdict = decide(fit, [published_system(c) for c in compounds], [published_candidate(c) for c in compounds])
+    verdict = decide(
+        fit, [published_system(c) for c in compounds], [published_candidate(c) for c in compounds]
+    )
     assert not [r for r in verdict.ratios if r.name == "E:Z"][0].decided
     assert any("higher field" in s for s in verdict.next_steps)
