@@ -480,8 +480,23 @@ def _parameters_section(result) -> str:
     fit = result.fit
     rows = [("line width (fitted)", f"{fit.line_width_hz:.3g} Hz")]
     rows += [(f"fit quality: {k}", _fmt(v)) for k, v in fit.quality.items()]
-    rows += [(str(k), _fmt(v)) for k, v in result.parameters.items()]
+    rows += [(f"analysis: {k}", _fmt(v)) for k, v in result.parameters.items()]
+    metadata = result.spectrum.metadata if result.spectrum is not None else {}
+    for group in ("processing", "acquisition"):
+        rows += [(f"{group}: {k}", _fmt(v)) for k, v in _flatten(metadata.get(group, {}))
+                 if v is not None]
     return _table(("parameter", "value"), rows)
+
+
+def _flatten(record, prefix: str = ""):
+    """(key, value) pairs of a nested mapping, keys joined with dots."""
+    if not hasattr(record, "items"):
+        return []
+    pairs = []
+    for key, value in record.items():
+        name = f"{prefix}{key}"
+        pairs += _flatten(value, f"{name}.") if hasattr(value, "items") else [(name, value)]
+    return pairs
 
 
 def _fmt(value) -> str:

@@ -123,7 +123,9 @@ def build_result(parts: list[Part], *, major: str | None, confidence: str = "hig
                      line_width_hz=2.0, quality={"snr": snr, "r_squared": 0.995, "noise_sd": noise_sd},
                      fraction_covariance=covariance, unexplained_ppm=unexplained_ppm)
     spectrum = Spectrum(ppm=ppm, intensity=measured, field_mhz=field_mhz, solvent="CDCl3",
-                        metadata={"source": source})
+                        metadata={"source": source,
+                                  "processing": {"options": {"lb_hz": 0.3, "phasing": "entropy"}},
+                                  "acquisition": {"field_mhz": field_mhz, "n_scans": 16}})
     ratios = ()
     by = {c.candidate.smiles: c for c in components}
     if E_PENTENE in by and Z_PENTENE in by:

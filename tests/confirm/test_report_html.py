@@ -110,6 +110,8 @@ def test_report_lists_inputs_candidates_and_versions(report_text, mixture):
     for name in ("rdkit", "numpy", "matplotlib", "confirm"):
         assert f"<td>{name}</td>" in report_text
     assert "lb_hz" in report_text and "E:Z pent-2-ene" in report_text
+    assert "<td>processing: options.phasing</td><td>entropy</td>" in report_text
+    assert "<td>acquisition: n_scans</td><td>16</td>" in report_text
 
 
 @pytest.fixture(scope="module")
