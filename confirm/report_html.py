@@ -58,7 +58,7 @@ class CandidateCurves:
         Model of one molecule's worth of each candidate (integrates to its
         proton count), times the common intensity scale.
     fitted : ndarray, shape (n_candidates, n)
-        ``per_molecule`` times each candidate's fitted mole fraction.
+        ``per_molecule`` times each candidate's fitted mole fraction (zero when not detected).
     labels : tuple of str
     """
 
@@ -96,7 +96,8 @@ def candidate_curves(result) -> CandidateCurves:
         model_spectrum(_refined_system(system, comp), fit.ppm, field_mhz=field_mhz, line_width_hz=width)
         for system, comp in zip(result.spin_systems, fit.components, strict=True)
     ]).reshape(len(fit.components), fit.ppm.size)
-    fractions = np.array([max(c.mole_fraction, 0.0) for c in fit.components])
+    # fractions are normalised over the detected components; an undetected one contributes nothing
+    fractions = np.array([max(c.mole_fraction, 0.0) if c.detected else 0.0 for c in fit.components])
     mixture = fractions @ raw if raw.size else np.zeros_like(fit.ppm)
     design = np.column_stack([mixture, np.ones_like(mixture)])
     scale = float(np.linalg.lstsq(design, fit.model, rcond=None)[0][0]) if np.any(mixture) else 0.0
