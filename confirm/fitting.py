@@ -639,7 +639,8 @@ def _best_fixed_amount(grid, resid, unit, amount, centre, window, prior_sd, nois
     return float(centre + moves[int(np.argmax(score))])
 
 
-def _sweep_sites(grid, models, state, shifts, lw_ppm, basis, *, n_sweeps: int = 3, amounts=None):
+def _sweep_sites(grid, models, state, shifts, lw_ppm, basis, *, n_sweeps: int = 3, amounts=None,
+                 swaps: bool = True):
     """Coordinate descent on site shifts: each site, together with its candidate's amount,
     jumps to its least-squares best position within the site's window.
 
@@ -679,7 +680,7 @@ def _sweep_sites(grid, models, state, shifts, lw_ppm, basis, *, n_sweeps: int = 
                 resid = r_k - new_amount * (rest + shifted) * w
                 per_site[offsets[k] + s] = shifted
                 shifts[k][s], amounts[k] = new_shift, new_amount
-        swapped = _swap_sites(grid, models, state, shifts, lw_ppm, basis)
+        swapped = swaps and _swap_sites(grid, models, state, shifts, lw_ppm, basis)
         if moved < 0.5 * grid.dx_ppm and sweep > 0 and not swapped:
             break
     return shifts
