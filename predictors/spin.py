@@ -28,6 +28,7 @@ this is reported in :attr:`LineList.warnings`.
 
 from __future__ import annotations
 
+import functools
 import itertools
 import math
 from dataclasses import dataclass
@@ -53,21 +54,29 @@ __all__ = [
 LINE_SHAPES = ("lorentzian", "gaussian", "voigt")
 #: Spectrometer frequencies the simulator accepts (1H, MHz).
 FIELD_RANGE_MHZ = (40.0, 1200.0)
-_MERGE_TOL_HZ = 1e-4
+_MERGE_TOL_HZ = 1e-4  # lines of one site this close are one line (centroid)
 _DROP_FRACTION = 1e-6
 _DROP_TOTAL = 1e-5
 _MAX_SPINS_ALLOWED = 14
 _POOL_STEP = 0.01  # lines closer than this many line widths are drawn as one
 _DIRECT_LIMIT = 2_000_000  # lines x points above which uniform grids are drawn by FFT
-# Largest (number of neighbour spin states) x 2**(cluster protons) handled by
-# re-diagonalising the cluster per neighbour state; beyond it, neighbours are
-# applied as first-order splittings of the finished lines.
-_NEIGHBOUR_STATE_BUDGET = 2**12
-_MAX_NEIGHBOUR_STATES = 256
+# Neighbour states handled by re-diagonalising the cluster once per state (batched):
+# at most this many, and (states x cluster cost) below the budget; beyond it,
+# neighbours are applied as first-order splittings of the finished lines.
+_NEIGHBOUR_COST_BUDGET = 4e6
+_MAX_NEIGHBOUR_STATES = 4096
+_BATCH_ELEMENTS = 1_000_000  # states x block size^2 diagonalised in one stacked call
+# Weak couplings (|J / dnu| above the first value) still join clusters while the
+# joined cluster costs at most the second (sum of block sizes cubed; 8 distinct
+# protons cost 7.4e5, 9 cost 5.3e6).
+_WEAK_JOIN_RATIO = 2e-3
+_WEAK_JOIN_COST = 1e6
+# Cut couplings with |J / dnu| above this get no second-order correction.
+_PERTURB_LIMIT = 0.25
 # Neighbours applied as splittings of finished lines: at most this many state
 # offsets each, and split lines of one site closer than this are pooled.
-_MAX_SPLIT_STATES = 32
-_SPLIT_POOL_HZ = 0.002
+_MAX_SPLIT_STATES = 16
+_SPLIT_POOL_HZ = 0.005
 
 
 @dataclass(frozen=True)
@@ -157,10 +166,26 @@ def _check_options(max_cluster_spins, cluster_ratio) -> tuple[int, float]:
 # clusters
 
 
-def _coupling_strength(nu_hz: np.ndarray, j: np.ndarray) -> np.ndarray:
+def _coupling_strength(nu_hz: np.ndarray, j: np.ndarray, ratio: float) -> np.ndarray:
+    """``|J| / |delta nu|`` of every coupled pair, raised where a cut would mislead.
+
+    Besides the direct ratio, a coupling of g to h is as strong as
+    ``|J_gh - J_gh'| / sqrt(dnu_hh'^2 + J_hh'^2)`` for every h' strongly
+    coupled to h: the state of g then changes how h and h' mix (the ABX
+    case), which no treatment across a cut reproduces.
+    """
     dnu = np.abs(nu_hz[:, None] - nu_hz[None, :])
     with np.errstate(divide="ignore", invalid="ignore"):
-        strength = np.where(j != 0, np.abs(j) / np.maximum(dnu, 1e-300), 0.0)
+        direct = np.where(j != 0, np.abs(j) / np.maximum(dnu, 1e-300), 0.0)
+    strength = direct.copy()
+    mixing = np.hypot(dnu, j)
+    for h, h2 in zip(*np.nonzero(np.triu(direct > ratio, 1)), strict=True):
+        indirect = np.abs(j[:, h] - j[:, h2]) / max(mixing[h, h2], 1e-300)
+        indirect[[h, h2]] = 0.0
+        for a in (h, h2):
+            raised = np.where(j[:, a] != 0, indirect, 0.0)
+            strength[:, a] = np.maximum(strength[:, a], raised)
+            strength[a, :] = np.maximum(strength[a, :], raised)
     return strength
 
 
@@ -171,24 +196,47 @@ def _find_root(parent: list[int], i: int) -> int:
     return i
 
 
+def _cluster_cost(n_protons: tuple[int, ...]) -> float:
+    """Work of diagonalising a cluster of equivalent groups: sum of block sizes cubed."""
+    return _sorted_cluster_cost(tuple(sorted(int(x) for x in n_protons)))
+
+
+@functools.lru_cache(maxsize=1024)
+def _sorted_cluster_cost(n_sorted: tuple[int, ...]) -> float:
+    cost = 0.0
+    for combo in itertools.product(*[_group_spins(n) for n in n_sorted]):
+        sizes = np.ones(1)
+        for spin, _ in combo:
+            sizes = np.convolve(sizes, np.ones(int(round(2 * spin)) + 1))
+        cost += float(np.sum(sizes**3))
+    return cost
+
+
 def _plan(nu_hz, j, n, max_spins, ratio) -> ClusterPlan:
-    strength = _coupling_strength(nu_hz, j)
+    strength = _coupling_strength(nu_hz, j, ratio)
     n_sites = len(n)
-    pairs = [(a, b) for a in range(n_sites) for b in range(a + 1, n_sites) if strength[a, b] > ratio]
+    pairs = [(a, b) for a in range(n_sites) for b in range(a + 1, n_sites) if strength[a, b] > 0]
     # strongest first; ties broken by values, not by the order the sites were given in
     pairs.sort(key=lambda p: (-strength[p], -abs(j[p]), sorted((nu_hz[p[0]], nu_hz[p[1]])), p))
     parent = list(range(n_sites))
-    size = [int(x) for x in n]
+    members = {i: [i] for i in range(n_sites)}
     for a, b in pairs:
         ra, rb = _find_root(parent, a), _find_root(parent, b)
-        if ra != rb and size[ra] + size[rb] <= max_spins:
+        if ra == rb:
+            continue
+        joined = members[ra] + members[rb]
+        size = int(n[joined].sum())
+        strong = strength[a, b] > ratio
+        # weak couplings join only while the exact cluster stays cheap (it is then exact, not second order)
+        if size <= max_spins and (strong or (strength[a, b] > _WEAK_JOIN_RATIO
+                                             and _cluster_cost(tuple(n[joined])) <= _WEAK_JOIN_COST)):
             parent[rb] = ra
-            size[ra] += size[rb]
+            members[ra] = joined
     roots = [_find_root(parent, i) for i in range(n_sites)]
     clusters: dict[int, list[int]] = {}
     for i, r in enumerate(roots):
         clusters.setdefault(r, []).append(i)
-    cut = tuple((a, b) for a, b in pairs if roots[a] != roots[b])
+    cut = tuple((a, b) for a, b in pairs if roots[a] != roots[b] and strength[a, b] > ratio)
     messages = tuple(
         f"strong coupling between sites {a} and {b} (J={j[a, b]:.2f} Hz, shift difference "
         f"{abs(nu_hz[a] - nu_hz[b]):.2f} Hz) treated first order: cluster would exceed "
@@ -201,6 +249,13 @@ def _plan(nu_hz, j, n, max_spins, ratio) -> ClusterPlan:
 def plan_clusters(shifts_ppm, j_hz, n_protons, *, field_mhz: float, max_cluster_spins: int = 12,
                   cluster_ratio: float = 0.05) -> ClusterPlan:
     """Cut a spin system into clusters that are simulated exactly.
+
+    Couplings join sites strongest first (by ``|J| / |delta nu|``). A strong
+    coupling (``|J| > cluster_ratio * |delta nu|``) joins two clusters while
+    the result has at most ``max_cluster_spins`` protons; a weaker one joins
+    them only while the joined cluster is also cheap to diagonalise (about
+    eight distinct protons, more for equivalent groups), since a cut weak
+    coupling is handled to second order anyway.
 
     Parameters
     ----------
@@ -250,10 +305,11 @@ class _Block:
 @dataclass(frozen=True)
 class _Subsystem:
     sites: np.ndarray      # local cluster site of each composite spin (I > 0)
+    spin_sq: np.ndarray    # I (I + 1) of each composite spin
     pairs: np.ndarray      # (n_pairs, 2) composite-spin pairs
     weight: float          # multiplicity of this combination of total spins
     blocks: tuple[_Block, ...]   # M descending
-    lowering: tuple[np.ndarray, ...]   # F- from block b to block b+1, shape (n_{b+1}, n_b)
+    lowering: tuple[np.ndarray, ...]   # F-_g from block b to b+1, shape (G, n_{b+1}, n_b)
 
 
 def _build_subsystem(spins: np.ndarray, sites: np.ndarray, weight: float) -> _Subsystem:
@@ -274,7 +330,7 @@ def _build_subsystem(spins: np.ndarray, sites: np.ndarray, weight: float) -> _Su
     mm = m[:, pairs[:, 0]] * m[:, pairs[:, 1]]
     blocks = tuple(_Block(m[idx], mm[idx], *flips[b]) for b, idx in enumerate(members))
     lowering = _lowering_ops(m, k, dims, strides, spins, block_of, pos_of, sizes)
-    return _Subsystem(sites, pairs, weight, blocks, lowering)
+    return _Subsystem(sites, spins * (spins + 1), pairs, weight, blocks, lowering)
 
 
 def _raise_coef(spin, m):
@@ -307,20 +363,26 @@ def _split_by_block(flips, block_of, pos_of, n_blocks):
 
 
 def _lowering_ops(m, k, dims, strides, spins, block_of, pos_of, sizes):
-    """Dense F- from each block to the next (one lower M), shape (n_lower, n_upper)."""
-    ops = [np.zeros((sizes[b + 1], sizes[b])) for b in range(len(sizes) - 1)]
+    """Dense F-_g of every composite spin g from each block to the next, shape (G, n_lower, n_upper)."""
+    ops = [np.zeros((len(dims), sizes[b + 1], sizes[b])) for b in range(len(sizes) - 1)]
     for g in range(len(dims)):
         s = np.flatnonzero(k[:, g] < dims[g] - 1)
         vals = _lower_coef(spins[g], m[s, g])
         blk = block_of[s]
         for b in range(len(ops)):
             sel = blk == b
-            ops[b][pos_of[s[sel] + strides[g]], pos_of[s[sel]]] = vals[sel]
+            ops[b][g, pos_of[s[sel] + strides[g]], pos_of[s[sel]]] = vals[sel]
     return tuple(ops)
 
 
-def _build_cluster(n_local: np.ndarray) -> list[_Subsystem]:
-    options = [_group_spins(int(n)) for n in n_local]
+def _build_cluster(n_local: np.ndarray) -> tuple[_Subsystem, ...]:
+    return _build_cluster_cached(tuple(int(x) for x in n_local))
+
+
+@functools.lru_cache(maxsize=64)
+def _build_cluster_cached(n_local: tuple[int, ...]) -> tuple[_Subsystem, ...]:
+    """Composite-spin bases of a cluster; a pure function of the proton counts (arrays read-only)."""
+    options = [_group_spins(n) for n in n_local]
     subsystems = []
     for combo in itertools.product(*options):
         spins = np.array([s for s, _ in combo])
@@ -328,73 +390,169 @@ def _build_cluster(n_local: np.ndarray) -> list[_Subsystem]:
         active = np.flatnonzero(spins > 0)
         if active.size:
             subsystems.append(_build_subsystem(spins[active], active, weight))
-    return subsystems
+    for sub in subsystems:
+        for arr in _arrays_of(sub):
+            arr.flags.writeable = False
+    return tuple(subsystems)
+
+
+def _arrays_of(sub: _Subsystem):
+    yield from (sub.sites, sub.spin_sq, sub.pairs, *sub.lowering)
+    for block in sub.blocks:
+        yield from (block.m, block.mm, block.rows, block.cols, block.pair, block.coef)
 
 
 # ---------------------------------------------------------------------------
-# diagonalisation and transitions
+# diagonalisation and transitions, batched over neighbour states
 
 
-def _diagonalise_block(block: _Block, nu, j_pairs):
-    n_states = block.m.shape[0]
-    h = np.zeros((n_states, n_states))
-    h[np.arange(n_states), np.arange(n_states)] = block.m @ nu + block.mm @ j_pairs
-    if block.rows.size:
-        vals = 0.5 * j_pairs[block.pair] * block.coef
-        h[block.rows, block.cols] = vals
-        h[block.cols, block.rows] = vals
+@dataclass(frozen=True)
+class _States:
+    """Spin states of the neighbours of a cluster as seen by the cluster's k sites.
+
+    Each row is one combination of neighbour eigenstates with its weight.
+    ``lin`` moves the shifts (first order plus the second-order Bloch-Siegert
+    type term), ``quad`` multiplies ``Fz_g**2``, ``scale`` multiplies each
+    site's share of the lowering operator (intensity correction), ``dj`` adds
+    to the couplings inside the cluster (k x k).
+    """
+
+    lin: np.ndarray
+    quad: np.ndarray
+    scale: np.ndarray
+    dj: np.ndarray
+    weight: np.ndarray
+
+
+def _isolated_states(k: int) -> _States:
+    return _States(np.zeros((1, k)), np.zeros((1, k)), np.ones((1, k)), np.zeros((1, k, k)), np.ones(1))
+
+
+def _diagonalise_batch(block: _Block, nu, quad, j_pairs, dj_pairs):
+    """Eigenvalues (S, n) and vectors (S, n, n) of one block for S neighbour states."""
+    n_batch, n_states = nu.shape[0], block.m.shape[0]
+    diag = nu @ block.m.T + (block.mm @ j_pairs)[None, :] + quad @ (block.m**2).T
     if n_states == 1:
-        return h[0], np.ones((1, 1))
+        return diag, np.ones((n_batch, 1, 1))
+    h = np.zeros((n_batch, n_states, n_states))
+    idx = np.arange(n_states)
+    h[:, idx, idx] = diag
+    if block.rows.size:
+        vals = 0.5 * (j_pairs[block.pair][None, :] + dj_pairs[:, block.pair]) * block.coef[None, :]
+        h[:, block.rows, block.cols] = vals
+        h[:, block.cols, block.rows] = vals
     return np.linalg.eigh(h)
 
 
-def _subsystem_lines(sub: _Subsystem, nu_local, j_local, n_cluster_sites, min_intensity):
-    nu = nu_local[sub.sites]
-    j_pairs = j_local[sub.sites[sub.pairs[:, 0]], sub.sites[sub.pairs[:, 1]]]
-    eig = [_diagonalise_block(b, nu, j_pairs) for b in sub.blocks]
-    fz = [(vecs**2).T @ b.m for (_, vecs), b in zip(eig, sub.blocks, strict=True)]
+def _subsystem_lines(sub: _Subsystem, nu_local, j_local, states: _States, min_intensity,
+                     want_states: bool = False):
+    """Lines of one composite-spin subsystem for every neighbour state (batched).
+
+    Returns freq, intensity (times the state and subsystem weights, not yet
+    normalised), delta <Fz> per cluster site, and for the first state the
+    eigenstates' <Fz> and I(I+1) - <Fz^2> per cluster site.
+    """
+    k = len(nu_local)
+    first, second = sub.pairs[:, 0], sub.pairs[:, 1]
+    g_first, g_second = sub.sites[first], sub.sites[second]
+    nu = nu_local[None, sub.sites] + states.lin[:, sub.sites]
+    quad = states.quad[:, sub.sites]
+    j_pairs = j_local[g_first, g_second]
+    dj_pairs = states.dj[:, g_first, g_second]
+    eig = [_diagonalise_batch(b, nu, quad, j_pairs, dj_pairs) for b in sub.blocks]
+    fz = [np.einsum("sij,ig->sjg", v**2, b.m) for (_, v), b in zip(eig, sub.blocks, strict=True)]
+    scale = states.scale[:, sub.sites]
+    isolated = len(states.weight) == 1 and np.all(scale == 1.0)
     freqs, intens, deltas = [], [], []
     for b, op in enumerate(sub.lowering):
         (e_up, v_up), (e_lo, v_lo) = eig[b], eig[b + 1]
-        amp = v_lo.T @ (op @ v_up)
-        inten = sub.weight * amp**2
-        lo, up = np.nonzero(inten > min_intensity)
-        freqs.append(e_up[up] - e_lo[lo])
-        intens.append(inten[lo, up])
-        deltas.append(fz[b][up] - fz[b + 1][lo])
-    states = np.zeros((sum(len(f) for f in fz), n_cluster_sites))
-    states[:, sub.sites] = np.concatenate(fz)
-    if not freqs:
-        return np.zeros(0), np.zeros(0), np.zeros((0, n_cluster_sites)), states
-    delta = np.zeros((sum(len(f) for f in freqs), n_cluster_sites))
-    delta[:, sub.sites] = np.concatenate(deltas)
-    return np.concatenate(freqs), np.concatenate(intens), delta, states
+        n_lo, n_up = op.shape[1:]
+        if isolated:
+            lower = op.sum(axis=0)[None]
+        else:
+            lower = (scale @ op.reshape(op.shape[0], -1)).reshape(-1, n_lo, n_up)
+        amp = np.swapaxes(v_lo, 1, 2) @ (lower @ v_up)
+        inten = ((sub.weight * states.weight)[:, None, None] * amp**2).ravel()
+        flat = np.flatnonzero(inten > min_intensity)
+        s, rest = np.divmod(flat, n_lo * n_up)
+        lo, up = np.divmod(rest, n_up)
+        up_index, lo_index = s * n_up + up, s * n_lo + lo
+        freqs.append(e_up.ravel()[up_index] - e_lo.ravel()[lo_index])
+        intens.append(inten[flat])
+        g = len(sub.sites)
+        deltas.append(fz[b].reshape(-1, g)[up_index] - fz[b + 1].reshape(-1, g)[lo_index])
+    delta = np.zeros((sum(len(f) for f in freqs), k))
+    if freqs:
+        delta[:, sub.sites] = np.concatenate(deltas)
+    lines = (np.concatenate(freqs), np.concatenate(intens)) if freqs else (np.zeros(0), np.zeros(0))
+    if not want_states:
+        return (*lines, delta, None)
+    z = np.zeros((sum(f.shape[1] for f in fz), k))
+    z[:, sub.sites] = np.concatenate([f[0] for f in fz])
+    fz2 = np.concatenate([np.einsum("ij,ig->jg", v[0] ** 2, b.m**2) for (_, v), b in
+                          zip(eig, sub.blocks, strict=True)])
+    q = np.zeros_like(z)
+    q[:, sub.sites] = sub.spin_sq[None, :] - fz2
+    x = np.zeros((len(z), k * (k - 1) // 2))
+    x[:, _pair_index(g_first, g_second, k)] = np.concatenate(
+        [_flip_flop_expectation(b, v[0], len(first)) for (_, v), b in zip(eig, sub.blocks, strict=True)])
+    return (*lines, delta, (z, q, x))
 
 
-def _cluster_lines(subsystems, nu_local, j_local, n_total, min_intensity):
-    scale = 2.0 ** (n_total - 1)
-    parts = [_subsystem_lines(s, nu_local, j_local, len(nu_local), min_intensity * scale) for s in subsystems]
+def _pair_index(a, b, k):
+    """Position of site pairs (a < b) in ``np.triu_indices(k, 1)`` order."""
+    return (a * (2 * k - a - 1)) // 2 + (b - a - 1)
+
+
+def _flip_flop_expectation(block: _Block, vecs, n_pairs):
+    """<F+_g F-_h + F-_g F+_h> of every composite-spin pair in every eigenstate, (n_states, n_pairs)."""
+    out = np.zeros((vecs.shape[1], n_pairs))
+    if block.rows.size:
+        prod = 2.0 * block.coef[:, None] * vecs[block.rows] * vecs[block.cols]
+        starts = np.flatnonzero(np.diff(block.pair, prepend=-1))
+        out[:, block.pair[starts]] = np.add.reduceat(prod, starts, axis=0).T
+    return out
+
+
+def _chunks(states: _States, size: int):
+    for start in range(0, len(states.weight), size):
+        sl = slice(start, start + size)
+        yield _States(states.lin[sl], states.quad[sl], states.scale[sl], states.dj[sl], states.weight[sl])
+
+
+def _cluster_lines(cluster: _Cluster, nu_local, j_local, states: _States, min_intensity):
+    """Lines of a cluster (Hz, intensity, delta <Fz>) summed over the neighbour states."""
+    scale = 2.0 ** (cluster.n_protons - 1)
+    chunk = max(1, _BATCH_ELEMENTS // cluster.largest_block**2)
+    parts = [_subsystem_lines(s, nu_local, j_local, c, min_intensity * scale)
+             for c in _chunks(states, chunk) for s in cluster.subsystems]
     freq = np.concatenate([p[0] for p in parts])
     inten = np.concatenate([p[1] for p in parts]) / scale
     delta = np.concatenate([p[2] for p in parts])
     return freq, inten, delta
 
 
-def _cluster_lines_and_states(subsystems, nu_local, j_local, n_total, min_intensity):
-    """Lines of an isolated cluster plus the <Fz> of every site in every eigenstate.
+def _isolated_lines_and_states(cluster: _Cluster, nu_local, j_local, min_intensity, want_states: bool):
+    """Lines of an isolated cluster plus (<Fz>, I(I+1) - <Fz^2>) per site of every eigenstate.
 
-    The states come as ``fz`` (n_states, n_cluster_sites) with weights summing
-    to 1 (states where every group has total spin 0 are one row of zeros).
+    The states come as rows (n_states, 2 k) with weights summing to 1
+    (states where every group has total spin 0 are one row of zeros).
     """
+    n_total = cluster.n_protons
     scale = 2.0 ** (n_total - 1)
-    parts = [_subsystem_lines(s, nu_local, j_local, len(nu_local), min_intensity * scale) for s in subsystems]
+    states = _isolated_states(len(nu_local))
+    parts = [_subsystem_lines(s, nu_local, j_local, states, min_intensity * scale, want_states)
+             for s in cluster.subsystems]
     lines = tuple(np.concatenate([p[k] for p in parts]) for k in range(3))
-    weights = [np.full(len(p[3]), sub.weight / 2.0**n_total)
-               for p, sub in zip(parts, subsystems, strict=True)]
+    if not want_states:
+        return (lines[0], lines[1] / scale, lines[2]), None, None
+    weights = [np.full(len(p[3][0]), sub.weight / 2.0**n_total)
+               for p, sub in zip(parts, cluster.subsystems, strict=True)]
     rest = max(1.0 - sum(w.sum() for w in weights), 0.0)
-    rows = np.concatenate([np.zeros((1, len(nu_local)))] + [p[3] for p in parts])
-    fz, w = _group_rows(rows, np.concatenate([[rest], *weights]))
-    return (lines[0], lines[1] / scale, lines[2]), fz, w
+    k = len(nu_local)
+    rows = np.concatenate([np.zeros((1, 2 * k + k * (k - 1) // 2))] + [np.hstack(p[3]) for p in parts])
+    zq, w = _group_rows(rows, np.concatenate([[rest], *weights]))
+    return (lines[0], lines[1] / scale, lines[2]), zq, w
 
 
 def _group_rows(values: np.ndarray, weights: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -410,37 +568,71 @@ def _group_rows(values: np.ndarray, weights: np.ndarray) -> tuple[np.ndarray, np
 class _Cluster:
     sites: np.ndarray              # global site indices
     subsystems: list               # composite-spin subsystems
-    fz: np.ndarray                 # isolated eigenstates: <Fz> per site
-    weight: np.ndarray             # state weights, sum 1
     n_protons: int
-    lines: tuple                   # isolated lines: freq (Hz), intensity, delta <Fz>
+    largest_block: int
+    cost: float                    # sum of block sizes cubed
+    zq: np.ndarray = None          # isolated eigenstates: <Fz> and I(I+1) - <Fz^2> per site
+    weight: np.ndarray = None      # state weights, sum 1
+    lines: tuple = ()              # isolated lines: freq (Hz), intensity, delta <Fz>
 
 
 def _prepare_cluster(sites, nu, j, n, min_intensity) -> _Cluster:
     local = np.array(sites)
+    outside = np.setdiff1d(np.arange(len(n)), local)
+    want_states = bool(np.any(j[np.ix_(local, outside)]))
     subsystems = _build_cluster(n[local])
-    n_total = int(n[local].sum())
-    lines, fz, w = _cluster_lines_and_states(subsystems, nu[local], j[np.ix_(local, local)], n_total,
-                                             min_intensity)
-    return _Cluster(local, subsystems, fz, w, n_total, lines)
+    sizes = [b.m.shape[0] for s in subsystems for b in s.blocks] or [1]
+    bare = _Cluster(local, subsystems, int(n[local].sum()), max(sizes), float(np.sum(np.power(sizes, 3.0))))
+    lines, zq, w = _isolated_lines_and_states(bare, nu[local], j[np.ix_(local, local)], min_intensity,
+                                              want_states)
+    return _Cluster(local, subsystems, bare.n_protons, bare.largest_block, bare.cost, zq, w, lines)
 
 
-def _neighbour_offsets(cluster: _Cluster, others: list[_Cluster], j):
-    """Shift offsets (Hz) each neighbouring cluster's eigenstates put on this cluster's sites.
+def _neighbour_states(cluster: _Cluster, others: list[_Cluster], nu, j):
+    """Parameters each neighbouring cluster's eigenstates put on this cluster's sites.
 
-    First order in the couplings across the cut: a neighbour in eigenstate s
-    moves site g by sum_h J_gh <Fz_h>_s. Returns a list of (offsets, weights),
-    largest coupling first.
+    With ``t = J_gh / (nu_g - nu_h)`` for a cut coupling (g here, h there),
+    perturbation theory to second order in t gives, per neighbour state with
+    ``z = <Fz_h>`` and ``q = I_h(I_h+1) - <Fz_h^2>``: a shift
+    ``J z + J t q / 2`` of g (plus ``(J_gh t_gh' + J_gh' t_gh) x / 4`` for
+    every pair h, h' there, x = <F+_h F-_h' + F-_h F+_h'>), a term ``J t z / 2 * Fz_g^2``, an extra
+    coupling ``-(J_gh t_g'h + J_g'h t_gh) z / 2`` between g and g' and a
+    factor ``1 - t z`` on g's part of the lowering operator. Cuts with
+    ``|t| > _PERTURB_LIMIT`` (strong couplings cut for size) keep only the
+    first-order shift. Returns a list of (rows, weights), largest coupling first.
     """
+    a = cluster.sites
+    k = len(a)
+    upper = np.triu_indices(k, 1)
     found = []
     for other in others:
-        cross = j[np.ix_(other.sites, cluster.sites)]
+        cross = j[np.ix_(other.sites, a)]
         if not np.any(cross):
             continue
-        offsets, weights = _group_rows(other.fz @ cross, other.weight)
-        found.append((float(np.max(np.abs(cross))), int(other.sites.min()), offsets, weights))
+        gap = nu[a][None, :] - nu[other.sites][:, None]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            t = np.where(np.abs(cross) <= _PERTURB_LIMIT * np.abs(gap), cross / gap, 0.0)
+        kb = len(other.sites)
+        z, q, x = other.zq[:, :kb], other.zq[:, kb:2 * kb], other.zq[:, 2 * kb:]
+        h1, h2 = np.triu_indices(kb, 1)
+        lin = z @ cross + q @ (cross * t / 2) + x @ ((cross[h1] * t[h2] + cross[h2] * t[h1]) / 4)
+        quad = z @ (cross * t / 2)
+        scale = -(z @ t)
+        dj = -0.5 * np.einsum("sh,hg,hk->sgk", z, cross, t)
+        dj = dj + np.swapaxes(dj, 1, 2)
+        rows = np.hstack([lin, quad, scale, dj[:, upper[0], upper[1]]])
+        rows, weights = _group_rows(rows, other.weight)
+        found.append((float(np.max(np.abs(cross))), int(other.sites.min()), rows, weights))
     found.sort(key=lambda item: (-item[0], item[1]))
-    return [(off, w) for _, _, off, w in found]
+    return [(rows, w) for _, _, rows, w in found]
+
+
+def _rows_to_states(rows, weights, k) -> _States:
+    dj = np.zeros((len(weights), k, k))
+    upper = np.triu_indices(k, 1)
+    dj[:, upper[0], upper[1]] = rows[:, 3 * k:]
+    dj = dj + np.swapaxes(dj, 1, 2)
+    return _States(rows[:, :k], rows[:, k:2 * k], 1.0 + rows[:, 2 * k:3 * k], dj, weights)
 
 
 def _combine_offsets(sets):
@@ -452,8 +644,8 @@ def _combine_offsets(sets):
     return offsets, weights
 
 
-def _split_neighbours(sets, n_cluster_protons):
-    budget = min(_MAX_NEIGHBOUR_STATES, max(1, _NEIGHBOUR_STATE_BUDGET // 2**n_cluster_protons))
+def _split_neighbours(sets, cluster: _Cluster):
+    budget = min(_MAX_NEIGHBOUR_STATES, max(1, int(_NEIGHBOUR_COST_BUDGET // max(cluster.cost, 1.0))))
     exact, states = [], 1
     for item in sets:
         if states * len(item[1]) > budget:
@@ -465,35 +657,28 @@ def _split_neighbours(sets, n_cluster_protons):
 
 def _simulate_cluster(cluster: _Cluster, others, nu, j, min_intensity):
     local = cluster.sites
-    sets = _neighbour_offsets(cluster, others, j)
-    exact, rest = _split_neighbours(sets, cluster.n_protons)
+    k = len(local)
+    sets = _neighbour_states(cluster, others, nu, j)
+    exact, rest = _split_neighbours(sets, cluster)
     if exact:
-        states = _combine_offsets(exact)
-        freq, inten, delta = _lines_per_neighbour_state(cluster, states, nu, j, min_intensity)
+        rows, weights = _combine_offsets(exact)
+        states = _rows_to_states(rows, weights, k)
+        j_local = j[np.ix_(local, local)]
+        freq, inten, delta = _cluster_lines(cluster, nu[local], j_local, states, min_intensity)
+        if len(weights) > 1:
+            freq, inten, delta = _pool_split_lines(freq, inten, delta, min_intensity)
     else:
         freq, inten, delta = cluster.lines
-    for off, w in rest:
-        off, w = _reduce_states(off, w)
+        if rest:
+            freq, inten, delta = _pool_split_lines(freq, inten, delta, min_intensity)
+    for rows, w in rest:
+        off, w = _reduce_states(rows[:, :k], w)
         shift = delta @ off.T          # (n_lines, n_states) first-order move of each line
         freq = (freq[:, None] + shift).ravel()
         inten = (inten[:, None] * w[None, :]).ravel()
         delta = np.repeat(delta, len(w), axis=0)
         freq, inten, delta = _pool_split_lines(freq, inten, delta, min_intensity)
     return freq, inten, local[np.argmax(delta, axis=1)] if len(freq) else np.zeros(0, int)
-
-
-def _lines_per_neighbour_state(cluster: _Cluster, states, nu, j, min_intensity):
-    """Re-diagonalise the cluster with its shifts moved by each neighbour state (weighted)."""
-    local = cluster.sites
-    j_local = j[np.ix_(local, local)]
-    freqs, intens, deltas = [], [], []
-    for off, w in zip(*states, strict=True):
-        f, i_, d = _cluster_lines(cluster.subsystems, nu[local] + off, j_local, cluster.n_protons,
-                                  min_intensity / max(w, 1e-300))
-        freqs.append(f)
-        intens.append(i_ * w)
-        deltas.append(d)
-    return np.concatenate(freqs), np.concatenate(intens), np.concatenate(deltas)
 
 
 def _reduce_states(offsets, weights, max_rows: int = _MAX_SPLIT_STATES):
@@ -526,14 +711,15 @@ def _pool_split_lines(freq, inten, delta, min_intensity):
 
 
 def _merge_lines(freq, inten, site):
-    order = np.lexsort((freq, site))
-    freq, inten, site = freq[order], inten[order], site[order]
-    new = np.ones(len(freq), dtype=bool)
-    new[1:] = (np.diff(freq) > _MERGE_TOL_HZ) | (np.diff(site) != 0)
-    starts = np.flatnonzero(new)
-    total = np.add.reduceat(inten, starts)
-    centre = np.add.reduceat(inten * freq, starts) / np.where(total > 0, total, 1.0)
-    return centre, total, site[starts]
+    """Pool the lines of each site that fall in one _MERGE_TOL_HZ cell (intensity-weighted centre)."""
+    if freq.size == 0:
+        return freq, inten, site
+    cell = np.round((freq - freq.min()) / _MERGE_TOL_HZ).astype(np.int64)
+    keys = site.astype(np.int64) * (int(cell.max()) + 1) + cell
+    uniq, inverse = np.unique(keys, return_inverse=True)
+    total = np.bincount(inverse, weights=inten)
+    centre = np.bincount(inverse, weights=inten * freq) / np.where(total > 0, total, 1.0)
+    return centre, total, uniq // (int(cell.max()) + 1)
 
 
 def _significant(inten, total):
