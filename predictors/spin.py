@@ -12,18 +12,19 @@ spectrum and are not needed. The Hamiltonian commutes with the total Fz, so it
 is diagonalised block by block (one block per total M). Lines are the
 transitions between adjacent blocks, intensity ``|<lower|F-|upper>|^2``.
 
-Large molecules are split into clusters. A coupling is *strong* when
-``|J| > cluster_ratio * |delta nu|`` (delta nu = shift difference in Hz);
-sites joined by strong couplings form a cluster that is simulated exactly.
-Couplings between clusters are applied first order (only their ``Fz Fz``
-part): for the largest affordable set of neighbouring sites the cluster is
-re-diagonalised for each spin state of those neighbours (shifts moved by
-``J m``, binomial weights, the way an ABX system's AB part is two AB
-quartets), and any remaining neighbours split each line by the coupling
-weighted with the line's change of ``<Fz>`` of every cluster site. If a
-cluster would exceed ``max_cluster_spins`` protons, its weakest strong
-couplings (smallest ``|J| / |delta nu|``) are cut and treated the same way;
-this is reported in :attr:`LineList.warnings`.
+Large molecules are split into clusters (see :func:`plan_clusters`): sites
+joined by strong couplings (``|J| > cluster_ratio * |delta nu|``, or a
+coupling that changes how a strongly coupled pair mixes) are simulated
+exactly, and weak couplings still join clusters while these stay cheap.
+Couplings between clusters enter per eigenstate of the neighbouring clusters,
+to second order in ``J / delta nu`` (shifts, an ``Fz**2`` term, couplings
+induced inside the cluster and an intensity factor): for the largest
+affordable set of neighbours the cluster is re-diagonalised for every
+neighbour state at once (stacked ``eigh``; the way an ABX system's AB part is
+two AB quartets), and any remaining neighbours split each line first order by
+the line's change of ``<Fz>``. If a cluster would exceed ``max_cluster_spins``
+protons, its weakest strong couplings are cut; this is reported in
+:attr:`LineList.warnings`.
 """
 
 from __future__ import annotations
@@ -751,9 +752,11 @@ def simulate_arrays(shifts_ppm, j_hz, n_protons, *, field_mhz: float, max_cluste
     max_cluster_spins : int, optional
         Most protons simulated together exactly (1-14, default 12).
     cluster_ratio : float, optional
-        Couplings with ``|J| <= cluster_ratio * |delta nu|`` join no cluster
-        and are applied first order; the error this makes in line positions
-        and intensities is of the order of the ratio (default 0.05).
+        Couplings with ``|J| <= cluster_ratio * |delta nu|`` (see
+        :func:`plan_clusters`) may be cut and are then applied to second
+        order; the error left is third order in the ratio for positions and
+        second order for intensities (default 0.05: within 1 % of the peak
+        height against the full matrix on alkenyl chains at 60-400 MHz).
 
     Returns
     -------
