@@ -25,7 +25,7 @@ def register(subparsers, parents) -> None:
     parser = subparsers.add_parser(
         "qc", parents=parents, help="check a spectrum against a specification (PASS/FAIL/INCONCLUSIVE)",
         description="Analyse a spectrum as a specification says and decide each acceptance limit "
-                    "from its 95 %% interval. " + CAUTION.replace("%", "%%"))
+                    "from its 95 % interval. " + CAUTION)
     parser.add_argument("--spec", required=True, type=Path, help="specification file (TOML)")
     parser.add_argument("--spectrum", required=True, type=Path, help="spectrum file or FID folder")
     parser.add_argument("--report", type=Path, metavar="OUT.html", help="write an HTML report")
