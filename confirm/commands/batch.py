@@ -8,7 +8,7 @@ from pathlib import Path
 
 from confirm.batch import collect_items, run_batch
 from confirm.commands._common import emit_json, format_table
-from confirm.qc import read_spec
+from confirm.qc import CAUTION, read_spec
 
 
 def register(subparsers, parents) -> None:
@@ -40,7 +40,7 @@ def _run(args: argparse.Namespace) -> int:
     summary = run_batch(items, args.out, jobs=args.jobs, force=args.force, spec=spec, analyze=_analyze,
                         write_reports=not args.no_reports, progress=not args.json)
     if args.json:
-        emit_json({"counts": summary.counts, "summary_csv": str(summary.summary_csv),
+        emit_json({"counts": summary.counts, "caution": CAUTION, "summary_csv": str(summary.summary_csv),
                    "index_html": str(summary.index_html),
                    "items": [{"id": o.item_id, "spectrum": o.spectrum, "status": o.status, "major": o.major,
                               "confidence": o.confidence, "qc_status": o.qc_status, "error": o.error,
@@ -52,6 +52,7 @@ def _run(args: argparse.Namespace) -> int:
     print(f"\n{len(summary.outcomes)} spectra: {counts['done']} analysed, {counts['skipped']} skipped "
           f"(finished before), {counts['error']} failed. Summary: {summary.summary_csv}; "
           f"overview: {summary.index_html}")
+    print(f"Caution: {CAUTION}")
     for outcome in summary.outcomes:
         if outcome.status == "error":
             print(f"warning: {outcome.item_id}: {outcome.error}", file=sys.stderr)

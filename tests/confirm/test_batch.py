@@ -145,7 +145,8 @@ def test_folder_with_a_shared_spec_runs_qc_and_writes_reports(tmp_path, run_cli,
     assert json.loads((tmp_path / "out" / "lot00" / "audit.json").read_text())["qc"]["status"] == "PASS"
     assert 'href="lot00/report.html"' in (tmp_path / "out" / "index.html").read_text()
     text = run_cli("batch", folder, "--out", tmp_path / "out", "--spec", spec)
-    assert text.exit_code == 0 and "2 skipped" in text.stdout
+    assert text.exit_code == 0 and "2 skipped" in text.stdout and "decision aid" in text.stdout
+    assert data["caution"].startswith("This result is a decision aid")
 
 
 def test_bad_batch_input(tmp_path, run_cli):
