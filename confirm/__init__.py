@@ -19,8 +19,40 @@ from predictors.errors import ChemistryError, ConfirmError, FileFormatError, Fit
 
 __version__ = "0.1.0"
 
+# Workflow functions are imported on first use (PEP 562) so that the command
+# line starts quickly; the names below are the public API.
+_LAZY = {
+    "read_measurement": "confirm.reading",
+    "write_jcamp_spectrum": "confirm.reading",
+    "ProcessingOptions": "confirm.processing",
+    "ProcessedSpectrum": "confirm.processing",
+    "process_measurement": "confirm.processing",
+    "load_spectrum": "confirm.processing",
+    "solvent_signals": "confirm.solvents",
+    "load_structure": "confirm.structures",
+    "FitOptions": "confirm.fitting",
+    "fit_mixture": "confirm.fitting",
+    "decide": "confirm.verdict",
+    "analyze_path": "confirm.analysis",
+    "analyze_spectrum": "confirm.analysis",
+    "analyze_peak_list": "confirm.analysis",
+    "AnalysisResult": "confirm.results",
+    "InputRecord": "confirm.results",
+    "write_html_report": "confirm.report_html",
+}
+
+
+def __getattr__(name: str):
+    if name in _LAZY:
+        import importlib
+
+        return getattr(importlib.import_module(_LAZY[name]), name)
+    raise AttributeError(f"module 'confirm' has no attribute {name!r}")
+
+
 __all__ = [
     "__version__",
+    *sorted(_LAZY),
     "Candidate",
     "ChemistryError",
     "ComponentFit",
