@@ -3,8 +3,6 @@
 from __future__ import annotations
 
 from confirm.commands._common import emit_json, format_table
-from confirm.structures import load_structure
-from predictors.products import enumerate_products
 
 __all__ = ["register"]
 
@@ -39,6 +37,9 @@ def _candidate_record(cand) -> dict:
 
 
 def _run(args) -> int:
+    from confirm.structures import load_structure
+    from predictors.products import enumerate_products
+
     mol = load_structure(args.structure)
     products = enumerate_products(mol, reagent=args.reagent, solvent=args.solvent, temp_c=args.temp_c)
     if args.json:

@@ -11,7 +11,6 @@ import numpy as np
 
 from confirm.commands._common import emit_json, format_table
 from predictors.errors import InputError
-from predictors.prediction import first_order_multiplicity, predict_spin_system
 
 __all__ = ["register", "spin_system_to_json"]
 
@@ -32,6 +31,8 @@ def register(subparsers, parents) -> None:
 
 def spin_system_to_json(system, *, field_mhz: float) -> dict:
     """The ``predict`` JSON contract (design.md) for a spin system."""
+    from predictors.prediction import first_order_multiplicity
+
     sites = []
     for i, site in enumerate(system.sites):
         couplings = [{"to_site": k, "j_hz": float(system.j_hz[i, k])}
@@ -47,9 +48,11 @@ def spin_system_to_json(system, *, field_mhz: float) -> dict:
 
 
 def _run(args) -> int:
+    from predictors.prediction import predict_spin_system
+
     field = args.field_mhz
-    if not math.isfinite(field) or not 20.0 <= field <= 1200.0:
-        raise InputError(f"--field-mhz: expected a frequency between 20 and 1200 MHz, got {field!r}")
+    if not math.isfinite(field) or not 40.0 <= field <= 1200.0:
+        raise InputError(f"--field-mhz: expected a frequency between 40 and 1200 MHz, got {field!r}")
     if args.plot is not None and not str(args.plot).lower().endswith(".png"):
         raise InputError(f"--plot: expected a .png file name, got {args.plot!r}")
     system = predict_spin_system(args.smiles)
@@ -65,6 +68,8 @@ def _run(args) -> int:
 
 
 def _rows(system) -> list[list[str]]:
+    from predictors.prediction import first_order_multiplicity
+
     rows = []
     for i, site in enumerate(system.sites):
         j = [f"{abs(system.j_hz[i, k]):.1f}({k})" for k in np.argsort(-np.abs(system.j_hz[i]))

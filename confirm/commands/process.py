@@ -10,11 +10,14 @@ from __future__ import annotations
 import os
 import tempfile
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from confirm.commands._common import emit_json, format_table
-from confirm.processing import SNR_DEFINITION, ProcessedSpectrum, ProcessingOptions, process_measurement
-from confirm.reading import PeakList, read_measurement
 from predictors.errors import InputError
+
+if TYPE_CHECKING:
+    from confirm.processing import ProcessedSpectrum
+    from confirm.reading import PeakList
 
 __all__ = ["register"]
 
@@ -40,6 +43,9 @@ def register(subparsers, parents) -> None:
 
 
 def _run(args) -> int:
+    from confirm.processing import ProcessingOptions, process_measurement
+    from confirm.reading import PeakList, read_measurement
+
     for name in ("out", "plot"):
         value = getattr(args, name)
         if value and Path(value).is_dir():
@@ -68,6 +74,8 @@ def _run(args) -> int:
 
 
 def _to_json(result: ProcessedSpectrum) -> dict:
+    from confirm.processing import SNR_DEFINITION
+
     spectrum = result.spectrum
     return {
         "source": spectrum.metadata.get("source_path"),
