@@ -39,6 +39,20 @@ _LAZY = {
     "AnalysisResult": "confirm.results",
     "InputRecord": "confirm.results",
     "write_html_report": "confirm.report_html",
+    "export_result_files": "confirm.report_html",
+    "QcSpec": "confirm.qc",
+    "QcResult": "confirm.qc",
+    "read_spec": "confirm.qc",
+    "evaluate_qc": "confirm.qc",
+    "run_qc": "confirm.qc",
+    "audit_record": "confirm.qc",
+    "BatchItem": "confirm.batch",
+    "collect_items": "confirm.batch",
+    "run_batch": "confirm.batch",
+    "InternalStandard": "confirm.qnmr",
+    "nmr_yield": "confirm.qnmr",
+    "yield_from_result": "confirm.qnmr",
+    "analyze_with_standard": "confirm.qnmr",
 }
 
 
