@@ -16,7 +16,6 @@ import csv
 import html
 import io
 import json
-import os
 import re
 import sys
 import time
@@ -25,6 +24,7 @@ from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
 
+from confirm._files import write_text_atomic
 from confirm.qc import QcSpec, read_spec
 from confirm.results import sha256_of_path
 from predictors.errors import ConfirmError, FileFormatError, InputError
@@ -230,12 +230,6 @@ def _default_analyze(path, **kwargs):
     return analyze_path(path, **kwargs)
 
 
-def _write_text(path: Path, text: str) -> None:
-    tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
-    tmp.write_text(text, encoding="utf-8")
-    os.replace(tmp, path)
-
-
 def _analyse_item(item: BatchItem, item_dir: Path, spec: QcSpec | None, analyze: Callable,
                   write_report: bool) -> dict:
     from confirm.qc import audit_record, qc_to_json, run_qc, write_json_atomic
@@ -278,7 +272,7 @@ def _process_item(task: tuple) -> ItemOutcome:
         outcome = ItemOutcome(status="error", error=f"internal error: {type(exc).__name__}: {_one_line(exc)}",
                               **base)
     if item_dir.is_dir():
-        _write_text(item_dir / "outcome.json", json.dumps(asdict(outcome), indent=2) + "\n")
+        write_text_atomic(item_dir / "outcome.json", json.dumps(asdict(outcome), indent=2) + "\n")
     return outcome
 
 
@@ -424,7 +418,7 @@ def write_summary(outcomes: Sequence[ItemOutcome], out_dir: str | Path) -> Batch
     out = Path(out_dir)
     counts = {status: sum(1 for o in outcomes if o.status == status)
               for status in ("done", "skipped", "error")}
-    _write_text(out / "summary.csv", _summary_csv(outcomes))
-    _write_text(out / "index.html", _index_html(outcomes, counts))
+    write_text_atomic(out / "summary.csv", _summary_csv(outcomes))
+    write_text_atomic(out / "index.html", _index_html(outcomes, counts))
     return BatchSummary(outcomes=tuple(outcomes), summary_csv=out / "summary.csv",
                         index_html=out / "index.html", counts=counts)

@@ -50,6 +50,7 @@ from datetime import datetime, timezone
 from importlib import metadata
 from pathlib import Path
 
+from confirm._files import write_text_atomic
 from predictors.core import canonical_smiles
 from predictors.errors import FileFormatError, InputError
 
@@ -617,15 +618,4 @@ def write_json_atomic(obj, path: str | Path) -> Path:
     """Write strict, indented JSON to ``path`` via a temporary file and a rename."""
     from confirm.commands._common import to_jsonable
 
-    path = Path(path)
-    if path.parent and not path.parent.is_dir():
-        raise InputError(f"output path: folder {str(path.parent)!r} does not exist")
-    tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
-    try:
-        tmp.write_text(json.dumps(to_jsonable(obj), indent=2, allow_nan=False, sort_keys=False) + "\n",
-                       encoding="utf-8")
-        os.replace(tmp, path)
-    finally:
-        if tmp.exists():
-            tmp.unlink()
-    return path
+    return write_text_atomic(path, json.dumps(to_jsonable(obj), indent=2, allow_nan=False) + "\n")

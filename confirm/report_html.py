@@ -16,7 +16,6 @@ import csv
 import html
 import io
 import json
-import os
 from collections.abc import Sequence
 from dataclasses import dataclass, replace
 from datetime import datetime, timezone
@@ -24,6 +23,7 @@ from pathlib import Path
 
 import numpy as np
 
+from confirm._files import atomic_path, write_text_atomic
 from confirm.qc import CAUTION, QcResult, qc_to_json, software_versions
 from confirm.qnmr import ProductYield, format_yield_rows, yields_to_json
 from predictors.errors import InputError
@@ -310,9 +310,8 @@ def _save_figure(fig, stem: Path, *, salt: str) -> list[Path]:
     with matplotlib.rc_context({"svg.hashsalt": salt, "svg.fonttype": "none"}):
         for suffix, options in ((".png", {"dpi": 150}), (".svg", {"metadata": {"Date": None}})):
             target = stem.with_suffix(suffix)
-            tmp = target.with_name(f".{target.name}.{os.getpid()}.tmp")
-            fig.savefig(tmp, format=suffix[1:], **options)
-            os.replace(tmp, target)
+            with atomic_path(target) as tmp:
+                fig.savefig(tmp, format=suffix[1:], **options)
             written.append(target)
     plt.close(fig)
     return written
@@ -606,22 +605,7 @@ def write_html_report(result, path, *, qc: QcResult | None = None,
         The written file.
     """
     path = _check_target(Path(path))
-    text = render_html_report(result, qc=qc, nmr_yield=nmr_yield)
-    tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
-    try:
-        tmp.write_text(text, encoding="utf-8")
-        os.replace(tmp, path)
-    finally:
-        if tmp.exists():
-            tmp.unlink()
-    return path
-
-
-def _write_text_atomic(path: Path, text: str) -> Path:
-    tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
-    tmp.write_text(text, encoding="utf-8")
-    os.replace(tmp, path)
-    return path
+    return write_text_atomic(path, render_html_report(result, qc=qc, nmr_yield=nmr_yield))
 
 
 def _components_csv(result) -> str:
@@ -673,8 +657,8 @@ def export_result_files(result, out_dir, *, qc: QcResult | None = None,
     regions = choose_diagnostic_regions(result, curves)
     written = _save_figure(_figure_overview(result), out / "spectrum", salt="confirm-overview")
     written += _save_figure(_figure_regions(result, curves, regions), out / "regions", salt="confirm-regions")
-    written.append(_write_text_atomic(out / "components.csv", _components_csv(result)))
-    written.append(_write_text_atomic(out / "fitted_spectrum.csv", _spectrum_csv(result, curves)))
+    written.append(write_text_atomic(out / "components.csv", _components_csv(result)))
+    written.append(write_text_atomic(out / "fitted_spectrum.csv", _spectrum_csv(result, curves)))
     payload = result.to_json()
     if qc is not None:
         payload["qc"] = qc_to_json(qc)
@@ -682,6 +666,6 @@ def export_result_files(result, out_dir, *, qc: QcResult | None = None,
         payload["nmr_yield"] = yields_to_json(nmr_yield)
     from confirm.commands._common import to_jsonable
 
-    written.append(_write_text_atomic(out / "result.json",
+    written.append(write_text_atomic(out / "result.json",
                                       json.dumps(to_jsonable(payload), indent=2, allow_nan=False) + "\n"))
     return {p.name: p for p in written}

@@ -3,12 +3,11 @@
 from __future__ import annotations
 
 import math
-import os
-import tempfile
 from pathlib import Path
 
 import numpy as np
 
+from confirm._files import atomic_path
 from confirm.commands._common import emit_json, format_table
 from predictors.errors import InputError
 
@@ -101,13 +100,8 @@ def _write_plot(system, path: Path, *, field_mhz: float) -> None:
     ax.set_xlabel("chemical shift (ppm)")
     ax.set_yticks([])
     ax.set_title(f"{system.smiles} - predicted 1H, {field_mhz:g} MHz")
-    fd, tmp = tempfile.mkstemp(suffix=".png", dir=path.parent)
-    os.close(fd)
     try:
-        fig.savefig(tmp, dpi=120, format="png")
-        os.chmod(tmp, 0o644)
-        os.replace(tmp, path)
+        with atomic_path(path) as tmp:
+            fig.savefig(tmp, dpi=120, format="png")
     finally:
         plt.close(fig)
-        if os.path.exists(tmp):
-            os.unlink(tmp)

@@ -7,11 +7,10 @@ and ``--plot`` a PNG. A peak list is printed as read (no processing).
 
 from __future__ import annotations
 
-import os
-import tempfile
 from pathlib import Path
 from typing import TYPE_CHECKING
 
+from confirm._files import atomic_path
 from confirm.commands._common import emit_json, format_table
 from predictors.errors import InputError
 
@@ -142,24 +141,13 @@ def _fmt(value) -> str:
     return "-" if value is None else f"{value:.4g}"
 
 
-def _atomic_target(path: Path):
-    path.parent.mkdir(parents=True, exist_ok=True)
-    handle, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=path.suffix, dir=path.parent)
-    os.close(handle)
-    return Path(tmp)
-
-
 def _write_csv(result: ProcessedSpectrum, path: Path) -> None:
-    tmp = _atomic_target(path)
-    try:
-        spectrum = result.spectrum
-        with open(tmp, "w", encoding="utf-8", newline="\n") as out:
-            out.write("ppm,intensity\n")
-            for ppm, value in zip(spectrum.ppm.tolist(), spectrum.intensity.tolist(), strict=True):
-                out.write(f"{ppm!r},{value!r}\n")
-        os.replace(tmp, path)
-    finally:
-        tmp.unlink(missing_ok=True)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    spectrum = result.spectrum
+    with atomic_path(path) as tmp, open(tmp, "w", encoding="utf-8", newline="\n") as out:
+        out.write("ppm,intensity\n")
+        for ppm, value in zip(spectrum.ppm.tolist(), spectrum.intensity.tolist(), strict=True):
+            out.write(f"{ppm!r},{value!r}\n")
 
 
 def _write_plot(result: ProcessedSpectrum, path: Path) -> None:
@@ -169,7 +157,7 @@ def _write_plot(result: ProcessedSpectrum, path: Path) -> None:
     import matplotlib.pyplot as plt
 
     spectrum = result.spectrum
-    tmp = _atomic_target(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
     fig, ax = plt.subplots(figsize=(11, 4))
     try:
         ax.plot(spectrum.ppm, spectrum.intensity, lw=0.6, color="black")
@@ -182,8 +170,7 @@ def _write_plot(result: ProcessedSpectrum, path: Path) -> None:
         ax.set_title(f"{Path(str(spectrum.metadata.get('source_path'))).name}: {spectrum.field_mhz:.0f} MHz, "
                      f"{result.reference}, SNR {result.snr:.0f}", fontsize=9)
         fig.tight_layout()
-        fig.savefig(tmp, format=path.suffix.lstrip(".").lower() or "png", dpi=120)
-        os.replace(tmp, path)
+        with atomic_path(path) as tmp:
+            fig.savefig(tmp, format=path.suffix.lstrip(".").lower() or "png", dpi=120)
     finally:
         plt.close(fig)
-        tmp.unlink(missing_ok=True)
