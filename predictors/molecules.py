@@ -18,6 +18,7 @@ __all__ = [
     "COUNTER_ION_ELEMENTS",
     "MAX_HEAVY_ATOMS",
     "parse_molecule",
+    "read_structure",
     "check_molecule",
     "strip_counter_ions",
 ]
@@ -48,21 +49,40 @@ def parse_molecule(structure, *, max_heavy_atoms: int = MAX_HEAVY_ATOMS,
     ChemistryError
         Unparsable SMILES, radicals, unsupported elements or too many atoms.
     """
-    if isinstance(structure, Chem.Mol):
-        mol = Chem.Mol(structure)
-    elif isinstance(structure, str) and structure.strip():
-        RDLogger.DisableLog("rdApp.*")
-        try:
-            mol = Chem.MolFromSmiles(structure.strip())
-        finally:
-            RDLogger.EnableLog("rdApp.*")
-        if mol is None:
-            raise ChemistryError(f"smiles: RDKit cannot parse {structure!r} (invalid SMILES or valence)")
-    else:
-        raise InputError(f"structure: expected a SMILES string or an RDKit molecule, got {structure!r}")
+    mol = read_structure(structure, name="smiles")
     if strip_salts:
         mol, _ = strip_counter_ions(mol)
     check_molecule(mol, max_heavy_atoms=max_heavy_atoms)
+    return mol
+
+
+def read_structure(structure, *, name: str = "structure") -> Chem.Mol:
+    """A copy of an RDKit molecule, or one parsed from SMILES, without further checks.
+
+    Parameters
+    ----------
+    structure : str or rdkit.Chem.Mol
+    name : str, keyword-only
+        What the structure is, for error messages (e.g. ``"substrate"``).
+
+    Raises
+    ------
+    ChemistryError
+        When RDKit cannot parse the SMILES.
+    InputError
+        When ``structure`` is neither a non-empty string nor a molecule.
+    """
+    if isinstance(structure, Chem.Mol):
+        return Chem.Mol(structure)
+    if not isinstance(structure, str) or not structure.strip():
+        raise InputError(f"{name}: expected a SMILES string or an RDKit molecule, got {structure!r}")
+    RDLogger.DisableLog("rdApp.*")
+    try:
+        mol = Chem.MolFromSmiles(structure.strip())
+    finally:
+        RDLogger.EnableLog("rdApp.*")
+    if mol is None:
+        raise ChemistryError(f"{name}: RDKit cannot parse {structure!r} (invalid SMILES or valence)")
     return mol
 
 

@@ -9,10 +9,10 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from rdkit import Chem, RDLogger
+from rdkit import Chem
 
-from predictors.errors import ChemistryError, InputError
-from predictors.molecules import parse_molecule, strip_counter_ions
+from predictors.errors import ChemistryError
+from predictors.molecules import parse_molecule, read_structure, strip_counter_ions
 from predictors.reaction_rules import rules_of_kind
 
 __all__ = ["ALPHA_CLASSES", "LeavingGroup", "Substrate", "perceive_substrate", "beta_carbons"]
@@ -91,18 +91,7 @@ class Substrate:
 
 
 def _to_mol(structure) -> Chem.Mol:
-    if isinstance(structure, Chem.Mol):
-        return Chem.Mol(structure)
-    if not isinstance(structure, str) or not structure.strip():
-        raise InputError(f"substrate: expected a SMILES string or an RDKit molecule, got {structure!r}")
-    RDLogger.DisableLog("rdApp.*")
-    try:
-        mol = Chem.MolFromSmiles(structure.strip())
-    finally:
-        RDLogger.EnableLog("rdApp.*")
-    if mol is None:
-        raise ChemistryError(f"substrate: RDKit cannot parse {structure!r} (invalid SMILES or valence)")
-    return mol
+    return read_structure(structure, name="substrate")
 
 
 def _fragment(mol: Chem.Mol, start: int, exclude: int) -> tuple[int, ...] | None:
