@@ -35,6 +35,7 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
+from scipy import sparse
 from scipy.special import erf
 
 from predictors.core import LineList, SpinSystem
@@ -311,6 +312,7 @@ class _Subsystem:
     weight: float          # multiplicity of this combination of total spins
     blocks: tuple[_Block, ...]   # M descending
     lowering: tuple[np.ndarray, ...]   # F-_g from block b to b+1, shape (G, n_{b+1}, n_b)
+    lowering_sum: tuple = ()   # sum over g of the above (total F-), sparse CSR
 
 
 def _build_subsystem(spins: np.ndarray, sites: np.ndarray, weight: float) -> _Subsystem:
@@ -331,7 +333,8 @@ def _build_subsystem(spins: np.ndarray, sites: np.ndarray, weight: float) -> _Su
     mm = m[:, pairs[:, 0]] * m[:, pairs[:, 1]]
     blocks = tuple(_Block(m[idx], mm[idx], *flips[b]) for b, idx in enumerate(members))
     lowering = _lowering_ops(m, k, dims, strides, spins, block_of, pos_of, sizes)
-    return _Subsystem(sites, spins * (spins + 1), pairs, weight, blocks, lowering)
+    total = tuple(sparse.csr_matrix(op.sum(axis=0)) for op in lowering)
+    return _Subsystem(sites, spins * (spins + 1), pairs, weight, blocks, lowering, total)
 
 
 def _raise_coef(spin, m):
@@ -461,36 +464,36 @@ def _subsystem_lines(sub: _Subsystem, nu_local, j_local, states: _States, min_in
     j_pairs = j_local[g_first, g_second]
     dj_pairs = states.dj[:, g_first, g_second]
     eig = [_diagonalise_batch(b, nu, quad, j_pairs, dj_pairs) for b in sub.blocks]
-    fz = [np.einsum("sij,ig->sjg", v**2, b.m) for (_, v), b in zip(eig, sub.blocks, strict=True)]
+    # <Fz> of every eigenstate per cluster site: squared eigenvector components against m, (S * n, k)
+    to_sites = np.eye(k)[sub.sites]
+    fz = [(np.swapaxes(np.square(v), 1, 2) @ (b.m @ to_sites)).reshape(-1, k)
+          for (_, v), b in zip(eig, sub.blocks, strict=True)]
     scale = states.scale[:, sub.sites]
     isolated = len(states.weight) == 1 and np.all(scale == 1.0)
+    weight = sub.weight * states.weight
     freqs, intens, deltas = [], [], []
     for b, op in enumerate(sub.lowering):
         (e_up, v_up), (e_lo, v_lo) = eig[b], eig[b + 1]
         n_lo, n_up = op.shape[1:]
         if isolated:
-            lower = op.sum(axis=0)[None]
+            amp = (v_lo[0].T @ (sub.lowering_sum[b] @ v_up[0]))[None]
         else:
             lower = (scale @ op.reshape(op.shape[0], -1)).reshape(-1, n_lo, n_up)
-        amp = np.swapaxes(v_lo, 1, 2) @ (lower @ v_up)
-        inten = ((sub.weight * states.weight)[:, None, None] * amp**2).ravel()
-        flat = np.flatnonzero(inten > min_intensity)
-        s, rest = np.divmod(flat, n_lo * n_up)
-        lo, up = np.divmod(rest, n_up)
+            amp = np.swapaxes(v_lo, 1, 2) @ (lower @ v_up)
+        inten = np.square(amp, out=amp)
+        inten *= weight[:, None, None]
+        allowed = inten > min_intensity
+        s, lo, up = np.nonzero(allowed)
         up_index, lo_index = s * n_up + up, s * n_lo + lo
-        freqs.append(e_up.ravel()[up_index] - e_lo.ravel()[lo_index])
-        intens.append(inten[flat])
-        g = len(sub.sites)
-        deltas.append(fz[b].reshape(-1, g)[up_index] - fz[b + 1].reshape(-1, g)[lo_index])
-    delta = np.zeros((sum(len(f) for f in freqs), k))
-    if freqs:
-        delta[:, sub.sites] = np.concatenate(deltas)
+        freqs.append(np.take(e_up, up_index) - np.take(e_lo, lo_index))
+        intens.append(inten[allowed])
+        deltas.append(np.take(fz[b], up_index, axis=0) - np.take(fz[b + 1], lo_index, axis=0))
+    delta = np.concatenate(deltas) if deltas else np.zeros((0, k))
     lines = (np.concatenate(freqs), np.concatenate(intens)) if freqs else (np.zeros(0), np.zeros(0))
     if not want_states:
         return (*lines, delta, None)
-    z = np.zeros((sum(f.shape[1] for f in fz), k))
-    z[:, sub.sites] = np.concatenate([f[0] for f in fz])
-    fz2 = np.concatenate([np.einsum("ij,ig->jg", v[0] ** 2, b.m**2) for (_, v), b in
+    z = np.concatenate([f[:b.m.shape[0]] for f, b in zip(fz, sub.blocks, strict=True)])
+    fz2 = np.concatenate([np.square(v[0]).T @ np.square(b.m) for (_, v), b in
                           zip(eig, sub.blocks, strict=True)])
     q = np.zeros_like(z)
     q[:, sub.sites] = sub.spin_sq[None, :] - fz2
@@ -712,23 +715,30 @@ def _pool_split_lines(freq, inten, delta, min_intensity):
 
 
 def _merge_lines(freq, inten, site):
-    """Pool the lines of each site that fall in one _MERGE_TOL_HZ cell (intensity-weighted centre)."""
+    """Pool the lines of each site that fall in one _MERGE_TOL_HZ cell (intensity-weighted centre).
+
+    The pooled lines come out by descending cell (so nearly by descending
+    frequency), sites ascending within a cell.
+    """
     if freq.size == 0:
         return freq, inten, site
+    n_sites = int(site.max()) + 1
     cell = np.round((freq - freq.min()) / _MERGE_TOL_HZ).astype(np.int64)
-    keys = site.astype(np.int64) * (int(cell.max()) + 1) + cell
-    uniq, inverse = np.unique(keys, return_inverse=True)
-    total = np.bincount(inverse, weights=inten)
-    centre = np.bincount(inverse, weights=inten * freq) / np.where(total > 0, total, 1.0)
-    return centre, total, uniq // (int(cell.max()) + 1)
+    keys = (int(cell.max()) - cell) * n_sites + site
+    order = np.argsort(keys)
+    keys = keys[order]
+    starts = np.flatnonzero(np.diff(keys, prepend=-1))
+    inten = inten[order]
+    total = np.add.reduceat(inten, starts)
+    centre = np.add.reduceat(inten * freq[order], starts) / np.where(total > 0, total, 1.0)
+    return centre, total, keys[starts] % n_sites
 
 
 def _significant(inten, total):
     """Mask of lines to keep: drop the weakest (each < 1e-6 of the total) while together < 1e-5."""
-    order = np.argsort(inten, kind="stable")
-    dropped = np.cumsum(inten[order])
-    n_drop = int(np.searchsorted(dropped, _DROP_TOTAL * total, side="right"))
-    n_drop = min(n_drop, int(np.searchsorted(inten[order], _DROP_FRACTION * total)))
+    weak = np.flatnonzero(inten < _DROP_FRACTION * total)
+    order = weak[np.argsort(inten[weak], kind="stable")]
+    n_drop = int(np.searchsorted(np.cumsum(inten[order]), _DROP_TOTAL * total, side="right"))
     keep = np.ones(len(inten), dtype=bool)
     keep[order[:n_drop]] = False
     return keep
@@ -787,7 +797,7 @@ def simulate_arrays(shifts_ppm, j_hz, n_protons, *, field_mhz: float, max_cluste
     keep = _significant(inten, total)
     freq, inten, site = freq[keep], inten[keep], site[keep]
     inten = inten * (total / inten.sum())
-    order = np.argsort(-freq, kind="stable")
+    order = np.argsort(-freq, kind="stable")  # fast: the merged lines are nearly in this order
     return LineList(ppm=freq[order] / field, intensity=inten[order], field_mhz=field,
                     site_index=site[order], warnings=plan.warnings)
 
