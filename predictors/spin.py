@@ -736,9 +736,17 @@ def _merge_lines(freq, inten, site):
 
 def _significant(inten, total):
     """Mask of lines to keep: drop the weakest (each < 1e-6 of the total) while together < 1e-5."""
+    budget = _DROP_TOTAL * total
     weak = np.flatnonzero(inten < _DROP_FRACTION * total)
+    count = 2048
+    while count < weak.size:  # sort only the weakest lines that already exceed the budget together
+        below = weak[inten[weak] < np.partition(inten[weak], count)[count]]
+        if inten[below].sum() > budget:
+            weak = below
+            break
+        count *= 4
     order = weak[np.argsort(inten[weak], kind="stable")]
-    n_drop = int(np.searchsorted(np.cumsum(inten[order]), _DROP_TOTAL * total, side="right"))
+    n_drop = int(np.searchsorted(np.cumsum(inten[order]), budget, side="right"))
     keep = np.ones(len(inten), dtype=bool)
     keep[order[:n_drop]] = False
     return keep
