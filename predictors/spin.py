@@ -680,8 +680,8 @@ def _simulate_cluster(cluster: _Cluster, others, nu, j, min_intensity):
         shift = delta @ off.T          # (n_lines, n_states) first-order move of each line
         freq = (freq[:, None] + shift).ravel()
         inten = (inten[:, None] * w[None, :]).ravel()
-        delta = np.repeat(delta, len(w), axis=0)
-        freq, inten, delta = _pool_split_lines(freq, inten, delta, min_intensity)
+        source = np.repeat(np.arange(len(delta)), len(w))
+        freq, inten, delta = _pool_split_lines(freq, inten, delta, min_intensity, source)
     return freq, inten, local[np.argmax(delta, axis=1)] if len(freq) else np.zeros(0, int)
 
 
@@ -701,17 +701,46 @@ def _reduce_states(offsets, weights, max_rows: int = _MAX_SPLIT_STATES):
     return offsets, weights
 
 
-def _pool_split_lines(freq, inten, delta, min_intensity):
-    """Pool lines of the same main site closer than _SPLIT_POOL_HZ (weighted means); drop tiny ones."""
-    keep = inten > min_intensity
-    freq, inten, delta = freq[keep], inten[keep], delta[keep]
+def _group_keys(keys: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Sorted distinct values of non-negative integer keys and each key's position among them.
+
+    Dense key ranges (at most a few times the number of keys) are counted
+    without sorting; sparse ones are sorted once.
+    """
+    top = int(keys.max()) + 1
+    if top <= 4 * keys.size + 1024:
+        uniq = np.flatnonzero(np.bincount(keys, minlength=top))
+        lookup = np.empty(top, dtype=np.intp)
+        lookup[uniq] = np.arange(uniq.size)
+        return uniq, lookup[keys]
+    order = np.argsort(keys)
+    ordered = keys[order]
+    new_group = np.empty(keys.size, dtype=bool)
+    new_group[0] = True
+    np.not_equal(ordered[1:], ordered[:-1], out=new_group[1:])
+    inverse = np.empty(keys.size, dtype=np.intp)
+    inverse[order] = np.cumsum(new_group) - 1
+    return ordered[new_group], inverse
+
+
+def _pool_split_lines(freq, inten, delta, min_intensity, source=None):
+    """Pool lines of the same main site closer than _SPLIT_POOL_HZ (weighted means); drop tiny ones.
+
+    Line i has the change of <Fz> ``delta[source[i]]`` (``delta[i]`` when
+    ``source`` is None), so lines split from one parent need no copies of it.
+    """
+    kept = np.flatnonzero(inten > min_intensity)
+    source = kept if source is None else source[kept]
+    freq, inten = freq[kept], inten[kept]
+    if freq.size == 0:
+        return freq, inten, delta[:0]
     cell = np.round(freq / _SPLIT_POOL_HZ).astype(np.int64)
-    cell -= cell.min() if cell.size else 0
-    keys = np.argmax(delta, axis=1).astype(np.int64) * (int(cell.max(initial=0)) + 1) + cell
-    _, inverse = np.unique(keys, return_inverse=True)
+    cell -= cell.min()
+    keys = np.argmax(delta, axis=1).astype(np.int64)[source] * (int(cell.max()) + 1) + cell
+    _, inverse = _group_keys(keys)
     total = np.bincount(inverse, weights=inten)
-    delta = np.stack([np.bincount(inverse, weights=inten * col) for col in delta.T], axis=1) / total[:, None]
-    return np.bincount(inverse, weights=inten * freq) / total, total, delta
+    pool = sparse.csr_matrix((inten, (inverse, source)), shape=(total.size, len(delta)))
+    return np.bincount(inverse, weights=inten * freq) / total, total, (pool @ delta) / total[:, None]
 
 
 def _merge_lines(freq, inten, site):
@@ -724,14 +753,10 @@ def _merge_lines(freq, inten, site):
         return freq, inten, site
     n_sites = int(site.max()) + 1
     cell = np.round((freq - freq.min()) / _MERGE_TOL_HZ).astype(np.int64)
-    keys = (int(cell.max()) - cell) * n_sites + site
-    order = np.argsort(keys)
-    keys = keys[order]
-    starts = np.flatnonzero(np.diff(keys, prepend=-1))
-    inten = inten[order]
-    total = np.add.reduceat(inten, starts)
-    centre = np.add.reduceat(inten * freq[order], starts) / np.where(total > 0, total, 1.0)
-    return centre, total, keys[starts] % n_sites
+    uniq, inverse = _group_keys((int(cell.max()) - cell) * n_sites + site)
+    total = np.bincount(inverse, weights=inten)
+    centre = np.bincount(inverse, weights=inten * freq) / np.where(total > 0, total, 1.0)
+    return centre, total, uniq % n_sites
 
 
 def _significant(inten, total):
