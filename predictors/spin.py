@@ -512,7 +512,8 @@ def _flip_flop_expectation(block: _Block, vecs, n_pairs):
     """<F+_g F-_h + F-_g F+_h> of every composite-spin pair in every eigenstate, (n_states, n_pairs)."""
     out = np.zeros((vecs.shape[1], n_pairs))
     if block.rows.size:
-        prod = 2.0 * block.coef[:, None] * vecs[block.rows] * vecs[block.cols]
+        prod = np.take(vecs, block.rows, axis=0) * np.take(vecs, block.cols, axis=0)
+        prod *= 2.0 * block.coef[:, None]
         starts = np.flatnonzero(np.diff(block.pair, prepend=-1))
         out[:, block.pair[starts]] = np.add.reduceat(prod, starts, axis=0).T
     return out
@@ -560,12 +561,23 @@ def _isolated_lines_and_states(cluster: _Cluster, nu_local, j_local, min_intensi
 
 
 def _group_rows(values: np.ndarray, weights: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Merge rows equal within 1e-6 (Hz or spin units), adding their weights."""
+    """Merge rows equal within 1e-6 (Hz or spin units), adding their weights.
+
+    Rows are sorted by a hash of their rounded values; neighbours join only
+    when the rounded rows are equal, so a hash collision can at worst leave
+    two equal rows apart (same result, one more state).
+    """
     keys = np.round(values / 1e-6).astype(np.int64)
-    _, first, inverse = np.unique(keys, axis=0, return_index=True, return_inverse=True)
-    total = np.bincount(inverse.ravel(), weights=weights)
+    mult = np.arange(1, keys.shape[1] + 1, dtype=np.uint64) * np.uint64(0x9E3779B97F4A7C15) | np.uint64(1)
+    digest = (keys.view(np.uint64) * mult).sum(axis=1, dtype=np.uint64)
+    order = np.argsort(digest, kind="stable")  # the first of equal rows stands for them
+    ordered = keys[order]
+    new_group = np.ones(len(order), dtype=bool)
+    new_group[1:] = np.any(ordered[1:] != ordered[:-1], axis=1)
+    group = np.cumsum(new_group) - 1
+    total = np.bincount(group, weights=weights[order])
     keep = total > 0
-    return values[first][keep], total[keep]
+    return values[order[new_group]][keep], total[keep]
 
 
 @dataclass(frozen=True)
