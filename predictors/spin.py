@@ -471,7 +471,7 @@ def _subsystem_lines(sub: _Subsystem, nu_local, j_local, states: _States, min_in
     scale = states.scale[:, sub.sites]
     isolated = len(states.weight) == 1 and np.all(scale == 1.0)
     weight = sub.weight * states.weight
-    freqs, intens, deltas = [], [], []
+    freqs, intens, pairs = [], [], []
     for b, op in enumerate(sub.lowering):
         (e_up, v_up), (e_lo, v_lo) = eig[b], eig[b + 1]
         n_lo, n_up = op.shape[1:]
@@ -487,8 +487,14 @@ def _subsystem_lines(sub: _Subsystem, nu_local, j_local, states: _States, min_in
         up_index, lo_index = s * n_up + up, s * n_lo + lo
         freqs.append(np.take(e_up, up_index) - np.take(e_lo, lo_index))
         intens.append(inten[allowed])
-        deltas.append(np.take(fz[b], up_index, axis=0) - np.take(fz[b + 1], lo_index, axis=0))
-    delta = np.concatenate(deltas) if deltas else np.zeros((0, k))
+        pairs.append((up_index, lo_index))
+    delta = np.empty((sum(len(f) for f in freqs), k))
+    start = 0
+    for b, (up_index, lo_index) in enumerate(pairs):  # written in place: no per-pair copies
+        part = delta[start:start + len(up_index)]
+        np.take(fz[b], up_index, axis=0, out=part)
+        part -= np.take(fz[b + 1], lo_index, axis=0)
+        start += len(up_index)
     lines = (np.concatenate(freqs), np.concatenate(intens)) if freqs else (np.zeros(0), np.zeros(0))
     if not want_states:
         return (*lines, delta, None)
@@ -548,7 +554,7 @@ def _isolated_lines_and_states(cluster: _Cluster, nu_local, j_local, min_intensi
     states = _isolated_states(len(nu_local))
     parts = [_subsystem_lines(s, nu_local, j_local, states, min_intensity * scale, want_states)
              for s in cluster.subsystems]
-    lines = tuple(np.concatenate([p[k] for p in parts]) for k in range(3))
+    lines = tuple(parts[0][k] if len(parts) == 1 else np.concatenate([p[k] for p in parts]) for k in range(3))
     if not want_states:
         return (lines[0], lines[1] / scale, lines[2]), None, None
     weights = [np.full(len(p[3][0]), sub.weight / 2.0**n_total)
