@@ -717,7 +717,6 @@ def _sweep_sites(
     n_sweeps: int = 3,
     amounts=None,
     swaps: bool = True,
-    temperatures=None,
 ):
     """Coordinate descent on site shifts: each site, together with its candidate's amount,
     jumps to its least-squares best position within the site's window.
@@ -732,8 +731,6 @@ def _sweep_sites(
     shifts = [s.copy() for s in shifts]
     offsets, _ = _site_offsets(models)
     w = grid.weight
-    if temperatures:
-        n_sweeps = len(temperatures)
     for sweep in range(n_sweeps):
         cols, per_site, _, _ = _components(grid, models, state, shifts, lw_ppm, derivs=False)
         solved, base = _solve_linear(cols, basis, grid)
@@ -741,7 +738,7 @@ def _sweep_sites(
             amounts = solved
         amounts = np.array(amounts, dtype=float)
         resid = (grid.y - amounts @ cols - basis @ base) * w
-        var = max(float(np.mean(resid[w > 0] ** 2)), 1e-300) * (temperatures[sweep] if temperatures else 1.0)
+        var = max(float(np.mean(resid[w > 0] ** 2)), 1e-300)
         moved = 0.0
         for k, m in enumerate(models):
             for s in range(m.shift0.size):
@@ -761,7 +758,7 @@ def _sweep_sites(
                 per_site[offsets[k] + s] = shifted
                 shifts[k][s], amounts[k] = new_shift, new_amount
         swapped = swaps and _swap_sites(grid, models, state, shifts, lw_ppm, basis)
-        if moved < 0.5 * grid.dx_ppm and sweep > 0 and not swapped and not temperatures:
+        if moved < 0.5 * grid.dx_ppm and sweep > 0 and not swapped:
             break
     return shifts
 
