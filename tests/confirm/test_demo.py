@@ -1,4 +1,11 @@
-"""``confirm demo`` on the bundled sample spectra (true composition in sample_spectra/README.md)."""
+"""``confirm demo`` on the bundled sample spectra (true composition in sample_spectra/README.md).
+
+The sample spectra are built from published shifts and couplings (tests/confirm/published_spectra.py),
+while ``confirm`` fits them with its own predicted spin systems, whose shifts differ from the
+published ones by up to ~0.25 ppm and whose couplings by up to several Hz. The tolerances below
+are therefore wider than the synthetic-mixture targets of test_fitting.py, which use the
+published systems themselves.
+"""
 
 from __future__ import annotations
 
@@ -7,8 +14,26 @@ import json
 import pytest
 
 from confirm.commands.demo import sample_files
+from scripts.make_sample_spectra import TRUE_COMPOSITION
 
 E_ANETHOLE = "C/C=C/c1ccc(OC)cc1"
+#: sample_spectra/README.md, "True composition": mole fractions by canonical SMILES
+TRUTH = {
+    "C/C=C/c1ccc(OC)cc1": 0.56,
+    "C/C=C\\c1ccc(OC)cc1": 0.14,
+    "C=CCc1ccc(OC)cc1": 0.06,
+    "COc1ccc(CC(C)O)cc1": 0.09,
+    "COc1ccc(CC(C)Br)cc1": 0.15,
+}
+#: 400 MHz: largest allowed |fitted - true| mole fraction with predicted spin systems
+TOLERANCE_400 = 0.08
+
+
+def test_truth_table_matches_the_generator():
+    from rdkit import Chem
+
+    generated = {Chem.MolToSmiles(Chem.MolFromSmiles(c.smiles)): amount for c, amount in TRUE_COMPOSITION}
+    assert generated == pytest.approx({Chem.MolToSmiles(Chem.MolFromSmiles(s)): v for s, v in TRUTH.items()})
 
 
 def test_sample_files_exist():
@@ -18,15 +43,23 @@ def test_sample_files_exist():
 
 
 @pytest.mark.slow
-def test_demo_json_and_out_dir(run_cli, tmp_path):
+def test_demo_finds_the_true_composition_at_400mhz_and_the_main_product_at_60mhz(run_cli, tmp_path):
     result = run_cli("demo", "--json", "--out", tmp_path)
     assert result.exit_code == 0, result.stderr
+    assert "Traceback" not in result.stderr
     data = json.loads(result.stdout)
     res400 = data["results"]["anisyl_elimination_400mhz"]
-    # true composition (README): (E)-anethole 56 mol % of the crude -> the major product
     assert res400["verdict"]["major"] == E_ANETHOLE
-    e = [c for c in res400["components"] if c["smiles"] == E_ANETHOLE][0]
-    assert e["detected"] and abs(e["mole_fraction"] - 0.56) < 0.05
+    found = {c["smiles"]: c for c in res400["components"]}
+    assert set(found) == set(TRUTH)
+    for smiles, true in TRUTH.items():
+        assert found[smiles]["detected"], smiles
+        assert abs(found[smiles]["mole_fraction"] - true) <= TOLERANCE_400, smiles
+    res60 = data["results"]["anisyl_elimination_60mhz.jdx"]
+    # 60 MHz: (E)-anethole is found. Not yet checked: that it is named the major product (with
+    # predicted couplings the 60 MHz fit still gives the substitution product too large a share).
+    e60 = [c for c in res60["components"] if c["smiles"] == E_ANETHOLE][0]
+    assert e60["detected"] and e60["mole_fraction"] >= 0.3
     assert sorted(p.name for p in tmp_path.glob("*.json")) == [
         "anisyl_elimination_400mhz.json",
         "anisyl_elimination_60mhz.json",
