@@ -483,8 +483,11 @@ def _subsystem_lines(sub: _Subsystem, nu_local, j_local, states: _States, min_in
         inten = np.square(amp, out=amp)
         inten *= weight[:, None, None]
         allowed = inten > min_intensity
-        s, lo, up = np.nonzero(allowed)
-        up_index, lo_index = s * n_up + up, s * n_lo + lo
+        if isolated:
+            lo_index, up_index = np.nonzero(allowed[0])
+        else:
+            s, lo, up = np.nonzero(allowed)
+            up_index, lo_index = s * n_up + up, s * n_lo + lo
         freqs.append(np.take(e_up, up_index) - np.take(e_lo, lo_index))
         intens.append(inten[allowed])
         pairs.append((up_index, lo_index))
@@ -793,14 +796,17 @@ def _merge_lines(freq, inten, site):
 def _significant(inten, total):
     """Mask of lines to keep: drop the weakest (each < 1e-6 of the total) while together < 1e-5."""
     budget = _DROP_TOTAL * total
-    weak = np.flatnonzero(inten < _DROP_FRACTION * total)
+    limit = _DROP_FRACTION * total
     count = 2048
-    while count < weak.size:  # sort only the weakest lines that already exceed the budget together
-        below = weak[inten[weak] < np.partition(inten[weak], count)[count]]
-        if inten[below].sum() > budget:
-            weak = below
+    while count < inten.size:  # sort only the weakest lines that already exceed the budget together
+        cut = np.partition(inten, count)[count]
+        if cut >= limit:
+            break
+        if inten[inten < cut].sum() > budget:
+            limit = cut
             break
         count *= 4
+    weak = np.flatnonzero(inten < limit)
     order = weak[np.argsort(inten[weak], kind="stable")]
     n_drop = int(np.searchsorted(np.cumsum(inten[order]), budget, side="right"))
     keep = np.ones(len(inten), dtype=bool)
