@@ -35,6 +35,9 @@ def register(subparsers, parents) -> None:
         "--field-mhz", type=float, metavar="F", help="spectrometer frequency (peak lists) or override"
     )
     parser.add_argument("--report", metavar="OUT.html", help="also write a self-contained HTML report")
+    from confirm.qnmr import add_yield_arguments
+
+    add_yield_arguments(parser)
     parser.set_defaults(handler=_run)
 
 
@@ -49,23 +52,32 @@ def _run(args: argparse.Namespace) -> int:
             "--candidates: no candidate given; pass --candidates SMILES [SMILES ...] or "
             "--substrate SMILES with --reagent NAME"
         )
-    result = analyze_path(
-        args.spectrum,
-        substrate=args.substrate,
-        reagent=args.reagent,
-        candidates=args.candidates,
-        solvent=args.solvent,
-        temp_c=args.temp_c,
-        field_mhz=args.field_mhz,
-    )
+    from confirm.qnmr import analyze_with_standard, standard_from_args, yield_from_args, yields_to_json
+
+    standard = standard_from_args(args)
+    options = {"substrate": args.substrate, "reagent": args.reagent, "candidates": args.candidates,
+               "solvent": args.solvent, "temp_c": args.temp_c, "field_mhz": args.field_mhz}
+    if standard is None:
+        result = analyze_path(args.spectrum, **options)
+    else:
+        result = analyze_with_standard(args.spectrum, standard, **options)
+    yields = yield_from_args(args, result)
     if args.report:
         from confirm.report_html import write_html_report
 
-        write_html_report(result, args.report)
+        write_html_report(result, args.report, nmr_yield=yields)
     if args.json:
-        emit_json(result.to_json())
+        payload = result.to_json()
+        if yields is not None:
+            payload["nmr_yield"] = yields_to_json(yields, standard)
+        emit_json(payload)
     else:
         print(format_result(result))
+        if yields is not None:
+            from confirm.qnmr import format_yield_rows
+
+            headers, rows = format_yield_rows(yields)
+            print("\nNMR yield (internal standard):\n" + format_table(headers, rows))
         if args.report:
             print(f"\nreport written to {args.report}")
     return 0
@@ -83,7 +95,8 @@ def format_result(result) -> str:
             [
                 c.candidate.label or c.candidate.smiles,
                 ",".join(c.candidate.pathways),
-                f"{100 * c.mole_fraction:.1f} +- {100 * c.mole_fraction_sd:.1f}",
+                (f"{100 * c.mole_fraction:.1f} +- {100 * c.mole_fraction_sd:.1f}" if c.detected
+                 else f"< {100 * c.detection_limit:.1f} (not detected)"),
                 f"{100 * c.detection_limit:.1f}",
                 "yes" if c.detected else "no",
             ]

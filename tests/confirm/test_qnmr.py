@@ -157,8 +157,9 @@ def test_command_line_options_build_the_standard():
 
 
 @pytest.mark.slow
-def test_yield_end_to_end_with_the_standard_fitted(tmp_path):
-    from confirm.qnmr import analyze_with_standard
+def test_yield_end_to_end_through_analyze(tmp_path, run_cli):
+    import json
+
     from tests.confirm.published_spectra import E_ANETHOLE, ESTRAGOLE, Z_ANETHOLE, PublishedCompound
     from tests.confirm.test_qc import _published_jcamp
 
@@ -167,14 +168,18 @@ def test_yield_end_to_end_with_the_standard_fitted(tmp_path):
                             (3.77, 9, "OCH3")), couplings=(), source="from memory")
     # 0.18 mmol (E)- and 0.02 mmol (Z)-anethole with 0.100 mmol standard (16.82 mg, 168.19 g/mol)
     path = _published_jcamp([(E_ANETHOLE, 0.18), (Z_ANETHOLE, 0.02), (tmb, 0.10)], tmp_path / "crude.jdx")
-    standard = InternalStandard(smiles=TMB, n_h=3, mass_mg=16.82)
-    result = analyze_with_standard(path, standard, candidates=[E_ANETHOLE.smiles, Z_ANETHOLE.smiles,
-                                                               ESTRAGOLE.smiles])
-    fitted = {c.candidate.smiles: c for c in result.fit.components}
-    assert fitted[STANDARD].candidate.label == "internal standard" and fitted[STANDARD].detected
-    assert result.parameters["internal_standard"] == STANDARD
-    yields = {y.smiles: y for y in yield_from_result(result, standard, theoretical_mmol=0.25)}
+    report = tmp_path / "crude.html"
+    out = run_cli("analyze", "--spectrum", path, "--candidates", E_ANETHOLE.smiles, Z_ANETHOLE.smiles,
+                  ESTRAGOLE.smiles, "--std-smiles", TMB, "--std-protons", "3", "--std-mass-mg", "16.82",
+                  "--theoretical-mmol", "0.25", "--report", report, "--json")
+    assert out.exit_code == 0, out.stderr
+    payload = json.loads(out.stdout)
+    fitted = {c["smiles"]: c for c in payload["components"]}
+    assert fitted[STANDARD]["label"] == "internal standard" and fitted[STANDARD]["detected"]
+    assert payload["parameters"]["internal_standard"] == STANDARD
+    yields = {y["smiles"]: y for y in payload["nmr_yield"]["products"]}
     e_smiles = E_ANETHOLE.smiles
     # tolerance: the mixture fit's present accuracy on a crude with overlapping aryl/OCH3 signals
-    assert yields[e_smiles].amount_mmol == pytest.approx(0.18, rel=0.10)
-    assert yields[e_smiles].yield_percent == pytest.approx(100 * yields[e_smiles].amount_mmol / 0.25)
+    assert yields[e_smiles]["amount_mmol"] == pytest.approx(0.18, rel=0.10)
+    assert yields[e_smiles]["yield_percent"] == pytest.approx(100 * yields[e_smiles]["amount_mmol"] / 0.25)
+    assert 'id="yield"' in report.read_text(encoding="utf-8")
