@@ -331,12 +331,13 @@ def analyze_with_standard(path, standard: InternalStandard, *, substrate: str | 
     from confirm.processing import ProcessingOptions, process_measurement
     from confirm.reading import PeakList, read_measurement
     from confirm.results import InputRecord
+    from confirm.verdict import STANDARD_LABEL
     from predictors.core import Candidate
 
     cands, notes = build_candidates(substrate=substrate, reagent=reagent, candidates=candidates,
                                     solvent=solvent, temp_c=temp_c)
     if standard.smiles not in {c.smiles for c in cands}:
-        cands = (*cands, Candidate(smiles=standard.smiles, pathways=("user",), label="internal standard",
+        cands = (*cands, Candidate(smiles=standard.smiles, pathways=("user",), label=STANDARD_LABEL,
                                    rationale="weighed internal standard for the NMR yield"))
     raw = read_measurement(path)
     record = InputRecord(path=str(path), sha256=raw.sha256)

@@ -211,6 +211,10 @@ def _confidence(fit, major, ratios, unresolved, detected_products) -> str:
     return "high"
 
 
+#: Label of a candidate that is an internal standard (see confirm.qnmr), not a product.
+STANDARD_LABEL = "internal standard"
+
+
 def decide(
     fit: MixtureFit,
     systems: Sequence[SpinSystem],
@@ -246,7 +250,9 @@ def decide(
         for ss in sites
     ]
     is_sm = ["starting material" in c.pathways for c in candidates]
-    products = [i for i in range(len(candidates)) if not is_sm[i]]
+    # an internal standard added for the NMR yield is fitted but is no product
+    is_standard = [c.label == STANDARD_LABEL for c in candidates]
+    products = [i for i in range(len(candidates)) if not (is_sm[i] or is_standard[i])]
     detected_products = [comps[i] for i in products if comps[i].detected]
     major_i = max(
         (i for i in products if comps[i].detected), key=lambda i: comps[i].mole_fraction, default=None

@@ -121,3 +121,18 @@ def test_overlapped_vinyl_signals_leave_e_z_undecided():
     )
     assert not [r for r in verdict.ratios if r.name == "E:Z"][0].decided
     assert any("higher field" in s for s in verdict.next_steps)
+
+
+def test_internal_standard_is_never_the_major_product():
+    from confirm.verdict import STANDARD_LABEL, decide
+    from predictors.core import Candidate, ComponentFit, MixtureFit
+    from predictors.prediction import predict_spin_system
+
+    alkene = Candidate(smiles="C/C=C/c1ccc(OC)cc1", pathways=("user",))
+    standard = Candidate(smiles="COc1cc(OC)cc(OC)c1", pathways=("user",), label=STANDARD_LABEL)
+    comps = (ComponentFit(alkene, 0.3, 0.01, 0.01, True), ComponentFit(standard, 0.7, 0.01, 0.01, True))
+    fit = MixtureFit(components=comps, ppm=[1.0, 0.0], model=[0.0, 0.0], residual=[0.0, 0.0],
+                     line_width_hz=1.0)
+    systems = [predict_spin_system(c.smiles, n_conformers=1) for c in (alkene, standard)]
+    verdict = decide(fit, systems, [alkene, standard])
+    assert verdict.major == alkene.smiles
