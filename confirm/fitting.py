@@ -493,6 +493,10 @@ def _translated(state: _State, k: int, shifts: np.ndarray):
     return ppm + (shifts - state.base_shift[k])[site], inten, site
 
 
+#: Two-sided 95 % normal quantile.
+Z_95 = 1.959963984540054
+
+
 def _site_offsets(models):
     offsets, total = [], 0
     for m in models:
@@ -1169,6 +1173,44 @@ def _diagnostic_sites(model: _Model) -> list[int]:
     return vinyl or list(range(len(model.labels)))
 
 
+def _upper_bounds(grid, models, per_site, amounts, y_clean, noise_sd, detected) -> np.ndarray:
+    """95 % upper bound of each undetected candidate's amount from its diagnostic signals.
+
+    Each diagnostic site's template is fitted alone to the data left after the detected
+    components; the estimates are combined by inverse variance, where the variance is
+    the noise plus 5 % of the overlapping model (model error of the detected components,
+    common practice). The bound is the estimate (floored at 0) plus 1.96 sd; detected
+    candidates get 0.
+    """
+    offsets, _ = _site_offsets(models)
+    contrib = np.concatenate(
+        [per_site[o : o + m.shift0.size] * a for o, m, a in zip(offsets, models, amounts, strict=True)]
+    )
+    others_all = contrib.sum(0)
+    bounds = np.zeros(len(models))
+    for k, m in enumerate(models):
+        if detected[k]:
+            continue
+        est, weight = [], []
+        others_k = others_all - contrib[offsets[k] : offsets[k] + m.shift0.size].sum(0)
+        for s in _diagnostic_sites(m):
+            t = per_site[offsets[k] + s]
+            sel = (t > 0.05 * t.max()) & (grid.weight > 0) if t.max() > 0 else np.zeros(t.size, bool)
+            if sel.sum() < 3:
+                continue
+            ts, others = t[sel], others_k[sel]
+            tt = float(np.dot(ts, ts))
+            var = noise_sd**2 / tt + (0.05 * float(np.dot(others, ts)) / tt) ** 2
+            est.append(float(np.dot(ts, y_clean[sel] - others)) / tt)
+            weight.append(1.0 / var)
+        if weight:
+            w = np.asarray(weight)
+            bounds[k] = max(0.0, float(np.dot(w, est) / w.sum())) + Z_95 * float(1.0 / np.sqrt(w.sum()))
+        else:
+            bounds[k] = np.inf
+    return bounds
+
+
 def _diagnostic_ok(rows, model: _Model) -> bool:
     """The candidate's own diagnostic signals are there: at least one of them is clearly seen,
     with its own multiplet shape and most of its predicted intensity, where no other component
@@ -1410,6 +1452,11 @@ def _finish(
     sd_up = np.sqrt(np.clip(np.diag(cov_full), 0, None))
     cov_a[~detected, ~detected] = sd_up[~detected] ** 2
     frac, frac_sd, frac_cov, limits = _fractions(np.where(detected, amounts, upper), cov_a, detected, options)
+    bounds = _upper_bounds(grid, models, per_site, amounts, grid.y - basis @ base, noise_eff, detected)
+    with np.errstate(invalid="ignore"):
+        share = bounds / np.maximum(amounts[detected].sum() + bounds, 1e-300)
+    share = np.where(np.isfinite(bounds), share, 1.0)
+    upper_limits = np.maximum(limits, share)
     boot = _bootstrap_fractions(cols, basis, grid, model, resid, options, detected)
     if boot is not None:
         frac_sd = np.where(detected, np.maximum(frac_sd, boot * options.uncertainty_scale), frac_sd)
@@ -1422,6 +1469,7 @@ def _finish(
                 mole_fraction_sd=float(frac_sd[i]),
                 detection_limit=float(limits[i]),
                 detected=bool(detected[i]),
+                upper_limit=None if detected[i] else float(np.clip(upper_limits[i], 0, 1)),
                 refined_shifts_ppm=_refined_shifts(systems[i], models[i], shifts[i]),
                 evidence=_evidence_lines(models, i, systems[i], shifts, djs, rows[i], field),
             )

@@ -333,11 +333,23 @@ def _amount(comp) -> float:
     return comp.mole_fraction if comp.detected else 0.0
 
 
+def _hidden_upper(comp) -> float:
+    """Upper end of an undetected component's fraction.
+
+    The fit's 95 % upper bound from the component's own diagnostic signals when it
+    gives one, else its fitted share plus 1.96 sd; never below its detection limit.
+    A component whose diagnostic signals may be present must not pass as absent.
+    """
+    if getattr(comp, "upper_limit", None) is not None:
+        return max(comp.detection_limit, comp.upper_limit)
+    return max(comp.detection_limit, comp.mole_fraction + Z_95 * comp.mole_fraction_sd)
+
+
 def _below_detection(name: str, limit_text: str, lod: float, limit: float) -> LimitCheck:
-    """Check of a maximum for a component that was not detected: it lies in [0, LOD]."""
+    """Check of a maximum for a component that was not detected: it lies in [0, upper end]."""
     status = decide_interval(0.0, 100 * lod, maximum=limit)
-    reason = ("not detected; its detection limit is within the limit" if status == "PASS" else
-              "not detected, but the spectrum cannot detect it down to the limit")
+    reason = ("not detected; its upper bound is within the limit" if status == "PASS" else
+              "not detected, but the spectrum cannot exclude it down to the limit")
     return LimitCheck(name=name, limit_text=limit_text, status=status, reason=reason,
                       interval=(0.0, 100 * lod), unit="%")
 
@@ -424,7 +436,7 @@ def _purity_check(fit, product_index: int, isomers: list[int], limit: float) -> 
         return _not_measured(name, text, "the expected product was not detected")
     purity, grad = _share_gradient(fit, product_index, group)
     sd = _sd_of(fit, grad)
-    hidden = sum(fit.components[j].detection_limit for j in isomers if j not in seen)
+    hidden = sum(_hidden_upper(fit.components[j]) for j in isomers if j not in seen)
     total = sum(_amount(fit.components[j]) for j in group)
     worst = x_p / (total + hidden)
     return _percent_check(name, text, purity, sd, min(purity - Z_95 * sd, worst), purity + Z_95 * sd,
@@ -445,7 +457,7 @@ def _other_isomer_checks(fit, product_index: int, isomers: list[int], limit: flo
         comp = fit.components[k]
         name = f"other isomer: {comp.candidate.label or comp.candidate.smiles}"
         if not comp.detected:
-            checks.append(_below_detection(name, text, comp.detection_limit / total, limit))
+            checks.append(_below_detection(name, text, _hidden_upper(comp) / total, limit))
             continue
         share, grad = _share_gradient(fit, k, group)
         sd = _sd_of(fit, grad)
@@ -463,7 +475,7 @@ def _starting_material_check(result, spec: QcSpec, limit: float) -> LimitCheck:
     if not indices:
         return _not_measured(name, text, "the starting material was not among the fitted candidates")
     seen = [k for k in indices if fit.components[k].detected]
-    hidden = sum(fit.components[k].detection_limit for k in indices if k not in seen)
+    hidden = sum(_hidden_upper(fit.components[k]) for k in indices if k not in seen)
     if not seen:
         return _below_detection(name, text, hidden, limit)
     value = sum(fit.components[k].mole_fraction for k in seen)

@@ -440,7 +440,7 @@ def _candidates_section(result) -> str:
     for comp in result.fit.components:
         cand = comp.candidate
         amount = (f"{100 * comp.mole_fraction:.1f} ± {100 * comp.mole_fraction_sd:.1f} %" if comp.detected
-                  else f"< {100 * comp.detection_limit:.1f} % (not detected)")
+                  else f"< {100 * (comp.upper_limit or comp.detection_limit):.1f} % (not detected)")
         rows.append((f'<div class="structure">{_structure_svg(cand.smiles)}</div>', _e(_label(cand)),
                      f"<code>{_e(cand.smiles)}</code>", _e(", ".join(cand.pathways)), _e(amount),
                      _e(f"{100 * comp.detection_limit:.1f} %"), "yes" if comp.detected else "no"))

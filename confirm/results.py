@@ -106,6 +106,7 @@ class AnalysisResult:
                 "mole_fraction": comp.mole_fraction,
                 "mole_fraction_sd": comp.mole_fraction_sd,
                 "detection_limit": comp.detection_limit,
+                "upper_limit": comp.upper_limit,
                 "detected": comp.detected,
                 "refined_shifts_ppm": list(comp.refined_shifts_ppm),
                 "evidence": list(comp.evidence),

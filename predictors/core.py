@@ -354,6 +354,9 @@ class ComponentFit:
         Site shifts after refinement (same order as the spin system's sites).
     evidence : tuple of str
         Lines of evidence (observed vs predicted).
+    upper_limit : float or None
+        For an undetected candidate, the 95 % upper bound of its mole fraction
+        (at least the detection limit); None when detected.
     """
 
     candidate: Candidate
@@ -363,8 +366,11 @@ class ComponentFit:
     detected: bool
     refined_shifts_ppm: tuple[float, ...] = ()
     evidence: tuple[str, ...] = ()
+    upper_limit: float | None = None
 
     def __post_init__(self) -> None:
+        if self.upper_limit is not None:
+            _check_finite(self.upper_limit, name="upper_limit", low=0.0, high=1 + 1e-9)
         _check_finite(self.mole_fraction, name="mole_fraction", low=-1e-9, high=1 + 1e-9)
         _check_finite(self.mole_fraction_sd, name="mole_fraction_sd", low=0.0)
         _check_finite(self.detection_limit, name="detection_limit", low=0.0)

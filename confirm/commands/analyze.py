@@ -96,7 +96,7 @@ def format_result(result) -> str:
                 c.candidate.label or c.candidate.smiles,
                 ",".join(c.candidate.pathways),
                 (f"{100 * c.mole_fraction:.1f} +- {100 * c.mole_fraction_sd:.1f}" if c.detected
-                 else f"< {100 * c.detection_limit:.1f} (not detected)"),
+                 else f"< {100 * (c.upper_limit or c.detection_limit):.1f} (not detected)"),
                 f"{100 * c.detection_limit:.1f}",
                 "yes" if c.detected else "no",
             ]

