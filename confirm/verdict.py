@@ -105,6 +105,10 @@ def _sites(evidence: Sequence[str]) -> list[_SiteSeen]:
     return out
 
 
+#: Two-sided 95 % normal quantile.
+_Z_95 = 1.959963984540054
+
+
 def _share(fit: MixtureFit, num: Sequence[int], den: Sequence[int]) -> tuple[float, float]:
     x = np.array([c.mole_fraction if c.detected else 0.0 for c in fit.components])
     a, b = x[list(num)].sum(), x[list(den)].sum()
@@ -118,7 +122,25 @@ def _share(fit: MixtureFit, num: Sequence[int], den: Sequence[int]) -> tuple[flo
     if cov is None:
         sd = np.array([c.mole_fraction_sd for c in fit.components])
         cov = np.diag(sd**2)
-    return float(share), float(np.sqrt(max(0.0, grad @ cov @ grad)))
+    sd = float(np.sqrt(max(0.0, grad @ cov @ grad)))
+    # undetected members may still hold up to their upper bound: the share must allow for it
+    low, high = _share_bounds(fit, num, den, a, b)
+    return float(share), max(sd, (high - low) / (2 * _Z_95))
+
+
+def _share_bounds(fit: MixtureFit, num, den, a: float, b: float) -> tuple[float, float]:
+    """Lowest and highest share when undetected members hold up to their 95 % upper bound."""
+    def hidden(indices):
+        comps = [fit.components[i] for i in indices if not fit.components[i].detected]
+        return sum((c.upper_limit if c.upper_limit is not None else c.detection_limit) for c in comps)
+
+    up_num, up_den = hidden(num), hidden(den)
+    return a / (a + b + up_den), (a + up_num) / (a + up_num + b)
+
+
+def _undecided_by_bounds(share: float, sd: float) -> bool:
+    """A ratio whose 95 % interval spans more than 20 points is not decided by the spectrum."""
+    return 2 * _Z_95 * sd > 0.20
 
 
 def _name(candidate: Candidate) -> str:
@@ -141,6 +163,12 @@ def _ez_ratios(fit, facts, vinyl_overlapped):
         share, sd = _share(fit, e, z)
         decided = True
         name = _name(fit.components[e[0]].candidate)
+        if _undecided_by_bounds(share, sd):
+            decided = False
+            unresolved.append(
+                f"E/Z of {name}: an isomer not detected may still be present up to its upper bound"
+            )
+            steps.append("a spectrum with higher signal-to-noise (more scans) or at higher field")
         if not all(facts[i].vicinal_vinyl_h for i in members):
             decided = False
             unresolved.append(
@@ -173,7 +201,8 @@ def _group_ratio(fit, name, num_label, den_label, num, den):
     if not num or not den or not any(fit.components[i].detected for i in list(num) + list(den)):
         return None
     share, sd = _share(fit, num, den)
-    return RatioEstimate(name=name, numerator=num_label, denominator=den_label, share=share, share_sd=sd)
+    return RatioEstimate(name=name, numerator=num_label, denominator=den_label, share=share, share_sd=sd,
+                         decided=not _undecided_by_bounds(share, sd))
 
 
 def _regio_labels(candidates, facts):
@@ -323,9 +352,13 @@ def _summary(comps, major_i, ratios, confidence, facts) -> str:
         return "None of the candidates is clearly present: the spectrum does not support any of them."
     major = comps[major_i]
     kind = "alkene" if facts[major_i].n_alkenes else "product"
+    hidden = sum(c.upper_limit if c.upper_limit is not None else c.detection_limit
+                 for c in comps if not c.detected and c.candidate.label != STANDARD_LABEL)
+    note = (f"; candidates not detected could together hold up to {100 * hidden:.1f} %"
+            if hidden >= 0.01 else "")
     parts = [
         f"Major {kind}: {_name(major.candidate)} ({100 * major.mole_fraction:.1f} +- "
-        f"{100 * major.mole_fraction_sd:.1f} mol %)."
+        f"{100 * major.mole_fraction_sd:.1f} mol % of the detected components{note})."
     ]
     for r in ratios:
         tag = "" if r.decided else " (not decided by this spectrum)"

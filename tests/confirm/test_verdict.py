@@ -136,3 +136,28 @@ def test_internal_standard_is_never_the_major_product():
     systems = [predict_spin_system(c.smiles, n_conformers=1) for c in (alkene, standard)]
     verdict = decide(fit, systems, [alkene, standard])
     assert verdict.major == alkene.smiles
+
+
+def test_ratio_with_an_undetected_isomer_allows_for_its_upper_bound():
+    from confirm.verdict import decide
+    from predictors.core import Candidate, ComponentFit, MixtureFit
+    from predictors.prediction import predict_spin_system
+
+    e = Candidate(smiles="C/C=C/c1ccc(OC)cc1", pathways=("E2",), geometry="E")
+    z = Candidate(smiles="C/C=C\\c1ccc(OC)cc1", pathways=("E2",), geometry="Z")
+    systems = [predict_spin_system(c.smiles, n_conformers=1) for c in (e, z)]
+
+    def verdict_with(z_upper):
+        comps = (ComponentFit(e, 1.0, 0.0, 0.01, True),
+                 ComponentFit(z, 0.0, 0.0, 0.01, False, upper_limit=z_upper))
+        fit = MixtureFit(components=comps, ppm=[1.0, 0.0], model=[0.0, 0.0], residual=[0.0, 0.0],
+                         line_width_hz=1.0)
+        return decide(fit, systems, [e, z])
+
+    loose = verdict_with(0.30)
+    ratio = next(r for r in loose.ratios if r.name == "E:Z")
+    assert not ratio.decided and ratio.share_sd > 0.05
+    assert "up to 30.0 %" in loose.summary
+    tight = verdict_with(0.005)
+    ratio = next(r for r in tight.ratios if r.name == "E:Z")
+    assert ratio.decided and ratio.share_sd < 0.01
