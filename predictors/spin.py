@@ -448,6 +448,30 @@ def _diagonalise_batch(block: _Block, nu, quad, j_pairs, dj_pairs):
     return np.linalg.eigh(h)
 
 
+#: Blocks whose work (states**3 x neighbour states) reaches this are diagonalised on two
+#: threads (LAPACK releases the GIL); smaller work is not worth a thread.
+_THREADED_BLOCK_WORK = 2_000_000
+
+
+def _diagonalise_blocks(blocks, nu, quad, j_pairs, dj_pairs):
+    """Eigen-decomposition of every Fz block; the large ones on two threads."""
+    work = [b.m.shape[0] ** 3 * nu.shape[0] for b in blocks]
+    big = [i for i, w in enumerate(work) if w >= _THREADED_BLOCK_WORK]
+    if len(big) < 2:
+        return [_diagonalise_batch(b, nu, quad, j_pairs, dj_pairs) for b in blocks]
+    from concurrent.futures import ThreadPoolExecutor
+
+    out = [None] * len(blocks)
+    with ThreadPoolExecutor(max_workers=2) as pool:
+        futures = {i: pool.submit(_diagonalise_batch, blocks[i], nu, quad, j_pairs, dj_pairs) for i in big}
+        for i, b in enumerate(blocks):
+            if i not in futures:
+                out[i] = _diagonalise_batch(b, nu, quad, j_pairs, dj_pairs)
+        for i, fut in futures.items():
+            out[i] = fut.result()
+    return out
+
+
 def _subsystem_lines(sub: _Subsystem, nu_local, j_local, states: _States, min_intensity,
                      want_states: bool = False):
     """Lines of one composite-spin subsystem for every neighbour state (batched).
@@ -463,7 +487,7 @@ def _subsystem_lines(sub: _Subsystem, nu_local, j_local, states: _States, min_in
     quad = states.quad[:, sub.sites]
     j_pairs = j_local[g_first, g_second]
     dj_pairs = states.dj[:, g_first, g_second]
-    eig = [_diagonalise_batch(b, nu, quad, j_pairs, dj_pairs) for b in sub.blocks]
+    eig = _diagonalise_blocks(sub.blocks, nu, quad, j_pairs, dj_pairs)
     # <Fz> of every eigenstate per cluster site: squared eigenvector components against m, (S * n, k)
     to_sites = np.eye(k)[sub.sites]
     fz = [(np.swapaxes(np.square(v), 1, 2) @ (b.m @ to_sites)).reshape(-1, k)
