@@ -36,7 +36,10 @@ def register(subparsers, parents) -> None:
 
 def sample_files() -> list[Path]:
     """Paths of the bundled sample spectra (installed package data or the source tree)."""
-    base = Path(str(resources.files("confirm.sample_spectra")))
+    try:
+        base = Path(str(resources.files("confirm.sample_spectra")))
+    except ModuleNotFoundError:  # running from a source tree: the folder is not a subpackage there
+        base = Path(__file__).resolve().parents[2] / "sample_spectra"
     if not (base / _SAMPLES[0]).exists():
         base = Path(__file__).resolve().parents[2] / "sample_spectra"
     return [base / name for name in _SAMPLES]
