@@ -659,8 +659,9 @@ def _neighbour_states(cluster: _Cluster, others: list[_Cluster], nu, j):
         if not np.any(cross):
             continue
         gap = nu[a][None, :] - nu[other.sites][:, None]
-        with np.errstate(divide="ignore", invalid="ignore"):
-            t = np.where(np.abs(cross) <= _PERTURB_LIMIT * np.abs(gap), cross / gap, 0.0)
+        # t = J / gap where the cut is perturbative; 0 where there is no coupling (even at gap 0)
+        small = (cross != 0) & (np.abs(cross) <= _PERTURB_LIMIT * np.abs(gap))
+        t = np.divide(cross, gap, out=np.zeros_like(cross, dtype=float), where=small)
         kb = len(other.sites)
         z, q, x = other.zq[:, :kb], other.zq[:, kb:2 * kb], other.zq[:, 2 * kb:]
         h1, h2 = np.triu_indices(kb, 1)

@@ -559,3 +559,19 @@ def test_sixty_proton_molecule_simulates():
     assert lines.warnings
     vinyl = np.bincount(lines.site_index, weights=lines.intensity, minlength=31)[:3]
     np.testing.assert_allclose(vinyl, 1.0, atol=0.05)
+
+
+def test_uncoupled_sites_at_equal_shifts_across_a_cut_give_finite_lines():
+    # Two clusters cut apart, with a site of each at exactly the same shift and no coupling
+    # between those two: the zero coupling at zero shift difference must not give 0/0.
+    import warnings
+
+    shifts = np.array([5.10, 5.25, 5.10, 4.95])
+    j = np.zeros((4, 4))
+    for a, b, value in ((0, 1, 10.0), (2, 3, 10.0), (1, 2, 1.0)):
+        j[a, b] = j[b, a] = value
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", RuntimeWarning)
+        lines = simulate_arrays(shifts, j, np.ones(4, dtype=int), field_mhz=500.0, max_cluster_spins=2)
+    assert np.all(np.isfinite(lines.ppm))
+    assert lines.intensity.sum() == pytest.approx(4.0)
