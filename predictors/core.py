@@ -50,17 +50,17 @@ def canonical_smiles(smiles: str) -> str:
     smiles : str
         Any SMILES that RDKit parses.
     """
-    from rdkit import Chem, RDLogger
+    from rdkit import Chem
+
+    from predictors.errors import ChemistryError
+    from predictors.molecules import read_structure
 
     if not isinstance(smiles, str) or not smiles.strip():
         raise InputError(f"smiles: expected a non-empty SMILES string, got {smiles!r}")
-    RDLogger.DisableLog("rdApp.*")
     try:
-        mol = Chem.MolFromSmiles(smiles.strip())
-    finally:
-        RDLogger.EnableLog("rdApp.*")
-    if mol is None:
-        raise InputError(f"smiles: RDKit cannot parse {smiles!r}")
+        mol = read_structure(smiles, name="smiles")
+    except ChemistryError as exc:  # a bad SMILES handed to a core object is bad input
+        raise InputError(str(exc)) from None
     return Chem.MolToSmiles(mol, isomericSmiles=True)
 
 
