@@ -24,6 +24,7 @@ import time  # noqa: E402
 import numpy as np  # noqa: E402
 
 from predictors.spin import plan_clusters, simulate_arrays  # noqa: E402
+from tests.predictors.test_spin import ten_spin_ring  # noqa: E402
 
 
 def _times(func, repeat: int) -> tuple[float, float, float]:
@@ -60,19 +61,6 @@ def _full_matrix_lines(shifts_ppm, j_hz, field_mhz):
     return energy[up] - energy[lo], inten[lo, up]
 
 
-def _ring_cluster():
-    """Ten distinct protons of a substituted cyclohexene-like ring (plausible values)."""
-    shifts = np.array([5.62, 5.70, 2.05, 2.12, 1.62, 1.74, 1.95, 2.20, 1.48, 1.55])
-    j = np.zeros((10, 10))
-    pairs = {(0, 1): 10.2, (0, 2): 3.5, (0, 3): 2.2, (1, 6): 4.0, (1, 7): 2.5, (0, 6): -1.5,
-             (2, 3): -17.5, (2, 4): 6.0, (2, 5): 3.0, (3, 4): 9.5, (3, 5): 5.5,
-             (4, 5): -13.0, (4, 8): 11.0, (4, 9): 3.5, (5, 8): 3.0, (5, 9): 4.0,
-             (8, 9): -13.2, (8, 6): 10.5, (8, 7): 3.2, (9, 6): 3.8, (9, 7): 3.4, (6, 7): -17.8}
-    for (a, b), value in pairs.items():
-        j[a, b] = j[b, a] = value
-    return shifts, j, np.ones(10, dtype=int)
-
-
 def _pentadecene():
     """(E)-pentadec-2-ene, 30 H: CH3-CH=CH-CH2-(CH2)10-CH3 as 15 sites (plausible values)."""
     shifts = [1.64, 5.42, 5.39, 1.97, 1.36] + [1.30, 1.28, 1.27, 1.26, 1.26, 1.26, 1.27, 1.29, 1.31] + [0.88]
@@ -87,7 +75,7 @@ def _pentadecene():
 
 def main() -> None:
     """Run the benchmarks and print their figures."""
-    shifts, j, n = _ring_cluster()
+    shifts, j, n = ten_spin_ring()
     plan = plan_clusters(shifts, j, n, field_mhz=60.0)
     simulate_arrays(shifts, j, n, field_mhz=60.0)  # warm-up
     fast, fast_median, fast_cpu = _times(lambda: simulate_arrays(shifts, j, n, field_mhz=60.0), 15)

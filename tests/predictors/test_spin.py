@@ -282,10 +282,9 @@ def _reference_pipeline(shifts_ppm, j_hz, field_mhz):
     return freq[keep], inten[keep] * n / inten[keep].sum(), np.array([s for s, _ in cells])[keep]
 
 
-@pytest.mark.slow
-def test_ten_spin_ring_matches_plain_reference_pipeline():
-    # the block-diagonal fast path (with its batched, sorted and sparse bookkeeping) against the
-    # plain full 2^10 computation of the same lines: equal to rounding on the rendered spectrum
+def ten_spin_ring():
+    """Ten distinct protons of a substituted cyclohexene-like ring (plausible values), also
+    the strongly coupled cluster of ``benchmarks/bench_spin.py``: shifts, J, protons per site."""
     shifts = np.array([5.62, 5.70, 2.05, 2.12, 1.62, 1.74, 1.95, 2.20, 1.48, 1.55])
     j = np.zeros((10, 10))
     pairs = {(0, 1): 10.2, (0, 2): 3.5, (0, 3): 2.2, (1, 6): 4.0, (1, 7): 2.5, (0, 6): -1.5,
@@ -294,7 +293,15 @@ def test_ten_spin_ring_matches_plain_reference_pipeline():
              (8, 9): -13.2, (8, 6): 10.5, (8, 7): 3.2, (9, 6): 3.8, (9, 7): 3.4, (6, 7): -17.8}
     for (a, b), value in pairs.items():
         j[a, b] = j[b, a] = value
-    lines = simulate_arrays(shifts, j, np.ones(10, int), field_mhz=60.0)
+    return shifts, j, np.ones(10, dtype=int)
+
+
+@pytest.mark.slow
+def test_ten_spin_ring_matches_plain_reference_pipeline():
+    # the block-diagonal fast path (with its batched, sorted and sparse bookkeeping) against the
+    # plain full 2^10 computation of the same lines: equal to rounding on the rendered spectrum
+    shifts, j, n = ten_spin_ring()
+    lines = simulate_arrays(shifts, j, n, field_mhz=60.0)
     ref_hz, ref_int, ref_site = _reference_pipeline(shifts, j, 60.0)
     assert lines.ppm.size == ref_hz.size
     reference = LineList(ppm=ref_hz / 60.0, intensity=ref_int, field_mhz=60.0, site_index=ref_site)
