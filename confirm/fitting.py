@@ -1113,15 +1113,20 @@ def _bootstrap_fractions(cols, basis, grid, model, residual, options, detected_m
 # --------------------------------------------------------------------------------------------
 
 
+def _site_contributions(models, per_site, amounts, offsets) -> np.ndarray:
+    """Each site's model scaled by its molecule's amount, shape (n_sites, n_points)."""
+    return np.concatenate(
+        [per_site[o : o + m.shift0.size] * a for o, m, a in zip(offsets, models, amounts, strict=True)]
+    )
+
+
 def _site_evidence(grid, models, per_site, amounts, y_clean, noise_sd):
     """Per site: (sigma seen, shape match, overlap share, expected height in noise sd, support).
 
     ``support`` is the share of the predicted intensity that the data under the site (minus
     the other components) actually holds: 1 when fully there, 0 when absent."""
     offsets, _ = _site_offsets(models)
-    contrib = np.concatenate(
-        [per_site[o : o + m.shift0.size] * a for o, m, a in zip(offsets, models, amounts, strict=True)]
-    )
+    contrib = _site_contributions(models, per_site, amounts, offsets)
     total = contrib.sum(0)
     out = []
     for k, m in enumerate(models):
@@ -1183,9 +1188,7 @@ def _upper_bounds(grid, models, per_site, amounts, y_clean, noise_sd, detected) 
     candidates get 0.
     """
     offsets, _ = _site_offsets(models)
-    contrib = np.concatenate(
-        [per_site[o : o + m.shift0.size] * a for o, m, a in zip(offsets, models, amounts, strict=True)]
-    )
+    contrib = _site_contributions(models, per_site, amounts, offsets)
     others_all = contrib.sum(0)
     bounds = np.zeros(len(models))
     for k, m in enumerate(models):
