@@ -373,8 +373,15 @@ def _sp3_vicinal(mol, path, conformers) -> tuple[float, float]:
                 tau = _dihedral_deg(conformers.coords, h1, c1, c2, nbr.GetIdx())
             xi = np.where(((tau - phi + 540.0) % 360.0) - 180.0 > 0, -1.0, 1.0)
             subs.append((_group_dchi(mol, nbr, carbon), xi))
-    values = karplus_hla(phi, subs)
-    return float(np.dot(conformers.weights, values)), _sd("sp3_vicinal")
+    if mol.GetBondBetweenAtoms(c1, c2).IsInRing():
+        values = karplus_hla(phi, subs)
+        return float(np.dot(conformers.weights, values)), _sd("sp3_vicinal")
+    # Acyclic bond: the three staggered rotamers are taken as equally populated (free rotation).
+    # Vacuum force-field energies overstate rotamer preferences in solution, and a Boltzmann
+    # average over them put the two 3J of an ArCH2-CHX fragment at ~3 and ~10 Hz where ~5-8 Hz is
+    # observed. Rotating the bond turns every dihedral alike, so the orientation signs stay.
+    values = np.mean([karplus_hla(phi + turn, subs) for turn in (0.0, 120.0, 240.0)], axis=0)
+    return float(np.dot(conformers.weights, values)), _sd("sp3_vicinal_acyclic")
 
 
 def _group_dchi(mol, atom, attached_to: int) -> float:
