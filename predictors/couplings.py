@@ -5,7 +5,9 @@
 * allylic 3J and 4J from the Garbisch dihedral relations;
 * sp3 vicinal 3J from the Haasnoot-de Leeuw-Altona equation, Boltzmann-averaged
   over MMFF conformers (ETKDGv3 embedding, pruned);
-* sp3 geminal 2J by environment; aromatic ortho/meta/para.
+* sp3 geminal 2J by environment; aromatic ortho/meta/para;
+* one-bond 1J(C,H) (positions of the 13C satellites) by hybridisation plus additive
+  substituent terms.
 
 Model values live in ``data/couplings.csv`` with their sources.
 """
@@ -30,6 +32,7 @@ __all__ = [
     "garbisch_vicinal",
     "garbisch_allylic",
     "predict_couplings",
+    "predict_one_bond_ch",
 ]
 
 _RT_KCAL = 0.0019872 * 298.15
@@ -418,3 +421,42 @@ def _five_bond(mol, heavy) -> tuple[float, float]:
         if ring is not None and len(ring) == 6:
             return _c("aromatic_para"), _sd("aromatic_para")
     return 0.0, 0.0
+
+
+# ------------------------------------------------------------------------------ 1J(C,H)
+def predict_one_bond_ch(mol_h: Chem.Mol, h_index: int) -> float:
+    """One-bond 13C-1H coupling (Hz) of the H atom ``h_index``: where its 13C satellites sit.
+
+    sp3 carbons start from 125 Hz and add a term per O, N, halogen or pi neighbour (the additive
+    scheme of tabulated 1J(C,H) values); sp2 and sp carbons take their class value.
+    """
+    atom = mol_h.GetAtomWithIdx(int(h_index))
+    if atom.GetAtomicNum() != 1 or atom.GetDegree() != 1:
+        return _c("jch_sp3")
+    carbon = atom.GetNeighbors()[0]
+    if carbon.GetSymbol() != "C":
+        return 0.0
+    if carbon.GetIsAromatic():
+        return _c("jch_aryl")
+    bonds = [b.GetBondType() for b in carbon.GetBonds()]
+    if Chem.BondType.TRIPLE in bonds:
+        return _c("jch_alkyne")
+    if Chem.BondType.DOUBLE in bonds:
+        return _c("jch_aldehyde") if _is_aldehyde_carbon(carbon) else _c("jch_vinyl")
+    if mol_h.GetRingInfo().IsAtomInRingOfSize(carbon.GetIdx(), 3):
+        return _c("jch_sp3_ring3")
+    value = _c("jch_sp3")
+    for nbr in carbon.GetNeighbors():
+        symbol = nbr.GetSymbol()
+        if symbol == "O":
+            value += _c("jch_sp3_O")
+        elif symbol == "N":
+            value += _c("jch_sp3_N")
+        elif symbol in ("Cl", "Br", "I"):
+            value += _c("jch_sp3_halogen")
+        elif symbol == "F":
+            value += _c("jch_sp3_F")
+        elif symbol == "C" and (nbr.GetIsAromatic() or any(
+                b.GetBondType() != Chem.BondType.SINGLE for b in nbr.GetBonds())):
+            value += _c("jch_sp3_pi")
+    return value

@@ -12,6 +12,7 @@ from predictors.couplings import (
     garbisch_vicinal,
     karplus_hla,
     predict_couplings,
+    predict_one_bond_ch,
 )
 from predictors.equivalence import map_alkene_relations
 from predictors.prediction import predict_spin_system
@@ -110,3 +111,26 @@ def test_diastereotopic_ch2_has_geminal_coupling():
     ch2 = [i for i, s in enumerate(system.sites) if s.label == "CH2"]
     assert len(ch2) == 2
     assert -15.0 <= system.j_hz[ch2[0], ch2[1]] <= -10.0  # sp3 2J -10 to -15 Hz (common practice)
+
+
+@pytest.mark.parametrize(
+    ("smiles", "smarts", "published_hz"),
+    [
+        # 1J(C,H), Pretsch et al. 1J(C,H) table / any 13C NMR text (from memory)
+        ("C", "[CH4]", 125.0),  # methane
+        ("CO", "[CH3]O", 141.0),  # methanol
+        ("COc1ccccc1", "[CH3]O", 143.0),  # anisole OCH3
+        ("CBr", "[CH3]Br", 152.0),  # bromomethane
+        ("ClCCl", "[CH2](Cl)Cl", 178.0),  # dichloromethane
+        ("Cc1ccccc1", "[CH3]c", 126.0),  # toluene CH3
+        ("C=C", "[CH2]=C", 156.0),  # ethylene
+        ("c1ccccc1", "[cH]", 159.0),  # benzene
+        ("CC=O", "[CH1]=O", 172.0),  # acetaldehyde CHO
+        ("C#C", "[CH1]#C", 249.0),  # acetylene
+    ],
+)
+def test_one_bond_ch_coupling_matches_tabulated_values(smiles, smarts, published_hz):
+    mol_h = Chem.AddHs(Chem.MolFromSmiles(smiles))
+    carbon = mol_h.GetSubstructMatch(Chem.MolFromSmarts(smarts))[0]
+    h = next(n.GetIdx() for n in mol_h.GetAtomWithIdx(carbon).GetNeighbors() if n.GetAtomicNum() == 1)
+    assert predict_one_bond_ch(mol_h, h) == pytest.approx(published_hz, abs=3.0)
