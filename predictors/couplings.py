@@ -29,6 +29,7 @@ __all__ = [
     "ConformerSet",
     "embed_conformers",
     "karplus_hla",
+    "karplus_simple",
     "garbisch_vicinal",
     "garbisch_allylic",
     "predict_couplings",
@@ -192,6 +193,12 @@ def karplus_hla(phi_deg, substituents=()) -> np.ndarray:
         arg = xi * phi + np.radians(_c("hla_p6") * abs(dchi))
         j = j + dchi * (_c("hla_p4") + _c("hla_p5") * np.cos(arg) ** 2)
     return j
+
+
+def karplus_simple(phi_deg) -> np.ndarray:
+    """Three-term Karplus curve 3J = A + B cos(phi) + C cos(2 phi) in Hz (no substituent terms)."""
+    phi = np.radians(np.asarray(phi_deg, dtype=float))
+    return _c("karplus_a") + _c("karplus_b") * np.cos(phi) + _c("karplus_c") * np.cos(2 * phi)
 
 
 def garbisch_vicinal(phi_deg) -> np.ndarray:
@@ -382,8 +389,13 @@ def _sp3_vicinal(mol, path, conformers) -> tuple[float, float]:
     # Acyclic bond: the three staggered rotamers are taken as equally populated (free rotation).
     # Vacuum force-field energies overstate rotamer preferences in solution, and a Boltzmann
     # average over them put the two 3J of an ArCH2-CHX fragment at ~3 and ~10 Hz where ~5-8 Hz is
-    # observed. Rotating the bond turns every dihedral alike, so the orientation signs stay.
-    values = np.mean([karplus_hla(phi + turn, subs) for turn in (0.0, 120.0, 240.0)], axis=0)
+    # observed. Rotating the bond turns every dihedral alike, so the orientation signs stay. The
+    # angular part is the three-term Karplus curve whose free-rotation mean is the observed 7.8 Hz
+    # of unsubstituted fragments (the HLA angular part averages to 6.85 Hz and, with its
+    # substituent terms, leaves ethyl groups near 6 Hz where 7.0-7.3 Hz is observed); the HLA
+    # electronegativity terms are added to it.
+    values = np.mean([karplus_simple(phi + turn) + karplus_hla(phi + turn, subs) - karplus_hla(phi + turn)
+                      for turn in (0.0, 120.0, 240.0)], axis=0)
     return float(np.dot(conformers.weights, values)), _sd("sp3_vicinal_acyclic")
 
 

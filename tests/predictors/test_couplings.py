@@ -11,6 +11,7 @@ from predictors.couplings import (
     garbisch_allylic,
     garbisch_vicinal,
     karplus_hla,
+    karplus_simple,
     predict_couplings,
     predict_one_bond_ch,
 )
@@ -134,3 +135,24 @@ def test_one_bond_ch_coupling_matches_tabulated_values(smiles, smarts, published
     carbon = mol_h.GetSubstructMatch(Chem.MolFromSmarts(smarts))[0]
     h = next(n.GetIdx() for n in mol_h.GetAtomWithIdx(carbon).GetNeighbors() if n.GetAtomicNum() == 1)
     assert predict_one_bond_ch(mol_h, h) == pytest.approx(published_hz, abs=3.0)
+
+
+@pytest.mark.parametrize(
+    ("smiles", "observed_hz"),
+    [
+        # vicinal 3J of freely rotating fragments, CDCl3 (literature values, from memory)
+        ("CCO", 7.0),  # ethanol
+        ("CCOC(C)=O", 7.1),  # ethyl acetate
+        ("CCBr", 7.3),  # bromoethane
+        ("CCC", 7.3),  # propane
+        ("CC(C)Br", 6.6),  # 2-bromopropane
+        ("CC(C)O", 6.1),  # 2-propanol
+    ],
+)
+def test_acyclic_vicinal_coupling_is_the_free_rotation_average(smiles, observed_hz):
+    system = predict_spin_system(smiles, n_conformers=4)
+    n = len(system.sites)
+    values = [abs(system.j_hz[i][j]) for i in range(n) for j in range(i + 1, n) if abs(system.j_hz[i][j]) > 3]
+    assert values and all(abs(v - observed_hz) <= 0.8 for v in values)
+    # the curve behind it: 7.8 Hz mean over the three staggered rotamers (references.md section 2)
+    assert np.mean(karplus_simple(np.array([60.0, 180.0, 300.0]))) == pytest.approx(7.8)
