@@ -66,6 +66,7 @@ def predict_spin_system(molecule, *, n_conformers: int = 10, seed: int = 0xC0FFE
     exchangeable = frozenset(h for h, est in shifts.items() if est.exchangeable)
     conformers = embed_conformers(mol_h, n_conformers=int(n_conformers), seed=seed)
     j_atom, sd_atom = predict_couplings(model, conformers, relations, exchangeable=exchangeable)
+    groups = _split_by_partners(mol_h, groups, _rotor_averaged(mol_h, groups, j_atom))
     magnetic = check_magnetic_equivalence(groups, _rotor_averaged(mol_h, groups, j_atom), tol_hz=0.5)
     sites = tuple(_make_site(group, shifts, mag) for group, mag in zip(groups, magnetic, strict=True))
     j_site, sd_site = _site_matrices(groups, j_atom, sd_atom)
@@ -104,6 +105,36 @@ def _site_matrices(groups, j_atom, sd_atom) -> tuple[np.ndarray, np.ndarray]:
             j[a, b] = j[b, a] = round(value, 3) if abs(value) >= 0.05 else 0.0
             sd[a, b] = sd[b, a] = float(np.sqrt(np.mean(sd_atom[block] ** 2)))
     return j, sd
+
+
+def _split_by_partners(mol_h, groups, j_atom: np.ndarray, *, min_j_hz: float = 0.5) -> list[tuple[int, ...]]:
+    """Split a group of equivalent protons into the parts that couple to different partners.
+
+    The two ethyl groups of diethyl ether are equivalent, but each CH2 couples only to its own
+    CH3: one 6H site and one 4H site with a mean coupling would give a 3.5 Hz multiplet instead of
+    the observed 7 Hz quartet and triplet. Protons stay together when they sit on the same carbon,
+    share a coupling partner outside the group, or have no partner at all (a tert-butyl group).
+    Each part keeps the group's shift; the parts are simulated as separate, uncoupled sites.
+    """
+    out = []
+    for group in groups:
+        members = list(group)
+        if len(members) < 2:
+            out.append(tuple(members))
+            continue
+        inside = set(members)
+        partners = {h: {int(x) for x in np.flatnonzero(np.abs(j_atom[h]) >= min_j_hz) if x not in inside}
+                    for h in members}
+        carbon = {h: mol_h.GetAtomWithIdx(h).GetNeighbors()[0].GetIdx() for h in members}
+        parts: list[set[int]] = []
+        for h in members:
+            joined = [p for p in parts if any(
+                carbon[h] == carbon[o] or partners[h] & partners[o] or not (partners[h] or partners[o])
+                for o in p)]
+            merged = {h}.union(*joined)
+            parts = [p for p in parts if p not in joined] + [merged]
+        out.extend(sorted(tuple(sorted(p)) for p in parts))
+    return out
 
 
 def _rotor_averaged(mol_h, groups, j_atom: np.ndarray) -> np.ndarray:

@@ -98,3 +98,33 @@ def test_bad_structures_raise_chemistry_error(smiles, message):
 def test_bad_conformer_count(n):
     with pytest.raises(InputError, match="n_conformers"):
         predict_spin_system("CC", n_conformers=n)
+
+
+@pytest.mark.parametrize(
+    ("smiles", "ch2_shift", "ch3_shift"),
+    [
+        # Gottlieb, Kotlyar, Nudelman, J. Org. Chem. 1997, 62, 7512, Table 1 (CDCl3): diethyl ether
+        # 3.48 (q) / 1.21 (t), triethylamine 2.53 (q) / 1.03 (t), each with J about 7 Hz (from memory)
+        ("CCOCC", 3.48, 1.21),
+        ("CCN(CC)CC", 2.53, 1.03),
+    ],
+)
+def test_equivalent_ethyl_groups_give_a_quartet_and_a_triplet(smiles, ch2_shift, ch3_shift):
+    from predictors.spin import simulate_lines
+
+    system = predict_spin_system(smiles, n_conformers=2)
+    lines = simulate_lines(system, field_mhz=400.0)
+    ppm, inten = np.asarray(lines.ppm), np.asarray(lines.intensity)
+    for centre, n_lines in ((ch2_shift, 4), (ch3_shift, 3)):
+        site_shift = min((s.shift_ppm for s in system.sites), key=lambda x: abs(x - centre))
+        sel = np.abs(ppm - site_shift) < 0.1
+        positions = np.unique(np.round(ppm[sel] * 400.0 / 0.5) * 0.5)  # Hz, merged to 0.5 Hz
+        clusters = np.split(positions, np.flatnonzero(np.diff(positions) > 1.0) + 1)
+        assert len(clusters) == n_lines, (centre, positions)
+        spacing = np.diff([c.mean() for c in clusters])
+        assert np.all(np.abs(spacing - 7.0) < 1.0)
+        weights = [inten[sel][np.abs(ppm[sel] * 400.0 - c.mean()) < 1.0].sum() for c in clusters]
+        binomial = [1, 3, 3, 1] if n_lines == 4 else [1, 2, 1]
+        assert np.allclose(np.array(weights) / weights[0], binomial, rtol=0.1)
+    # a tert-butyl group (no coupling partner) stays one site
+    assert [len(s.atoms) for s in predict_spin_system("CC(C)(C)Cl", n_conformers=1).sites] == [9]
