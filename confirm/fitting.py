@@ -26,12 +26,14 @@ candidate line are part of the model, so none of them can be taken for a product
 
 from __future__ import annotations
 
+import dataclasses
 from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
 from scipy.optimize import least_squares
 
+from confirm._parallel import map_tasks
 from predictors.core import Candidate, ComponentFit, MixtureFit, Spectrum, SpinSystem
 from predictors.errors import FitError, InputError
 
@@ -89,6 +91,9 @@ class FitOptions:
     n_refined_starts : int
         The best starts (by penalised cost on the blurred copy) refined in full; the fit with
         the lowest final cost is kept.
+    n_workers : int
+        Most processes that sweep and refine the starts side by side (forked, POSIX only; never
+        more than the usable cores). The result does not depend on it.
     fit_blur_hz : float or None
         Extra Lorentzian width (Hz) given to data and model alike for the fit itself. Predicted
         couplings can be several Hz off; at full resolution such a multiplet is matched line by
@@ -117,6 +122,7 @@ class FitOptions:
     fit_blur_hz: float | None = None
     n_random_starts: int = 8
     n_refined_starts: int = 6
+    n_workers: int = 2
     uncertainty_scale: float = 1.0
     seed: int = 7
 
@@ -139,6 +145,8 @@ class FitOptions:
             )
         if self.baseline_degree not in (0, 1, 2, 3):
             raise InputError(f"baseline_degree: must be 0-3, got {self.baseline_degree!r}")
+        if isinstance(self.n_workers, bool) or not isinstance(self.n_workers, int) or self.n_workers < 1:
+            raise InputError(f"n_workers: must be a whole number >= 1, got {self.n_workers!r}")
         if self.rounds < 1 or self.n_bootstrap < 0:
             raise InputError("rounds must be >= 1 and n_bootstrap >= 0")
 
@@ -230,6 +238,7 @@ class _Model:
     j_pairs: list  # (a, b) couplings refined
     sp2: np.ndarray  # bool per site (satellite J)
     labels: tuple
+    memo: dict = dataclasses.field(default_factory=dict)  # clusters already simulated (see _model_lines)
 
 
 def _build_model(system: SpinSystem, options: FitOptions) -> _Model:
@@ -282,16 +291,18 @@ def _fold_aa_xx(j: np.ndarray, sites) -> None:
 
 
 def _model_lines(model: _Model, shifts: np.ndarray, j: np.ndarray, field_mhz: float):
-    """Lines of one molecule with 13C satellites: (ppm, intensity, site) arrays."""
-    from predictors.spin import simulate_arrays
+    """Lines of one molecule with 13C satellites: (ppm, intensity, site) arrays.
+
+    Clusters of the spin system already simulated with the same inputs (the coupling
+    derivatives change one coupling at a time) are reused from ``model.memo``."""
+    from predictors.spin import simulate_arrays_reusing
 
     try:
-        lines = simulate_arrays(shifts, j, model.n_h, field_mhz=field_mhz)
+        lines = simulate_arrays_reusing(shifts, j, model.n_h, field_mhz=field_mhz, memo=model.memo)
     except np.linalg.LinAlgError:
         # exactly degenerate sites can stall the eigensolver: nudge them apart by < 0.01 Hz/MHz and retry
-        lines = simulate_arrays(
-            np.asarray(shifts) + 1e-5 * np.arange(len(shifts)), j, model.n_h, field_mhz=field_mhz
-        )
+        nudged = np.asarray(shifts) + 1e-5 * np.arange(len(shifts))
+        lines = simulate_arrays_reusing(nudged, j, model.n_h, field_mhz=field_mhz, memo=model.memo)
     ppm, inten, site = np.asarray(lines.ppm), np.asarray(lines.intensity), np.asarray(lines.site_index)
     half = np.where(model.sp2[site], _J_CH_SP2_HZ, _J_CH_SP3_HZ) / 2.0 / field_mhz
     ppm = np.concatenate([ppm, ppm + half, ppm - half])
@@ -444,27 +455,32 @@ def _render(grid: _Grid, ppm, inten, group, n_groups: int, lw_ppm: float, *, der
     """Sum of Lorentzians per group; optionally d/d(position) and d/d(width) per group.
 
     Each line is evaluated only within +-40 half-widths (the tails beyond carry ~1.6 % of the area
-    for every line alike, so ratios between candidates are unaffected).
+    for every line alike, so ratios between candidates are unaffected). The axis is padded by
+    that span on both sides, so no window needs clipping; the padding is dropped at the end.
     """
     n = grid.x.size
     gamma = lw_ppm / 2
     span = int(np.ceil(40 * gamma / grid.dx_ppm)) + 1
-    centre = np.searchsorted(grid.x, ppm)
-    idx = centre[:, None] + np.arange(-span, span + 1)[None, :]
-    valid = (idx >= 0) & (idx < n)
-    idx = np.clip(idx, 0, n - 1)
-    d = grid.x[idx] - ppm[:, None]
+    width = n + 2 * span + 1
+    pad = grid.dx_ppm * np.arange(1, span + 2)
+    x = np.concatenate([grid.x[0] - pad[:span][::-1], grid.x, grid.x[-1] + pad])
+    idx = (np.searchsorted(grid.x, ppm) + span)[:, None] + np.arange(-span, span + 1)[None, :]
+    d = x[idx] - ppm[:, None]
     den = d * d + gamma * gamma
-    amp = np.where(valid, inten[:, None], 0.0)
+    amp = inten[:, None]
     val = amp * gamma / np.pi / den
-    flat = (idx + n * group[:, None]).ravel()
-    out = np.bincount(flat, weights=val.ravel(), minlength=n * n_groups).reshape(n_groups, n)
+    flat = (idx + width * group[:, None]).ravel()
+
+    def _sum(weights):
+        table = np.bincount(flat, weights=weights.ravel(), minlength=width * n_groups)
+        return np.ascontiguousarray(table.reshape(n_groups, width)[:, span : span + n])
+
+    out = _sum(val)
     if not derivs:
         return out, None, None
-    dpos = np.bincount(flat, weights=(val * 2 * d / den).ravel(), minlength=n * n_groups).reshape(n_groups, n)
+    dpos = _sum(val * 2 * d / den)
     dgam = amp / np.pi * (den - 2 * gamma * gamma) / (den * den)
-    dwidth = np.bincount(flat, weights=(dgam / 2).ravel(), minlength=n * n_groups).reshape(n_groups, n)
-    return out, dpos, dwidth
+    return out, dpos, _sum(dgam / 2)
 
 
 # --------------------------------------------------------------------------------------------
@@ -574,12 +590,13 @@ def _coarse_start(spectrum, models, masks, lw_hz, noise_sd, field_mhz, options):
         models, [m.shift0 for m in models], [np.zeros(len(m.j_pairs)) for m in models], field_mhz
     )
     shifts, amounts = _pursue(grid, models, state, lw_ppm, noise_sd)
-    found = [_sweep_sites(grid, models, state, shifts, lw_ppm, basis, n_sweeps=8)]
     rng = np.random.default_rng(options.seed)
-    starts = [[m.shift0.copy() for m in models]]
+    starts = [shifts, [m.shift0.copy() for m in models]]
     for _ in range(options.n_random_starts):
         starts.append([m.shift0 + rng.standard_normal(m.shift0.size) * m.window / 3.0 for m in models])
-    found += [_sweep_sites(grid, models, state, s, lw_ppm, basis, n_sweeps=8) for s in starts]
+    found = map_tasks(
+        _sweep_task, [(grid, models, state, s, lw_ppm, basis) for s in starts], max_workers=options.n_workers
+    )
     costs = np.array(
         [
             _linear_cost(grid, _components(grid, models, state, s, lw_ppm, derivs=False)[0], basis)
@@ -602,6 +619,12 @@ def _coarse_start(spectrum, models, masks, lw_hz, noise_sd, field_mhz, options):
         if all(np.max(np.abs(flat - np.concatenate(found[j]))) > 2 * grid.dx_ppm for j in kept):
             kept.append(i)
     return [found[i] for i in kept[: max(1, options.n_refined_starts)]]
+
+
+def _sweep_task(task):
+    """One start of :func:`_coarse_start` swept to its local optimum (a task for ``map_tasks``)."""
+    grid, models, state, shifts, lw_ppm, basis = task
+    return _sweep_sites(grid, models, state, shifts, lw_ppm, basis, n_sweeps=8)
 
 
 def _pursue(grid, models, state, lw_ppm, noise_sd):
@@ -784,22 +807,65 @@ class _Projected:
         self.y = self.project(grid.y)
         self.yy = float(np.dot(self.y, self.y))
 
-    def project(self, column: np.ndarray) -> np.ndarray:
-        c = column * self.w
-        return c - self.q @ (self.q.T @ c)
+    def project(self, columns: np.ndarray) -> np.ndarray:
+        """Weighted columns (one, or one per row) minus their baseline part."""
+        c = columns * self.w
+        return c - (c @ self.q) @ self.q.T
 
     def cost(self, projected: np.ndarray) -> float:
-        from scipy.optimize import nnls
+        return self.cost_of(projected @ projected.T, projected @ self.y)
 
-        gram = projected @ projected.T
-        rhs = projected @ self.y
-        scale = np.sqrt(np.clip(np.diag(gram), 0, None))
+    def cost_of(self, gram: np.ndarray, rhs: np.ndarray) -> float:
+        """Cost of one trial from the Gram matrix and right-hand side of its projected columns.
+
+        The unconstrained solution is the non-negative one whenever it has no negative amount;
+        only other trials go through the active-set solver."""
+        return float(self.cost_many(gram[None], rhs[None])[0][0])
+
+    def cost_many(self, grams: np.ndarray, rhs: np.ndarray, zero=None) -> tuple[np.ndarray, np.ndarray]:
+        """:meth:`cost_of` for a batch of trials: Gram matrices (T, K, K), right-hand sides (T, K).
+
+        Returns the costs and the amounts. ``zero`` (bool, K) guesses which amounts are 0 at the
+        optimum; a trial whose reduced solution is non-negative and meets the optimality
+        conditions on those amounts skips the active-set solver too (the solution is unique)."""
+        n_trials, k = rhs.shape
+        scale = np.sqrt(np.clip(np.einsum("tii->ti", grams), 0, None))
         scale[scale == 0] = 1.0
-        g = gram / np.outer(scale, scale) + 1e-12 * np.eye(gram.shape[0])
-        chol = np.linalg.cholesky(g)
-        a, _ = nnls(chol.T, np.linalg.solve(chol, rhs / scale))
+        g = grams / (scale[:, :, None] * scale[:, None, :])
+        g[:, np.arange(k), np.arange(k)] += 1e-12
+        b = rhs / scale
+        a = _solve_batch(g, b)
+        todo = np.flatnonzero(~(a.min(axis=1) >= 0))
+        if todo.size and zero is not None and zero.any() and not zero.all():
+            keep = ~zero
+            reduced = np.zeros((todo.size, k))
+            reduced[:, keep] = _solve_batch(g[np.ix_(todo, keep, keep)], b[todo][:, keep])
+            grad = np.einsum("tij,tj->ti", g[todo], reduced) - b[todo]
+            fine = (reduced.min(axis=1) >= 0) & (grad[:, zero].min(axis=1) >= 0)
+            a[todo[fine]] = reduced[fine]
+            todo = todo[~fine]
+        for t in todo:
+            a[t] = _nnls_gram(g[t], b[t])
         a = a / scale
-        return self.yy - 2 * float(a @ rhs) + float(a @ gram @ a)
+        costs = self.yy - 2 * np.einsum("ti,ti->t", a, rhs) + np.einsum("ti,tij,tj->t", a, grams, a)
+        return costs, a
+
+
+def _solve_batch(g: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Solutions of the systems g[t] a = b[t] (-b where the batch cannot be solved)."""
+    try:
+        return np.linalg.solve(g, b[..., None])[..., 0]
+    except np.linalg.LinAlgError:
+        return -b
+
+
+def _nnls_gram(g: np.ndarray, rhs: np.ndarray) -> np.ndarray:
+    """Non-negative solution of ``g a = rhs`` in the least-squares sense (g positive definite)."""
+    from scipy.optimize import nnls
+
+    chol = np.linalg.cholesky(g)
+    a, _ = nnls(chol.T, np.linalg.solve(chol, rhs))
+    return a
 
 
 def _swap_sites(grid, models, state, shifts, lw_ppm, basis) -> bool:
@@ -807,45 +873,169 @@ def _swap_sites(grid, models, state, shifts, lw_ppm, basis) -> bool:
 
     Coordinate moves cannot undo a swap (two similar multiplets each taken by the wrong
     molecule): moving either site alone makes the fit worse. Shifts are updated in place.
+    Pairs are tried in a fixed order and each one that lowers the cost is taken at once (see
+    :class:`_SwapPass`, which costs the trials in batches).
     """
-    offsets, _ = _site_offsets(models)
     cols, per_site, _, _ = _components(grid, models, state, shifts, lw_ppm, derivs=False)
-    proj = _Projected(grid, basis)
-    projected = np.array([proj.project(c) for c in cols])
-    cost = proj.cost(projected)
-    min_sep = 2 * grid.dx_ppm
-    any_swap = False
-    for k in range(len(models)):
-        for k2 in range(k, len(models)):
-            m, m2 = models[k], models[k2]
-            for s in range(m.shift0.size):
-                for s2 in range(s + 1 if k2 == k else 0, m2.shift0.size):
-                    a, b = shifts[k][s], shifts[k2][s2]
-                    if (
-                        abs(a - b) < min_sep
-                        or abs(b - m.shift0[s]) > m.window[s]
-                        or abs(a - m2.shift0[s2]) > m2.window[s2]
-                    ):
-                        continue
-                    u = _translate_column(grid, per_site[offsets[k] + s], b - a)
-                    u2 = _translate_column(grid, per_site[offsets[k2] + s2], a - b)
-                    trial = cols.copy()
-                    trial[k] = trial[k] + u - per_site[offsets[k] + s]
-                    trial[k2] = trial[k2] + u2 - per_site[offsets[k2] + s2]
-                    trial_p = projected.copy()
-                    trial_p[k], trial_p[k2] = proj.project(trial[k]), proj.project(trial[k2])
-                    new_cost = proj.cost(trial_p)
-                    if new_cost < cost * (1 - 1e-6):
-                        cost, cols, projected = new_cost, trial, trial_p
-                        per_site[offsets[k] + s], per_site[offsets[k2] + s2] = u, u2
-                        shifts[k][s], shifts[k2][s2] = b, a
-                        any_swap = True
-            if k2 != k:
-                swapped, cost, cols, projected = _swap_groups(
-                    grid, models, per_site, shifts, (k, k2), (cols, projected, cost), proj
-                )
-                any_swap = any_swap or swapped
-    return any_swap
+    return _SwapPass(grid, models, per_site, shifts, _Projected(grid, basis), cols).run()
+
+
+class _SwapPass:
+    """One pass of pairwise swaps over every pair of sites (same molecule or two molecules).
+
+    The sequential rule (walk the pairs in a fixed order, take each swap that lowers the cost by
+    more than 1e-6 of it, and after the pairs of two molecules their block swap, see
+    :func:`_swap_groups`) is kept, but the trials are costed in small batches against the current
+    state: the first one that improves is taken and the walk goes on after it. Projections are
+    linear, so a trial's projected column is the current one plus the projected moved site minus
+    the projected old site; moved sites are kept until their site changes.
+    """
+
+    def __init__(self, grid, models, per_site, shifts, proj: _Projected, cols):
+        self.grid, self.models, self.per_site, self.shifts, self.proj = grid, models, per_site, shifts, proj
+        self.offsets, _ = _site_offsets(models)
+        self.blocks = [(k, k2) for k in range(len(models)) for k2 in range(k, len(models))]
+        self.pairs = _pair_table(models, self.blocks, self.offsets)
+        self.shift0 = np.concatenate([m.shift0 for m in models])
+        self.window = np.concatenate([m.window for m in models])
+        self.flat = np.concatenate(shifts)
+        self.cols = cols
+        self._set_columns(proj.project(cols))
+        self.p_site = proj.project(per_site)
+        self.version = np.zeros(len(per_site), dtype=int)
+        self.moved = {}
+
+    def _set_columns(self, projected) -> None:
+        self.projected = projected
+        self.gram, self.rhs = projected @ projected.T, projected @ self.proj.y
+        costs, amounts = self.proj.cost_many(self.gram[None], self.rhs[None])
+        self.cost, self.zero = float(costs[0]), amounts[0] == 0
+
+    def _open(self, start: int) -> np.ndarray:
+        """Rows of the pair table from ``start`` on whose two sites may swap now."""
+        block, _, _, i, i2 = self.pairs[start:].T
+        a, c = self.flat[i], self.flat[i2]
+        ok = (
+            (np.abs(a - c) >= 2 * self.grid.dx_ppm)
+            & (np.abs(c - self.shift0[i]) <= self.window[i])
+            & (np.abs(a - self.shift0[i2]) <= self.window[i2])
+        )
+        return start + np.flatnonzero(ok)
+
+    def run(self) -> bool:
+        any_swap, row, block, size = False, 0, 0, 8
+        while True:
+            open_rows = self._open(row)
+            if open_rows.size == 0:
+                grouped = self._swap_blocks(block, len(self.blocks))
+                if grouped is None:
+                    return any_swap
+                any_swap, block = True, grouped + 1
+                row, size = int(np.searchsorted(self.pairs[:, 0], block)), 8
+                continue
+            chunk = open_rows[:size]
+            costs, parts = self._evaluate(chunk)
+            better = np.flatnonzero(costs < self.cost * (1 - 1e-6))
+            last = int(better[0]) if better.size else len(chunk) - 1
+            grouped = self._swap_blocks(block, int(self.pairs[chunk[last], 0]))
+            if grouped is not None:  # a block swap came first: go on after that block
+                any_swap, block = True, grouped + 1
+                row, size = int(np.searchsorted(self.pairs[:, 0], block)), 8
+                continue
+            block, row = int(self.pairs[chunk[last], 0]), int(chunk[last]) + 1
+            if better.size:
+                self._accept(chunk[last], [part[last] for part in parts], costs[last])
+                any_swap, size = True, 8
+            else:
+                size = min(2 * size, 64)
+
+    def _swap_blocks(self, start: int, stop: int):
+        """Block swaps of blocks start..stop-1 in order; the first one taken, or None."""
+        return next((b for b in range(start, stop) if self._swap_block(b)), None)
+
+    def _moved(self, rows):
+        """Moved site columns and their projections for each pair, (u, u2, pu, pu2)."""
+        keys, missing = [], []
+        for i, i2 in self.pairs[rows, 3:]:
+            key = (i, i2, self.flat[i], self.flat[i2], self.version[i], self.version[i2])
+            if key not in self.moved:
+                missing.append(key)
+            keys.append(key)
+        if missing:
+            cols = [
+                _translate_column(self.grid, self.per_site[j], d)
+                for i, i2, a, c, _, _ in missing
+                for j, d in ((i, c - a), (i2, a - c))
+            ]
+            projected = self.proj.project(np.array(cols))
+            for j, key in enumerate(missing):
+                self.moved[key] = (cols[2 * j], cols[2 * j + 1], projected[2 * j], projected[2 * j + 1])
+        return [self.moved[key] for key in keys]
+
+    def _evaluate(self, rows):
+        moved = self._moved(rows)
+        _, k, k2, i, i2 = self.pairs[rows].T
+        pu, pu2 = np.array([m[2] for m in moved]), np.array([m[3] for m in moved])
+        same = (k == k2)[:, None]
+        p_new = self.projected[k] + pu - self.p_site[i]
+        p_new = np.where(same, p_new + pu2 - self.p_site[i2], p_new)
+        p_new2 = np.where(same, p_new, self.projected[k2] + pu2 - self.p_site[i2])
+        t = np.arange(len(rows))
+        grams = np.repeat(self.gram[None], len(rows), axis=0)
+        rhs = np.repeat(self.rhs[None], len(rows), axis=0)
+        for kk, pk in ((k, p_new), (k2, p_new2)):
+            cross = pk @ self.projected.T
+            grams[t, kk, :] = cross
+            grams[t, :, kk] = cross
+            rhs[t, kk] = pk @ self.proj.y
+        grams[t, k, k] = np.einsum("ti,ti->t", p_new, p_new)
+        grams[t, k2, k2] = np.einsum("ti,ti->t", p_new2, p_new2)
+        grams[t, k, k2] = grams[t, k2, k] = np.einsum("ti,ti->t", p_new, p_new2)
+        costs, amounts = self.proj.cost_many(grams, rhs, self.zero)
+        return costs, (p_new, p_new2, grams, rhs, moved, amounts)
+
+    def _accept(self, row: int, part, cost: float) -> None:
+        _, k, k2, i, i2 = (int(v) for v in self.pairs[row])
+        u, u2, pu, pu2 = part[4]
+        new = self.cols[k] + u - self.per_site[i]
+        if k2 == k:
+            new = new + u2 - self.per_site[i2]
+        new2 = new if k2 == k else self.cols[k2] + u2 - self.per_site[i2]
+        self.cols[k], self.cols[k2] = new, new2
+        self.projected[k], self.projected[k2] = part[0], part[1]
+        self.gram, self.rhs, self.cost, self.zero = part[2], part[3], float(cost), part[5] == 0
+        self.per_site[i], self.per_site[i2] = u, u2
+        self.p_site[i], self.p_site[i2] = pu, pu2
+        self.version[[i, i2]] += 1
+        s, s2 = i - self.offsets[k], i2 - self.offsets[k2]
+        self.shifts[k][s], self.shifts[k2][s2] = self.shifts[k2][s2], self.shifts[k][s]
+        self.flat[i], self.flat[i2] = self.flat[i2], self.flat[i]
+
+    def _swap_block(self, block: int) -> bool:
+        k, k2 = self.blocks[block]
+        if k == k2:
+            return False
+        current = (self.cols, self.projected, self.cost)
+        swapped, _, cols, projected = _swap_groups(
+            self.grid, self.models, self.per_site, self.shifts, (k, k2), current, self.proj
+        )
+        if swapped:
+            self.cols = cols
+            self._set_columns(projected)
+            self.p_site = self.proj.project(self.per_site)
+            self.version += 1
+            self.flat = np.concatenate(self.shifts)
+        return swapped
+
+
+def _pair_table(models, blocks, offsets) -> np.ndarray:
+    """Every site pair in swap order: rows (block, k, k2, site index, other site index)."""
+    rows = []
+    for b, (k, k2) in enumerate(blocks):
+        for s in range(models[k].shift0.size):
+            for s2 in range(s + 1 if k2 == k else 0, models[k2].shift0.size):
+                rows.append((b, k, k2, offsets[k] + s, offsets[k2] + s2))
+    return np.array(rows, dtype=int).reshape(-1, 5)
 
 
 def _swap_groups(grid, models, per_site, shifts, pair, current, proj):
@@ -955,6 +1145,7 @@ class _Problem:
         self.n_sites = sum(m.shift0.size for m in models)
         self.n_dj = sum(len(m.j_pairs) for m in models)
         self.k = len(models)
+        self._last = (None, None)  # (theta bytes, columns with derivatives) of the last evaluation
 
     def unpack(self, theta):
         shifts, pos = [], 0
@@ -981,14 +1172,22 @@ class _Problem:
                 cols[k] += (djs[k] - self.state.dj[k]) @ self.jcols[k]
         return cols, per_site, dpos, dw
 
+    def _columns_with_derivs(self, theta):
+        """:meth:`columns` with derivatives, kept for the next call at the same theta (the solver
+        asks for the Jacobian where it has just taken the residual)."""
+        key = np.asarray(theta, dtype=float).tobytes()
+        if self._last[0] != key:
+            self._last = (key, self.columns(theta, derivs=True))
+        return self._last[1]
+
     def residual(self, theta):
         _, _, _, amounts, base = self.unpack(theta)
-        cols, _, _, _ = self.columns(theta, derivs=False)
+        cols, _, _, _ = self._columns_with_derivs(theta)
         return (amounts @ cols + self.basis @ base - self.grid.y) * self.grid.weight
 
     def jacobian(self, theta):
         _, _, _, amounts, _ = self.unpack(theta)
-        cols, _, dpos, dw = self.columns(theta, derivs=True)
+        cols, _, dpos, dw = self._columns_with_derivs(theta)
         site_amount = np.concatenate(
             [np.full(m.shift0.size, a) for m, a in zip(self.models, amounts, strict=True)]
         )
@@ -1354,11 +1553,8 @@ def fit_mixture(
         raise FitError("spectrum: no signal above 5x the noise where the candidates have signals")
     basis = _baseline_basis(grid, options.baseline_degree)
     # the best few starts are refined in full; the lowest final cost wins
-    fits = [
-        _refine_rounds(grid, models, start, lw, basis, field, options, rounds=options.rounds)
-        for start in _coarse_start(spectrum, models, masks, lw, noise, field, options)
-    ]
-    problem, result = min(fits, key=lambda f: f[1].cost)
+    starts = _coarse_start(spectrum, models, masks, lw, noise, field, options)
+    problem, result = _refine_starts(grid, models, starts, lw, basis, field, options)
     return _finish(
         spectrum,
         systems,
@@ -1376,18 +1572,47 @@ def fit_mixture(
     )
 
 
-def _refine_rounds(grid, models, shifts, lw, basis, field, options, *, rounds: int, djs=None):
-    """Sweeps (optional) and nonlinear refinement from one start, re-simulating between rounds."""
-    djs = djs if djs is not None else [np.zeros(len(m.j_pairs)) for m in models]
-    for _ in range(rounds):
+#: After the first refinement round, starts whose cost exceeds the best one's this many times are
+#: dropped: one re-simulation round changes a cost by well under a third.
+_ROUND_KEEP_FACTOR = 2.0
+
+
+def _refine_starts(grid, models, starts, lw, basis, field, options):
+    """Refine every start (re-simulating between rounds); the lowest final cost wins.
+
+    Returns (problem, result) of the winner. Starts far behind the best after a round are not
+    refined further (see ``_ROUND_KEEP_FACTOR``)."""
+    tasks = [
+        (grid, models, shifts, [np.zeros(len(m.j_pairs)) for m in models], lw, basis, field, options)
+        for shifts in starts
+    ]
+    for round_ in range(options.rounds):
+        outs = map_tasks(_refine_task, tasks, max_workers=options.n_workers)
+        problems = [_Problem(grid, models, state, basis, field, jcols) for state, jcols, _ in outs]
+        results = [r for _, _, r in outs]
+        if round_ == options.rounds - 1:
+            break
+        best = min(r.cost for r in results)
+        tasks = []
+        for problem, result in zip(problems, results, strict=True):
+            if result.cost > _ROUND_KEEP_FACTOR * best:
+                continue
+            shifts, djs, lw_fit, _, _ = problem.unpack(result.x)
+            shifts, djs = [s.copy() for s in shifts], [d.copy() for d in djs]
+            tasks.append((grid, models, shifts, djs, lw_fit, basis, field, options))
+    i = int(np.argmin([r.cost for r in results]))
+    return problems[i], results[i]
+
+
+def _refine_task(task):
+    """One refinement round from one start (a task for ``map_tasks``): (state, jcols, result)."""
+    grid, models, shifts, djs, lw, basis, field, options = task
+    state = _simulate_all(models, shifts, djs, field)
+    if options.fine_sweeps:
+        shifts = _sweep_sites(grid, models, state, shifts, lw / field, basis, n_sweeps=2)
         state = _simulate_all(models, shifts, djs, field)
-        if options.fine_sweeps:
-            shifts = _sweep_sites(grid, models, state, shifts, lw / field, basis, n_sweeps=2)
-            state = _simulate_all(models, shifts, djs, field)
-        problem, result = _refine(grid, models, state, shifts, djs, lw, basis, field, options)
-        shifts, djs, lw, _, _ = problem.unpack(result.x)
-        shifts, djs = [s.copy() for s in shifts], [d.copy() for d in djs]
-    return problem, result
+    problem, result = _refine(grid, models, state, shifts, djs, lw, basis, field, options)
+    return state, problem.jcols, result
 
 
 def _fit_blur_hz(options: FitOptions, field_mhz: float) -> float:

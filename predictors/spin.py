@@ -49,6 +49,7 @@ __all__ = [
     "render_lines",
     "render_sites",
     "simulate_arrays",
+    "simulate_arrays_reusing",
     "simulate_lines",
 ]
 
@@ -79,6 +80,8 @@ _PERTURB_LIMIT = 0.25
 # offsets each, and split lines of one site closer than this are pooled.
 _MAX_SPLIT_STATES = 16
 _SPLIT_POOL_HZ = 0.005
+# Clusters kept by simulate_arrays_reusing before its memo is emptied.
+_MEMO_LIMIT = 4096
 
 
 @dataclass(frozen=True)
@@ -705,6 +708,29 @@ def _split_neighbours(sets, cluster: _Cluster):
     return exact, sets[len(exact):]
 
 
+def _simulate_clusters_reusing(plan_clusters, nu, j, n, min_intensity, memo: dict):
+    """Lines of every cluster (as in simulate_arrays), looked up in ``memo`` by exact inputs."""
+    keys, clusters = [], []
+    for sites in plan_clusters:
+        local = np.array(sites)
+        key = ("prepared", tuple(sites), nu[local].tobytes(), j[np.ix_(local, local)].tobytes(),
+               n[local].tobytes(), bool(np.any(np.delete(j[local], local, axis=1))), min_intensity)
+        if key not in memo:
+            memo[key] = _prepare_cluster(sites, nu, j, n, min_intensity)
+        keys.append(key)
+        clusters.append(memo[key])
+    parts = []
+    for c, key in zip(clusters, keys, strict=True):
+        coupled = tuple((k2, j[np.ix_(o.sites, c.sites)].tobytes())
+                        for o, k2 in zip(clusters, keys, strict=True)
+                        if o is not c and np.any(j[np.ix_(o.sites, c.sites)]))
+        full = ("lines", key, coupled)
+        if full not in memo:
+            memo[full] = _simulate_cluster(c, [o for o in clusters if o is not c], nu, j, min_intensity)
+        parts.append(memo[full])
+    return parts
+
+
 def _simulate_cluster(cluster: _Cluster, others, nu, j, min_intensity):
     local = cluster.sites
     k = len(local)
@@ -875,6 +901,38 @@ def simulate_arrays(shifts_ppm, j_hz, n_protons, *, field_mhz: float, max_cluste
         Non-symmetric or non-finite couplings, bad shifts, proton counts,
         field or options.
     """
+    return _simulate(shifts_ppm, j_hz, n_protons, field_mhz, max_cluster_spins, cluster_ratio, None)
+
+
+def simulate_arrays_reusing(shifts_ppm, j_hz, n_protons, *, field_mhz: float, memo: dict,
+                            max_cluster_spins: int = 12, cluster_ratio: float = 0.05) -> LineList:
+    """:func:`simulate_arrays`, reusing the clusters of earlier calls that shared ``memo``.
+
+    For callers that simulate one molecule many times with a few values changed (a coupling
+    nudged to take a derivative): a cluster whose sites, shifts, couplings and proton counts,
+    and those of the clusters it is coupled to, are bitwise equal to an earlier one's is not
+    diagonalised again, so the lines are identical to :func:`simulate_arrays`'.
+
+    Parameters
+    ----------
+    shifts_ppm, j_hz, n_protons, field_mhz, max_cluster_spins, cluster_ratio
+        As for :func:`simulate_arrays`.
+    memo : dict
+        Owned by the caller; start with an empty dict and pass the same one to related calls.
+        It is emptied when it grows past a few thousand clusters.
+
+    Returns
+    -------
+    LineList
+    """
+    if not isinstance(memo, dict):
+        raise InputError(f"memo: expected a dict, got {type(memo).__name__}")
+    if len(memo) > _MEMO_LIMIT:
+        memo.clear()
+    return _simulate(shifts_ppm, j_hz, n_protons, field_mhz, max_cluster_spins, cluster_ratio, memo)
+
+
+def _simulate(shifts_ppm, j_hz, n_protons, field_mhz, max_cluster_spins, cluster_ratio, memo) -> LineList:
     field = _check_field(field_mhz)
     shifts, j, n = _check_arrays(shifts_ppm, j_hz, n_protons)
     max_spins, ratio = _check_options(max_cluster_spins, cluster_ratio)
@@ -882,9 +940,12 @@ def simulate_arrays(shifts_ppm, j_hz, n_protons, *, field_mhz: float, max_cluste
     plan = _plan(nu, j, n, max_spins, ratio)
     total = float(n.sum())
     min_intensity = 1e-3 * _DROP_FRACTION * total
-    clusters = [_prepare_cluster(c, nu, j, n, min_intensity) for c in plan.clusters]
-    parts = [_simulate_cluster(c, [o for o in clusters if o is not c], nu, j, min_intensity)
-             for c in clusters]
+    if memo is None:
+        clusters = [_prepare_cluster(c, nu, j, n, min_intensity) for c in plan.clusters]
+        parts = [_simulate_cluster(c, [o for o in clusters if o is not c], nu, j, min_intensity)
+                 for c in clusters]
+    else:
+        parts = _simulate_clusters_reusing(plan.clusters, nu, j, n, min_intensity, memo)
     freq = np.concatenate([p[0] for p in parts])
     inten = np.concatenate([p[1] for p in parts])
     site = np.concatenate([p[2] for p in parts]).astype(int)
