@@ -33,7 +33,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.optimize import least_squares
 
-from confirm._parallel import map_tasks
+from confirm._parallel import TaskPool
 from predictors.core import Candidate, ComponentFit, MixtureFit, Spectrum, SpinSystem
 from predictors.errors import FitError, InputError
 
@@ -291,7 +291,7 @@ def _fold_aa_xx(j: np.ndarray, sites) -> None:
 
 
 def _model_lines(model: _Model, shifts: np.ndarray, j: np.ndarray, field_mhz: float):
-    """Lines of one molecule with 13C satellites: (ppm, intensity, site) arrays.
+    """Lines of one molecule with 13C satellites: (ppm, intensity, site, is satellite) arrays.
 
     Clusters of the spin system already simulated with the same inputs (the coupling
     derivatives change one coupling at a time) are reused from ``model.memo``."""
@@ -309,7 +309,8 @@ def _model_lines(model: _Model, shifts: np.ndarray, j: np.ndarray, field_mhz: fl
     inten = np.concatenate(
         [inten * (1 - 2 * SATELLITE_SHARE), inten * SATELLITE_SHARE, inten * SATELLITE_SHARE]
     )
-    return ppm, inten, np.concatenate([site, site, site])
+    satellite = np.arange(ppm.size) >= site.size
+    return ppm, inten, np.concatenate([site, site, site]), satellite
 
 
 def _j_matrix(model: _Model, dj: np.ndarray) -> np.ndarray:
@@ -451,36 +452,61 @@ def _baseline_basis(grid: _Grid, degree: int) -> np.ndarray:
 # --------------------------------------------------------------------------------------------
 
 
-def _render(grid: _Grid, ppm, inten, group, n_groups: int, lw_ppm: float, *, derivs: bool):
+#: Half-widths either side of a line over which it is drawn; 13C satellites (0.55 % each) are drawn
+#: over the nearer span (their tails beyond hold under 0.04 % of the parent's area).
+_FAR_HALF_WIDTHS = 40
+_NEAR_HALF_WIDTHS = 10
+
+
+def _render(grid: _Grid, ppm, inten, group, n_groups: int, lw_ppm: float, *, derivs: bool, near=None):
     """Sum of Lorentzians per group; optionally d/d(position) and d/d(width) per group.
 
     Each line is evaluated only within +-40 half-widths (the tails beyond carry ~1.6 % of the area
-    for every line alike, so ratios between candidates are unaffected). The axis is padded by
-    that span on both sides, so no window needs clipping; the padding is dropped at the end.
+    for every line alike, so ratios between candidates are unaffected); lines flagged in ``near``
+    (13C satellites) within +-10. The axis is padded by the span on both sides, so no window
+    needs clipping; the padding is dropped at the end.
     """
     n = grid.x.size
     gamma = lw_ppm / 2
-    span = int(np.ceil(40 * gamma / grid.dx_ppm)) + 1
+    span = int(np.ceil(_FAR_HALF_WIDTHS * gamma / grid.dx_ppm)) + 1
     width = n + 2 * span + 1
     pad = grid.dx_ppm * np.arange(1, span + 2)
     x = np.concatenate([grid.x[0] - pad[:span][::-1], grid.x, grid.x[-1] + pad])
-    idx = (np.searchsorted(grid.x, ppm) + span)[:, None] + np.arange(-span, span + 1)[None, :]
+    centre = np.searchsorted(grid.x, ppm) + span
+    near = np.zeros(ppm.size, bool) if near is None else np.asarray(near, bool)
+    short = int(np.ceil(_NEAR_HALF_WIDTHS * gamma / grid.dx_ppm)) + 1
+    parts = [
+        _line_values(x, centre[sel], ppm[sel], inten[sel], group[sel], gamma, reach, width, derivs)
+        for sel, reach in ((~near, span), (near, short))
+        if sel.any()
+    ]
+    if not parts:
+        zero = np.zeros((n_groups, n))
+        return zero, (zero.copy() if derivs else None), (zero.copy() if derivs else None)
+    flat = np.concatenate([p[0] for p in parts])
+
+    def _sum(i):
+        weights = np.concatenate([p[i] for p in parts])
+        table = np.bincount(flat, weights=weights, minlength=width * n_groups)
+        return np.ascontiguousarray(table.reshape(n_groups, width)[:, span : span + n])
+
+    if not derivs:
+        return _sum(1), None, None
+    return _sum(1), _sum(2), _sum(3)
+
+
+def _line_values(x, centre, ppm, inten, group, gamma: float, span: int, width: int, derivs: bool):
+    """Flat table positions and Lorentzian values (and derivatives) of lines within +-span points."""
+    idx = centre[:, None] + np.arange(-span, span + 1)[None, :]
     d = x[idx] - ppm[:, None]
     den = d * d + gamma * gamma
     amp = inten[:, None]
     val = amp * gamma / np.pi / den
     flat = (idx + width * group[:, None]).ravel()
-
-    def _sum(weights):
-        table = np.bincount(flat, weights=weights.ravel(), minlength=width * n_groups)
-        return np.ascontiguousarray(table.reshape(n_groups, width)[:, span : span + n])
-
-    out = _sum(val)
     if not derivs:
-        return out, None, None
-    dpos = _sum(val * 2 * d / den)
+        return flat, val.ravel()
     dgam = amp / np.pi * (den - 2 * gamma * gamma) / (den * den)
-    return out, dpos, _sum(dgam / 2)
+    return flat, val.ravel(), (val * 2 * d / den).ravel(), (dgam / 2).ravel()
 
 
 # --------------------------------------------------------------------------------------------
@@ -505,8 +531,8 @@ def _simulate_all(models, shifts, djs, field_mhz: float) -> _State:
 
 
 def _translated(state: _State, k: int, shifts: np.ndarray):
-    ppm, inten, site = state.lines[k]
-    return ppm + (shifts - state.base_shift[k])[site], inten, site
+    ppm, inten, site, satellite = state.lines[k]
+    return ppm + (shifts - state.base_shift[k])[site], inten, site, satellite
 
 
 #: Two-sided 95 % normal quantile.
@@ -524,14 +550,17 @@ def _site_offsets(models):
 def _components(grid, models, state, shifts, lw_ppm, *, derivs: bool):
     """Per-candidate columns (and per-site position derivatives, width derivatives)."""
     offsets, n_sites = _site_offsets(models)
-    ppm, inten, group = [], [], []
+    ppm, inten, group, satellite = [], [], [], []
     for k in range(len(models)):
-        p, i, s = _translated(state, k, shifts[k])
+        p, i, s, sat = _translated(state, k, shifts[k])
         ppm.append(p)
         inten.append(i)
         group.append(s + offsets[k])
+        satellite.append(sat)
     ppm, inten, group = np.concatenate(ppm), np.concatenate(inten), np.concatenate(group)
-    per_site, dpos, dwidth = _render(grid, ppm, inten, group, n_sites, lw_ppm, derivs=derivs)
+    per_site, dpos, dwidth = _render(
+        grid, ppm, inten, group, n_sites, lw_ppm, derivs=derivs, near=np.concatenate(satellite)
+    )
     cols = np.array([per_site[o : o + m.shift0.size].sum(0) for o, m in zip(offsets, models, strict=True)])
     if not derivs:
         return cols, per_site, None, None
@@ -565,7 +594,7 @@ def _solve_linear(cols: np.ndarray, basis: np.ndarray, grid: _Grid):
     return amounts, base
 
 
-def _coarse_start(spectrum, models, masks, lw_hz, noise_sd, field_mhz, options):
+def _coarse_start(spectrum, models, masks, lw_hz, noise_sd, field_mhz, options, pool: TaskPool):
     """Starting shifts found on a blurred copy of the data (model blurred alike), where
     couplings that are off by a few Hz still match and every site sees a wider basin.
 
@@ -594,9 +623,7 @@ def _coarse_start(spectrum, models, masks, lw_hz, noise_sd, field_mhz, options):
     starts = [shifts, [m.shift0.copy() for m in models]]
     for _ in range(options.n_random_starts):
         starts.append([m.shift0 + rng.standard_normal(m.shift0.size) * m.window / 3.0 for m in models])
-    found = map_tasks(
-        _sweep_task, [(grid, models, state, s, lw_ppm, basis) for s in starts], max_workers=options.n_workers
-    )
+    found = pool.map(_sweep_task, [(grid, models, state, s, lw_ppm, basis) for s in starts])
     costs = np.array(
         [
             _linear_cost(grid, _components(grid, models, state, s, lw_ppm, derivs=False)[0], basis)
@@ -622,7 +649,7 @@ def _coarse_start(spectrum, models, masks, lw_hz, noise_sd, field_mhz, options):
 
 
 def _sweep_task(task):
-    """One start of :func:`_coarse_start` swept to its local optimum (a task for ``map_tasks``)."""
+    """One start of :func:`_coarse_start` swept to its local optimum (a task for ``TaskPool.map``)."""
     grid, models, state, shifts, lw_ppm, basis = task
     return _sweep_sites(grid, models, state, shifts, lw_ppm, basis, n_sweeps=8)
 
@@ -1208,14 +1235,16 @@ def _coupling_columns(grid, models, state, lw_ppm, field_mhz, *, step_hz: float 
         if not m.j_pairs:
             out.append(None)
             continue
-        base_ppm, base_int, _ = state.lines[k]
-        base, _, _ = _render(grid, base_ppm, base_int, np.zeros(base_ppm.size, int), 1, lw_ppm, derivs=False)
+        base_ppm, base_int, _, base_sat = state.lines[k]
+        base, _, _ = _render(
+            grid, base_ppm, base_int, np.zeros(base_ppm.size, int), 1, lw_ppm, derivs=False, near=base_sat
+        )
         rows = []
         for p in range(len(m.j_pairs)):
             dj = state.dj[k].copy()
             dj[p] += step_hz
-            ppm, inten, _ = _model_lines(m, state.base_shift[k], _j_matrix(m, dj), field_mhz)
-            col, _, _ = _render(grid, ppm, inten, np.zeros(ppm.size, int), 1, lw_ppm, derivs=False)
+            ppm, inten, _, sat = _model_lines(m, state.base_shift[k], _j_matrix(m, dj), field_mhz)
+            col, _, _ = _render(grid, ppm, inten, np.zeros(ppm.size, int), 1, lw_ppm, derivs=False, near=sat)
             rows.append((col[0] - base[0]) / step_hz)
         out.append(np.array(rows))
     return out
@@ -1553,8 +1582,9 @@ def fit_mixture(
         raise FitError("spectrum: no signal above 5x the noise where the candidates have signals")
     basis = _baseline_basis(grid, options.baseline_degree)
     # the best few starts are refined in full; the lowest final cost wins
-    starts = _coarse_start(spectrum, models, masks, lw, noise, field, options)
-    problem, result = _refine_starts(grid, models, starts, lw, basis, field, options)
+    with TaskPool(max_workers=options.n_workers) as pool:
+        starts = _coarse_start(spectrum, models, masks, lw, noise, field, options, pool)
+        problem, result = _refine_starts(grid, models, starts, lw, basis, field, options, pool)
     return _finish(
         spectrum,
         systems,
@@ -1577,7 +1607,7 @@ def fit_mixture(
 _ROUND_KEEP_FACTOR = 2.0
 
 
-def _refine_starts(grid, models, starts, lw, basis, field, options):
+def _refine_starts(grid, models, starts, lw, basis, field, options, pool: TaskPool):
     """Refine every start (re-simulating between rounds); the lowest final cost wins.
 
     Returns (problem, result) of the winner. Starts far behind the best after a round are not
@@ -1587,7 +1617,7 @@ def _refine_starts(grid, models, starts, lw, basis, field, options):
         for shifts in starts
     ]
     for round_ in range(options.rounds):
-        outs = map_tasks(_refine_task, tasks, max_workers=options.n_workers)
+        outs = pool.map(_refine_task, tasks)
         problems = [_Problem(grid, models, state, basis, field, jcols) for state, jcols, _ in outs]
         results = [r for _, _, r in outs]
         if round_ == options.rounds - 1:
@@ -1605,7 +1635,7 @@ def _refine_starts(grid, models, starts, lw, basis, field, options):
 
 
 def _refine_task(task):
-    """One refinement round from one start (a task for ``map_tasks``): (state, jcols, result)."""
+    """One refinement round from one start (a task for ``TaskPool.map``): (state, jcols, result)."""
     grid, models, shifts, djs, lw, basis, field, options = task
     state = _simulate_all(models, shifts, djs, field)
     if options.fine_sweeps:
