@@ -32,6 +32,7 @@ from dataclasses import dataclass
 
 import numpy as np
 from scipy.optimize import least_squares
+from scipy.signal import hilbert
 
 from confirm._parallel import TaskPool
 from predictors.core import Candidate, ComponentFit, MixtureFit, Spectrum, SpinSystem
@@ -79,6 +80,11 @@ class FitOptions:
         Re-simulation rounds of the refinement.
     uncertainty_scale : float
         Extra factor on every standard deviation (peak-list input uses > 1).
+    fit_phase : bool
+        Absorb a residual zero- and first-order phase error of the processed spectrum with two
+        free columns (the data's own dispersion spectrum, from its Hilbert transform, and that
+        times position). Automatic phasing of a crowded spectrum is often a few degrees off, and
+        the dispersive skirts of the large singlets then look like small multiplets.
     seed : int
         Seed of the bootstrap (results repeat exactly).
     coarse_blur_hz : float
@@ -125,6 +131,7 @@ class FitOptions:
     n_workers: int = 2
     uncertainty_scale: float = 1.0
     seed: int = 7
+    fit_phase: bool = True
 
     def __post_init__(self) -> None:
         for name in (
@@ -236,7 +243,7 @@ class _Model:
     n_h: np.ndarray
     j0: np.ndarray  # predicted couplings, shape (n, n)
     j_pairs: list  # (a, b) couplings refined
-    sp2: np.ndarray  # bool per site (satellite J)
+    jch: np.ndarray  # one-bond 13C-1H coupling per site (Hz): where its satellites sit
     labels: tuple
     memo: dict = dataclasses.field(default_factory=dict)  # clusters already simulated (see _model_lines)
 
@@ -261,7 +268,7 @@ def _build_model(system: SpinSystem, options: FitOptions) -> _Model:
         else []
     )
     labels = tuple(s.label for s in sites)
-    sp2 = np.array([any(k.lower() in lab.lower() for k in _SP2_LABELS) for lab in labels])
+    jch = _one_bond_couplings(system, sites)
     return _Model(
         sites=keep,
         shift0=np.array([s.shift_ppm for s in sites]),
@@ -269,9 +276,28 @@ def _build_model(system: SpinSystem, options: FitOptions) -> _Model:
         n_h=np.array([s.n_h for s in sites]),
         j0=j0,
         j_pairs=pairs,
-        sp2=sp2,
+        jch=jch,
         labels=labels,
     )
+
+
+def _one_bond_couplings(system: SpinSystem, sites) -> np.ndarray:
+    """1J(C,H) of each site from its carbon's environment (the 13C satellite positions).
+
+    The satellites of a large singlet (a methoxy group, 0.55 % each) are as tall as the lines of a
+    minor component's multiplet, so they must sit where the data has them: an O-CH3 couples with
+    about 143 Hz, an alkyl CH3 with 125 Hz.
+    """
+    from rdkit import Chem
+
+    from predictors.couplings import predict_one_bond_ch
+
+    mol = Chem.MolFromSmiles(system.smiles)
+    if mol is None:  # a system built by hand: class values by label
+        return np.array([_J_CH_SP2_HZ if any(k.lower() in s.label.lower() for k in _SP2_LABELS)
+                         else _J_CH_SP3_HZ for s in sites])
+    mol_h = Chem.AddHs(mol)
+    return np.array([float(np.mean([predict_one_bond_ch(mol_h, a) for a in s.atoms])) for s in sites])
 
 
 def _fold_aa_xx(j: np.ndarray, sites) -> None:
@@ -304,7 +330,7 @@ def _model_lines(model: _Model, shifts: np.ndarray, j: np.ndarray, field_mhz: fl
         nudged = np.asarray(shifts) + 1e-5 * np.arange(len(shifts))
         lines = simulate_arrays_reusing(nudged, j, model.n_h, field_mhz=field_mhz, memo=model.memo)
     ppm, inten, site = np.asarray(lines.ppm), np.asarray(lines.intensity), np.asarray(lines.site_index)
-    half = np.where(model.sp2[site], _J_CH_SP2_HZ, _J_CH_SP3_HZ) / 2.0 / field_mhz
+    half = model.jch[site] / 2.0 / field_mhz
     ppm = np.concatenate([ppm, ppm + half, ppm - half])
     inten = np.concatenate(
         [inten * (1 - 2 * SATELLITE_SHARE), inten * SATELLITE_SHARE, inten * SATELLITE_SHARE]
@@ -367,9 +393,12 @@ def _mask_intervals(solvent: str | None, field_mhz: float, lw_hz: float, models)
             for ppm in np.atleast_1d(info.water_ppm if info.water_ppm is not None else []):
                 spots.append((float(ppm), max(0.06, 10 * lw_hz / field_mhz), "water"))
             predicted = np.concatenate([m.shift0 for m in models])
+            # a candidate's signal may lie anywhere in about +-2 predicted sd (window / 1.5): an
+            # impurity line there is not masked, or the candidate's own multiplet could vanish
+            reach = np.concatenate([np.maximum(0.05, m.window / 1.5) for m in models]) + half
             for imp in impurity_signals(solvent):
                 for ppm in np.atleast_1d(imp.ppm):
-                    if np.min(np.abs(predicted - ppm)) > 0.05:  # never mask a candidate's own signal
+                    if np.all(np.abs(predicted - ppm) > reach):
                         spots.append((float(ppm), half, imp.name))
     else:
         notes.append("solvent unknown: residual solvent and water signals are not masked")
@@ -391,6 +420,7 @@ class _Grid:
     region: np.ndarray  # region index of each point
     n_regions: int
     dx_ppm: float
+    dispersion: np.ndarray | None = None  # Hilbert transform of the data, binned like y
 
 
 def _build_grid(
@@ -410,7 +440,9 @@ def _build_grid(
         freq = np.fft.rfftfreq(y.size, d=hz)
         y = np.fft.irfft(np.fft.rfft(y) * np.exp(-np.pi * blur_hz * freq), n=y.size)
     factor = max(1, int(round(lw_hz / options.points_per_width / hz)))
-    xs, ys, regs = [], [], []
+    # the dispersion-mode spectrum that belongs to the data (Kramers-Kronig pair of the absorption)
+    disp = np.imag(hilbert(y)) if options.fit_phase else None
+    xs, ys, regs, hs = [], [], [], []
     for lo, hi in intervals:
         i0, i1 = np.searchsorted(ppm, [lo, hi])
         n = (i1 - i0) // factor * factor
@@ -418,6 +450,8 @@ def _build_grid(
             continue
         xs.append(ppm[i0 : i0 + n].reshape(-1, factor).mean(1))
         ys.append(y[i0 : i0 + n].reshape(-1, factor).mean(1))
+        if disp is not None:
+            hs.append(disp[i0 : i0 + n].reshape(-1, factor).mean(1))
         regs.append(np.full(n // factor, len(regs)))
     if not xs:
         raise FitError(
@@ -429,7 +463,13 @@ def _build_grid(
     for lo, hi, _ in masks:
         weight[(x >= lo) & (x <= hi)] = 0.0
     return _Grid(
-        x=x, y=yb, weight=weight, region=region, n_regions=len(xs), dx_ppm=hz * factor / spectrum.field_mhz
+        x=x,
+        y=yb,
+        weight=weight,
+        region=region,
+        n_regions=len(xs),
+        dx_ppm=hz * factor / spectrum.field_mhz,
+        dispersion=np.concatenate(hs) if hs else None,
     )
 
 
@@ -444,6 +484,12 @@ def _baseline_basis(grid: _Grid, degree: int) -> np.ndarray:
             col = np.zeros(grid.x.size)
             col[sel] = np.polynomial.legendre.legval(t, [0] * d + [1])
             cols.append(col)
+    if grid.dispersion is not None:
+        # a residual phase error (phi0 + phi1 * t) adds -(phi0 + phi1 * t) * dispersion to the data
+        # (small-angle expansion): two free columns absorb it, so a big singlet's dispersive
+        # skirt is never taken for a minor component's multiplet
+        t = 2 * (grid.x - grid.x.min()) / max(float(np.ptp(grid.x)), 1e-9) - 1
+        cols += [grid.dispersion, grid.dispersion * t]
     return np.array(cols).T
 
 
@@ -645,13 +691,64 @@ def _coarse_start(spectrum, models, masks, lw_hz, noise_sd, field_mhz, options, 
         flat = np.concatenate(found[i])
         if all(np.max(np.abs(flat - np.concatenate(found[j]))) > 2 * grid.dx_ppm for j in kept):
             kept.append(i)
-    return [found[i] for i in kept[: max(1, options.n_refined_starts)]]
+    kept = kept[: max(1, options.n_refined_starts)]
+    # the best swept starts also get whole molecules re-placed (the step is too slow for all)
+    n_replace = min(len(kept), _N_REPLACED_STARTS)
+    replaced = pool.map(
+        _replace_task, [(grid, models, state, found[i], lw_ppm, basis, noise_sd) for i in kept[:n_replace]]
+    )
+    return list(replaced) + [found[i] for i in kept[n_replace:]]
+
+
+#: Swept starts (best first) on which :func:`_replace_molecules` runs.
+_N_REPLACED_STARTS = 2
 
 
 def _sweep_task(task):
     """One start of :func:`_coarse_start` swept to its local optimum (a task for ``TaskPool.map``)."""
     grid, models, state, shifts, lw_ppm, basis = task
     return _sweep_sites(grid, models, state, shifts, lw_ppm, basis, n_sweeps=8)
+
+
+def _replace_task(task):
+    """:func:`_replace_molecules` on one swept start (a task for ``TaskPool.map``)."""
+    return _replace_molecules(*task)
+
+
+def _replace_molecules(grid, models, state, shifts, lw_ppm, basis, noise_sd, *, passes: int = 2):
+    """Take each molecule out in turn and place it again on what the others leave unexplained.
+
+    Site sweeps move one site at a time, so a molecule whose sites sit on another molecule's
+    multiplets (the two share the amount budget of those peaks) stays there: moving any single
+    site away costs more than it gains. Removing the whole molecule and re-placing it against
+    the residual of the rest (:func:`_place`, nearest matching multiplets first), then sweeping,
+    escapes such traps; the move is kept only when the least-squares cost drops.
+    """
+    offsets, _ = _site_offsets(models)
+    shifts = [s.copy() for s in shifts]
+    cost = _linear_cost(grid, _components(grid, models, state, shifts, lw_ppm, derivs=False)[0], basis)
+    for _ in range(passes):
+        improved = False
+        for k, m in enumerate(models):
+            cols, per_site, _, _ = _components(grid, models, state, shifts, lw_ppm, derivs=False)
+            amounts, base = _solve_linear(cols, basis, grid)
+            others = amounts @ cols - amounts[k] * cols[k] + basis @ base
+            resid = (grid.y - others) * grid.weight
+            at_pred = [s.copy() for s in shifts]
+            at_pred[k] = m.shift0.copy()
+            _, units, _, _ = _components(grid, models, state, at_pred, lw_ppm, derivs=False)
+            new_k, _, _, _ = _place(grid, m, units[offsets[k] : offsets[k] + m.shift0.size], resid, noise_sd)
+            trial = [s.copy() for s in shifts]
+            trial[k] = new_k
+            trial = _sweep_sites(grid, models, state, trial, lw_ppm, basis, n_sweeps=3, swaps=False)
+            new_cost = _linear_cost(
+                grid, _components(grid, models, state, trial, lw_ppm, derivs=False)[0], basis
+            )
+            if new_cost < cost * (1 - 1e-4):
+                shifts, cost, improved = trial, new_cost, True
+        if not improved:
+            break
+    return shifts
 
 
 def _pursue(grid, models, state, lw_ppm, noise_sd):
