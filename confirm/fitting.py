@@ -293,11 +293,20 @@ def _one_bond_couplings(system: SpinSystem, sites) -> np.ndarray:
     from predictors.couplings import predict_one_bond_ch
 
     mol = Chem.MolFromSmiles(system.smiles)
-    if mol is None:  # a system built by hand: class values by label
-        return np.array([_J_CH_SP2_HZ if any(k.lower() in s.label.lower() for k in _SP2_LABELS)
-                         else _J_CH_SP3_HZ for s in sites])
-    mol_h = Chem.AddHs(mol)
-    return np.array([float(np.mean([predict_one_bond_ch(mol_h, a) for a in s.atoms])) for s in sites])
+    mol_h = Chem.AddHs(mol) if mol is not None else None
+    out = []
+    for site in sites:
+        if mol_h is not None and site.atoms and all(
+            a < mol_h.GetNumAtoms()
+            and mol_h.GetAtomWithIdx(a).GetAtomicNum() == 1
+            and mol_h.GetAtomWithIdx(a).GetNeighbors()[0].GetSymbol() == "C"
+            for a in site.atoms
+        ):
+            out.append(float(np.mean([predict_one_bond_ch(mol_h, a) for a in site.atoms])))
+        else:  # a system built by hand (atom indices are not H atoms): class value by label
+            sp2 = any(k.lower() in site.label.lower() for k in _SP2_LABELS)
+            out.append(_J_CH_SP2_HZ if sp2 else _J_CH_SP3_HZ)
+    return np.array(out)
 
 
 def _fold_aa_xx(j: np.ndarray, sites) -> None:
