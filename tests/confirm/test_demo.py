@@ -2,7 +2,7 @@
 
 The sample spectra are built from published shifts and couplings (tests/confirm/published_spectra.py),
 while ``confirm`` fits them with its own predicted spin systems, whose shifts differ from the
-published ones by up to ~0.25 ppm and whose couplings by up to several Hz. The tolerances below
+published ones by up to ~0.15 ppm and whose couplings by up to ~2 Hz. The tolerances below
 are therefore wider than the synthetic-mixture targets of test_fitting.py, which use the
 published systems themselves.
 """
@@ -25,8 +25,9 @@ TRUTH = {
     "COc1ccc(CC(C)O)cc1": 0.09,
     "COc1ccc(CC(C)Br)cc1": 0.15,
 }
-#: 400 MHz: largest allowed |fitted - true| mole fraction with predicted spin systems
-TOLERANCE_400 = 0.08
+#: 400 MHz: largest allowed |fitted - true| mole fraction with predicted spin systems (measured:
+#: 1.8 points; see sample_spectra/README.md)
+TOLERANCE_400 = 0.03
 
 
 def test_truth_table_matches_the_generator():
@@ -56,10 +57,11 @@ def test_demo_finds_the_true_composition_at_400mhz_and_the_main_product_at_60mhz
         assert found[smiles]["detected"], smiles
         assert abs(found[smiles]["mole_fraction"] - true) <= TOLERANCE_400, smiles
     res60 = data["results"]["anisyl_elimination_60mhz.jdx"]
-    # 60 MHz: (E)-anethole is found. Not yet checked: that it is named the major product (with
-    # predicted couplings the 60 MHz fit still gives the substitution product too large a share).
+    # 60 MHz: (E)-anethole is found and named the major product; the minor components are not
+    # checked (at 60 MHz the predicted spectra overlap too much: see sample_spectra/README.md)
     e60 = [c for c in res60["components"] if c["smiles"] == E_ANETHOLE][0]
     assert e60["detected"] and e60["mole_fraction"] >= 0.3
+    assert res60["verdict"]["major"] == E_ANETHOLE
     assert sorted(p.name for p in tmp_path.glob("*.json")) == [
         "anisyl_elimination_400mhz.json",
         "anisyl_elimination_60mhz.json",
