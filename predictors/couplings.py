@@ -4,7 +4,9 @@
   electronegativity of the substituents; ring size sets cis 3J in small rings;
 * allylic 3J and 4J from the Garbisch dihedral relations;
 * sp3 vicinal 3J from the Haasnoot-de Leeuw-Altona equation, Boltzmann-averaged
-  over MMFF conformers (ETKDGv3 embedding, pruned);
+  over MMFF conformers (ETKDGv3 embedding, pruned) across ring bonds, and averaged over the
+  three staggered rotamers (three-term Karplus curve plus the HLA substituent terms) across
+  acyclic bonds;
 * sp3 geminal 2J by environment; aromatic ortho/meta/para;
 * one-bond 1J(C,H) (positions of the 13C satellites) by hybridisation plus additive
   substituent terms.

@@ -4,7 +4,9 @@
 * benzene H: substituent increments of Beeby et al. (``data/benzene_increments.csv``),
   heteroaromatic H from base values of the parent ring;
 * sp3 H: Shoolery's rule as extended by Schaller et al. for CH2XY, otherwise the
-  alpha/beta/gamma increments of Beauchamp & Marquez (``data/sp3_increments.csv``);
+  alpha/beta/gamma increments of Beauchamp & Marquez (``data/sp3_increments.csv``), with alpha
+  increments by carbon type (from monosubstituted alkanes) and sub-additive sums on crowded
+  carbons;
 * aldehyde, alkyne and exchangeable (OH, NH, SH) H from tabulated values.
 
 Every estimate carries ``sd_ppm``; a substituent the tables do not know is
