@@ -346,17 +346,57 @@ def _read_fid_directory(folder: Path, names: set[str]) -> RawFid:
 
 
 def _read_parameter_file(path: Path) -> dict:
-    import nmrglue as ng
+    """Parameters of a JCAMP-DX style parameter file (acqus, procs): ``##$KEY= value`` lines.
 
+    Values are int, float, str (``<...>``, may span lines), bool (``yes``/``no``) or, for
+    ``(0..n)`` arrays, lists continued on the following lines. Read here rather than through a
+    general reader so that opening a FID folder does not load a signal-processing stack.
+    """
     try:
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore")
-            dic = ng.bruker.read_jcamp(str(path), encoding="latin-1")
-    except Exception as exc:
-        raise FileFormatError(f"{path}: cannot parse parameter file ({_first_line(exc)})") from exc
+        text = path.read_bytes().decode("latin-1")
+    except OSError as exc:
+        raise FileFormatError(f"{path}: cannot read parameter file ({_first_line(exc)})") from exc
+    lines = text.splitlines()
+    dic, i = {}, 0
+    while i < len(lines):
+        line = lines[i]
+        i += 1
+        if not line.startswith("##$") or "=" not in line:
+            continue
+        key = line[3 : line.index("=")].strip()
+        value = line[line.index("=") + 1 :].strip()
+        if value.startswith("<"):
+            while ">" not in value and i < len(lines) and not lines[i].startswith("##"):
+                value += "\n" + lines[i].rstrip()
+                i += 1
+            dic[key] = value[1 : value.rindex(">")] if ">" in value else value[1:]
+        elif value.startswith("(") and ".." in value and ")" in value:
+            try:
+                count = int(value[value.index("..") + 2 : value.index(")")]) + 1
+            except ValueError:
+                raise FileFormatError(f"{path}: cannot parse parameter file (bad array size of {key})") \
+                    from None
+            items = [_jcamp_value(t) for t in value[value.index(")") + 1 :].split()]
+            while len(items) < count and i < len(lines) and not lines[i].startswith("##"):
+                items += [_jcamp_value(t) for t in lines[i].split()]
+                i += 1
+            dic[key] = items
+        elif value in ("yes", "no"):
+            dic[key] = value == "yes"
+        else:
+            dic[key] = _jcamp_value(value)
     if not dic:
         raise FileFormatError(f"{path}: parameter file is empty or unreadable")
     return dic
+
+
+def _jcamp_value(text: str):
+    for kind in (int, float):
+        try:
+            return kind(text)
+        except ValueError:
+            pass
+    return text
 
 
 def _param(dic: dict, key: str, default=None):

@@ -308,3 +308,24 @@ def test_binary_junk_rejected(tmp_path):
     path.write_bytes(bytes(range(256)) * 4)
     with pytest.raises(FileFormatError, match="not a recognised NMR format"):
         read_measurement(path)
+
+
+def test_parameter_files_read_like_the_nmrglue_reference(real_spectra, tmp_path):
+    # every parameter of the real acqus/procs (and of a written acqus with arrays and strings)
+    # equals what nmrglue's Bruker JCAMP reader gives
+    import nmrglue as ng
+
+    from confirm.reading import _read_parameter_file
+
+    written = tmp_path / "acqus"
+    written.write_text("##TITLE= test\n##$TD= 64\n##$SW_h= 8012.8205128\n##$PULPROG= <zg30>\n"
+                       "##$D= (0..3)\n0 1.5 2e-05\n0.1\n##$NUC1= <1H>\n##$AUNM= <au_zg>\n##END=\n",
+                       encoding="latin-1")
+    files = [written, real_spectra / "aspirin_300mhz_raw" / "acqus"]
+    files += list((real_spectra / "aspirin_300mhz_raw" / "pdata").glob("*/procs"))
+    for path in files:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            expected = {k: v for k, v in ng.bruker.read_jcamp(str(path), encoding="latin-1").items()
+                        if not k.startswith("_")}
+        assert _read_parameter_file(path) == expected, path
