@@ -19,7 +19,6 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.signal import find_peaks, peak_widths
 
 from predictors.core import Spectrum
 from predictors.errors import InputError
@@ -132,7 +131,7 @@ def pick_peaks(spectrum: Spectrum, *, noise_sd: float, threshold_snr: float = 8.
         raise InputError(f"threshold_snr: expected > 0, got {threshold_snr!r}")
     y = spectrum.intensity
     threshold = threshold_snr * noise_sd
-    indices, _ = find_peaks(y, height=threshold, prominence=threshold)
+    indices = find_peak_indices(y, height=threshold, prominence=threshold)
     if ppm_range is not None:
         lo, hi = sorted(ppm_range)
         indices = indices[(spectrum.ppm[indices] >= lo) & (spectrum.ppm[indices] <= hi)]
@@ -167,10 +166,51 @@ def _half_height_widths(y: np.ndarray, indices: np.ndarray) -> np.ndarray:
     """Full widths (points) at half of each line's own height above zero."""
     if indices.size == 0:
         return np.zeros(0)
-    heights = y[indices]
-    bases = (np.zeros(indices.size, dtype=np.intp), np.full(indices.size, y.size - 1, dtype=np.intp))
-    widths = peak_widths(y, indices, rel_height=0.5, prominence_data=(heights, *bases))[0]
+    widths = np.empty(indices.size)
+    for k, peak in enumerate(np.asarray(indices, dtype=int)):
+        half = 0.5 * y[peak]
+        below = np.flatnonzero(y[1 : peak + 1] <= half)  # scanning left, stop at the first point <= half
+        i = below[-1] + 1 if below.size else 0
+        left = i + (half - y[i]) / (y[i + 1] - y[i]) if y[i] < half else float(i)
+        below = np.flatnonzero(y[peak : y.size - 1] <= half)
+        i = peak + below[0] if below.size else y.size - 1
+        right = i - (half - y[i]) / (y[i - 1] - y[i]) if y[i] < half else float(i)
+        widths[k] = right - left
     return np.maximum(widths, 1.0)
+
+
+def find_peak_indices(y: np.ndarray, *, height: float, prominence: float) -> np.ndarray:
+    """Indices of the local maxima of ``y`` at least ``height`` tall and ``prominence`` prominent.
+
+    A maximum is a point above its left neighbour and not below its right one (the middle of a
+    flat top counts once); its prominence is its height above the higher of the two lowest points
+    reached, left and right, before the data rise above it again (or the ends). The same
+    definitions as ``scipy.signal.find_peaks`` (tested against it), without loading that module.
+    """
+    y = np.asarray(y, dtype=float)
+    n = y.size
+    if n < 3:
+        return np.zeros(0, dtype=np.intp)
+    inner = np.arange(1, n - 1)
+    rising = y[inner - 1] < y[inner]
+    peaks = list(inner[rising & (y[inner] > y[inner + 1])])
+    for i in inner[rising & (y[inner] == y[inner + 1])]:  # flat tops: take the middle
+        j = i + 1
+        while j < n - 1 and y[j] == y[i]:
+            j += 1
+        if y[j] < y[i]:
+            peaks.append((i + j - 1) // 2)
+    peaks = np.array(sorted(peaks), dtype=np.intp)
+    peaks = peaks[y[peaks] >= height]
+    keep = []
+    for p in peaks:
+        higher = np.flatnonzero(y[:p] > y[p])
+        left_min = float(np.min(y[higher[-1] + 1 if higher.size else 0 : p + 1]))
+        higher = np.flatnonzero(y[p + 1 :] > y[p])
+        right_min = float(np.min(y[p : p + 1 + higher[0] if higher.size else n]))
+        if y[p] - max(left_min, right_min) >= prominence:
+            keep.append(p)
+    return np.array(keep, dtype=np.intp)
 
 
 def _valley(y: np.ndarray, i: int, j: int) -> int:

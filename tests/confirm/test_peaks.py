@@ -125,3 +125,26 @@ def test_coupling_extraction_recovers_generated_couplings(couplings):
             distinct.append(j)
     assert len(m.j_hz) == len(distinct)
     assert np.allclose(m.j_hz, distinct, atol=0.06)
+
+
+@pytest.mark.parametrize("seed", [1, 2, 3])
+def test_peak_indices_and_widths_equal_the_scipy_reference(seed):
+    # scipy.signal.find_peaks / peak_widths (the reference implementation of the same definitions)
+    from scipy.signal import find_peaks, peak_widths
+
+    from confirm.peaks import _half_height_widths, find_peak_indices
+
+    rng = np.random.default_rng(seed)
+    x = np.arange(6000)
+    y = rng.normal(0.0, 1.0, x.size)
+    for centre in rng.uniform(0, x.size, 30):
+        y += rng.uniform(5, 300) / (1 + ((x - centre) / rng.uniform(1, 6)) ** 2)
+    if seed == 3:
+        y = np.round(y)  # flat tops
+    for height, prominence in ((5.0, 5.0), (20.0, 10.0), (3.0, 30.0)):
+        expected, _ = find_peaks(y, height=height, prominence=prominence)
+        assert np.array_equal(find_peak_indices(y, height=height, prominence=prominence), expected)
+    idx, _ = find_peaks(y, height=5.0, prominence=5.0)
+    bases = (np.zeros(idx.size, dtype=np.intp), np.full(idx.size, y.size - 1, dtype=np.intp))
+    widths = peak_widths(y, idx, rel_height=0.5, prominence_data=(y[idx], *bases))[0]
+    assert np.allclose(_half_height_widths(y, idx), np.maximum(widths, 1.0))

@@ -315,3 +315,19 @@ def test_every_real_file_processes(real_spectra):
         assert result.spectrum.field_mhz > 50
         if isinstance(raw, RawFid):
             assert raw.parameters.relaxation_delay_s is not None
+
+
+@pytest.mark.parametrize("lam", [1e5, 1e7, 1e9])
+def test_arpls_baseline_equals_the_pybaselines_reference(lam):
+    # Baek et al., Analyst 2015, 140, 250 (arPLS), as implemented by the pybaselines package
+    from pybaselines import Baseline
+
+    from confirm.processing import arpls_baseline
+
+    rng = np.random.default_rng(0)
+    x = np.arange(4600.0)
+    y = 50 * np.cos(x / 900) + rng.normal(0, 1, x.size)
+    for centre in (500, 1200, 3000):
+        y += 400 / (1 + ((x - centre) / 4) ** 2)
+    expected, _ = Baseline(x_data=x).arpls(y, lam=lam)
+    assert np.max(np.abs(arpls_baseline(y, lam=lam) - expected)) < 1e-4
