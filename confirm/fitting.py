@@ -32,7 +32,6 @@ from dataclasses import dataclass
 
 import numpy as np
 from scipy.optimize import least_squares
-from scipy.signal import hilbert
 
 from confirm._parallel import TaskPool
 from predictors.core import Candidate, ComponentFit, MixtureFit, Spectrum, SpinSystem
@@ -450,7 +449,7 @@ def _build_grid(
         y = np.fft.irfft(np.fft.rfft(y) * np.exp(-np.pi * blur_hz * freq), n=y.size)
     factor = max(1, int(round(lw_hz / options.points_per_width / hz)))
     # the dispersion-mode spectrum that belongs to the data (Kramers-Kronig pair of the absorption)
-    disp = np.imag(hilbert(y)) if options.fit_phase else None
+    disp = _hilbert_transform(y) if options.fit_phase else None
     xs, ys, regs, hs = [], [], [], []
     for lo, hi in intervals:
         i0, i1 = np.searchsorted(ppm, [lo, hi])
@@ -480,6 +479,20 @@ def _build_grid(
         dx_ppm=hz * factor / spectrum.field_mhz,
         dispersion=np.concatenate(hs) if hs else None,
     )
+
+
+def _hilbert_transform(y: np.ndarray) -> np.ndarray:
+    """Imaginary part of the analytic signal of ``y`` (one-sided spectrum doubled), by FFT; the
+    same result as ``scipy.signal.hilbert(y).imag`` without loading that module."""
+    n = y.size
+    gain = np.zeros(n)
+    gain[0] = 1.0
+    if n % 2 == 0:
+        gain[n // 2] = 1.0
+        gain[1 : n // 2] = 2.0
+    else:
+        gain[1 : (n + 1) // 2] = 2.0
+    return np.fft.ifft(np.fft.fft(y) * gain).imag
 
 
 def _baseline_basis(grid: _Grid, degree: int) -> np.ndarray:

@@ -180,3 +180,33 @@ def test_no_candidates_and_wrong_nucleus_are_clear_errors():
         fit_mixture(spectrum, [published_system(E_CROTONATE)], [published_candidate(E_CROTONATE)] * 2)
     with pytest.raises(InputError):
         FitOptions(shift_window_sd=-1.0)
+
+
+def test_dispersion_column_is_the_hilbert_transform():
+    # scipy.signal.hilbert (reference implementation of the analytic signal)
+    from scipy.signal import hilbert
+
+    from confirm.fitting import _hilbert_transform
+
+    for n in (1000, 1001):
+        y = np.random.default_rng(n).normal(size=n)
+        assert np.allclose(_hilbert_transform(y), hilbert(y).imag, atol=1e-12)
+
+
+def test_analysing_a_fid_folder_does_not_load_the_signal_processing_stack(tmp_path):
+    # start-up time: nmrglue, pybaselines and scipy.signal/stats take about 0.8 s to import (they
+    # are still used for other formats, old filter tables and the asls/iarpls baselines)
+    import subprocess
+    import sys
+
+    from tests.confirm.test_processing import synthetic_fid, write_fid_directory
+
+    folder = tmp_path / "fid"  # a modern FID folder: it records its group delay (GRPDLY)
+    write_fid_directory(folder, synthetic_fid(group_delay=67.98), grpdly=67.98)
+    heavy = ("scipy.signal", "scipy.stats", "nmrglue", "pybaselines")
+    code = ("import sys; from confirm.analysis import analyze_path; "
+            f"analyze_path({str(folder)!r}, candidates=['CCOC(C)=O']); "
+            f"print(sorted(m for m in {heavy!r} if m in sys.modules))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=False)
+    assert out.returncode == 0, out.stderr
+    assert out.stdout.strip().splitlines()[-1] == "[]"
