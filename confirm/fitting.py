@@ -749,16 +749,15 @@ def _replace_molecules(grid, models, state, shifts, lw_ppm, basis, noise_sd, *, 
     offsets, _ = _site_offsets(models)
     shifts = [s.copy() for s in shifts]
     cost = _linear_cost(grid, _components(grid, models, state, shifts, lw_ppm, derivs=False)[0], basis)
+    # every site's pattern at its predicted shift (columns are per site, so one render serves all)
+    _, units, _, _ = _components(grid, models, state, [m.shift0 for m in models], lw_ppm, derivs=False)
     for _ in range(passes):
         improved = False
         for k, m in enumerate(models):
-            cols, per_site, _, _ = _components(grid, models, state, shifts, lw_ppm, derivs=False)
+            cols, _, _, _ = _components(grid, models, state, shifts, lw_ppm, derivs=False)
             amounts, base = _solve_linear(cols, basis, grid)
             others = amounts @ cols - amounts[k] * cols[k] + basis @ base
             resid = (grid.y - others) * grid.weight
-            at_pred = [s.copy() for s in shifts]
-            at_pred[k] = m.shift0.copy()
-            _, units, _, _ = _components(grid, models, state, at_pred, lw_ppm, derivs=False)
             new_k, _, _, _ = _place(grid, m, units[offsets[k] : offsets[k] + m.shift0.size], resid, noise_sd)
             trial = [s.copy() for s in shifts]
             trial[k] = new_k
