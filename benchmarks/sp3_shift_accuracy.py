@@ -10,19 +10,13 @@ from __future__ import annotations
 
 import numpy as np
 
-from predictors.shifts import predict_proton_shifts, prepare_model_molecule
 from tests.predictors.sp3_reference import REFERENCE_SP3, predicted_vs_observed
-
-
-def _predict(mol_h):
-    model, pseudo = prepare_model_molecule(mol_h)
-    return predict_proton_shifts(model, pseudo_atoms=pseudo)
 
 
 def main() -> None:
     errors: dict[str, list[float]] = {}
     for entry in REFERENCE_SP3:
-        for label, observed, predicted in predicted_vs_observed(entry, _predict):
+        for label, observed, predicted in predicted_vs_observed(entry):
             errors.setdefault(entry.role, []).append(predicted - observed)
             print(f"{entry.role:11s} {label:40s} obs {observed:5.2f}  pred {predicted:5.2f}  "
                   f"err {predicted - observed:+.2f}")

@@ -105,14 +105,13 @@ def plain_smiles(mapped: str) -> str:
     return Chem.MolToSmiles(mol)
 
 
-def predicted_vs_observed(entry: Sp3Reference, predict) -> list[tuple[str, float, float]]:
-    """``(label, observed, predicted)`` for each mapped carbon of ``entry``.
+def predicted_vs_observed(entry: Sp3Reference) -> list[tuple[str, float, float]]:
+    """``(label, observed, predicted)`` for each mapped carbon of ``entry`` (mean over its H)."""
+    from predictors.shifts import predict_proton_shifts, prepare_model_molecule
 
-    ``predict(mol_h)`` returns ``{h_index: ShiftEstimate}`` for a molecule with explicit H
-    (``predictors.shifts.predict_proton_shifts`` after ``prepare_model_molecule``).
-    """
     mol_h = Chem.AddHs(Chem.MolFromSmiles(entry.mapped_smiles))
-    estimates = predict(mol_h)
+    model, pseudo = prepare_model_molecule(mol_h)
+    estimates = predict_proton_shifts(model, pseudo_atoms=pseudo)
     rows = []
     for atom in mol_h.GetAtoms():
         if atom.GetAtomMapNum() in entry.shifts:

@@ -80,7 +80,7 @@ def test_sp3_reference_set_accuracy():
     errors = {"test": [], "calibration": [], "defining": []}
     for entry in REFERENCE_SP3:
         assert entry.source
-        errors[entry.role] += [p - o for _, o, p in predicted_vs_observed(entry, _predict_shifts)]
+        errors[entry.role] += [p - o for _, o, p in predicted_vs_observed(entry)]
     test = np.array(errors["test"])
     assert test.size >= 40
     assert np.mean(np.abs(test)) <= 0.10
@@ -92,11 +92,6 @@ def test_sp3_reference_set_accuracy():
     sd = next(float(r["sd_ppm"]) for r in load_increment_table("sp3_increments")
               if r["table"] == "method_sd" and r["group"] == "bm")
     assert float(np.sqrt(np.mean(test**2))) <= sd
-
-
-def _predict_shifts(mol_h):
-    model, pseudo = prepare_model_molecule(mol_h)
-    return predict_proton_shifts(model, pseudo_atoms=pseudo)
 
 
 def test_benzene_increment_worked_example():
