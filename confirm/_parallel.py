@@ -5,13 +5,22 @@ machine with two or more cores these run side by side. Workers are forked (POSIX
 is imported again; elsewhere, inside another worker process, or with one core, the tasks run
 one after the other in this process. Results come back in task order either way, and are the
 same.
+
+Data every task needs (the fit's candidate models, about a megabyte with their cached spin
+simulations) is given once as ``shared``: the workers inherit it when they are forked, so it is
+never pickled, while each task carries only what differs between tasks.
 """
 
 from __future__ import annotations
 
+import itertools
 import multiprocessing
 import os
 from collections.abc import Callable, Sequence
+
+#: Shared data of the open pools, by pool number; forked workers inherit it.
+_SHARED: dict[int, object] = {}
+_NUMBERS = itertools.count()
 
 
 def usable_cores() -> int:
@@ -22,21 +31,34 @@ def usable_cores() -> int:
         return os.cpu_count() or 1
 
 
-class TaskPool:
-    """``with TaskPool(max_workers=2) as pool: pool.map(func, tasks)``; forked workers are started
-    on the first map that has two or more tasks and shared by later maps.
+def _call(job):
+    """Run one task in a worker: ``func(shared, task)`` with the shared data inherited at fork."""
+    func, number, task = job
+    return func(_SHARED[number], task)
 
-    ``func`` must be a module-level function and tasks and results picklable.
+
+class TaskPool:
+    """``with TaskPool(max_workers=2, shared=data) as pool: pool.map(func, tasks)`` returns
+    ``[func(data, t) for t in tasks]``; forked workers are started on the first map that has two
+    or more tasks and shared by later maps.
+
+    ``func`` must be a module-level function and tasks and results picklable. ``shared`` is
+    inherited by the workers as it is when they start: changes a task makes to it stay in that
+    process (use it for read-only data and caches).
     """
 
-    def __init__(self, *, max_workers: int):
+    def __init__(self, *, max_workers: int, shared: object = None):
         self.max_workers = min(max_workers, usable_cores())
+        self.shared = shared
+        self._number = next(_NUMBERS)
         self._pool = None
 
     def __enter__(self) -> TaskPool:
+        _SHARED[self._number] = self.shared
         return self
 
     def __exit__(self, *exc) -> None:
+        _SHARED.pop(self._number, None)
         if self._pool is None:
             return
         if exc[0] is None:
@@ -49,15 +71,16 @@ class TaskPool:
     def _usable(self) -> bool:
         return (
             self.max_workers >= 2
+            and self._number in _SHARED  # inside the with block
             and "fork" in multiprocessing.get_all_start_methods()
             and multiprocessing.parent_process() is None  # already a worker: no nested pools
         )
 
     def map(self, func: Callable, tasks: Sequence) -> list:
-        """``[func(t) for t in tasks]``, on the workers when there are two or more tasks."""
+        """``[func(shared, t) for t in tasks]``, on the workers when there are two or more tasks."""
         tasks = list(tasks)
         if len(tasks) < 2 or not self._usable():
-            return [func(t) for t in tasks]
+            return [func(self.shared, t) for t in tasks]
         if self._pool is None:
             self._pool = multiprocessing.get_context("fork").Pool(self.max_workers)
-        return self._pool.map(func, tasks, chunksize=1)
+        return self._pool.map(_call, [(func, self._number, t) for t in tasks], chunksize=1)
