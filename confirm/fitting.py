@@ -126,7 +126,7 @@ class FitOptions:
     fine_sweeps: bool = False
     fit_blur_hz: float | None = None
     n_random_starts: int = 8
-    n_refined_starts: int = 6
+    n_refined_starts: int = 4
     n_workers: int = 2
     uncertainty_scale: float = 1.0
     seed: int = 7
@@ -691,7 +691,7 @@ def _coarse_start(spectrum, models, masks, lw_hz, noise_sd, field_mhz, options, 
     starts = [shifts, [m.shift0.copy() for m in models]]
     for _ in range(options.n_random_starts):
         starts.append([m.shift0 + rng.standard_normal(m.shift0.size) * m.window / 3.0 for m in models])
-    found = pool.map(_sweep_task, [(grid, models, state, s, lw_ppm, basis) for s in starts])
+    found = pool.map(_sweep_task, [(grid, state, s, lw_ppm, basis) for s in starts])
     costs = np.array(
         [
             _linear_cost(grid, _components(grid, models, state, s, lw_ppm, derivs=False)[0], basis)
@@ -717,7 +717,7 @@ def _coarse_start(spectrum, models, masks, lw_hz, noise_sd, field_mhz, options, 
     # the best swept starts also get whole molecules re-placed (the step is too slow for all)
     n_replace = min(len(kept), _N_REPLACED_STARTS)
     replaced = pool.map(
-        _replace_task, [(grid, models, state, found[i], lw_ppm, basis, noise_sd) for i in kept[:n_replace]]
+        _replace_task, [(grid, state, found[i], lw_ppm, basis, noise_sd) for i in kept[:n_replace]]
     )
     return list(replaced) + [found[i] for i in kept[n_replace:]]
 
@@ -726,15 +726,16 @@ def _coarse_start(spectrum, models, masks, lw_hz, noise_sd, field_mhz, options, 
 _N_REPLACED_STARTS = 2
 
 
-def _sweep_task(task):
+def _sweep_task(models, task):
     """One start of :func:`_coarse_start` swept to its local optimum (a task for ``TaskPool.map``)."""
-    grid, models, state, shifts, lw_ppm, basis = task
+    grid, state, shifts, lw_ppm, basis = task
     return _sweep_sites(grid, models, state, shifts, lw_ppm, basis, n_sweeps=8)
 
 
-def _replace_task(task):
+def _replace_task(models, task):
     """:func:`_replace_molecules` on one swept start (a task for ``TaskPool.map``)."""
-    return _replace_molecules(*task)
+    grid, state, shifts, lw_ppm, basis, noise_sd = task
+    return _replace_molecules(grid, models, state, shifts, lw_ppm, basis, noise_sd)
 
 
 def _replace_molecules(grid, models, state, shifts, lw_ppm, basis, noise_sd, *, passes: int = 2):
@@ -889,6 +890,7 @@ def _sweep_sites(
     n_sweeps: int = 3,
     amounts=None,
     swaps: bool = True,
+    detect_cycles: bool = True,
 ):
     """Coordinate descent on site shifts: each site, together with its candidate's amount,
     jumps to its least-squares best position within the site's window.
@@ -899,11 +901,29 @@ def _sweep_sites(
     candidate's other sites, r_k: the residual plus the candidate's own contribution); both
     follow from cross-correlations. A Gaussian prior (predicted sd) breaks ties, weighted by
     the current misfit per point.
+
+    A sweep and the swaps after it can undo each other's moves (a swap that gains on the squared
+    residual, undone by the next sweep's prior): the shifts then cycle until ``n_sweeps`` run out.
+    Such a cycle is recognised when the shifts of an earlier sweep come back, and the shifts the
+    last sweep would leave are returned at once (the same result; ``detect_cycles=False`` runs
+    every sweep).
     """
     shifts = [s.copy() for s in shifts]
     offsets, _ = _site_offsets(models)
     w = grid.weight
+    seen: dict[bytes, int] = {}  # shifts at the start of each sweep after the first
+    history: list = []
     for sweep in range(n_sweeps):
+        if sweep > 0 and detect_cycles:
+            # from the second sweep on, a sweep's outcome depends on the shifts alone; shifts met
+            # before mean a cycle (a swap the next sweep undoes), whose state at the last sweep
+            # is known: return it without running the rest
+            key = np.concatenate(shifts).tobytes()
+            if key in seen:  # the shifts of sweep `first` again: a cycle of sweep - first sweeps
+                first = seen[key]
+                return history[first + (n_sweeps - first) % (sweep - first) - 1]
+            seen[key] = sweep
+            history.append([s.copy() for s in shifts])  # history[i]: shifts before sweep i + 1
         cols, per_site, _, _ = _components(grid, models, state, shifts, lw_ppm, derivs=False)
         solved, base = _solve_linear(cols, basis, grid)
         if amounts is None or sweep > 0:
@@ -1700,7 +1720,7 @@ def fit_mixture(
         raise FitError("spectrum: no signal above 5x the noise where the candidates have signals")
     basis = _baseline_basis(grid, options.baseline_degree)
     # the best few starts are refined in full; the lowest final cost wins
-    with TaskPool(max_workers=options.n_workers) as pool:
+    with TaskPool(max_workers=options.n_workers, shared=models) as pool:
         starts = _coarse_start(spectrum, models, masks, lw, noise, field, options, pool)
         basis = _drop_small_phase(grid, models, starts[0], lw, basis, field)
         problem, result = _refine_starts(grid, models, starts, lw, basis, field, options, pool)
@@ -1731,37 +1751,43 @@ def _refine_starts(grid, models, starts, lw, basis, field, options, pool: TaskPo
 
     Returns (problem, result) of the winner. Starts far behind the best after a round are not
     refined further (see ``_ROUND_KEEP_FACTOR``)."""
-    tasks = [
-        (grid, models, shifts, [np.zeros(len(m.j_pairs)) for m in models], lw, basis, field, options)
-        for shifts in starts
-    ]
+    zero_dj = [np.zeros(len(m.j_pairs)) for m in models]
+    tasks = [(grid, shifts, zero_dj, lw, basis, field, options) for shifts in starts]
     for round_ in range(options.rounds):
-        outs = pool.map(_refine_task, tasks)
-        problems = [_Problem(grid, models, state, basis, field, jcols) for state, jcols, _ in outs]
-        results = [r for _, _, r in outs]
-        if round_ == options.rounds - 1:
+        final = round_ == options.rounds - 1
+        outs = pool.map(_refine_task if final else _refine_round_task, tasks)
+        if final:
             break
-        best = min(r.cost for r in results)
+        best = min(cost for _, cost in outs)
+        unpack = _Problem(grid, models, None, basis, field, None).unpack
         tasks = []
-        for problem, result in zip(problems, results, strict=True):
-            if result.cost > _ROUND_KEEP_FACTOR * best:
+        for x, cost in outs:
+            if cost > _ROUND_KEEP_FACTOR * best:
                 continue
-            shifts, djs, lw_fit, _, _ = problem.unpack(result.x)
+            shifts, djs, lw_fit, _, _ = unpack(x)
             shifts, djs = [s.copy() for s in shifts], [d.copy() for d in djs]
-            tasks.append((grid, models, shifts, djs, lw_fit, basis, field, options))
-    i = int(np.argmin([r.cost for r in results]))
-    return problems[i], results[i]
+            tasks.append((grid, shifts, djs, lw_fit, basis, field, options))
+    i = int(np.argmin([r.cost for _, _, r in outs]))
+    state, jcols, result = outs[i]
+    return _Problem(grid, models, state, basis, field, jcols), result
 
 
-def _refine_task(task):
+def _refine_task(models, task):
     """One refinement round from one start (a task for ``TaskPool.map``): (state, jcols, result)."""
-    grid, models, shifts, djs, lw, basis, field, options = task
+    grid, shifts, djs, lw, basis, field, options = task
     state = _simulate_all(models, shifts, djs, field)
     if options.fine_sweeps:
         shifts = _sweep_sites(grid, models, state, shifts, lw / field, basis, n_sweeps=2)
         state = _simulate_all(models, shifts, djs, field)
     problem, result = _refine(grid, models, state, shifts, djs, lw, basis, field, options)
     return state, problem.jcols, result
+
+
+def _refine_round_task(models, task):
+    """:func:`_refine_task` for a round that is not the last: only (parameters, cost) come back
+    (the Jacobian and derivative columns, about a megabyte, are needed only of the winner)."""
+    _, _, result = _refine_task(models, task)
+    return result.x, float(result.cost)
 
 
 def _drop_small_phase(grid, models, shifts, lw_hz, basis, field_mhz) -> np.ndarray:

@@ -9,6 +9,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
+import confirm.fitting as fitting
 from confirm.fitting import FitOptions, estimate_noise_sd, fit_mixture
 from predictors.core import Spectrum
 from predictors.errors import FitError, InputError
@@ -210,3 +211,41 @@ def test_analysing_a_fid_folder_does_not_load_the_signal_processing_stack(tmp_pa
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=False)
     assert out.returncode == 0, out.stderr
     assert out.stdout.strip().splitlines()[-1] == "[]"
+
+
+@pytest.mark.slow
+def test_fit_does_not_depend_on_the_number_of_workers():
+    spectrum = render_mixture(ANISYL_MIX, field_mhz=400.0, snr=300.0, seed=3)
+    compounds = [c for c, _ in ANISYL_MIX]
+    one = fit_published(spectrum, compounds, options=FitOptions(n_workers=1))
+    two = fit_published(spectrum, compounds, options=FitOptions(n_workers=2))
+    assert [c.mole_fraction for c in one.components] == [c.mole_fraction for c in two.components]
+    assert [c.refined_shifts_ppm for c in one.components] == [c.refined_shifts_ppm for c in two.components]
+
+
+@pytest.mark.slow
+def test_sweeps_stopped_at_a_cycle_return_what_every_sweep_would(monkeypatch):
+    """The cycle shortcut of ``_sweep_sites`` returns the shifts the remaining sweeps would leave."""
+    sweep, swap = fitting._sweep_sites, fitting._swap_sites
+    passes, checks = [0], []
+
+    def counted_swap(*args, **kwargs):
+        passes[0] += 1
+        return swap(*args, **kwargs)
+
+    def both(*args, **kwargs):
+        passes[0] = 0
+        short = sweep(*args, **kwargs)
+        n_short = passes[0]
+        passes[0] = 0
+        full = sweep(*args, **kwargs, detect_cycles=False)
+        same = all(np.array_equal(a, b) for a, b in zip(short, full, strict=True))
+        checks.append((same, n_short < passes[0]))
+        return short
+
+    monkeypatch.setattr(fitting, "_sweep_sites", both)
+    monkeypatch.setattr(fitting, "_swap_sites", counted_swap)
+    spectrum = render_mixture(ANISYL_MIX, field_mhz=400.0, snr=300.0, seed=3)
+    fit_published(spectrum, [c for c, _ in ANISYL_MIX], options=FitOptions(n_workers=1))
+    assert checks and all(same for same, _ in checks)
+    assert any(shortened for _, shortened in checks)  # this spectrum does have a cycle
