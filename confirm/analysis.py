@@ -85,11 +85,24 @@ def _user_candidates(smiles_list: Sequence[str]) -> tuple[Candidate, ...]:
     return tuple(out)
 
 
-def predict_systems(candidates: Sequence[Candidate], *, n_conformers: int = 6) -> tuple[SpinSystem, ...]:
-    """Predicted spin system of every candidate (same order)."""
+def predict_systems(
+    candidates: Sequence[Candidate], *, n_conformers: int = 6, n_workers: int = 2
+) -> tuple[SpinSystem, ...]:
+    """Predicted spin system of every candidate (same order), on up to ``n_workers`` forked
+    processes (the result does not depend on it)."""
+    import predictors.prediction  # noqa: F401  (imported once here, before the workers fork)
+    from confirm._parallel import TaskPool
+
+    with TaskPool(max_workers=n_workers) as pool:
+        return tuple(pool.map(_predict_task, [(c.smiles, n_conformers) for c in candidates]))
+
+
+def _predict_task(_shared, task) -> SpinSystem:
+    """One candidate's spin system (a task for ``TaskPool.map``)."""
     from predictors.prediction import predict_spin_system
 
-    return tuple(predict_spin_system(c.smiles, n_conformers=n_conformers) for c in candidates)
+    smiles, n_conformers = task
+    return predict_spin_system(smiles, n_conformers=n_conformers)
 
 
 def analyze_spectrum(

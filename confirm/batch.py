@@ -20,7 +20,6 @@ import re
 import sys
 import time
 from collections.abc import Callable, Sequence
-from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
 
@@ -357,6 +356,8 @@ def _execute(tasks: list[tuple], jobs: int):
         for task in tasks:
             yield _process_item(task)
         return
+    from concurrent.futures import ProcessPoolExecutor, as_completed
+
     with ProcessPoolExecutor(max_workers=min(jobs, len(tasks))) as pool:
         futures = {pool.submit(_process_item, task): task for task in tasks}
         for future in as_completed(futures):

@@ -47,17 +47,11 @@ import sys
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 from datetime import datetime, timezone
-from importlib import metadata
 from pathlib import Path
 
 from confirm._files import write_text_atomic
 from predictors.core import canonical_smiles
 from predictors.errors import FileFormatError, InputError
-
-if sys.version_info >= (3, 11):
-    import tomllib
-else:  # pragma: no cover - Python 3.10
-    import tomli as tomllib
 
 __all__ = [
     "CAUTION",
@@ -181,6 +175,11 @@ def read_spec(path: str | Path) -> QcSpec:
     InputError
         Unknown keys, missing product, bad SMILES or limits.
     """
+    if sys.version_info >= (3, 11):  # loaded here: only a specification needs it
+        import tomllib
+    else:  # pragma: no cover - Python 3.10
+        import tomli as tomllib
+
     path = Path(path)
     try:
         raw = path.read_bytes()
@@ -575,6 +574,8 @@ def qc_to_json(qc: QcResult) -> dict:
 
 def software_versions() -> dict[str, str]:
     """Versions of confirm, Python and the scientific packages it relies on."""
+    from importlib import metadata
+
     from confirm import __version__
 
     versions = {"confirm": __version__, "python": platform.python_version()}

@@ -6,7 +6,6 @@ import argparse
 import sys
 from pathlib import Path
 
-from confirm.batch import collect_items, run_batch
 from confirm.commands._common import emit_json, format_table
 from confirm.qc import CAUTION, read_spec
 
@@ -35,6 +34,8 @@ def _analyze(path, **kwargs):
 
 
 def _run(args: argparse.Namespace) -> int:
+    from confirm.batch import collect_items, run_batch  # loaded here: the other commands skip it
+
     spec = read_spec(args.spec) if args.spec is not None else None
     items = collect_items(args.source)
     summary = run_batch(items, args.out, jobs=args.jobs, force=args.force, spec=spec, analyze=_analyze,
