@@ -6,6 +6,9 @@ is imported again; elsewhere, inside another worker process, or with one core, t
 one after the other in this process. Results come back in task order either way, and are the
 same.
 
+:class:`Beside` runs one function in a forked process while this one does something else (the
+candidates' predictions run while the spectrum is processed and the fit's modules load).
+
 Data every task needs (the fit's candidate models, about a megabyte with their cached spin
 simulations) is given once as ``shared``: the workers inherit it when they are forked, so it is
 never pickled, while each task carries only what differs between tasks.
@@ -84,3 +87,68 @@ class TaskPool:
         if self._pool is None:
             self._pool = multiprocessing.get_context("fork").Pool(self.max_workers)
         return self._pool.map(_call, [(func, self._number, t) for t in tasks], chunksize=1)
+
+
+def _fork_usable() -> bool:
+    return (
+        usable_cores() >= 2
+        and "fork" in multiprocessing.get_all_start_methods()
+        and multiprocessing.parent_process() is None
+    )
+
+
+def _beside_main(conn, func, arg) -> None:
+    try:
+        conn.send((True, func(arg)))
+    except BaseException as exc:  # handed to the parent, which raises it there
+        conn.send((False, exc))
+    finally:
+        conn.close()
+
+
+class Beside:
+    """``with Beside(func, arg) as job: ...; value = job.result()``: ``func(arg)`` runs in a forked
+    process while the with block goes on; ``result()`` waits for it and returns its value or
+    raises its exception. With one core, without fork or inside a worker process, ``result()``
+    calls ``func(arg)`` here instead; if the process dies, too. Leaving the block ends the process.
+    """
+
+    def __init__(self, func: Callable, arg):
+        self._func, self._arg = func, arg
+        self._proc = self._conn = None
+
+    def __enter__(self) -> Beside:
+        if _fork_usable():
+            ctx = multiprocessing.get_context("fork")
+            self._conn, send = ctx.Pipe(duplex=False)
+            self._proc = ctx.Process(target=_beside_main, args=(send, self._func, self._arg), daemon=True)
+            self._proc.start()
+            send.close()
+        return self
+
+    def result(self):
+        if self._proc is None:
+            return self._func(self._arg)
+        try:
+            ok, value = self._conn.recv()
+        except (EOFError, OSError):  # the process died: do it here
+            self._close()
+            return self._func(self._arg)
+        self._close()
+        if ok:
+            return value
+        raise value
+
+    def _close(self) -> None:
+        if self._proc is not None:
+            self._conn.close()
+            self._proc.join(timeout=5)
+            if self._proc.is_alive():
+                self._proc.terminate()
+                self._proc.join()
+            self._proc = None
+
+    def __exit__(self, *exc) -> None:
+        if self._proc is not None:
+            self._proc.terminate()
+            self._close()

@@ -9,14 +9,17 @@ candidate's spin system, fits the mixture and decides the verdict. The result is
 from __future__ import annotations
 
 from collections.abc import Sequence
+from typing import TYPE_CHECKING
 
 import numpy as np
 
-from confirm.fitting import FitOptions, fit_mixture
 from confirm.results import AnalysisResult, InputRecord
 from confirm.verdict import alkene_facts, decide
 from predictors.core import Candidate, Spectrum, SpinSystem
 from predictors.errors import ChemistryError, InputError
+
+if TYPE_CHECKING:
+    from confirm.fitting import FitOptions
 
 __all__ = ["analyze_path", "analyze_spectrum", "analyze_peak_list", "build_candidates", "predict_systems"]
 
@@ -146,6 +149,8 @@ def analyze_spectrum(
             solvent=_DEFAULT_NMR_SOLVENT,
             metadata=spectrum.metadata,
         )
+    from confirm.fitting import fit_mixture
+
     systems = tuple(systems) if systems is not None else predict_systems(candidates)
     fit = fit_mixture(spectrum, systems, candidates, noise_sd=noise_sd, options=options)
     context = {"input": "peak list"} if (parameters or {}).get("input") == "peak list" else None
@@ -238,12 +243,23 @@ def analyze_path(
             notes=notes,
             parameters=params,
         )
-    from confirm.processing import ProcessingOptions, process_measurement
+    from confirm._parallel import Beside
 
-    processed = process_measurement(
-        raw, options=ProcessingOptions(field_mhz=field_mhz) if field_mhz else None
+    # the predictions run in a forked process while this one processes the spectrum and loads the
+    # fit's modules (SciPy's optimizers: about a second of start-up between them)
+    with Beside(predict_systems, cands) as predictions:
+        from confirm.processing import ProcessingOptions, process_measurement
+
+        processed = process_measurement(
+            raw, options=ProcessingOptions(field_mhz=field_mhz) if field_mhz else None
+        )
+        import confirm.fitting  # noqa: F401
+        import predictors.couplings  # noqa: F401  (the fit's 13C satellite positions)
+
+        systems = predictions.result()
+    return analyze_spectrum(
+        processed, cands, systems=systems, inputs=(record,), notes=notes, parameters=params
     )
-    return analyze_spectrum(processed, cands, inputs=(record,), notes=notes, parameters=params)
 
 
 def analyze_peak_list(
@@ -274,6 +290,8 @@ def analyze_peak_list(
     noise = 0.005 * float(np.max(spectrum.intensity))
     params = dict(parameters or {})
     params["input"] = "peak list"
+    from confirm.fitting import FitOptions
+
     options = FitOptions(uncertainty_scale=2.0, mask_solvent=True, line_width_hz=None)
     rendered = _PeakListSpectrum(
         spectrum=spectrum,

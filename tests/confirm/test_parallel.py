@@ -7,7 +7,8 @@ import os
 
 import pytest
 
-from confirm._parallel import TaskPool, usable_cores
+from confirm._parallel import Beside, TaskPool, usable_cores
+from predictors.errors import InputError
 
 
 class _Unpicklable:
@@ -42,3 +43,42 @@ def test_workers_get_the_shared_data_by_fork_and_return_results_in_order():
     assert [value for value, _ in out] == [5 * t for t in range(12)]
     assert [value for value, _ in again] == [35, 40]
     assert os.getpid() not in {pid for _, pid in out + again}
+
+
+def _square_and_pid(x):
+    return x * x, os.getpid()
+
+
+def _fails(x):
+    raise InputError(f"candidates: cannot parse {x!r}")
+
+
+def _dies_in_a_child(x):
+    if multiprocessing.parent_process() is not None:
+        os._exit(3)  # a worker killed from outside looks like this
+    return x + 1
+
+
+needs_fork = pytest.mark.skipif(
+    usable_cores() < 2 or "fork" not in multiprocessing.get_all_start_methods(),
+    reason="needs two cores and fork",
+)
+
+
+@needs_fork
+def test_beside_runs_in_another_process_and_returns_the_value():
+    with Beside(_square_and_pid, 7) as job:
+        value, pid = job.result()
+    assert value == 49 and pid != os.getpid()
+
+
+@needs_fork
+def test_beside_raises_the_functions_own_error_here():
+    with Beside(_fails, "C1CC") as job, pytest.raises(InputError, match="cannot parse 'C1CC'"):
+        job.result()
+
+
+@needs_fork
+def test_beside_falls_back_to_this_process_when_the_worker_dies():
+    with Beside(_dies_in_a_child, 1) as job:
+        assert job.result() == 2
