@@ -222,13 +222,20 @@ def _regio_labels(candidates, facts):
     ]
 
 
+#: Spread of the mole fractions over alternative fits about as good as the best (fitting's
+#: ``quality["alternative_spread"]``) above which the verdict says the assignment is not settled
+#: (confidence at most moderate; twice this: low).
+_ALTERNATIVE_UNRESOLVED = 0.05
+
+
 def _confidence(fit, major, ratios, unresolved, detected_products) -> str:
     q = fit.quality
     if major is None:
         return "undecided"
     explained = float(q.get("explained_fraction", 1.0))
     unknown = float(q.get("unexplained_share", 0.0))
-    if explained < 0.6 or unknown > 0.3:
+    spread = float(q.get("alternative_spread", 0.0))
+    if explained < 0.6 or unknown > 0.3 or spread > 2 * _ALTERNATIVE_UNRESOLVED:
         return "low"
     if len(detected_products) > 1:
         xs = sorted((c.mole_fraction, c.mole_fraction_sd) for c in detected_products)
@@ -311,6 +318,13 @@ def decide(
     ]
     ratios += [r for r in extra if r is not None]
     major = comps[major_i].candidate.smiles if major_i is not None else None
+    spread = float(fit.quality.get("alternative_spread", 0.0))
+    if spread > _ALTERNATIVE_UNRESOLVED:
+        unresolved.append(
+            "another assignment of the multiplets fits the spectrum almost as well and moves the "
+            f"mole fractions by up to {100 * spread:.0f} points"
+        )
+        steps.append("a spectrum at higher field, where the multiplets overlap less")
     confidence = _confidence(fit, major, ratios, unresolved, detected_products)
     evidence = _verdict_evidence(fit, major_i)
     if fit.unexplained_ppm:

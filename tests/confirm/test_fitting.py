@@ -249,3 +249,23 @@ def test_sweeps_stopped_at_a_cycle_return_what_every_sweep_would(monkeypatch):
     fit_published(spectrum, [c for c, _ in ANISYL_MIX], options=FitOptions(n_workers=1))
     assert checks and all(same for same, _ in checks)
     assert any(shortened for _, shortened in checks)  # this spectrum does have a cycle
+
+
+class _Unpacker:
+    """Stands in for the fit's parameter layout: amounts are the whole vector."""
+
+    @staticmethod
+    def unpack(x):
+        return None, None, None, np.asarray(x, float), None
+
+
+def test_alternative_fits_within_the_cost_margin_widen_the_fraction_covariance():
+    best = np.array([0.6, 0.3, 0.1])  # mole fractions of the best fit
+    detected = np.array([True, True, False])
+    near = ([0.4, 0.4, 0.2], 1.10)  # detected fractions 0.5 / 0.5 at 10 % more cost
+    far = ([0.1, 0.9, 0.0], 2.00)  # twice the cost: not a comparable fit
+    cov, (worst, which) = fitting._alternative_spread(_Unpacker, [near, far], 1.0, best, detected)
+    dev = np.array([0.5 - 0.6, 0.5 - 0.3, 0.0])
+    assert cov == pytest.approx(np.outer(dev, dev) / 4)  # the alternative taken as 2 sd away
+    assert (worst, which) == (pytest.approx(0.2), 1)
+    assert fitting._alternative_spread(_Unpacker, [far], 1.0, best, detected) == (None, (0.0, 0))

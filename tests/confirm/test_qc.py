@@ -402,9 +402,10 @@ def test_qc_end_to_end_decides_clear_lots_at_release_snr(anethole_lots_high_snr)
 @pytest.mark.xfail(strict=True, reason=(
     "known gap (issue 8): at SNR 400 the pure lot's absent (Z) isomer is bounded only by its one 1H "
     "vinyl multiplet, whose fitted position is chosen on noise: 95 % bound 2.9 % against the 2 % limit, "
-    "so the lot is INCONCLUSIVE (PASS at SNR 2000, see the test above); and the 4 % Z isomer's amount "
-    "is biased high (5.8 % at SNR 400, 6.9 +- 0.2 % at SNR 2000) because its sites that overlap the "
-    "E isomer absorb the E model's misfit. Strict, so this test reports when the gap closes"))
+    "so the lot is INCONCLUSIVE (PASS at SNR 2000, see the test above); and the 4 % Z isomer is not "
+    "detected at SNR 400 (bound 4.0 %, so INCONCLUSIVE), while at SNR 2000 it is biased high (6.2 +- 1.1 "
+    "%; a fit almost as good gives 4.1 %) because its sites that overlap the E isomer absorb the E "
+    "model's misfit. Strict, so this test reports when the gap closes"))
 def test_qc_end_to_end_decides_clear_lots(anethole_lots):
     # At SNR 400: pure (E)-anethole passes; 4 % of (Z)-anethole is measured as 4 +- 1.5 % and fails.
     spec, lots = anethole_lots

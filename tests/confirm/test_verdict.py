@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 import pytest
 
@@ -161,3 +163,17 @@ def test_ratio_with_an_undetected_isomer_allows_for_its_upper_bound():
     tight = verdict_with(0.005)
     ratio = next(r for r in tight.ratios if r.name == "E:Z")
     assert ratio.decided and ratio.share_sd < 0.01
+
+
+def test_an_almost_as_good_alternative_assignment_is_reported_and_lowers_the_confidence():
+    compounds = [E_ANETHOLE, Z_ANETHOLE, ESTRAGOLE, ANISYL_BROMIDE]
+    systems = [published_system(c) for c in compounds]
+    cands = [published_candidate(c) for c in compounds]
+    fit = make_fit(compounds, [0.6, 0.2, 0.1, 0.1], [True] * 4)
+    assert decide(fit, systems, cands).confidence == "high"
+    # as fitting reports it: another fit within the cost margin gives fractions 12 points apart
+    fit = dataclasses.replace(fit, quality={**fit.quality, "alternative_spread": 0.12})
+    verdict = decide(fit, systems, cands)
+    assert verdict.confidence == "low"  # over 10 points apart
+    assert any("another assignment" in u and "12 points" in u for u in verdict.unresolved)
+    assert any("higher field" in s for s in verdict.next_steps)
