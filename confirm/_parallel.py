@@ -99,9 +99,14 @@ def _fork_usable() -> bool:
 
 def _beside_main(conn, func, arg) -> None:
     try:
-        conn.send((True, func(arg)))
-    except BaseException as exc:  # handed to the parent, which raises it there
-        conn.send((False, exc))
+        try:
+            value = func(arg)
+        except BaseException as exc:  # handed to the parent, which raises it there
+            conn.send((False, exc))
+            return
+        conn.send((True, value))
+    except Exception:  # the value or the error cannot be sent: the parent does the work itself
+        conn.send((None, None))
     finally:
         conn.close()
 
@@ -110,7 +115,8 @@ class Beside:
     """``with Beside(func, arg) as job: ...; value = job.result()``: ``func(arg)`` runs in a forked
     process while the with block goes on; ``result()`` waits for it and returns its value or
     raises its exception. With one core, without fork or inside a worker process, ``result()``
-    calls ``func(arg)`` here instead; if the process dies, too. Leaving the block ends the process.
+    calls ``func(arg)`` here instead; so it does if the process dies or cannot send its outcome
+    back (not picklable). Leaving the block ends the process.
     """
 
     def __init__(self, func: Callable, arg):
@@ -135,6 +141,8 @@ class Beside:
             self._close()
             return self._func(self._arg)
         self._close()
+        if ok is None:  # the process could not send its outcome back
+            return self._func(self._arg)
         if ok:
             return value
         raise value

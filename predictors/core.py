@@ -9,6 +9,7 @@ field name.
 
 from __future__ import annotations
 
+import copyreg
 import math
 from collections.abc import Mapping
 from dataclasses import dataclass, field
@@ -76,6 +77,15 @@ def _frozen_array(values, *, name: str, ndim: int, dtype=float) -> np.ndarray:
 
 def _frozen_mapping(values: Mapping | None) -> Mapping:
     return MappingProxyType(dict(values or {}))
+
+
+def _read_only(values: dict) -> Mapping:
+    return MappingProxyType(values)
+
+
+# read-only mappings travel between processes (the analysis runs parts of the job in forked
+# workers) as the dict they show, read-only again on arrival
+copyreg.pickle(MappingProxyType, lambda mapping: (_read_only, (dict(mapping),)))
 
 
 def _check_finite(value: float, *, name: str, low: float | None = None,

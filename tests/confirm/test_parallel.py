@@ -5,6 +5,7 @@ from __future__ import annotations
 import multiprocessing
 import os
 
+import numpy as np
 import pytest
 
 from confirm._parallel import Beside, TaskPool, usable_cores
@@ -82,3 +83,28 @@ def test_beside_raises_the_functions_own_error_here():
 def test_beside_falls_back_to_this_process_when_the_worker_dies():
     with Beside(_dies_in_a_child, 1) as job:
         assert job.result() == 2
+
+
+def _unsendable(x):
+    import threading
+
+    return x, threading.Lock()  # a lock cannot be pickled back to the parent
+
+
+@needs_fork
+def test_beside_does_the_work_here_when_the_outcome_cannot_be_sent_back():
+    with Beside(_unsendable, 4) as job:
+        value, lock = job.result()
+    assert value == 4 and hasattr(lock, "acquire")
+
+
+def test_read_only_mappings_survive_pickling():
+    import pickle
+
+    from predictors.core import Spectrum
+
+    spectrum = Spectrum(ppm=np.linspace(10, 0, 8), intensity=np.ones(8), field_mhz=400.0, metadata={"a": 1})
+    again = pickle.loads(pickle.dumps(spectrum))
+    assert dict(again.metadata) == {"a": 1}
+    with pytest.raises(TypeError):
+        again.metadata["a"] = 2  # still read-only
