@@ -1894,7 +1894,7 @@ def _finish(
     sd_up = np.sqrt(np.clip(np.diag(cov_full), 0, None))
     cov_a[~detected, ~detected] = sd_up[~detected] ** 2
     frac, frac_sd, frac_cov, limits = _fractions(np.where(detected, amounts, upper), cov_a, detected, options)
-    spread, worst = _alternative_spread(problem, alternatives, float(result.cost), frac, detected)
+    spread, worst, alt_fracs = _alternative_spread(problem, alternatives, float(result.cost), frac, detected)
     if spread is not None:
         frac_cov = frac_cov + spread
         frac_sd = np.where(detected, np.sqrt(np.clip(np.diag(frac_cov), 0, None)), frac_sd)
@@ -1960,6 +1960,7 @@ def _finish(
         warnings=tuple(warnings),
         fraction_covariance=frac_cov,
         unexplained_ppm=tuple(p for p, _ in unknown),
+        alternative_fractions=tuple(map(tuple, alt_fracs)),
     )
 
 
@@ -1976,8 +1977,9 @@ _ALTERNATIVE_NOTE = 0.02
 def _alternative_spread(problem, alternatives, best_cost: float, frac, detected):
     """Extra covariance of the detected components' mole fractions from the other refined fits that
     are about as good as the best (see ``_ALTERNATIVE_COST_MARGIN``): their mean squared deviation
-    from the best fit's fractions, over 4 (each such fit is taken to lie 2 sd away); and (largest
-    deviation, component index). (None, (0.0, 0)) when there is no such fit.
+    from the best fit's fractions, over 4 (each such fit is taken to lie 2 sd away); (largest
+    deviation, component index); and those fits' mole fractions (0 for undetected components).
+    (None, (0.0, 0), empty array) when there is no such fit.
 
     The covariance of the best fit measures noise; it cannot show that the multiplets could be
     assigned another way about as well, which with predicted spectra at low field is the larger
@@ -1991,11 +1993,12 @@ def _alternative_spread(problem, alternatives, best_cost: float, frac, detected)
             continue
         devs.append(np.where(detected, amounts / amounts.sum() - frac, 0.0))
     if not devs:
-        return None, (0.0, 0)
+        return None, (0.0, 0), np.zeros((0, detected.size))
     devs = np.array(devs)
     worst = np.unravel_index(int(np.argmax(np.abs(devs))), devs.shape)
+    fractions = np.where(detected, devs + frac, 0.0)
     # a fit almost as good as the best is taken to lie at the edge of the 95 % interval (2 sd)
-    return devs.T @ devs / len(devs) / 4.0, (float(abs(devs[worst])), int(worst[1]))
+    return devs.T @ devs / len(devs) / 4.0, (float(abs(devs[worst])), int(worst[1])), fractions
 
 
 def _fractions(amounts, cov_a, detected, options):

@@ -318,6 +318,14 @@ def decide(
     ]
     ratios += [r for r in extra if r is not None]
     major = comps[major_i].candidate.smiles if major_i is not None else None
+    rivals = _rival_majors(fit, products, major_i)
+    if rivals:
+        unresolved.append(
+            "the major product: an assignment of the multiplets that fits almost as well makes "
+            + " or ".join(_name(comps[i].candidate) for i in rivals)
+            + " the major product"
+        )
+        steps.append("a spectrum at higher field, where the multiplets overlap less")
     spread = float(fit.quality.get("alternative_spread", 0.0))
     if spread > _ALTERNATIVE_UNRESOLVED:
         unresolved.append(
@@ -325,7 +333,7 @@ def decide(
             f"mole fractions by up to {100 * spread:.0f} points"
         )
         steps.append("a spectrum at higher field, where the multiplets overlap less")
-    confidence = _confidence(fit, major, ratios, unresolved, detected_products)
+    confidence = "low" if rivals else _confidence(fit, major, ratios, unresolved, detected_products)
     evidence = _verdict_evidence(fit, major_i)
     if fit.unexplained_ppm:
         unresolved.append(
@@ -348,6 +356,16 @@ def decide(
         unresolved=tuple(dict.fromkeys(unresolved)),
         next_steps=tuple(dict.fromkeys(steps)),
     )
+
+
+def _rival_majors(fit, products, major_i) -> list[int]:
+    """Detected products that are the largest in one of the fit's alternative fits (other
+    assignments of the multiplets that explain the spectrum about as well)."""
+    if major_i is None:
+        return []
+    detected = [i for i in products if fit.components[i].detected]
+    rivals = {max(detected, key=lambda i: row[i]) for row in fit.alternative_fractions}
+    return sorted(rivals - {major_i})
 
 
 def _verdict_evidence(fit, major_i) -> tuple[str, ...]:

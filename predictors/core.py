@@ -411,6 +411,9 @@ class MixtureFit:
         ratios between components propagate their uncertainty through it.
     unexplained_ppm : tuple of float
         Positions of signals above the noise that no candidate explains.
+    alternative_fractions : tuple of tuple of float
+        Mole fractions (one per component, 0 for undetected ones) of other fits that explain the
+        spectrum about as well as this one: the multiplets assigned another way.
     """
 
     components: tuple[ComponentFit, ...]
@@ -422,9 +425,14 @@ class MixtureFit:
     warnings: tuple[str, ...] = ()
     fraction_covariance: np.ndarray | None = None
     unexplained_ppm: tuple[float, ...] = ()
+    alternative_fractions: tuple[tuple[float, ...], ...] = ()
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "components", tuple(self.components))
+        alternatives = tuple(tuple(float(x) for x in row) for row in self.alternative_fractions)
+        if any(len(row) != len(self.components) for row in alternatives):
+            raise InputError("alternative_fractions: one mole fraction per component expected")
+        object.__setattr__(self, "alternative_fractions", alternatives)
         for name in ("ppm", "model", "residual"):
             object.__setattr__(self, name, _frozen_array(getattr(self, name), name=name, ndim=1))
         if not (self.ppm.shape == self.model.shape == self.residual.shape):

@@ -264,8 +264,10 @@ def test_alternative_fits_within_the_cost_margin_widen_the_fraction_covariance()
     detected = np.array([True, True, False])
     near = ([0.4, 0.4, 0.2], 1.10)  # detected fractions 0.5 / 0.5 at 10 % more cost
     far = ([0.1, 0.9, 0.0], 2.00)  # twice the cost: not a comparable fit
-    cov, (worst, which) = fitting._alternative_spread(_Unpacker, [near, far], 1.0, best, detected)
+    cov, (worst, which), fractions = fitting._alternative_spread(_Unpacker, [near, far], 1.0, best, detected)
     dev = np.array([0.5 - 0.6, 0.5 - 0.3, 0.0])
     assert cov == pytest.approx(np.outer(dev, dev) / 4)  # the alternative taken as 2 sd away
     assert (worst, which) == (pytest.approx(0.2), 1)
-    assert fitting._alternative_spread(_Unpacker, [far], 1.0, best, detected) == (None, (0.0, 0))
+    assert fractions.tolist() == [pytest.approx([0.5, 0.5, 0.0])]
+    cov, worst, fractions = fitting._alternative_spread(_Unpacker, [far], 1.0, best, detected)
+    assert cov is None and worst == (0.0, 0) and fractions.size == 0

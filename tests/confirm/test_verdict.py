@@ -177,3 +177,17 @@ def test_an_almost_as_good_alternative_assignment_is_reported_and_lowers_the_con
     assert verdict.confidence == "low"  # over 10 points apart
     assert any("another assignment" in u and "12 points" in u for u in verdict.unresolved)
     assert any("higher field" in s for s in verdict.next_steps)
+
+
+def test_a_rival_major_product_in_an_almost_as_good_fit_is_reported():
+    compounds = [E_ANETHOLE, Z_ANETHOLE, ESTRAGOLE, ANISYL_BROMIDE]
+    systems = [published_system(c) for c in compounds]
+    cands = [published_candidate(c) for c in compounds]
+    fit = make_fit(compounds, [0.45, 0.35, 0.1, 0.1], [True] * 4)
+    same = dataclasses.replace(fit, alternative_fractions=((0.5, 0.3, 0.1, 0.1),))
+    assert decide(same, systems, cands).confidence == "high"  # the same major product either way
+    rival = dataclasses.replace(fit, alternative_fractions=((0.3, 0.5, 0.1, 0.1),))
+    verdict = decide(rival, systems, cands)
+    assert verdict.major == cands[0].smiles  # the best fit still names it ...
+    assert verdict.confidence == "low"  # ... but says the other isomer could be the major one
+    assert any(u.startswith("the major product:") for u in verdict.unresolved)

@@ -136,6 +136,9 @@ def test_mixture_fit_and_component():
     with pytest.raises(InputError):
         ComponentFit(candidate=cand, mole_fraction=1.4, mole_fraction_sd=0.0,
                      detection_limit=0.0, detected=False)
+    with pytest.raises(InputError, match="one mole fraction per component"):
+        MixtureFit(components=[comp], ppm=[2.0, 1.0], model=[0.0, 1.0], residual=[0.0, 0.0],
+                   line_width_hz=1.0, alternative_fractions=[(0.5, 0.5)])
 
 
 def test_ratio_and_verdict():
