@@ -131,6 +131,12 @@ class AnalysisResult:
             "verdict": verdict,
             "warnings": list(self.warnings) + [w for w in self.fit.warnings if w not in self.warnings],
             "quality": dict(self.fit.quality),
+            # other fits about as good as this one (the multiplets assigned another way): the mole
+            # fraction of each component in each, by SMILES
+            "alternative_fits": [
+                {c.candidate.smiles: x for c, x in zip(self.fit.components, row, strict=True)}
+                for row in self.fit.alternative_fractions
+            ],
             "line_width_hz": self.fit.line_width_hz,
             "field_mhz": self.spectrum.field_mhz if self.spectrum is not None else None,
             "parameters": dict(self.parameters),

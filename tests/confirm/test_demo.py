@@ -65,6 +65,9 @@ def test_demo_finds_the_true_composition_at_400mhz_and_the_main_product_at_60mhz
     # ... and says so: the fit's alternative assignments widen the uncertainties, so every detected
     # component's truth lies within 2 sd and the confidence is not "high"
     assert res60["verdict"]["confidence"] != "high"
+    alternatives = res60["alternative_fits"]  # the fits about as good, in the JSON
+    assert alternatives and all(set(a) == set(TRUTH) for a in alternatives)
+    assert all(sum(a.values()) == pytest.approx(1.0) for a in alternatives)
     for c in res60["components"]:
         if c["detected"]:
             assert abs(c["mole_fraction"] - TRUTH[c["smiles"]]) <= 2 * c["mole_fraction_sd"], c["smiles"]
