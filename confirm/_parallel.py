@@ -2,9 +2,9 @@
 
 The fit sweeps and refines several starting points that do not depend on each other; on a
 machine with two or more cores these run side by side. Workers are forked (POSIX), so nothing
-is imported again; elsewhere, inside another worker process, with one core, or while other
-threads run in this process, the tasks run one after the other in this process. Results come
-back in task order either way, and are the same.
+is imported again; elsewhere, inside another worker process, or with one core, the tasks run
+one after the other in this process. Results come back in task order either way, and are the
+same.
 
 :class:`Beside` runs one function in a forked process while this one does something else (the
 candidates' predictions run while the spectrum is processed and the fit's modules load).
@@ -19,7 +19,6 @@ from __future__ import annotations
 import itertools
 import multiprocessing
 import os
-import threading
 from collections.abc import Callable, Sequence
 
 #: Shared data of the open pools, by pool number; forked workers inherit it.
@@ -76,7 +75,8 @@ class TaskPool:
         return (
             self.max_workers >= 2
             and self._number in _SHARED  # inside the with block
-            and (self._pool is not None or _fork_usable())
+            and "fork" in multiprocessing.get_all_start_methods()
+            and multiprocessing.parent_process() is None  # already a worker: no nested pools
         )
 
     def map(self, func: Callable, tasks: Sequence) -> list:
@@ -90,14 +90,10 @@ class TaskPool:
 
 
 def _fork_usable() -> bool:
-    """Two cores, fork, not already a worker, and no other thread running: a thread holding a lock
-    when the process forks leaves that lock held for ever in the child (a library user's threads,
-    say), so then the work stays in this process."""
     return (
         usable_cores() >= 2
         and "fork" in multiprocessing.get_all_start_methods()
-        and multiprocessing.parent_process() is None  # already a worker: no nested pools
-        and threading.active_count() == 1
+        and multiprocessing.parent_process() is None
     )
 
 

@@ -108,21 +108,3 @@ def test_read_only_mappings_survive_pickling():
     assert dict(again.metadata) == {"a": 1}
     with pytest.raises(TypeError):
         again.metadata["a"] = 2  # still read-only
-
-
-def test_no_fork_while_other_threads_run():
-    import threading
-
-    release = threading.Event()
-    other = threading.Thread(target=release.wait)
-    other.start()
-    try:
-        with TaskPool(max_workers=2, shared=_Unpicklable(2)) as pool:
-            out = pool.map(_scaled, [1, 2, 3])
-        with Beside(_square_and_pid, 3) as job:
-            value, pid = job.result()
-    finally:
-        release.set()
-        other.join()
-    assert [v for v, _ in out] == [2, 4, 6] and {p for _, p in out} == {os.getpid()}
-    assert value == 9 and pid == os.getpid()
