@@ -72,12 +72,7 @@ class TaskPool:
         self._pool = None
 
     def _usable(self) -> bool:
-        return (
-            self.max_workers >= 2
-            and self._number in _SHARED  # inside the with block
-            and "fork" in multiprocessing.get_all_start_methods()
-            and multiprocessing.parent_process() is None  # already a worker: no nested pools
-        )
+        return self.max_workers >= 2 and self._number in _SHARED and _fork_usable()  # in the with block
 
     def map(self, func: Callable, tasks: Sequence) -> list:
         """``[func(shared, t) for t in tasks]``, on the workers when there are two or more tasks."""
@@ -90,6 +85,7 @@ class TaskPool:
 
 
 def _fork_usable() -> bool:
+    """Two cores, fork, and not a worker already (no nested pools)."""
     return (
         usable_cores() >= 2
         and "fork" in multiprocessing.get_all_start_methods()
