@@ -226,6 +226,8 @@ def _regio_labels(candidates, facts):
 #: ``quality["alternative_spread"]``) above which the verdict says the assignment is not settled
 #: (confidence at most moderate; twice this: low).
 _ALTERNATIVE_UNRESOLVED = 0.05
+#: The experiment that settles an assignment another fit almost matches.
+_HIGHER_FIELD = "a spectrum at higher field, where the multiplets overlap less"
 
 
 def _confidence(fit, major, ratios, unresolved, detected_products) -> str:
@@ -325,14 +327,14 @@ def decide(
             + " or ".join(_name(comps[i].candidate) for i in rivals)
             + " the major product"
         )
-        steps.append("a spectrum at higher field, where the multiplets overlap less")
+        steps.append(_HIGHER_FIELD)
     spread = float(fit.quality.get("alternative_spread", 0.0))
     if spread > _ALTERNATIVE_UNRESOLVED:
         unresolved.append(
             "another assignment of the multiplets fits the spectrum almost as well and moves the "
             f"mole fractions by up to {100 * spread:.0f} points"
         )
-        steps.append("a spectrum at higher field, where the multiplets overlap less")
+        steps.append(_HIGHER_FIELD)
     confidence = "low" if rivals else _confidence(fit, major, ratios, unresolved, detected_products)
     evidence = _verdict_evidence(fit, major_i)
     if fit.unexplained_ppm:
