@@ -285,16 +285,20 @@ def main(argv=None) -> int:
             file=sys.stderr,
             flush=True,
         )
+        if args.json_path:
+            _write_json(args.json_path, args.half, records, None)
     report = summarise(records, half=args.half)
     print(report)
     if args.json_path:
-        from confirm._files import write_text_atomic
-
-        write_text_atomic(
-            args.json_path,
-            json.dumps({"half": args.half, "records": records, "report": report}, indent=1, default=str),
-        )
+        _write_json(args.json_path, args.half, records, report)
     return 0
+
+
+def _write_json(path, half: str, records, report) -> None:
+    from confirm._files import write_text_atomic
+
+    text = json.dumps({"half": half, "records": records, "report": report}, indent=1, default=str)
+    write_text_atomic(path, text)
 
 
 if __name__ == "__main__":
