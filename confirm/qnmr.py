@@ -303,16 +303,16 @@ def yield_from_result(result, standard: InternalStandard, *, sample_mass_mg: flo
     if std_fit is None:
         raise InputError(f"standard smiles: {standard.smiles!r} is not among the fitted components; "
                          "add it to the candidates so the fit can measure it")
-    if not std_fit.detected or std_fit.mole_fraction <= 0:
+    if not std_fit.detected or std_fit.share <= 0:
         raise InputError(f"standard smiles: {standard.smiles!r} was not detected in the spectrum; "
                          "check the standard and its amount")
     signals = [
-        SignalIntegral(smiles=comp.candidate.smiles, integral=max(comp.mole_fraction, 0.0), n_h=1,
+        SignalIntegral(smiles=comp.candidate.smiles, integral=max(comp.share, 0.0), n_h=1,
                        integral_sd=comp.mole_fraction_sd, label=comp.candidate.label)
         for comp in result.fit.components
         if comp.candidate.smiles != standard.smiles and (comp.detected or not detected_only)
     ]
-    return nmr_yield(signals, standard, standard_integral=std_fit.mole_fraction * standard.n_h,
+    return nmr_yield(signals, standard, standard_integral=std_fit.share * standard.n_h,
                      standard_integral_sd=std_fit.mole_fraction_sd * standard.n_h,
                      sample_mass_mg=sample_mass_mg, theoretical_mmol=theoretical_mmol,
                      method_rel_sd=method_rel_sd)
