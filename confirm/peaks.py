@@ -23,7 +23,8 @@ import numpy as np
 from predictors.core import Spectrum
 from predictors.errors import InputError
 
-__all__ = ["Peak", "Multiplet", "pick_peaks", "group_multiplets", "integrate_region"]
+__all__ = ["Peak", "Multiplet", "pick_peaks", "group_multiplets", "integrate_region", "find_peak_indices",
+           "half_height_widths"]
 
 #: 13C satellites sit 1J(CH)/2 (about 60-85 Hz) from their parent at 0.55 % of its height
 #: (references.md section 5): lines that small that close join no multiplet.
@@ -136,7 +137,7 @@ def pick_peaks(spectrum: Spectrum, *, noise_sd: float, threshold_snr: float = 8.
         lo, hi = sorted(ppm_range)
         indices = indices[(spectrum.ppm[indices] >= lo) & (spectrum.ppm[indices] <= hi)]
     hz_per_point = spectrum.hz_per_point
-    widths = _half_height_widths(y, indices)
+    widths = half_height_widths(y, indices)
     peaks = []
     for k, i in enumerate(indices):
         ppm, height = _interpolate_max(spectrum, int(i))
@@ -162,7 +163,7 @@ def _interpolate_max(spectrum: Spectrum, i: int) -> tuple[float, float]:
     return float(ppm[i] + shift * step), float(b - 0.25 * (a - c) * shift)
 
 
-def _half_height_widths(y: np.ndarray, indices: np.ndarray) -> np.ndarray:
+def half_height_widths(y: np.ndarray, indices: np.ndarray) -> np.ndarray:
     """Full widths (points) at half of each line's own height above zero."""
     if indices.size == 0:
         return np.zeros(0)

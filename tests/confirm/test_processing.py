@@ -35,21 +35,41 @@ SYNTHETIC_SIGNALS = (
 )
 
 
-def _stick_lines(ppm: float, n_h: float, couplings) -> list[tuple[float, float]]:
+#: Satellites of the reference lines, as a real sample has them: (splitting J in Hz, share of the
+#: line's intensity in both satellites together, shift of the satellite pair's midpoint in ppm).
+#: 29Si of TMS: 2J(Si,H) 6.6 Hz, 4.7 % natural abundance, no isotope shift to speak of (memory);
+#: 13C: 1.1 % of the protons sit on 13C (references.md section 5: 0.55 % each satellite),
+#: 1J(C,H) 118 Hz in TMS and 209 Hz in CHCl3, shielded by about 2 ppb (memory; 1.6-2.5 ppb
+#: measured in the shared real spectra).
+REFERENCE_SATELLITES = {
+    0.0: ((6.6, 0.047, 0.0), (118.0, 0.011, -0.002)),
+    7.26: ((209.0, 0.011, -0.002),),
+}
+
+
+def _stick_lines(ppm: float, n_h: float, couplings, satellites=()) -> list[tuple[float, float]]:
     lines = [(ppm * FIELD_MHZ, n_h)]
     for j_hz, n_partners in couplings:
         for _ in range(n_partners):
             lines = [(f + s * j_hz / 2, a / 2) for f, a in lines for s in (-1, 1)]
+    for j_hz, share, shift_ppm in satellites:
+        centre = (ppm + shift_ppm) * FIELD_MHZ
+        lines = [(f, a * (1 - share)) for f, a in lines]
+        lines += [(centre + s * j_hz / 2, n_h * share / 2) for s in (-1, 1)]
     return [(f / FIELD_MHZ, a) for f, a in lines]
 
 
 def synthetic_fid(*, n_points=16384, phase_deg=0.0, group_delay=0.0, noise=2e-4, t2_s=0.5, shift_ppm=0.0,
-                  seed=1, signals=SYNTHETIC_SIGNALS) -> np.ndarray:
-    """Complex FID of SYNTHETIC_SIGNALS (lines displaced by ``shift_ppm``), digital-filter delayed."""
+                  seed=1, signals=SYNTHETIC_SIGNALS, satellites=True) -> np.ndarray:
+    """Complex FID of SYNTHETIC_SIGNALS (lines displaced by ``shift_ppm``), digital-filter delayed.
+
+    With ``satellites`` the TMS and CHCl3 lines carry their 29Si and 13C satellites.
+    """
     t = np.arange(n_points) / SW_HZ
     fid = np.zeros(n_points, dtype=complex)
     for ppm, n_h, couplings in signals:
-        for line_ppm, amp in _stick_lines(ppm + shift_ppm, n_h, couplings):
+        extra = REFERENCE_SATELLITES.get(ppm, ()) if satellites else ()
+        for line_ppm, amp in _stick_lines(ppm + shift_ppm, n_h, couplings, extra):
             fid += amp * np.exp(2j * math.pi * (line_ppm - CARRIER_PPM) * FIELD_MHZ * t)
     fid *= np.exp(-t / t2_s) * np.exp(1j * math.radians(phase_deg))
     rng = np.random.default_rng(seed)
