@@ -42,7 +42,8 @@ def _copy_with(template, target, *, acqus=None, procs=None):
         key, value = procs
         pdata = target / "pdata" / "1"
         pdata.mkdir(parents=True)
-        entries = {"SF": "400.13", "SI": "4096", "SW_p": "6009.6", "OFFSET": "11.5", "BYTORDP": "0", "DTYPP": "0"}
+        entries = {"SF": "400.13", "SI": "4096", "SW_p": "6009.6", "OFFSET": "11.5", "BYTORDP": "0",
+                   "DTYPP": "0"}
         entries[key] = value
         body = "\n".join(f"##${k}= {v}" for k, v in entries.items())
         (pdata / "procs").write_text(f"##TITLE= processing parameters\n{body}\n##END=\n", encoding="latin-1")
