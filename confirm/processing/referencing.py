@@ -290,22 +290,26 @@ def _expected_shift(solvent: str, temperature_k: float | None) -> float:
 
 
 def _unreferenced(view, solvent, tms_checks, window, temperature_k, request) -> tuple[str, str]:
-    """Why nothing validated, and the offset the nearest candidate line would imply."""
-    candidates: list[tuple[float, str]] = []
-    for check in tms_checks:
-        candidates.append((TMS_PPM - check.ppm, f"the line at {check.ppm:.3f} ppm, if it were TMS"))
+    """Why nothing validated, and the offset a plausible candidate line would imply (if any)."""
     if solvent:
         label = solvent_signals(solvent).residual_label
-        expected = _expected_shift(solvent, temperature_k)
-        for check in _residual_checks(view, solvent, window, temperature_k):
-            candidates.append((expected - check.ppm, f"the line at {check.ppm:.3f} ppm, if it were {label}"))
         reason = f"no TMS or residual {label} line validated"
     else:
-        reason = "no TMS line validated and no solvent known"
+        label, reason = None, "no TMS line validated and no solvent known"
     if request == "tms":
         reason = "TMS requested but no TMS line found"
-    if not candidates:
-        return reason, (f"; no candidate line within {window:g} ppm of the expected shifts, so the offset "
-                        "cannot be measured from the data")
-    offset, what = min(candidates, key=lambda c: abs(c[0]))
-    return reason, f"; possibly off by {offset:+.3f} ppm ({what})"
+    plausible = [c for c in tms_checks if c.status == "untestable"]
+    if plausible:
+        best = min(plausible, key=lambda c: abs(c.ppm))
+        return reason, (f"; possibly off by {TMS_PPM - best.ppm:+.3f} ppm (the sharp singlet at "
+                        f"{best.ppm:.3f} ppm, if it is TMS: too weak or broad to show its 29Si satellites)")
+    rejected = list(tms_checks)
+    if solvent:
+        rejected += _residual_checks(view, solvent, window, temperature_k)
+    if rejected:
+        expected = [TMS_PPM] + ([_expected_shift(solvent, temperature_k)] if solvent else [])
+        nearest = min(rejected, key=lambda c: min(abs(c.ppm - e) for e in expected))
+        return reason, (f"; the offset cannot be measured from the data: the nearest candidate is no "
+                        f"reference line ({nearest.detail})")
+    return reason, (f"; the offset cannot be measured from the data: no line within {window:g} ppm of the "
+                    "expected shifts")
