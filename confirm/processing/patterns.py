@@ -212,7 +212,8 @@ def _singlet(view: SpectrumView, i: int, *, extra_width_hz: float = 0.0):
         return None, centre
     widths = _width_grid(view, 0.4, 4.0 + extra_width_hz / view.line_width_hz, 12)
     fit = _fit_pattern(x, y, (0.0,), (1.0,), widths=widths, couplings=(0.0,), centres=_centre_grid(view))
-    return fit, centre + fit.centre_hz / view.field_mhz
+    # the position is the interpolated maximum (continuous); the fit judges shape and width only
+    return fit, centre
 
 
 def _partner(view: SpectrumView, i: int) -> float | None:
@@ -391,7 +392,7 @@ def _check_multiplet(view: SpectrumView, i: int, signals: SolventSignals, patter
     widths = _width_grid(view, 0.35, 2.5, 9)
     fit = _fit_pattern(x, y, offsets, weights, widths=widths, couplings=couplings,
                        centres=_centre_grid(view, 0.4))
-    found = centre + fit.centre_hz / view.field_mhz
+    found = centre  # the central line (or the envelope's maximum) marks the pattern's centre
     if fit.explained < _MIN_EXPLAINED:
         return LineCheck("rejected", found, f"{where}: not a {name} with J(H,D) near {j0:g} Hz")
     single = _fit_pattern(x, y, (0.0,), (1.0,), widths=_width_grid(view, 0.35, 6.0, 14), couplings=(0.0,),

@@ -272,6 +272,16 @@ def decide_reference(view: SpectrumView, *, header_solvent: str | None, request:
         label = f"residual {solvent_signals(solvent).residual_label} at {expected:.2f} ppm"
         return Reference(expected - line.ppm, label, "solvent", solvent, tuple(warnings),
                          {**record, "used": line.detail})
+    if request == "auto" and solvent:
+        supported = _supported_tms(view, tms_checks, solvent, temperature_k)
+        if supported is not None:
+            tms, line_ppm = supported
+            label = solvent_signals(solvent).residual_label
+            warnings.append(f"TMS taken from the sharp singlet at {tms.ppm:.3f} ppm, too weak to show its "
+                            f"29Si satellites, because a line sits {line_ppm - tms.ppm:.3f} ppm from it, "
+                            f"where residual {label} belongs")
+            return Reference(TMS_PPM - tms.ppm, "TMS at 0.00 ppm", "tms", solvent, tuple(warnings),
+                             {**record, "used": f"{tms.detail}; supported by a line at {line_ppm:.3f} ppm"})
     if request == "auto":
         far = _far_tms(view)
         if far is not None:
@@ -282,6 +292,21 @@ def decide_reference(view: SpectrumView, *, header_solvent: str | None, request:
     reason, offset = _unreferenced(view, solvent, tms_checks, window_ppm, temperature_k, request)
     warnings.append(f"axis not referenced ({reason}): shifts as acquired{offset}")
     return Reference(0.0, f"as acquired ({reason})", "none", solvent, tuple(warnings), record)
+
+
+def _supported_tms(view: SpectrumView, tms_checks: list[LineCheck], solvent: str, temperature_k):
+    """An unverifiable TMS candidate with a line at the solvent's table distance from it (within
+    0.005 ppm or 2 Hz): two lines at their expected mutual distance support each other."""
+    expected = _expected_shift(solvent, temperature_k)
+    tolerance = max(0.005, 2.0 / view.field_mhz)
+    for check in tms_checks:
+        if check.status != "untestable":
+            continue
+        found = find_candidates(view, check.ppm + expected, tolerance, limit=1)
+        if found:
+            i = found[0]
+            return check, float(view.ppm[i])
+    return None
 
 
 def _expected_shift(solvent: str, temperature_k: float | None) -> float:

@@ -266,3 +266,25 @@ def test_orientation_requests_are_obeyed():
     assert abs(_near(kept, 2 * CARRIER - 2.02).ppm - (2 * CARRIER - 2.02)) < 0.003
     flipped = process_measurement(raw, options=ProcessingOptions(orientation="mirrored"))
     assert abs(_near(flipped, 2.02).ppm - 2.02) < 0.002
+
+
+def _overlapped_chcl3():
+    # CHCl3 at 7.26 with aromatic doublets over it (an anisole-like AA'BB'): not a validated singlet
+    return [(7.26, 0.3), (7.255, 1.0), (7.255 + 8.6 / FIELD, 1.0), (7.268, 0.6), (7.268 - 8.6 / FIELD, 0.6)]
+
+
+def test_weak_tms_supported_by_a_line_at_the_solvent_distance():
+    lines = sample_lines() + [(0.0, 0.02)] + _overlapped_chcl3()
+    result = process_measurement(_spectrum(lines, offset_ppm=0.03))
+    assert result.reference == "TMS at 0.00 ppm"
+    assert any("too weak to show its 29Si satellites, because a line sits 7.260 ppm from it" in w
+               for w in result.warnings)
+    assert abs(_near(result, 2.02).ppm - 2.02) < 0.002
+
+
+def test_weak_singlet_without_that_support_is_not_tms():
+    lines = sample_lines() + [(0.07, 0.02)] + _overlapped_chcl3()
+    result = process_measurement(_spectrum(lines))
+    assert result.reference_source == "none"
+    assert any("possibly off by -0.070 ppm (the sharp singlet at 0.070 ppm, if it is TMS" in w
+               for w in result.warnings)
