@@ -21,6 +21,9 @@ __all__ = ["process_measurement", "load_spectrum", "resolve_field"]
 
 #: Below this SNR the spectrum holds no signal worth interpreting.
 _NO_SIGNAL_SNR = 5.0
+#: Tallest line over noise sd beyond which a spectrum is not a measurement (the shared real files
+#: reach about 2e5; double-precision rounding of noise-free data gives 1e12 and more).
+_MAX_DYNAMIC_RANGE = 1e8
 
 
 def load_spectrum(path, *, options: ProcessingOptions | None = None) -> ProcessedSpectrum:
@@ -108,6 +111,11 @@ def _finish(raw, ppm, intensity, phases, field_mhz, options, record, warnings) -
     if given and header is None and str(given).strip().lower() not in ("neat", "none", "n/a", "unknown"):
         warnings.append(f"solvent {given!r} not in the solvent table: the data decide the residual line")
     noise_sd = estimate_noise_sd(intensity)
+    dynamic_range = float(np.max(np.abs(intensity))) / noise_sd
+    if dynamic_range > _MAX_DYNAMIC_RANGE:
+        warnings.append(f"the tallest line is {dynamic_range:.1e} times the noise (measured spectra reach "
+                        "about 1e5): simulated or noise-free data? SNR, detection limits and uncertainties "
+                        "are not physical")
     view = view_spectrum(ppm, intensity, noise_sd, field_mhz)
     temperature = raw.parameters.temperature_k
     orientation_text = "stored spectrum: axis as stored"

@@ -208,12 +208,8 @@ def _region_angles(spec, phases, segments):
     return xs[keep], angles[keep], weights[keep]
 
 
-#: Largest FID height over time-domain noise sd a receiver gives (real files: 2e2-7e4).
-_MAX_FID_DYNAMIC_RANGE = 1e8
-
-
 def _fid_quality_warnings(stored: np.ndarray, fid: np.ndarray, delay_points: float) -> list[str]:
-    warnings = _dynamic_range_warnings(stored, delay_points)
+    warnings = []
     for name, channel in (("real", stored.real), ("imaginary", stored.imag)):
         peak = np.max(np.abs(channel))
         if peak > 0 and np.count_nonzero(np.abs(channel) >= peak * (1 - 1e-9)) >= 3:
@@ -232,23 +228,6 @@ def _fid_quality_warnings(stored: np.ndarray, fid: np.ndarray, delay_points: flo
                             f"({ratio:.0f} x noise in the last {seg} points); expect sinc wiggles, "
                             "use a longer acquisition time or more line broadening")
     return warnings
-
-
-def _dynamic_range_warnings(stored: np.ndarray, delay_points: float) -> list[str]:
-    """A FID without noise (or with 1e8 times more signal than noise) is not a measurement."""
-    end = stored.size - int(math.ceil(delay_points)) - 2
-    tail = stored[int(0.9 * stored.size):max(end, int(0.9 * stored.size) + 1)]
-    tail = tail[tail != 0]
-    if tail.size < 16:
-        return []
-    noise = 1.4826 * float(np.median(np.abs(tail.real - np.median(tail.real))))
-    peak = float(np.max(np.abs(stored)))
-    if noise > 0 and peak / noise <= _MAX_FID_DYNAMIC_RANGE:
-        return []
-    ratio = "no noise at all" if noise == 0 else f"{peak / noise:.2g} times its noise"
-    return [f"the FID's largest value is {ratio} (receivers give at most about "
-            f"{_MAX_FID_DYNAMIC_RANGE:.0e}): simulated or already processed data? SNR, detection limits and "
-            "uncertainties are not physical"]
 
 
 def parameter_warnings(raw: RawFid | RawSpectrum) -> list[str]:

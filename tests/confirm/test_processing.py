@@ -351,3 +351,21 @@ def test_arpls_baseline_equals_the_pybaselines_reference(lam):
         y += 400 / (1 + ((x - centre) / 4) ** 2)
     expected, _ = Baseline(x_data=x).arpls(y, lam=lam)
     assert np.max(np.abs(arpls_baseline(y, lam=lam) - expected)) < 1e-4
+
+
+def test_noise_free_fid_is_flagged_as_not_physical(tmp_path):
+    # issue 14: a FID without noise gives SNR and detection limits that mean nothing
+    fid = synthetic_fid(noise=0.0, t2_s=0.2)  # decayed within the acquisition: no truncation wiggles
+    raw = read_measurement(write_fid_directory(tmp_path / "clean", fid, dtypa=2, grpdly=0, decim=1, dspfvs=0))
+    result = process_measurement(raw)
+    assert any("not physical" in w and "times the noise" in w for w in result.warnings), result.warnings
+    noisy = load_spectrum(write_fid_directory(tmp_path / "noisy", synthetic_fid()))
+    assert not any("not physical" in w for w in noisy.warnings)
+
+
+def test_pure_noise_is_no_signal(tmp_path):
+    # issue 14: a pure-noise FID must read as "no signal", not as a spectrum with lines in it
+    rng = np.random.default_rng(11)
+    noise = rng.standard_normal(16384) + 1j * rng.standard_normal(16384)
+    result = load_spectrum(write_fid_directory(tmp_path / "noise", noise))
+    assert any(w.startswith("no signal") for w in result.warnings), result.warnings

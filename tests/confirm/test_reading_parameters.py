@@ -87,3 +87,18 @@ def test_implausible_acquisition_refused(template, tmp_path, key, value, message
     folder = _copy_with(template, tmp_path / "exp", acqus=(key, value))
     with pytest.raises(FileFormatError, match=message):
         read_measurement(folder)
+
+
+def test_fid_of_1e_minus_300_in_a_directory_is_refused(tmp_path):
+    # issue 14: a FID of 1e-300 gave an SNR of 57,000,000; no digitiser produces such numbers
+    import nmrglue as ng
+
+    from tests.confirm.test_processing import acqus_dict
+
+    fid = synthetic_fid(n_points=2048) * 1e-300
+    params = acqus_dict(fid.size, dtypa=2)
+    folder = tmp_path / "tiny"
+    folder.mkdir()
+    ng.bruker.write(str(folder), {"acqus": params}, fid, overwrite=True, write_prog=False)
+    with pytest.raises(FileFormatError, match="not a digitised signal"):
+        read_measurement(folder)
