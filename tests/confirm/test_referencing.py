@@ -288,3 +288,15 @@ def test_weak_singlet_without_that_support_is_not_tms():
     assert result.reference_source == "none"
     assert any("possibly off by -0.070 ppm (the sharp singlet at 0.070 ppm, if it is TMS" in w
                for w in result.warnings)
+
+
+def test_line_position_is_exact_for_a_lorentzian_between_grid_points():
+    # 1/y of a Lorentzian is a parabola: its vertex through three points is the centre exactly,
+    # where a parabola through y itself is off by a fraction of a point
+    from confirm.processing.patterns import SpectrumView, _interpolated_ppm
+
+    ppm = np.linspace(1.0, -1.0, 2001)
+    for centre in (0.00013, -0.00037, 0.0004):
+        y = 1.0 / (1 + ((ppm - centre) / 0.002) ** 2)
+        view = SpectrumView(ppm=ppm, y=y, noise_sd=1e-6, field_mhz=400.0, line_width_hz=1.6)
+        assert _interpolated_ppm(view, int(np.argmax(y))) == pytest.approx(centre, abs=1e-9)
