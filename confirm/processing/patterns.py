@@ -58,19 +58,26 @@ class SpectrumView:
     field_mhz: float
     line_width_hz: float
 
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "_negated", -np.asarray(self.ppm))  # ascending, for searchsorted
+
     @property
     def hz_per_point(self) -> float:
         return abs(float(self.ppm[0] - self.ppm[1])) * self.field_mhz
 
     def index(self, ppm: float) -> int:
         """Index of the point nearest ``ppm``."""
-        return int(np.clip(np.searchsorted(-self.ppm, -ppm), 0, self.ppm.size - 1))
+        return int(np.clip(np.searchsorted(self._negated, -ppm), 0, self.ppm.size - 1))
+
+    def span(self, high_ppm: float, low_ppm: float) -> tuple[int, int]:
+        """Index range [lo, hi) of the points from ``high_ppm`` down to ``low_ppm``."""
+        return (int(np.searchsorted(self._negated, -high_ppm)),
+                int(np.searchsorted(self._negated, -low_ppm, side="right")))
 
     def segment(self, centre_ppm: float, half_hz: float) -> tuple[np.ndarray, np.ndarray]:
         """(offset in Hz from ``centre_ppm``, intensity) of the points within ``half_hz``."""
         half_ppm = half_hz / self.field_mhz
-        lo = int(np.searchsorted(-self.ppm, -(centre_ppm + half_ppm)))
-        hi = int(np.searchsorted(-self.ppm, -(centre_ppm - half_ppm), side="right"))
+        lo, hi = self.span(centre_ppm + half_ppm, centre_ppm - half_ppm)
         return (self.ppm[lo:hi] - centre_ppm) * self.field_mhz, self.y[lo:hi]
 
 
@@ -104,7 +111,9 @@ class LineCheck:
 def view_spectrum(ppm: np.ndarray, y: np.ndarray, noise_sd: float, field_mhz: float) -> SpectrumView:
     """A :class:`SpectrumView` with the typical width of the sharp lines measured."""
     hz_step = abs(float(ppm[0] - ppm[1])) * field_mhz
-    idx = find_peak_indices(y, height=50 * noise_sd, prominence=20 * noise_sd)
+    y = np.asarray(y)
+    # local maxima well above the noise (prominence is not needed to measure widths)
+    idx = np.flatnonzero((y[1:-1] > y[:-2]) & (y[1:-1] >= y[2:]) & (y[1:-1] > 50 * noise_sd)) + 1
     if idx.size:
         idx = idx[np.argsort(y[idx])[-40:]]
         widths = half_height_widths(y, idx) * hz_step
@@ -432,8 +441,7 @@ def _check_multiplet(view: SpectrumView, i: int, signals: SolventSignals, patter
 def find_candidates(view: SpectrumView, expected_ppm: float, window_ppm: float, *,
                     limit: int = 4) -> list[int]:
     """Indices of the tallest lines (>= 10 noise sd) within ``window_ppm`` of ``expected_ppm``."""
-    lo = int(np.searchsorted(-view.ppm, -(expected_ppm + window_ppm)))
-    hi = int(np.searchsorted(-view.ppm, -(expected_ppm - window_ppm), side="right"))
+    lo, hi = view.span(expected_ppm + window_ppm, expected_ppm - window_ppm)
     if hi - lo < 3:
         return []
     segment = view.y[lo:hi]

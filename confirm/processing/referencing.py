@@ -169,7 +169,9 @@ def decide_orientation(view: SpectrumView, *, carrier_ppm: float, basis: str, so
     record = {"basis": basis, "evidence_as_read": here}
     if here:
         return Orientation(False, f"from the file ({basis}), confirmed by {'; '.join(here)}", record=record)
-    there = _evidence(mirror_view(view, carrier_ppm), solvents, window_ppm, temperature_k)
+    # after mirroring, the header's solvent (all of them when there is none) and TMS are looked for
+    there = _evidence(mirror_view(view, carrier_ppm), [solvent] if solvent else solvents, window_ppm,
+                      temperature_k)
     record["evidence_mirrored"] = there
     if len(there) >= _FLIP_EVIDENCE:
         text = (f"mirrored against the file ({basis}): {len(there)} independent lines of evidence are found "
