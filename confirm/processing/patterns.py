@@ -112,8 +112,8 @@ def view_spectrum(ppm: np.ndarray, y: np.ndarray, noise_sd: float, field_mhz: fl
     """A :class:`SpectrumView` with the typical width of the sharp lines measured."""
     hz_step = abs(float(ppm[0] - ppm[1])) * field_mhz
     y = np.asarray(y)
-    # local maxima well above the noise (prominence is not needed to measure widths)
-    idx = np.flatnonzero((y[1:-1] > y[:-2]) & (y[1:-1] >= y[2:]) & (y[1:-1] > 50 * noise_sd)) + 1
+    # prominent lines only: ripples on a broad hump are not lines and would give the hump's width
+    idx = find_peak_indices(y, height=50 * noise_sd, prominence=20 * noise_sd)
     if idx.size:
         idx = idx[np.argsort(y[idx])[-40:]]
         widths = half_height_widths(y, idx) * hz_step
