@@ -320,7 +320,7 @@ def yield_from_result(result, standard: InternalStandard, *, sample_mass_mg: flo
 
 def analyze_with_standard(path, standard: InternalStandard, *, substrate: str | None = None,
                           reagent: str | None = None, candidates=None, solvent: str | None = None,
-                          temp_c: float = 25.0, field_mhz: float | None = None):
+                          temp_c: float = 25.0, field_mhz: float | None = None, force_field: bool = False):
     """Analyse a spectrum with the internal standard fitted as one more component.
 
     Same arguments as ``confirm.analysis.analyze_path``; the standard is added to the
@@ -345,9 +345,12 @@ def analyze_with_standard(path, standard: InternalStandard, *, substrate: str | 
               "internal_standard": standard.smiles, "standard_mass_mg": standard.mass_mg,
               "standard_purity": standard.purity, "standard_n_h": standard.n_h}
     if isinstance(raw, PeakList):
-        return analyze_peak_list(raw, cands, field_mhz=field_mhz or raw.parameters.field_mhz,
-                                 inputs=(record,), notes=notes, parameters=params)
-    options = ProcessingOptions(field_mhz=field_mhz) if field_mhz else None
+        from confirm.processing import resolve_field
+
+        field = resolve_field(raw.parameters.field_mhz, field_mhz, force=force_field, source=str(path))
+        return analyze_peak_list(raw, cands, field_mhz=field, inputs=(record,), notes=notes,
+                                 parameters=params)
+    options = ProcessingOptions(field_mhz=field_mhz, force_field=force_field) if field_mhz else None
     return analyze_spectrum(process_measurement(raw, options=options), cands, inputs=(record,), notes=notes,
                             parameters=params)
 
