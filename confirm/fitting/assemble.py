@@ -17,7 +17,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from confirm.fitting.evidence import decide_presence, point_variance, read_sites, weighted_fit
-from predictors.core import ComponentFit, MixtureFit, SiteEvidence
+from predictors.core import ComponentFit, SiteEvidence
 
 __all__ = ["Evaluation", "evaluate", "rank_fits", "fit_weights", "fraction_covariance"]
 
@@ -64,15 +64,19 @@ def diagnostic_sites(model) -> list:
 
 def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: float, detection_sigma: float,
              lw_ppm: float, uncertainty_scale: float) -> Evaluation:
-    """Read the evidence of one refined fit and solve the amounts of the candidates present."""
+    """Read the evidence of one refined fit and solve the amounts of the candidates present.
+
+    Each point's variance is the noise, widened by the local misfit of the refined fit around it
+    (a region the model cannot reproduce closely, such as several overlapping aromatic patterns,
+    has little say in the amounts), plus the model error of the signal there."""
     signal = refined.amounts @ refined.cols
-    var = point_variance(noise_sd, signal, model_error)
+    var = point_variance(noise_sd, signal, model_error) * _local_misfit(grid, refined.model, noise_sd, lw_ppm)
     offsets = np.cumsum([0] + [m.n_sites for m in models])[:-1]
     n_sites = [m.n_sites for m in models]
     everyone = np.ones(len(models), bool)
     amounts_all, base_all, _ = weighted_fit(refined.cols, basis, grid, var, everyone)
     readings = read_sites(grid, refined.per_site, refined.cols, amounts_all, base_all, basis, offsets, n_sites,
-                          var, lw_ppm)
+                          var, lw_ppm, noise_sd=noise_sd, model_error=model_error)
     presence = tuple(
         decide_presence(r, detection_sigma=detection_sigma, diagnostic=diagnostic_sites(m))
         for r, m in zip(readings, models, strict=True)
@@ -90,6 +94,20 @@ def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: floa
         cov[np.ix_(idx, idx)] = corr * np.outer(wanted, wanted)
     model = amounts @ refined.cols + basis @ base
     return Evaluation(amounts, cov, base, detected, presence, readings, var, model)
+
+
+#: Half-width (line widths) of the window over which the local misfit of a point is averaged.
+_MISFIT_WINDOW_WIDTHS = 3.0
+
+
+def _local_misfit(grid, model: np.ndarray, noise_sd: float, lw_ppm: float) -> np.ndarray:
+    """Reduced chi-square of the residual around each point (at least 1)."""
+    z = ((grid.y - model) / noise_sd) ** 2 * (grid.weight > 0)
+    half = max(1, int(round(_MISFIT_WINDOW_WIDTHS * lw_ppm / grid.dx_ppm)))
+    kernel = np.ones(2 * half + 1)
+    count = np.convolve((grid.weight > 0).astype(float), kernel, mode="same")
+    mean = np.convolve(z, kernel, mode="same") / np.maximum(count, 1.0)
+    return np.maximum(mean, 1.0)
 
 
 def _local_inflation(readings) -> float:

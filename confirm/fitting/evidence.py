@@ -3,10 +3,10 @@
 After the refinement every candidate's multiplets sit where the data put them. Each is then read
 on its own, against the data with every other contribution taken away:
 
-- its **amount** (least squares on its own window) with a standard deviation from the noise and
-  from the model error of whatever overlaps it (each point's variance is ``noise**2 +
-  (model_error * model)**2``), widened by the local misfit (the residual in its own window, not
-  the misfit of some large signal elsewhere);
+- its **amount** (least squares on its own window) with a standard deviation from the noise,
+  widened by the local misfit (the residual in its own window, not the misfit of some large signal
+  elsewhere), and from the model error of whatever overlaps it (``model_error`` times the
+  overlapping signal: one coherent error over the line);
 - its **envelope**: the largest amount that every main line of the multiplet can carry (a line
   that is not in the data caps it near zero), the test a chemist makes by eye;
 - its shape match and how much of its window other components fill.
@@ -42,6 +42,9 @@ _MISSING_SD = 3.0
 #: window of a few hundred line widths, and the best of that many noise positions reaches about
 #: 3-4 sd by chance (the look-elsewhere effect); 5 sd by chance is rare (~1e-4 per site).
 SEEN_SIGMA = 5.0
+#: ... and only where at most this share of its window's modelled signal belongs to others: a
+#: multiplet sitting on another component's line is not seen on its own.
+_SEEN_OVERLAP = 0.5
 #: One-sided 95 % normal quantile (upper bounds).
 Z_UPPER_95 = 1.6448536269514722
 
@@ -131,7 +134,8 @@ def weighted_fit(cols: np.ndarray, basis: np.ndarray, grid, var: np.ndarray, use
     return amounts, base, cov
 
 
-def read_sites(grid, per_site, cols, amounts, base, basis, offsets, n_sites, var, lw_ppm) -> list:
+def read_sites(grid, per_site, cols, amounts, base, basis, offsets, n_sites, var, lw_ppm, *,
+               noise_sd: float, model_error: float) -> list:
     """Every site of every candidate read on its own (see the module docstring).
 
     Parameters
@@ -145,9 +149,16 @@ def read_sites(grid, per_site, cols, amounts, base, basis, offsets, n_sites, var
     offsets, n_sites : sequence of int
         First row of each candidate in ``per_site`` and its number of sites.
     var : ndarray, shape (n,)
-        Variance of each point (:func:`point_variance`).
+        Variance of each point (:func:`point_variance`): the envelope's margin.
     lw_ppm : float
         Line width: a line counts as there within half a width of its place.
+    noise_sd : float
+        Noise sd of a point.
+    model_error : float
+        Relative error of a modelled profile. An error in how much of a shared line belongs to
+        each component is one coherent error over the line, not independent point by point, so
+        it enters a multiplet's amount sd as ``model_error`` times the overlapping signal (in
+        amount units), not through the point weights.
     """
     model = amounts @ cols + basis @ base
     signal = amounts @ cols
@@ -158,26 +169,28 @@ def read_sites(grid, per_site, cols, amounts, base, basis, offsets, n_sites, var
         for s in range(n):
             u = per_site[o + s]
             own = amounts[k] * u
-            rows.append(_read_one(grid, u, grid.y - (model - own), signal - own, var, reach))
+            rows.append(_read_one(grid, u, grid.y - (model - own), signal - own, var, reach, noise_sd,
+                                  model_error))
         out.append(rows)
     return out
 
 
-def _read_one(grid, u, d, others, var, reach: int) -> SiteReading:
+def _read_one(grid, u, d, others, var, reach: int, noise_sd: float, model_error: float) -> SiteReading:
     top = float(u.max()) if u.size else 0.0
     window = (u > _WINDOW_SHARE * top) & (grid.weight > 0) if top > 0 else np.zeros(u.size, bool)
     ppm = float(np.sum(grid.x * u) / np.sum(u)) if top > 0 else float("nan")
     if window.sum() < 3:
         return SiteReading(ppm, 0.0, np.inf, np.inf, 0.0, 0.0, 1.0, False)
-    uw, dw, vw, ow = u[window], d[window], var[window], others[window]
-    info = float(np.sum(uw * uw / vw))
-    alpha = float(np.sum(uw * dw / vw)) / info
+    uw, dw, ow = u[window], d[window], others[window]
+    uu = float(np.dot(uw, uw))
+    alpha = float(np.dot(uw, dw)) / uu
     resid = dw - alpha * uw
-    misfit = float(np.sum(resid * resid / vw)) / max(1, uw.size - 1)
-    sd = np.sqrt(max(1.0, misfit) / info)
+    misfit = float(np.dot(resid, resid)) / noise_sd**2 / max(1, uw.size - 1)
+    shared = float(np.dot(uw, np.abs(ow))) / uu  # the other components' signal here, in amount units
+    sd = np.sqrt(max(1.0, misfit) * noise_sd**2 / uu + (model_error * shared) ** 2)
     norm = float(np.linalg.norm(uw) * np.linalg.norm(dw))
     shape = float(np.dot(uw, dw) / norm) if norm > 0 else 0.0
-    overlap = float(np.dot(uw, np.abs(ow)) / max(np.dot(uw, np.abs(ow)) + abs(alpha) * np.dot(uw, uw), 1e-300))
+    overlap = shared / max(shared + abs(alpha), 1e-300)
     envelope = _envelope(u, d, var, others, window, reach, misfit)
     return SiteReading(ppm, alpha, sd, envelope, shape, overlap, misfit, True)
 
@@ -219,7 +232,8 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic) -> Presence
     # the amount most multiplets carry (a weighted median: a few multiplets on borrowed lines do
     # not move it); a multiplet whose lines cannot carry half of it is missing
     reference = _weighted_median(a, w)
-    seen = tuple(i for i in use if readings[i].sigma > max(detection_sigma, SEEN_SIGMA))
+    seen = tuple(i for i in use if readings[i].sigma > max(detection_sigma, SEEN_SIGMA)
+                 and readings[i].overlap < _SEEN_OVERLAP)
     missing = ()
     if reference > _MISSING_SD * plain_sd:
         missing = tuple(i for i in use if readings[i].envelope < _MISSING_SHARE * reference)

@@ -15,7 +15,8 @@ import numpy as np
 from predictors.core import Spectrum
 from predictors.errors import FitError
 
-__all__ = ["Grid", "fit_intervals", "mask_intervals", "build_grid", "baseline_basis", "blur_spectrum", "bin_factor"]
+__all__ = ["Grid", "fit_intervals", "mask_intervals", "build_grid", "baseline_basis", "blur_spectrum", "bin_factor",
+           "rephase"]
 
 #: 1J(C,H) (Hz) of the widest-spaced satellites considered when a region is laid out.
 _SATELLITE_REACH_HZ = 160.0
@@ -232,6 +233,30 @@ def baseline_basis(grid: Grid, degree: int, *, phase: bool) -> np.ndarray:
             col[sel] = np.polynomial.legendre.legval(t, [0] * d + [1])
             cols.append(col)
     if phase and grid.dispersion is not None:
-        t = 2 * (grid.x - grid.x.min()) / max(float(np.ptp(grid.x)), 1e-9) - 1
+        t = phase_axis(grid, grid.x)
         cols += [grid.dispersion, grid.dispersion * t]
     return np.array(cols).T
+
+
+def phase_axis(grid: Grid, ppm: np.ndarray) -> np.ndarray:
+    """The position variable t of the phase columns (-1 at the grid's low end, +1 at its high end)."""
+    return 2 * (np.asarray(ppm) - grid.x.min()) / max(float(np.ptp(grid.x)), 1e-9) - 1
+
+
+def rephase(spectrum: Spectrum, grid: Grid, c0: float, c1: float) -> tuple[Spectrum, float]:
+    """The spectrum with the phase error that the phase columns measured taken out.
+
+    A line with a phase error phi shows ``A cos(phi) - D sin(phi)``; fitted with the phase
+    columns its coefficient is ``c = -tan(phi)`` (``c0 + c1 t`` across the grid). The absorption
+    ``A = y cos(phi) + H[y] sin(phi)`` (H: the Hilbert transform) is restored exactly, so no
+    amount keeps the factor 1/cos(phi) that the columns alone leave, which differs across the
+    spectrum when the error has a first-order part. Returns the spectrum and the largest phase
+    corrected (degrees).
+    """
+    ppm = np.asarray(spectrum.ppm)[::-1]
+    y = np.asarray(spectrum.intensity, dtype=float)[::-1]
+    phi = -np.arctan(c0 + c1 * np.clip(phase_axis(grid, ppm), -1.0, 1.0))
+    corrected = y * np.cos(phi) + _hilbert_transform(y) * np.sin(phi)
+    out = Spectrum(ppm=spectrum.ppm, intensity=corrected[::-1], field_mhz=spectrum.field_mhz,
+                   nucleus=spectrum.nucleus, solvent=spectrum.solvent, metadata=spectrum.metadata)
+    return out, float(np.degrees(np.max(np.abs(phi))))

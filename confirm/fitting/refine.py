@@ -20,12 +20,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from confirm.fitting.lineshape import draw_lines, line_reach
 from confirm.fitting.linear import solve_amounts
+from confirm.fitting.lineshape import draw_lines, line_reach
 from confirm.fitting.models import model_lines
 from confirm.fitting.solver import least_squares_box
 
-__all__ = ["Layout", "Priors", "Refined", "Refinement", "exact_columns", "line_regions"]
+__all__ = ["Layout", "Priors", "Refined", "Refinement", "exact_columns", "line_regions", "resolve_linear"]
 
 #: Prior sd of a region's line width, relative to the measured width.
 _WIDTH_PRIOR_REL = 0.5
@@ -438,6 +438,20 @@ def _largest_move(layout: Layout, before: np.ndarray, after: np.ndarray, width_p
     shift = np.max(np.abs(after[layout.shift_slice] - before[layout.shift_slice]), initial=0.0) / width_ppm
     coupling = np.max(np.abs(after[layout.j_slice] - before[layout.j_slice]), initial=0.0)
     return float(max(shift, coupling))
+
+
+def resolve_linear(refined: Refined, grid, basis) -> Refined:
+    """``refined`` with its amounts and baseline solved again for other data on the same axis."""
+    from dataclasses import replace
+
+    amounts, base = solve_amounts(refined.cols, basis, grid.y, grid.weight)
+    theta = refined.theta.copy()
+    theta[refined.layout.amount_slice] = amounts
+    theta[refined.layout.base_slice] = base
+    model = amounts @ refined.cols + basis @ base
+    r = (grid.y - model) * grid.weight
+    cost = float(np.dot(r, r))
+    return replace(refined, theta=theta, model=model, cost=cost, objective=cost / refined.scale**2 + refined.prior)
 
 
 def exact_columns(grid, models, layout: Layout, field_mhz: float, theta: np.ndarray):

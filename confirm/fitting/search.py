@@ -24,8 +24,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from confirm.fitting.lineshape import draw_lines, line_reach
 from confirm.fitting.linear import Projected, linear_cost, solve_amounts
+from confirm.fitting.lineshape import draw_lines, line_reach
 from confirm.fitting.models import model_lines
 
 __all__ = ["SearchState", "simulate_state", "site_columns", "search_assignments", "near_swaps", "resweep",
@@ -568,9 +568,10 @@ def _replace_molecules(problem: _Problem, models, state, shifts, *, passes: int 
     """Take each molecule out in turn and place it again on what the others leave unexplained.
 
     Site moves shift one site at a time, so a molecule whose sites sit on another molecule's
-    multiplets stays there: moving any single site away costs more than it gains. Removing the
-    whole molecule and re-placing it against the residual of the rest, then sweeping, escapes
-    such traps; the move is kept only when the MAP objective drops.
+    multiplets stays there: moving any single site away costs more than it gains; and a molecule
+    with no amount cannot move at all. Removing the whole molecule and re-placing it against the
+    residual of the rest, then sweeping, escapes such traps; the move is kept only when the MAP
+    objective drops. A final sweep with swaps follows.
     """
     grid = problem.grid
     offsets, _ = _offsets(models)
@@ -731,6 +732,8 @@ def resweep(grid, basis, models, shifts, jvals, *, lw_ppm: float, field_mhz: flo
     """
     problem = _Problem(grid=grid, basis=basis, lw_ppm=lw_ppm, field_mhz=field_mhz, noise_sd=noise_sd)
     state = simulate_state(models, shifts, field_mhz, jvals)
-    new = _sweep_sites(problem, models, state, shifts, n_sweeps=4)
+    # a molecule with no amount cannot move one site at a time (its other sites, on nothing, keep
+    # the joint amount at zero): each molecule is also taken out and placed again
+    new = _replace_molecules(problem, models, state, shifts, passes=1)
     moved = max(float(np.max(np.abs(a - b))) for a, b in zip(new, shifts, strict=True)) > lw_ppm
     return new, moved

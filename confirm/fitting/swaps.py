@@ -88,7 +88,8 @@ def _suspect_swaps(grid, basis, models, refined: Refined, noise_sd: float, model
     offsets = np.cumsum([0] + [m.n_sites for m in models])[:-1]
     base = refined.theta[lay.base_slice]
     readings = read_sites(grid, refined.per_site, refined.cols, amounts, base, basis, offsets,
-                          [m.n_sites for m in models], var, float(np.median(refined.widths_ppm)))
+                          [m.n_sites for m in models], var, float(np.median(refined.widths_ppm)),
+                          noise_sd=noise_sd, model_error=model_error)
     sites = [(k, s) for k, m in enumerate(models) for s in range(m.n_sites)]
     a = np.array([readings[k][s].amount for k, s in sites])
     sd = np.array([readings[k][s].amount_sd if readings[k][s].usable else np.inf for k, s in sites])
