@@ -19,7 +19,7 @@ import numpy as np
 from confirm.fitting.evidence import decide_presence, point_variance, read_sites, weighted_fit
 from predictors.core import ComponentFit, SiteEvidence
 
-__all__ = ["Evaluation", "evaluate", "rank_fits", "fit_weights", "fraction_covariance"]
+__all__ = ["Evaluation", "evaluate", "rank_fits", "fit_weights", "fraction_covariance", "refined_amount_covariance"]
 
 #: Fits whose weight falls below this are left out of the average.
 _MIN_WEIGHT = 1e-3
@@ -63,12 +63,15 @@ def diagnostic_sites(model) -> list:
 
 
 def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: float, detection_sigma: float,
-             lw_ppm: float, uncertainty_scale: float) -> Evaluation:
+             lw_ppm: float, uncertainty_scale: float, amount_cov=None) -> Evaluation:
     """Read the evidence of one refined fit and solve the amounts of the candidates present.
 
     Each point's variance is the noise, widened by the local misfit of the refined fit around it
     (a region the model cannot reproduce closely, such as several overlapping aromatic patterns,
-    has little say in the amounts), plus the model error of the signal there."""
+    has little say in the amounts), plus the model error of the signal there. ``amount_cov``, the
+    covariance of the amounts with every other parameter of the refinement free (shifts, couplings,
+    widths), is a floor on their uncertainty: a weak multiplet whose couplings the data barely fix
+    is uncertain in amount too."""
     signal = refined.amounts @ refined.cols
     var = point_variance(noise_sd, signal, model_error) * _local_misfit(grid, refined.model, noise_sd, lw_ppm)
     offsets = np.cumsum([0] + [m.n_sites for m in models])[:-1]
@@ -81,18 +84,24 @@ def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: floa
         decide_presence(r, detection_sigma=detection_sigma, diagnostic=diagnostic_sites(m))
         for r, m in zip(readings, models, strict=True)
     )
-    detected = np.array([p.present for p in presence])
-    amounts, base, cov_sub = weighted_fit(refined.cols, basis, grid, var, detected)
+    # solvent, water and TMS lines stay in the model whatever their size; they are no components
+    nuisance = np.array([m.nuisance for m in models])
+    detected = np.array([p.present for p in presence]) & ~nuisance
+    amounts, base, cov_sub = weighted_fit(refined.cols, basis, grid, var, detected | nuisance)
+    used = np.flatnonzero(detected | nuisance)
     cov = np.zeros((len(models), len(models)))
-    idx = np.flatnonzero(detected)
-    if idx.size:
-        sd = np.sqrt(np.clip(np.diag(cov_sub), 0, None))
-        factor = np.array([_local_inflation(readings[k]) for k in idx])
-        wanted = np.maximum(sd * factor, [presence[k].amount_sd for k in idx]) * uncertainty_scale
+    keep = np.flatnonzero(detected[used])  # rows of cov_sub that belong to candidates present
+    if keep.size:
+        idx = used[keep]
+        sub = cov_sub[np.ix_(keep, keep)] if amount_cov is None else amount_cov[np.ix_(idx, idx)]
+        sd = np.sqrt(np.clip(np.diag(sub), 0, None))
+        fit_sd = np.sqrt(np.clip(np.diag(cov_sub[np.ix_(keep, keep)]), 0, None))
+        wanted = np.maximum(np.maximum(sd, fit_sd), [presence[k].amount_sd for k in idx]) * uncertainty_scale
         with np.errstate(invalid="ignore", divide="ignore"):
-            corr = cov_sub / np.outer(np.where(sd > 0, sd, 1.0), np.where(sd > 0, sd, 1.0))
+            corr = sub / np.outer(np.where(sd > 0, sd, 1.0), np.where(sd > 0, sd, 1.0))
         cov[np.ix_(idx, idx)] = corr * np.outer(wanted, wanted)
     model = amounts @ refined.cols + basis @ base
+    amounts = np.where(nuisance, 0.0, amounts)  # the components' amounts; the model keeps the rest
     return Evaluation(amounts, cov, base, detected, presence, readings, var, model)
 
 
@@ -110,16 +119,6 @@ def _local_misfit(grid, model: np.ndarray, noise_sd: float, lw_ppm: float) -> np
     return np.maximum(mean, 1.0)
 
 
-def _local_inflation(readings) -> float:
-    """sqrt of the information-weighted local reduced chi-square of a candidate's multiplets (>= 1)."""
-    use = [r for r in readings if r.usable and np.isfinite(r.amount_sd) and r.amount_sd > 0]
-    if not use:
-        return 1.0
-    info = np.array([1.0 / r.amount_sd**2 for r in use])
-    misfit = np.array([r.misfit for r in use])
-    return float(np.sqrt(max(1.0, np.sum(info * misfit) / np.sum(info))))
-
-
 def fraction_covariance(amounts: np.ndarray, cov: np.ndarray) -> np.ndarray:
     """Covariance of the fractions amounts / sum(amounts) (first-order propagation)."""
     total = amounts.sum()
@@ -130,7 +129,8 @@ def fraction_covariance(amounts: np.ndarray, cov: np.ndarray) -> np.ndarray:
 
 
 def fractions_of(ev: Evaluation) -> tuple[np.ndarray, np.ndarray]:
-    """Mole fractions of the detected candidates (0 elsewhere) and their covariance."""
+    """Mole fractions of the detected candidates (0 elsewhere) and their covariance (the amounts of
+    solvent and reference lines are 0 in an evaluation)."""
     total = ev.amounts.sum()
     frac = ev.amounts / total if total > 0 else np.zeros_like(ev.amounts)
     return frac, fraction_covariance(ev.amounts, ev.cov)
@@ -236,3 +236,17 @@ def _evidence_text(e: SiteEvidence) -> str:
     return (f"{e.label} ({e.n_h}H) {state} at {e.ppm:.3f} ppm (predicted {e.predicted_ppm:.2f} +- "
             f"{e.predicted_sd_ppm:.2f}){j_part}; amount from this multiplet {amount}, shape match "
             f"{e.shape_match:.2f}, overlap {100 * e.overlap:.0f}%")
+
+
+def refined_amount_covariance(refined) -> np.ndarray:
+    """Covariance of the amounts from the refinement's last Jacobian (prior rows included), every
+    other parameter marginalised: scale**2 (J^T J)^-1, amount block."""
+    jac = refined.jacobian
+    norms = np.linalg.norm(jac, axis=0)
+    live = norms > 1e-12 * max(float(norms.max()), 1e-300)
+    scaled = jac[:, live] / norms[live]
+    inv = np.linalg.pinv(scaled.T @ scaled, rcond=1e-12, hermitian=True) / np.outer(norms[live], norms[live])
+    full = np.zeros((jac.shape[1], jac.shape[1]))
+    full[np.ix_(live, live)] = inv
+    lay = refined.layout
+    return full[lay.amount_slice, lay.amount_slice] * refined.scale**2

@@ -51,6 +51,12 @@ class CandidateModel:
     jch: np.ndarray  # one-bond 13C-1H coupling per site (Hz): where its satellites sit
     labels: tuple
     memo: dict = dataclasses.field(default_factory=dict)  # clusters already simulated
+    #: a fixed line pattern (offsets in Hz, relative intensities) instead of a spin simulation
+    pattern: tuple | None = None
+    #: own line width (lowest, highest, starting FWHM in Hz) instead of its region's
+    own_width: tuple | None = None
+    #: a solvent, water or reference line: fitted, never reported as a component
+    nuisance: bool = False
 
     @property
     def n_sites(self) -> int:
@@ -244,6 +250,11 @@ def model_lines(model: CandidateModel, shifts: np.ndarray, j_values: np.ndarray,
     """
     from predictors.spin import simulate_arrays_reusing
 
+    if model.pattern is not None:
+        offsets, weights = model.pattern
+        ppm = np.asarray(shifts, dtype=float)[0] + np.asarray(offsets, dtype=float) / field_mhz
+        inten = np.asarray(weights, dtype=float) * (model.n_h[0] / float(np.sum(weights)))
+        return _with_satellites(model, ppm, inten, np.zeros(ppm.size, int), field_mhz, satellites)
     j = coupling_matrix(model, j_values)
     try:
         lines = simulate_arrays_reusing(shifts, j, model.n_h, field_mhz=field_mhz, memo=model.memo)
@@ -251,14 +262,17 @@ def model_lines(model: CandidateModel, shifts: np.ndarray, j_values: np.ndarray,
         # exactly degenerate sites can stall the eigensolver: nudge them apart by < 0.01 Hz and retry
         nudged = np.asarray(shifts) + 1e-5 * np.arange(len(shifts)) / max(field_mhz, 1.0)
         lines = simulate_arrays_reusing(nudged, j, model.n_h, field_mhz=field_mhz, memo=model.memo)
-    ppm, inten = np.asarray(lines.ppm), np.asarray(lines.intensity)
-    site = np.asarray(lines.site_index)
-    if not satellites:
+    return _with_satellites(model, np.asarray(lines.ppm), np.asarray(lines.intensity),
+                            np.asarray(lines.site_index), field_mhz, satellites)
+
+
+def _with_satellites(model: CandidateModel, ppm, inten, site, field_mhz: float, satellites: bool):
+    """Lines plus their 13C satellites at +-1J(C,H)/2 (none for a site whose 1J is 0)."""
+    if not satellites or not np.any(model.jch[site] > 0):
         return ppm, inten, site, np.zeros(ppm.size, bool)
     half = model.jch[site] / 2.0 / field_mhz
+    share = np.where(model.jch[site] > 0, SATELLITE_SHARE, 0.0)
     ppm = np.concatenate([ppm, ppm + half, ppm - half])
-    inten = np.concatenate(
-        [inten * (1 - 2 * SATELLITE_SHARE), inten * SATELLITE_SHARE, inten * SATELLITE_SHARE]
-    )
+    inten = np.concatenate([inten * (1 - 2 * share), inten * share, inten * share])
     satellite = np.arange(ppm.size) >= site.size
     return ppm, inten, np.concatenate([site, site, site]), satellite

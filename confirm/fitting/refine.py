@@ -25,7 +25,8 @@ from confirm.fitting.lineshape import draw_lines, line_reach
 from confirm.fitting.models import model_lines
 from confirm.fitting.solver import least_squares_box
 
-__all__ = ["Layout", "Priors", "Refined", "Refinement", "exact_columns", "line_regions", "resolve_linear"]
+__all__ = ["Layout", "Priors", "Refined", "Refinement", "blurred_view", "exact_columns", "line_regions",
+           "resolve_linear"]
 
 #: Prior sd of a region's line width, relative to the measured width.
 _WIDTH_PRIOR_REL = 0.5
@@ -43,12 +44,33 @@ _SETTLED = 0.1
 @dataclass(frozen=True)
 class Layout:
     """Positions of the parameter groups in the vector ``theta``:
-    [shifts..., couplings..., widths (ppm) per region, Gaussian share, amounts..., baseline...]."""
+    [shifts..., couplings..., widths (ppm: one per region, then one per line with a width of its
+    own), Gaussian share, amounts..., baseline...]."""
 
     n_sites: tuple
     n_j: tuple
     n_regions: int
     n_base: int
+    own: tuple = ()  # per model: index of its own width among the extra widths, or -1
+
+    @classmethod
+    def of(cls, models, n_regions: int, n_base: int) -> Layout:
+        own, count = [], 0
+        for m in models:
+            own.append(count if m.own_width is not None else -1)
+            count += m.own_width is not None
+        return cls(tuple(m.n_sites for m in models), tuple(len(m.j_pairs) for m in models), n_regions, n_base,
+                   tuple(own))
+
+    @property
+    def n_widths(self) -> int:
+        return self.n_regions + sum(1 for i in self.own if i >= 0)
+
+    def width_index(self, grid, k: int, ppm: np.ndarray) -> np.ndarray:
+        """Width parameter of each line of model ``k``: its own, else its region's."""
+        if self.own and self.own[k] >= 0:
+            return np.full(np.asarray(ppm).size, self.n_regions + self.own[k])
+        return line_regions(grid, np.asarray(ppm))
 
     @property
     def k(self) -> int:
@@ -66,7 +88,7 @@ class Layout:
     @property
     def width_slice(self) -> slice:
         start = self.j_slice.stop
-        return slice(start, start + self.n_regions)
+        return slice(start, start + self.n_widths)
 
     @property
     def gauss_index(self) -> int:
@@ -148,7 +170,8 @@ class Refined:
 
     @property
     def widths_ppm(self) -> np.ndarray:
-        return self.theta[self.layout.width_slice]
+        """The line width of each region (the widths of the nuisance lines left out)."""
+        return self.theta[self.layout.width_slice][: self.layout.n_regions]
 
     @property
     def gauss(self) -> float:
@@ -180,7 +203,7 @@ class _Round:
         self.near = np.concatenate([ln[3] for ln in self.lines])
         self.inten = np.concatenate([ln[1] for ln in self.lines])
         self.ppm0 = np.concatenate([ln[0] for ln in self.lines])
-        self.region = line_regions(grid, self.ppm0)
+        self.region = np.concatenate([layout.width_index(grid, k, ln[0]) for k, ln in enumerate(self.lines)])
         amounts0 = np.maximum(theta0[layout.amount_slice], 1e-3 * max(float(theta0[layout.amount_slice].max()), 1e-300))
         self.reach = line_reach(self.inten * amounts0[self.molecule], self.near)
         self.jcols = self._coupling_columns(theta0)
@@ -208,7 +231,7 @@ class _Round:
 
     def _draw_one(self, k: int, lines, widths, gauss: float) -> np.ndarray:
         ppm, inten, _, sat = lines
-        fwhm = widths[line_regions(self.grid, ppm)]
+        fwhm = widths[self.layout.width_index(self.grid, k, ppm)]
         return draw_lines(self.grid, ppm, inten, np.zeros(ppm.size, int), 1, fwhm, gauss=gauss, near=sat).values[0]
 
     def _draw(self, theta):
@@ -222,7 +245,7 @@ class _Round:
         drawn = draw_lines(
             self.grid, self.ppm0 + delta[self.site], self.inten, self.site, sum(lay.n_sites),
             widths[self.region], gauss=float(theta[lay.gauss_index]), near=self.near, derivs=True,
-            width_group=self.region, n_width_groups=lay.n_regions, weight=amounts[self.molecule], reach=self.reach,
+            width_group=self.region, n_width_groups=lay.n_widths, weight=amounts[self.molecule], reach=self.reach,
         )
         cols = self._molecule_columns(drawn.values)
         for k, (jcol, j, j_base) in enumerate(zip(self.jcols, lay.jvals(theta), self.base_j, strict=True)):
@@ -290,15 +313,16 @@ class _Round:
 class Priors:
     """Gaussian priors as residual rows: shifts, couplings and widths."""
 
-    def __init__(self, models, layout: Layout, width0_ppm: float):
+    def __init__(self, models, layout: Layout, width0_ppm: float, field_mhz: float):
         self.layout = layout
+        own = [m.own_width[2] / field_mhz for m in models if m.own_width is not None]
         self.centre = np.concatenate(
             [np.concatenate([m.shift0 for m in models]), np.concatenate([m.j_values0 for m in models]),
-             np.full(layout.n_regions, width0_ppm)]
+             np.full(layout.n_regions, width0_ppm), own]
         )
         self.sd = np.concatenate(
             [np.concatenate([m.window / 3.0 for m in models]), np.concatenate([m.j_sd for m in models]),
-             np.full(layout.n_regions, _WIDTH_PRIOR_REL * width0_ppm)]
+             np.full(layout.n_regions, _WIDTH_PRIOR_REL * width0_ppm), 2.0 * np.array(own)]
         )
         self.stop = layout.width_slice.stop
 
@@ -322,8 +346,14 @@ def _bounds(models, layout: Layout, field_mhz: float, grid, max_width_hz: float)
     hi[layout.shift_slice] = np.concatenate([m.shift0 + m.window for m in models])
     lo[layout.j_slice] = np.concatenate([m.j_lo for m in models])
     hi[layout.j_slice] = np.concatenate([m.j_hi for m in models])
-    lo[layout.width_slice] = max(0.05 / field_mhz, 1.5 * grid.dx_ppm)
-    hi[layout.width_slice] = max_width_hz / field_mhz
+    region = slice(layout.width_slice.start, layout.width_slice.start + layout.n_regions)
+    lo[region] = max(0.05 / field_mhz, 1.5 * grid.dx_ppm)
+    hi[region] = max_width_hz / field_mhz
+    own = [m.own_width for m in models if m.own_width is not None]
+    if own:
+        extra = slice(region.stop, layout.width_slice.stop)
+        lo[extra] = np.maximum([w[0] / field_mhz for w in own], 1.5 * grid.dx_ppm)
+        hi[extra] = [w[1] / field_mhz for w in own]
     lo[layout.gauss_index], hi[layout.gauss_index] = 0.0, 1.0
     lo[layout.amount_slice] = 0.0
     return lo, hi
@@ -351,9 +381,8 @@ class Refinement:
                  max_width_hz: float):
         self.grid, self.basis, self.models = grid, basis, list(models)
         self.field, self.width0, self.noise = field_mhz, width_ppm, noise_sd
-        self.layout = Layout(tuple(m.n_sites for m in models), tuple(len(m.j_pairs) for m in models),
-                             grid.n_regions, basis.shape[1])
-        self.priors = Priors(models, self.layout, width_ppm)
+        self.layout = Layout.of(models, grid.n_regions, basis.shape[1])
+        self.priors = Priors(models, self.layout, width_ppm, field_mhz)
         self.lo, self.hi = _bounds(models, self.layout, field_mhz, grid, max_width_hz)
 
     def start(self, shifts, *, jvals=None, widths=None, gauss: float | None = None) -> np.ndarray:
@@ -362,9 +391,13 @@ class Refinement:
         theta = np.zeros(lay.size)
         theta[lay.shift_slice] = np.concatenate(shifts)
         theta[lay.j_slice] = np.concatenate([m.j_values0 for m in self.models] if jvals is None else jvals)
-        theta[lay.width_slice] = self.width0 if widths is None else widths
+        theta[lay.width_slice] = self._start_widths() if widths is None else widths
         theta[lay.gauss_index] = 0.1 if gauss is None else gauss
         return np.clip(theta, self.lo, self.hi)
+
+    def _start_widths(self) -> np.ndarray:
+        own = [m.own_width[2] / self.field for m in self.models if m.own_width is not None]
+        return np.concatenate([np.full(self.layout.n_regions, self.width0), own])
 
     def run(self, theta: np.ndarray, *, rounds: int, fix_shape: bool = False) -> Refined:
         """Refine from ``theta`` for at most ``rounds`` simulation rounds (fewer once the parameters
@@ -454,6 +487,20 @@ def resolve_linear(refined: Refined, grid, basis) -> Refined:
     return replace(refined, theta=theta, model=model, cost=cost, objective=cost / refined.scale**2 + refined.prior)
 
 
+def blurred_view(refined: Refined, grid, basis, models, field_mhz: float, blur_hz: float) -> Refined:
+    """``refined`` seen on a copy of the data blurred by ``blur_hz`` (``grid``, same axis): every
+    line drawn ``blur_hz`` wider (exact for the Lorentzian part), amounts and baseline solved
+    again. On such a copy a multiplet whose couplings are still a little off is read by its area,
+    not by its peak heights."""
+    from dataclasses import replace
+
+    theta = refined.theta.copy()
+    theta[refined.layout.width_slice] += blur_hz / field_mhz
+    per_site, cols = exact_columns(grid, models, refined.layout, field_mhz, theta)
+    view = replace(refined, per_site=per_site, cols=cols)
+    return resolve_linear(view, grid, basis)
+
+
 def exact_columns(grid, models, layout: Layout, field_mhz: float, theta: np.ndarray):
     """Per-site and per-candidate unit columns of the exact simulation at ``theta``."""
     widths = theta[layout.width_slice]
@@ -465,9 +512,9 @@ def exact_columns(grid, models, layout: Layout, field_mhz: float, theta: np.ndar
     reach = line_reach(np.concatenate([ln[1] * a for ln, a in zip(lines, amounts, strict=True)]),
                        np.concatenate([ln[3] for ln in lines]))
     rows, pos = [], 0
-    for m, (ppm, inten, site, sat) in zip(models, lines, strict=True):
-        drawn = draw_lines(grid, ppm, inten, site, m.n_sites, widths[line_regions(grid, ppm)], gauss=gauss,
-                           near=sat, reach=reach[pos : pos + ppm.size])
+    for k, (m, (ppm, inten, site, sat)) in enumerate(zip(models, lines, strict=True)):
+        drawn = draw_lines(grid, ppm, inten, site, m.n_sites, widths[layout.width_index(grid, k, ppm)],
+                           gauss=gauss, near=sat, reach=reach[pos : pos + ppm.size])
         pos += ppm.size
         rows.append(drawn.values)
     per_site = np.concatenate(rows)

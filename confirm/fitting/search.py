@@ -604,14 +604,17 @@ def _replace_molecules(problem: _Problem, models, state, shifts, *, passes: int 
 # --------------------------------------------------------------------------------------------
 
 
-def _sweep_task(models, task):
-    """One start swept to its local optimum (a task for ``TaskPool.map``)."""
+def _sweep_task(shared, task):
+    """One start swept to its local optimum (a task for ``TaskPool.map``; ``shared`` holds the
+    candidates' models first)."""
+    models = shared[0]
     problem, state, shifts = task
     return _sweep_sites(problem, models, state, shifts)
 
 
-def _replace_task(models, task):
+def _replace_task(shared, task):
     """Whole-molecule re-placement on one swept start (a task for ``TaskPool.map``)."""
+    models = shared[0]
     problem, state, shifts = task
     return _replace_molecules(problem, models, state, shifts)
 
@@ -639,7 +642,7 @@ def search_assignments(grid, basis, models, *, lw_ppm: float, field_mhz: float, 
     lw_ppm : float
         Line width on the blurred grid.
     pool : TaskPool
-        Runs the starts side by side (``models`` must be its shared data).
+        Runs the starts side by side (its shared data holds ``models`` first).
 
     Returns
     -------

@@ -90,7 +90,7 @@ def _suspect_swaps(grid, basis, models, refined: Refined, noise_sd: float, model
     readings = read_sites(grid, refined.per_site, refined.cols, amounts, base, basis, offsets,
                           [m.n_sites for m in models], var, float(np.median(refined.widths_ppm)),
                           noise_sd=noise_sd, model_error=model_error)
-    sites = [(k, s) for k, m in enumerate(models) for s in range(m.n_sites)]
+    sites = [(k, s) for k, m in enumerate(models) for s in range(m.n_sites)]  # nuisance lines left out below
     a = np.array([readings[k][s].amount for k, s in sites])
     sd = np.array([readings[k][s].amount_sd if readings[k][s].usable else np.inf for k, s in sites])
     own = np.array([amounts[k] for k, _ in sites])
@@ -99,14 +99,17 @@ def _suspect_swaps(grid, basis, models, refined: Refined, noise_sd: float, model
     width = float(np.median(refined.widths_ppm))
     order = np.lexsort((np.arange(z.size), -np.round(np.abs(z), 6)))
     out = []
+    nuisance = np.array([models[k].nuisance for k, _ in sites])
     for i in order:
         if abs(z[i]) <= _SUSPECT_Z:
             break
+        if nuisance[i]:
+            continue
         k, s = sites[i]
         partners = []
         for j, (k2, s2) in enumerate(sites):
             pa, pb = shifts[k][s], shifts[k2][s2]
-            if j == i or abs(pa - pb) <= 2 * width or not np.isfinite(sd[j]):
+            if j == i or nuisance[j] or abs(pa - pb) <= 2 * width or not np.isfinite(sd[j]):
                 continue
             if abs(pb - models[k].shift0[s]) > models[k].window[s] or abs(pa - models[k2].shift0[s2]) > models[k2].window[s2]:
                 continue

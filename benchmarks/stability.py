@@ -1,0 +1,190 @@
+"""Benchmark: is the analysis a function of the data? (issue 13, deliver 2)
+
+Runs the demo (both sample spectra) and 30 corpus cases (tune half, every field) under several
+configurations, each in a fresh subprocess:
+
+- OpenBLAS core types (``OPENBLAS_CORETYPE``, which only selects the BLAS kernels, so it changes
+  the rounding of every matrix product): every type this CPU can run of Haswell, Sandybridge,
+  Nehalem, Prescott, Zen, SkylakeX (a type the CPU lacks dies with SIGILL and is reported as
+  skipped);
+- 1 and 2 workers;
+- the input intensities perturbed at 1e-9 relative (a different rounding of the same data).
+
+It prints, against the first configuration, the largest change of any mole fraction (points), and
+every change of a detected set or of the major product. Target: no change of detected set or
+verdict, amounts within 0.1 point.
+
+    python -m benchmarks.stability [--cases N] [--jobs-only]
+
+Never set OPENBLAS_CORETYPE in tests or CI: it is a diagnostic for this benchmark only.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import subprocess
+import sys
+import time
+
+_CORE_TYPES = ("Haswell", "Sandybridge", "Nehalem", "Prescott", "Zen", "SkylakeX")
+
+
+def _usable_core_types() -> tuple[list[str], list[str]]:
+    """Core types whose kernels run on this CPU, and the others (they die with SIGILL)."""
+    probe = "import numpy as np; a = np.random.default_rng(0).random((300, 300)); (a @ a).sum()"
+    usable, skipped = [], []
+    for core in _CORE_TYPES:
+        env = dict(os.environ, OPENBLAS_CORETYPE=core)
+        done = subprocess.run([sys.executable, "-c", probe], env=env, capture_output=True, check=False)
+        (usable if done.returncode == 0 else skipped).append(core)
+    return usable, skipped
+
+
+def _cases(n: int):
+    """The first n tune cases of mixtures, identity sets and controls, alternating fields."""
+    from benchmarks.corpus.cases import generate_cases, select_cases
+
+    cases = select_cases(generate_cases(), half="tune", kinds=["mixture", "identity", "control"])
+    by_kind = {kind: [c for c in cases if c.kind == kind] for kind in ("mixture", "identity", "control")}
+    share = {"mixture": n // 2, "identity": n // 4, "control": n - n // 2 - n // 4}
+    out = []
+    for kind, count in share.items():
+        out += by_kind[kind][:count]
+    return out
+
+
+def _worker(n_cases: int, n_workers: int, perturb: float) -> dict:
+    """Analyse the demo and the corpus cases in this process; the outcome of each as plain data."""
+    import numpy as np
+
+    from benchmarks.corpus.synthesis import render_case
+    from confirm.analysis import analyze_path, analyze_spectrum, build_candidates, predict_systems
+    from confirm.commands.demo import DEMO_REAGENT, DEMO_SOLVENT, DEMO_SUBSTRATE, DEMO_TEMP_C, sample_files
+    from confirm.fitting import FitOptions
+    from predictors.core import Spectrum
+
+    import confirm.analysis as analysis_module
+
+    options = FitOptions(n_workers=n_workers)
+    original = analysis_module.analyze_spectrum
+
+    def with_options(*args, **kwargs):
+        kwargs.setdefault("options", options)
+        return original(*args, **kwargs)
+
+    analysis_module.analyze_spectrum = with_options
+    rng = np.random.default_rng(12345)
+
+    def nudge(spectrum):
+        if not perturb:
+            return spectrum
+        y = np.asarray(spectrum.intensity) * (1 + perturb * rng.standard_normal(spectrum.ppm.size))
+        return Spectrum(ppm=spectrum.ppm, intensity=y, field_mhz=spectrum.field_mhz, nucleus=spectrum.nucleus,
+                        solvent=spectrum.solvent, metadata=spectrum.metadata)
+
+    out = {}
+    for path in sample_files():
+        if perturb:  # the raw files are read as they are; perturb the processed spectrum instead
+            from confirm.processing import process_measurement
+            from confirm.reading import read_measurement
+
+            processed = process_measurement(read_measurement(path))
+            cands, _ = build_candidates(substrate=DEMO_SUBSTRATE, reagent=DEMO_REAGENT, solvent=DEMO_SOLVENT,
+                                        temp_c=DEMO_TEMP_C)
+            result = with_options(nudge(processed.spectrum), cands)
+        else:
+            result = analyze_path(path, substrate=DEMO_SUBSTRATE, reagent=DEMO_REAGENT, solvent=DEMO_SOLVENT,
+                                  temp_c=DEMO_TEMP_C)
+        out[f"demo:{path.name}"] = _outcome(result)
+    cache: dict = {}
+    for case in _cases(n_cases):
+        cands, _ = build_candidates(candidates=[s for s, _ in case.candidates])
+        missing = [c for c in cands if c.smiles not in cache]
+        if missing:
+            cache.update(zip([c.smiles for c in missing], predict_systems(missing), strict=True))
+        try:
+            result = with_options(nudge(render_case(case)), cands, systems=[cache[c.smiles] for c in cands])
+            out[case.id] = _outcome(result)
+        except Exception as exc:  # noqa: BLE001 -- an error is an outcome too, and must repeat
+            out[case.id] = {"error": f"{type(exc).__name__}: {exc}"}
+    return out
+
+
+def _outcome(result) -> dict:
+    return {
+        "detected": sorted(c.candidate.smiles for c in result.fit.components if c.detected),
+        "fractions": {c.candidate.smiles: c.share for c in result.fit.components},
+        "major": result.verdict.major,
+        "confidence": result.verdict.confidence,
+    }
+
+
+def _run_config(core: str | None, n_cases: int, workers: int, perturb: float) -> dict:
+    env = dict(os.environ)
+    if core:
+        env["OPENBLAS_CORETYPE"] = core
+    cmd = [sys.executable, "-m", "benchmarks.stability", "--worker", "--cases", str(n_cases),
+           "--workers", str(workers), "--perturb", str(perturb)]
+    done = subprocess.run(cmd, env=env, capture_output=True, text=True, check=False)
+    if done.returncode != 0:
+        raise RuntimeError(f"configuration {core}/{workers}/{perturb} failed: {done.stderr.strip()[-400:]}")
+    return json.loads(done.stdout.strip().splitlines()[-1])
+
+
+def _compare(reference: dict, other: dict) -> tuple[float, list[str]]:
+    worst, changes = 0.0, []
+    for key, ref in reference.items():
+        got = other.get(key, {})
+        if "error" in ref or "error" in got:
+            if ref.get("error") != got.get("error"):
+                changes.append(f"{key}: error {ref.get('error')!r} vs {got.get('error')!r}")
+            continue
+        if ref["detected"] != got["detected"]:
+            changes.append(f"{key}: detected {ref['detected']} vs {got['detected']}")
+        if ref["major"] != got["major"]:
+            changes.append(f"{key}: major {ref['major']} vs {got['major']}")
+        for smiles, x in ref["fractions"].items():
+            worst = max(worst, abs(x - got["fractions"].get(smiles, 0.0)))
+    return 100 * worst, changes
+
+
+def main(argv=None) -> int:
+    parser = argparse.ArgumentParser(prog="python -m benchmarks.stability", description=__doc__.split("\n")[0])
+    parser.add_argument("--cases", type=int, default=30, help="corpus cases besides the demo")
+    parser.add_argument("--worker", action="store_true", help=argparse.SUPPRESS)
+    parser.add_argument("--workers", type=int, default=2, help=argparse.SUPPRESS)
+    parser.add_argument("--perturb", type=float, default=0.0, help=argparse.SUPPRESS)
+    args = parser.parse_args(argv)
+    if args.worker:
+        print(json.dumps(_worker(args.cases, args.workers, args.perturb)))
+        return 0
+    usable, skipped = _usable_core_types()
+    print(f"OpenBLAS core types usable here: {', '.join(usable)}; skipped (not supported by this CPU): "
+          f"{', '.join(skipped) or 'none'}")
+    configs = [(core, 2, 0.0) for core in usable[:3]]
+    configs += [(usable[0], 1, 0.0), (usable[0], 2, 1e-9)]
+    start = time.perf_counter()
+    results = {}
+    for config in configs:
+        t0 = time.perf_counter()
+        results[config] = _run_config(config[0], args.cases, config[1], config[2])
+        print(f"  ran {config[0]}, {config[1]} worker(s), perturbation {config[2]:g}: "
+              f"{len(results[config])} analyses in {time.perf_counter() - t0:.0f} s", flush=True)
+    reference = results[configs[0]]
+    all_changes, overall = [], 0.0
+    for config in configs[1:]:
+        worst, changes = _compare(reference, results[config])
+        overall = max(overall, worst)
+        print(f"{config[0]:>12s}, {config[1]} worker(s), perturbation {config[2]:g}: largest change "
+              f"{worst:.3f} points; {len(changes)} change(s) of detected set or major product")
+        all_changes += [f"  [{config[0]}/{config[1]}/{config[2]:g}] {c}" for c in changes]
+    print("\n".join(all_changes) if all_changes else "no change of any detected set or major product")
+    print(f"largest change of a mole fraction: {overall:.3f} points (target < 0.1); "
+          f"total {time.perf_counter() - start:.0f} s")
+    return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())
