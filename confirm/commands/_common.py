@@ -1,4 +1,4 @@
-"""Helpers shared by the subcommands: JSON output and plain-text tables."""
+"""Helpers shared by the subcommands: JSON output, plain-text tables, time budgets."""
 
 from __future__ import annotations
 
@@ -9,7 +9,8 @@ from collections.abc import Sequence
 
 import numpy as np
 
-__all__ = ["emit_json", "format_table", "to_jsonable"]
+__all__ = ["emit_json", "format_table", "to_jsonable", "add_budget_argument", "budget_from_args",
+           "existing_paths"]
 
 
 def to_jsonable(obj):
@@ -57,3 +58,48 @@ def format_table(headers: Sequence[str], rows: Sequence[Sequence[object]]) -> st
     for row in cells[1:]:
         lines.append("  ".join(c.ljust(w) for c, w in zip(row, widths, strict=True)).rstrip())
     return "\n".join(lines)
+
+
+def add_budget_argument(parser, *, per: str = "analysis") -> None:
+    """Add ``--max-seconds`` (default 60) to a subcommand parser."""
+    from confirm.budget import DEFAULT_MAX_SECONDS
+
+    parser.add_argument(
+        "--max-seconds", type=float, default=DEFAULT_MAX_SECONDS, metavar="S",
+        help=f"time allowed per {per} (default {DEFAULT_MAX_SECONDS:g} s); past it the analysis stops with "
+             "exit 2 and says which stage ran out. Progress lines go to stderr after 5 s (with --json only "
+             "when stderr is a terminal)")
+
+
+def budget_from_args(args):
+    """A fresh :class:`~confirm.budget.Budget` from ``--max-seconds``, with progress lines on stderr.
+
+    Progress is printed unless ``--json`` was given and stderr is not a terminal (a program reading
+    the JSON then keeps its log free of them).
+    """
+    from confirm.budget import Budget, ProgressLines
+
+    show = not getattr(args, "json", False) or _is_terminal(sys.stderr)
+    return Budget(max_seconds=args.max_seconds, progress=ProgressLines(enabled=show))
+
+
+def _is_terminal(stream) -> bool:
+    try:
+        return bool(stream.isatty())
+    except (AttributeError, ValueError):
+        return False
+
+
+def existing_paths(label: str, values) -> list[tuple[str, str]]:
+    """``(label, value)`` for each value that names an existing file or folder (structure files
+    given in place of SMILES, for the output checks)."""
+    from pathlib import Path
+
+    out = []
+    for value in values or ():
+        try:
+            if isinstance(value, str) and Path(value).exists():
+                out.append((label, value))
+        except (OSError, ValueError):
+            continue
+    return out

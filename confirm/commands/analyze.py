@@ -4,7 +4,13 @@ from __future__ import annotations
 
 import argparse
 
-from confirm.commands._common import emit_json, format_table
+from confirm.commands._common import (
+    add_budget_argument,
+    budget_from_args,
+    emit_json,
+    existing_paths,
+    format_table,
+)
 
 __all__ = ["register", "format_result"]
 
@@ -35,6 +41,7 @@ def register(subparsers, parents) -> None:
         "--field-mhz", type=float, metavar="F", help="spectrometer frequency (peak lists) or override"
     )
     parser.add_argument("--report", metavar="OUT.html", help="also write a self-contained HTML report")
+    add_budget_argument(parser)
     from confirm.qnmr import add_yield_arguments
 
     add_yield_arguments(parser)
@@ -52,15 +59,23 @@ def _run(args: argparse.Namespace) -> int:
             "--candidates: no candidate given; pass --candidates SMILES [SMILES ...] or "
             "--substrate SMILES with --reagent NAME"
         )
+    from confirm._files import check_file_targets, check_outputs
+    from confirm.budget import watch_budget
     from confirm.qnmr import analyze_with_standard, standard_from_args, yield_from_args, yields_to_json
 
+    inputs = [("--spectrum", args.spectrum), *existing_paths("--substrate", [args.substrate]),
+              *existing_paths("--candidates", args.candidates)]
+    check_outputs([("--report", args.report)], inputs)
+    check_file_targets([("--report", args.report)])
     standard = standard_from_args(args)
+    budget = budget_from_args(args)
     options = {"substrate": args.substrate, "reagent": args.reagent, "candidates": args.candidates,
-               "solvent": args.solvent, "temp_c": args.temp_c, "field_mhz": args.field_mhz}
-    if standard is None:
-        result = analyze_path(args.spectrum, **options)
-    else:
-        result = analyze_with_standard(args.spectrum, standard, **options)
+               "solvent": args.solvent, "temp_c": args.temp_c, "field_mhz": args.field_mhz, "budget": budget}
+    with watch_budget(budget):
+        if standard is None:
+            result = analyze_path(args.spectrum, **options)
+        else:
+            result = analyze_with_standard(args.spectrum, standard, **options)
     yields = yield_from_args(args, result)
     if args.report:
         from confirm.report_html import write_html_report
