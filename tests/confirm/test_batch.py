@@ -137,7 +137,7 @@ def test_folder_with_a_shared_spec_runs_qc_and_writes_reports(tmp_path, run_cli,
     spec.write_text(SPEC_TEXT)
     monkeypatch.setattr(batch_command, "_analyze", nnls_analyze)
     out = run_cli("batch", folder, "--out", tmp_path / "out", "--spec", spec, "--json")
-    assert out.exit_code == 0, out.stderr
+    assert out.exit_code == 1, out.stderr  # one lot does not pass
     data = json.loads(out.stdout)
     assert data["counts"]["done"] == 2
     assert [i["qc_status"] for i in data["items"]] == ["PASS", "FAIL"]  # 0.5 % and 5 % of Z, limit 2 %
@@ -145,7 +145,8 @@ def test_folder_with_a_shared_spec_runs_qc_and_writes_reports(tmp_path, run_cli,
     assert json.loads((tmp_path / "out" / "lot00" / "audit.json").read_text())["qc"]["status"] == "PASS"
     assert 'href="lot00/report.html"' in (tmp_path / "out" / "index.html").read_text()
     text = run_cli("batch", folder, "--out", tmp_path / "out", "--spec", spec)
-    assert text.exit_code == 0 and "2 skipped" in text.stdout and "decision aid" in text.stdout
+    assert text.exit_code == 1 and "2 skipped" in text.stdout and "decision aid" in text.stdout
+    assert text.stdout.splitlines()[-1] == "Not all items passed: 1 did not pass their QC check (exit 1)."
     assert data["caution"].startswith("This result is a decision aid")
 
 
