@@ -92,6 +92,12 @@ class BatchItem:
     field_mhz: float | None = None
     spec: Path | None = None
 
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "spectrum", Path(self.spectrum))
+        if self.spec is not None:
+            object.__setattr__(self, "spec", Path(self.spec))
+        object.__setattr__(self, "candidates", tuple(self.candidates))
+
 
 @dataclass(frozen=True)
 class ItemOutcome:
@@ -407,7 +413,7 @@ def _takes_budget(func: Callable) -> bool:
         params = inspect.signature(func).parameters
     except (TypeError, ValueError):
         return False
-    return "budget" in params or any(p.kind is p.VAR_KEYWORD for p in params.values())
+    return "budget" in params
 
 
 def _with_budget(analyze: Callable, budget: Budget) -> Callable:
@@ -511,6 +517,7 @@ def _error_text(exc: BaseException, spectrum: Path) -> str:
     """The exception's one-line message, with any quoted text taken from the spectrum file's
     contents replaced: a file named as a spectrum may be anything, and the summary is shared."""
     message = _one_line(exc)
+    spectrum = Path(spectrum)
     try:
         if not spectrum.is_file():
             return message
@@ -549,7 +556,8 @@ def run_batch(items: Sequence[BatchItem], out_dir: str | Path, *, jobs: int = 1,
     spec : QcSpec, keyword-only
         Shared specification: every item without its own is QC-checked against it.
     analyze : callable, keyword-only
-        ``analyze(path, **kwargs) -> AnalysisResult``; given ``budget=`` too when it takes it.
+        ``analyze(path, **kwargs) -> AnalysisResult``; given ``budget=`` too when it names that
+        parameter.
         ``confirm.analysis.analyze_path`` by default. Must be picklable (module-level) where
         child processes are started without fork.
     write_reports : bool, keyword-only

@@ -37,10 +37,10 @@ def register(subparsers, parents) -> None:
     parser.set_defaults(handler=_run)
 
 
-def _analyze(path, **kwargs):
+def _analyze(path, budget=None, **kwargs):
     from confirm.analysis import analyze_path
 
-    return analyze_path(path, **kwargs)
+    return analyze_path(path, budget=budget, **kwargs)
 
 
 def _check_paths(args: argparse.Namespace, items) -> None:
