@@ -11,7 +11,9 @@ manifests, SMILES; about a third of them damaged) is written into a fresh folder
 - data loss (a file outside the case's output folder changed, vanished or appeared);
 - exit 2 with more than one line on stderr.
 
-All but the first should be zero. ``--show`` lists the failing cases with their first stderr line.
+All but the first should be zero. Each exit 3 is run again with ``--debug`` and attributed to the
+module of its innermost ``confirm`` frame (reading and processing of measured files are counted
+apart from the rest). ``--show`` lists the failing cases with their first stderr line.
 
 Run: ``python -m benchmarks.robustness [--per-kind 30] [--seed 14] [--timeout 60] [--show]``
 """
@@ -20,12 +22,25 @@ from __future__ import annotations
 
 import argparse
 import collections
+import re
 import resource
 import tempfile
 import time
+from dataclasses import replace
 from pathlib import Path
 
-from tests.confirm.robustness_corpus import corpus, run_case
+from tests.confirm.robustness_corpus import Case, corpus, run_case
+
+#: Modules whose exit-3 failures are counted apart (reading and processing of measured files).
+_READERS = ("reading", "processing", "peaks")
+
+
+def _where(case: Case, timeout_s: float) -> str:
+    """The module of the innermost ``confirm`` frame of the traceback of a case that exits 3."""
+    with tempfile.TemporaryDirectory(prefix="confirm-robustness-") as folder:
+        outcome = run_case(replace(case, argv=case.argv + ("--debug",)), Path(folder), timeout_s=timeout_s)
+    frames = re.findall(r'File "[^"]*/confirm/([^"]+)\.py", line \d+', outcome.stderr)
+    return frames[-1].replace("/", ".") if frames else "unknown"
 
 
 def main() -> None:
@@ -49,7 +64,11 @@ def main() -> None:
         if outcome.exit_code is None:
             problems.append("hang")
         elif outcome.exit_code == 3:
-            problems.append("exit 3")
+            where = _where(case, args.timeout)
+            owner = "readers" if where.split(".")[0] in _READERS else "elsewhere"
+            counts[f"exit 3 in {owner}"] += 1
+            counts["exit 3"] += 1
+            problems.append(f"exit 3 in confirm/{where}.py")
         elif outcome.exit_code not in (0, 1, 2):
             problems.append(f"exit {outcome.exit_code}")
         if outcome.data_loss:
@@ -57,13 +76,15 @@ def main() -> None:
         if outcome.exit_code == 2 and outcome.stderr.count("\n") > 1:
             problems.append("more than one line on stderr")
         for problem in problems:
-            counts[problem.split(":")[0]] += 1
+            if not problem.startswith("exit 3"):
+                counts[problem.split(":")[0]] += 1
         if problems:
             failures.append((case, outcome, problems))
     elapsed = time.perf_counter() - start
     print(f"inputs tried:          {counts['tried']}")
-    print(f"exit 3:                {counts['exit 3']}")
-    others = sum(v for k, v in counts.items() if k.startswith("exit ") and k != "exit 3")
+    print(f"exit 3:                {counts['exit 3']} (in reading/processing: {counts['exit 3 in readers']}, "
+          f"elsewhere: {counts['exit 3 in elsewhere']})")
+    others = sum(v for k, v in counts.items() if re.fullmatch(r"exit -?\d+", k) and k != "exit 3")
     print(f"other exit codes:      {others}")
     print(f"hangs:                 {counts['hang']}")
     print(f"data loss:             {counts['data loss']}")

@@ -59,7 +59,13 @@ def _run(args: argparse.Namespace) -> int:
             "--candidates: no candidate given; pass --candidates SMILES [SMILES ...] or "
             "--substrate SMILES with --reagent NAME"
         )
+    import math
+
     from confirm._files import check_file_targets, check_outputs
+
+    if not math.isfinite(args.temp_c) or not -100.0 <= args.temp_c <= 300.0:
+        raise InputError(f"--temp-c: expected a reaction temperature between -100 and 300 C, "
+                         f"got {args.temp_c!r}")
     from confirm.budget import watch_budget
     from confirm.qnmr import analyze_with_standard, standard_from_args, yield_from_args, yields_to_json
 

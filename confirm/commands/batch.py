@@ -47,7 +47,7 @@ def _check_paths(args: argparse.Namespace, items) -> None:
     """Refuse an --out that is, or lies inside, an input, or whose files would land on one."""
     from confirm._files import check_outputs
 
-    inputs = [("input", args.source), ("--spec", args.spec)]
+    inputs = [("MANIFEST_OR_FOLDER", args.source), ("--spec", args.spec)]
     for item in items:
         inputs += [(f"spectrum of item {item.item_id}", item.spectrum),
                    (f"spec of item {item.item_id}", item.spec)]
@@ -59,7 +59,10 @@ def _check_paths(args: argparse.Namespace, items) -> None:
 def _run(args: argparse.Namespace) -> int:
     from confirm.batch import collect_batch, run_batch  # loaded here: the other commands skip it
     from confirm.budget import Budget
+    from predictors.errors import InputError
 
+    if args.jobs < 1:
+        raise InputError(f"--jobs: expected a whole number >= 1, got {args.jobs}")
     Budget(max_seconds=args.max_seconds)  # a bad --max-seconds is refused before any work
     items, notes = collect_batch(args.source)
     _check_paths(args, items)

@@ -2,8 +2,9 @@
 
 The profile is small and reproducible: ``FUZZ_EXAMPLES`` examples per test (25 by default; set
 ``CONFIRM_FUZZ_EXAMPLES=500`` for a deeper run), examples derived from the test's name
-(``derandomize``) so every run tries the same inputs, no example database, and a 20 s deadline
-per example, which only a hang would reach.
+(``derandomize``) so every run tries the same inputs (``CONFIRM_FUZZ_RANDOM=1`` explores new
+ones), no example database, and a 20 s deadline per example, which only a hang would reach. A
+failure found by exploring becomes an explicit test case beside the property.
 """
 
 from __future__ import annotations
@@ -38,7 +39,8 @@ _warm_up()
 FUZZ_EXAMPLES = int(os.environ.get("CONFIRM_FUZZ_EXAMPLES", "25"))
 
 #: The settings of every fuzz test.
-FUZZ = settings(max_examples=FUZZ_EXAMPLES, deadline=timedelta(seconds=20), database=None, derandomize=True,
+FUZZ = settings(max_examples=FUZZ_EXAMPLES, deadline=timedelta(seconds=20), database=None,
+                derandomize=os.environ.get("CONFIRM_FUZZ_RANDOM", "") != "1",
                 suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large,
                                        HealthCheck.function_scoped_fixture])
 

@@ -17,7 +17,7 @@ import struct
 from dataclasses import dataclass
 
 __all__ = ["Case", "FORMS", "encode_xydata", "jcamp_spectrum", "jcamp_fid", "acqus_folder", "peak_list",
-           "spec_toml", "manifest_csv", "mutate", "corpus", "SMILES_PIECES"]
+           "spec_toml", "manifest_csv", "mutate", "corpus", "output_cases", "run_case", "SMILES_PIECES"]
 
 #: ASDF forms of JCAMP-DX 4.24 (section 5.9) the builders can write.
 FORMS = ("AFFN", "PAC", "SQZ", "DIF", "SQZ+DUP", "DIF+DUP")
@@ -36,13 +36,16 @@ class Case:
     """One generated input: files to write (relative path -> bytes) and the command line to run.
 
     ``argv`` may hold ``{dir}`` (the folder the files are written into) and ``{out}`` (a folder for
-    outputs, inside ``{dir}``); nothing may be written outside ``{out}``.
+    outputs, inside ``{dir}``); nothing may be written outside ``{out}``. ``links`` are made after
+    the files, ``name -> target`` (a target inside the case folder; a target left out of ``files``
+    makes a link to nothing).
     """
 
     kind: str
     name: str
     files: tuple[tuple[str, bytes], ...]
     argv: tuple[str, ...]
+    links: tuple[tuple[str, str], ...] = ()  # symbolic links (relative path -> target, relative)
 
 
 # --- JCAMP-DX ---------------------------------------------------------------------------------------
@@ -345,11 +348,43 @@ def _smiles_cases(rng: random.Random, n: int) -> list[Case]:
     return cases
 
 
+def output_cases(rng: random.Random, n: int) -> list[Case]:
+    """Output options that name an input of the same command, a place inside an input folder, a
+    link to an input, or another output; and a batch whose output folder holds a planted link. Each
+    must be refused (the whole run, or the one item) before anything is written there."""
+    spectrum = jcamp_spectrum(_values(rng, 1024))
+    files = (("in.jdx", spectrum), ("spec.toml", spec_toml()), *((f"exp/{k}", v) for k, v in acqus_folder()),
+             ("plate/a.jdx", spectrum), ("A1/data.jdx", spectrum),
+             ("m.csv", manifest_csv([{"id": "A1", "spectrum": "A1", "candidates": "C=C"}])))
+    links = (("link.html", "in.jdx"), ("exp_link", "exp"), ("out/a", "A1"))
+    file_targets = ("{dir}/in.jdx", "{dir}/link.html")
+    folder_targets = ("{dir}/exp/fid", "{dir}/exp/acqus", "{dir}/exp_link/x.png", "{dir}/exp")
+    commands = (
+        lambda: ("process", "{dir}/in.jdx", rng.choice(("--out", "--plot")), rng.choice(file_targets)),
+        lambda: ("process", "{dir}/exp", rng.choice(("--out", "--plot")), rng.choice(folder_targets)),
+        lambda: ("process", "{dir}/in.jdx", "--out", "{out}/same.png", "--plot", "{out}/same.png"),
+        lambda: ("analyze", "--spectrum", "{dir}/in.jdx", "--candidates", "C/C=C/CC", "--report",
+                 rng.choice(file_targets)),
+        lambda: ("analyze", "--spectrum", "{dir}/exp", "--candidates", "C/C=C/CC", "--report",
+                 rng.choice(folder_targets).replace(".png", ".html")),
+        lambda: ("qc", "--spec", "{dir}/spec.toml", "--spectrum", "{dir}/in.jdx",
+                 rng.choice(("--report", "--audit")), rng.choice(("{dir}/spec.toml", *file_targets))),
+        lambda: ("qc", "--spec", "{dir}/spec.toml", "--spectrum", "{dir}/in.jdx", "--report", "{out}/x",
+                 "--audit", "{out}/x"),
+        lambda: ("batch", "{dir}/plate", "--out", rng.choice(("{dir}/plate", "{dir}/plate/results"))),
+        lambda: ("batch", "{dir}/m.csv", "--out", "{dir}"),
+        lambda: ("batch", "{dir}/plate", "--out", "{out}", "--no-reports"),  # out/a is a planted link
+        lambda: ("demo", "--out", rng.choice(("{dir}/in.jdx", "{dir}/spec.toml"))),
+    )
+    return [Case("outputs", f"outputs-{k}", files, rng.choice(commands)(), links) for k in range(n)]
+
+
 def corpus(*, seed: int = 14, per_kind: int = 30) -> list[Case]:
     """The fixed corpus: ``per_kind`` cases of each kind (JCAMP-DX, FID folders, peak lists, specs,
-    manifests, SMILES), the same for the same seed."""
+    manifests, SMILES, output paths that would overwrite inputs), the same for the same seed."""
     rng = random.Random(seed)
-    makers = (_jcamp_cases, _acqus_cases, _peak_cases, _spec_cases, _manifest_cases, _smiles_cases)
+    makers = (_jcamp_cases, _acqus_cases, _peak_cases, _spec_cases, _manifest_cases, _smiles_cases,
+              output_cases)
     return [case for make in makers for case in make(rng, per_kind)]
 
 
@@ -392,6 +427,10 @@ def write_case(case: Case, root) -> tuple[dict[str, str], list[str]]:
         target.write_bytes(data)
     out = root / "out"
     out.mkdir(exist_ok=True)
+    for name, target in case.links:
+        link = root / name
+        link.parent.mkdir(parents=True, exist_ok=True)
+        link.symlink_to(root / target)
     values = {"dir": str(root), "out": str(out)}
     return values, [part.format(**values) for part in case.argv]
 

@@ -245,3 +245,13 @@ def test_dup_counts_past_two_to_the_24_are_refused_within_bounded_memory(tmp_pat
     result = _run_limited(path, limit_mb=1024)
     assert result.returncode == 2 and "2^24" in result.stderr.replace("16777216", "2^24"), \
         (result.returncode, result.stderr[-300:])
+
+
+@pytest.mark.xfail(strict=True, reason="reading.py (realfiles): a character that is no ASDF digit in one data "
+                   "line of a 1D JCAMP-DX spectrum is reported as 'holds 2D data'")
+def test_a_damaged_data_line_is_not_called_two_dimensional():
+    lines = jcamp_spectrum(_lorentzians(1024, random.Random(1), 10**5), form="SQZ").decode().split("\n")
+    k = next(i for i, line in enumerate(lines) if line.startswith("##XYDATA")) + 3
+    lines[k] = lines[k][:5] + "?" + lines[k][5:]
+    outcome = check_case(Case("jcamp", "damaged", (("in.jdx", "\n".join(lines).encode()),), _PROCESS))
+    assert outcome.exit_code == 2 and "2D" not in outcome.stderr, outcome.stderr
