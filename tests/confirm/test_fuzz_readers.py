@@ -247,8 +247,8 @@ def test_dup_counts_past_two_to_the_24_are_refused_within_bounded_memory(tmp_pat
         (result.returncode, result.stderr[-300:])
 
 
-@pytest.mark.xfail(strict=True, reason="reading.py (realfiles): a character that is no ASDF digit in one data "
-                   "line of a 1D JCAMP-DX spectrum is reported as 'holds 2D data'")
+@pytest.mark.xfail(strict=True, reason="reading.py (realfiles): a character that is no ASDF digit in one "
+                   "data line of a 1D JCAMP-DX spectrum is reported as 'holds 2D data'")
 def test_a_damaged_data_line_is_not_called_two_dimensional():
     lines = jcamp_spectrum(_lorentzians(1024, random.Random(1), 10**5), form="SQZ").decode().split("\n")
     k = next(i for i, line in enumerate(lines) if line.startswith("##XYDATA")) + 3
