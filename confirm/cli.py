@@ -116,10 +116,38 @@ def main(argv: Sequence[str] | None = None) -> int:
     """
     argv = list(sys.argv[1:] if argv is None else argv)
     debug = "--debug" in argv
-    with warnings.catch_warnings():
+    with warnings.catch_warnings(), _quiet_workers_on_interrupt():
         if not debug:  # numerical warnings (empty slices, divisions) are for developers
             warnings.simplefilter("ignore")
         return _run(argv, debug=debug)
+
+
+@contextlib.contextmanager
+def _quiet_workers_on_interrupt():
+    """Ctrl-C reaches every process of the terminal's group: this process stops with
+    ``KeyboardInterrupt`` as usual, while a worker it forked (which inherits the handler) leaves
+    quietly instead of printing its own traceback; its parent ends it anyway."""
+    import signal
+    import threading
+
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    if signal.getsignal(signal.SIGINT) is signal.SIG_IGN:  # started to ignore Ctrl-C: keep it so
+        yield
+        return
+    main_pid = os.getpid()
+
+    def _on_interrupt(signum, frame):
+        if os.getpid() != main_pid:
+            raise SystemExit(EXIT_INTERRUPTED)
+        raise KeyboardInterrupt
+
+    previous = signal.signal(signal.SIGINT, _on_interrupt)
+    try:
+        yield
+    finally:
+        signal.signal(signal.SIGINT, previous)
 
 
 def _run(argv: list[str], *, debug: bool) -> int:
