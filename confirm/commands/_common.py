@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import contextlib
 import json
 import math
 import sys
@@ -10,7 +11,10 @@ from collections.abc import Sequence
 import numpy as np
 
 __all__ = ["emit_json", "format_table", "to_jsonable", "add_budget_argument", "budget_from_args",
-           "existing_paths"]
+           "existing_paths", "data_inputs"]
+
+#: Files that stand for the FID folder holding them (``read_measurement`` reads the folder).
+_FOLDER_FILES = ("fid", "ser", "acqus", "acqu", "procpar")
 
 
 def to_jsonable(obj):
@@ -102,4 +106,21 @@ def existing_paths(label: str, values) -> list[tuple[str, str]]:
                 out.append((label, value))
         except (OSError, ValueError):
             continue
+    return out
+
+
+def data_inputs(label: str, path) -> list[tuple[str, object]]:
+    """``(label, path)``, plus the FID folder when ``path`` is its ``fid``/``acqus``/... file (the
+    reader then reads the whole folder, so outputs must stay out of all of it)."""
+    from pathlib import Path
+
+    out = [(label, path)]
+    if path is None:
+        return out
+    path = Path(path)
+    with contextlib.suppress(OSError):
+        partners = [n for n in _FOLDER_FILES if n != path.name]
+        beside = any((path.parent / n).exists() for n in partners)
+        if path.name in _FOLDER_FILES and path.is_file() and beside:
+            out.append((f"{label} (its folder)", path.parent))
     return out

@@ -7,6 +7,7 @@ import argparse
 from confirm.commands._common import (
     add_budget_argument,
     budget_from_args,
+    data_inputs,
     emit_json,
     existing_paths,
     format_table,
@@ -69,7 +70,7 @@ def _run(args: argparse.Namespace) -> int:
     from confirm.budget import watch_budget
     from confirm.qnmr import analyze_with_standard, standard_from_args, yield_from_args, yields_to_json
 
-    inputs = [("--spectrum", args.spectrum), *existing_paths("--substrate", [args.substrate]),
+    inputs = [*data_inputs("--spectrum", args.spectrum), *existing_paths("--substrate", [args.substrate]),
               *existing_paths("--candidates", args.candidates)]
     check_outputs([("--report", args.report)], inputs)
     check_file_targets([("--report", args.report)])

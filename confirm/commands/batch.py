@@ -11,7 +11,7 @@ import argparse
 import sys
 from pathlib import Path
 
-from confirm.commands._common import add_budget_argument, emit_json, format_table
+from confirm.commands._common import add_budget_argument, data_inputs, emit_json, format_table
 from confirm.qc import CAUTION, read_spec
 
 
@@ -49,7 +49,7 @@ def _check_paths(args: argparse.Namespace, items) -> None:
 
     inputs = [("MANIFEST_OR_FOLDER", args.source), ("--spec", args.spec)]
     for item in items:
-        inputs += [(f"spectrum of item {item.item_id}", item.spectrum),
+        inputs += [*data_inputs(f"spectrum of item {item.item_id}", item.spectrum),
                    (f"spec of item {item.item_id}", item.spec)]
     outputs = [("--out summary", args.out / "summary.csv"), ("--out index", args.out / "index.html")]
     outputs += [(f"--out folder of item {item.item_id}", args.out / item.item_id) for item in items]

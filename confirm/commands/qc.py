@@ -8,7 +8,13 @@ from __future__ import annotations
 import argparse
 from pathlib import Path
 
-from confirm.commands._common import add_budget_argument, budget_from_args, emit_json, format_table
+from confirm.commands._common import (
+    add_budget_argument,
+    budget_from_args,
+    data_inputs,
+    emit_json,
+    format_table,
+)
 from confirm.qc import (
     CAUTION,
     audit_record,
@@ -45,7 +51,7 @@ def _run(args: argparse.Namespace) -> int:
     from confirm.budget import watch_budget
 
     outputs = [("--report", args.report), ("--audit", args.audit)]
-    check_outputs(outputs, [("--spec", args.spec), ("--spectrum", args.spectrum)])
+    check_outputs(outputs, [("--spec", args.spec), *data_inputs("--spectrum", args.spectrum)])
     spec = read_spec(args.spec)
     if not args.spectrum.exists():
         raise FileFormatError(f"--spectrum: {str(args.spectrum)!r} does not exist")

@@ -166,6 +166,14 @@ def test_analyze_report_inside_the_fid_folder_or_through_a_link(run_cli, data):
              inputs=[data["jdx"]], names=[str(link)])
 
 
+def test_a_file_of_a_fid_folder_stands_for_the_folder(run_cli, data):
+    fid = data["fid"]
+    _refused(run_cli, "analyze", "--spectrum", fid / "fid", "--candidates", *ANETHOLES, "--report",
+             fid / "report.html", inputs=[fid], names=["its folder"])
+    _refused(run_cli, "process", fid / "acqus", "--out", fid / "spectrum.csv", inputs=[fid],
+             names=["its folder"])
+
+
 def test_analyze_report_onto_a_candidate_molfile(run_cli, data):
     from rdkit import Chem
 
