@@ -221,6 +221,7 @@ def analyze_path(
     solvent=None,
     temp_c: float = 25.0,
     field_mhz: float | None = None,
+    force_field: bool = False,
     budget: Budget | None = None,
 ) -> AnalysisResult:
     """Read, process and analyse one measurement (raw FID, stored spectrum or peak list).
@@ -238,7 +239,10 @@ def analyze_path(
     temp_c : float
         Reaction temperature.
     field_mhz : float, optional
-        Spectrometer frequency when the file does not record it (peak lists) or to override it.
+        Spectrometer frequency when the file does not record it (peak lists). A value that
+        contradicts the file's recorded field is an error unless ``force_field`` is set.
+    force_field : bool
+        Use ``field_mhz`` even where the file records another field.
     budget : confirm.budget.Budget, optional
         Time allowed, checked between the stages (candidates, reading, processing, predictions,
         fit, verdict). None: no limit.
@@ -252,8 +256,8 @@ def analyze_path(
     """
     from confirm.reading import PeakList, read_measurement
 
-    if field_mhz is not None and not (np.isfinite(field_mhz) and 20 <= field_mhz <= 1500):
-        raise InputError(f"field_mhz: expected 20-1500 MHz, got {field_mhz!r}")
+    if field_mhz is not None and not (np.isfinite(field_mhz) and 40 <= field_mhz <= 1200):
+        raise InputError(f"field_mhz: expected 40-1200 MHz (1H), got {field_mhz!r}")
     check_budget(budget, "candidates")
     cands, notes = build_candidates(
         substrate=substrate, reagent=reagent, candidates=candidates, solvent=solvent, temp_c=temp_c
@@ -264,10 +268,13 @@ def analyze_path(
     record = InputRecord(path=str(path), sha256=raw.sha256)
     params = {"substrate": substrate, "reagent": reagent, "reaction_solvent": solvent, "temp_c": temp_c}
     if isinstance(raw, PeakList):
+        from confirm.processing import resolve_field
+
         return analyze_peak_list(
             raw,
             cands,
-            field_mhz=field_mhz or raw.parameters.field_mhz,
+            field_mhz=resolve_field(raw.parameters.field_mhz, field_mhz, force=force_field,
+                                    source=str(path)),
             inputs=(record,),
             notes=notes,
             parameters=params,
@@ -282,7 +289,8 @@ def analyze_path(
 
         check_budget(budget, "processing")
         processed = process_measurement(
-            raw, options=ProcessingOptions(field_mhz=field_mhz) if field_mhz else None
+            raw,
+            options=ProcessingOptions(field_mhz=field_mhz, force_field=force_field) if field_mhz else None,
         )
         import confirm.fitting  # noqa: F401
         import predictors.couplings  # noqa: F401  (the fit's 13C satellite positions)

@@ -23,7 +23,8 @@ import numpy as np
 from predictors.core import Spectrum
 from predictors.errors import InputError
 
-__all__ = ["Peak", "Multiplet", "pick_peaks", "group_multiplets", "integrate_region"]
+__all__ = ["Peak", "Multiplet", "pick_peaks", "group_multiplets", "integrate_region", "find_peak_indices",
+           "half_height_widths"]
 
 #: 13C satellites sit 1J(CH)/2 (about 60-85 Hz) from their parent at 0.55 % of its height
 #: (references.md section 5): lines that small that close join no multiplet.
@@ -136,7 +137,7 @@ def pick_peaks(spectrum: Spectrum, *, noise_sd: float, threshold_snr: float = 8.
         lo, hi = sorted(ppm_range)
         indices = indices[(spectrum.ppm[indices] >= lo) & (spectrum.ppm[indices] <= hi)]
     hz_per_point = spectrum.hz_per_point
-    widths = _half_height_widths(y, indices)
+    widths = half_height_widths(y, indices)
     peaks = []
     for k, i in enumerate(indices):
         ppm, height = _interpolate_max(spectrum, int(i))
@@ -162,7 +163,7 @@ def _interpolate_max(spectrum: Spectrum, i: int) -> tuple[float, float]:
     return float(ppm[i] + shift * step), float(b - 0.25 * (a - c) * shift)
 
 
-def _half_height_widths(y: np.ndarray, indices: np.ndarray) -> np.ndarray:
+def half_height_widths(y: np.ndarray, indices: np.ndarray) -> np.ndarray:
     """Full widths (points) at half of each line's own height above zero."""
     if indices.size == 0:
         return np.zeros(0)
@@ -204,13 +205,30 @@ def find_peak_indices(y: np.ndarray, *, height: float, prominence: float) -> np.
     peaks = peaks[y[peaks] >= height]
     keep = []
     for p in peaks:
-        higher = np.flatnonzero(y[:p] > y[p])
-        left_min = float(np.min(y[higher[-1] + 1 if higher.size else 0 : p + 1]))
-        higher = np.flatnonzero(y[p + 1 :] > y[p])
-        right_min = float(np.min(y[p : p + 1 + higher[0] if higher.size else n]))
-        if y[p] - max(left_min, right_min) >= prominence:
+        if y[p] - max(_side_minimum(y, p, -1), _side_minimum(y, p, 1)) >= prominence:
             keep.append(p)
     return np.array(keep, dtype=np.intp)
+
+
+def _side_minimum(y: np.ndarray, p: int, direction: int) -> float:
+    """Lowest point between peak ``p`` and the first point higher than it on one side (or the end).
+
+    The nearest higher point is looked for in windows growing fourfold from 64 points, so a
+    line among others costs a few hundred operations instead of a pass over the spectrum.
+    """
+    n, width = y.size, 64
+    while True:
+        if direction < 0:
+            start = max(0, p - width)
+            higher = np.flatnonzero(y[start:p] > y[p])
+            if higher.size or start == 0:
+                return float(np.min(y[start + higher[-1] + 1 if higher.size else 0 : p + 1]))
+        else:
+            stop = min(n, p + 1 + width)
+            higher = np.flatnonzero(y[p + 1:stop] > y[p])
+            if higher.size or stop == n:
+                return float(np.min(y[p : p + 1 + higher[0] if higher.size else n]))
+        width *= 4
 
 
 def _valley(y: np.ndarray, i: int, j: int) -> int:

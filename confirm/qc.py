@@ -332,19 +332,16 @@ def _amount(comp) -> float:
     fraction of an undetected one only says how much of the shared signal its
     model could take, so it counts as "below its detection limit".
     """
-    return comp.mole_fraction if comp.detected else 0.0
+    return comp.share
 
 
 def _hidden_upper(comp) -> float:
     """Upper end of an undetected component's fraction.
 
-    The fit's 95 % upper bound from the component's own diagnostic signals when it
-    gives one, else its fitted share plus 1.96 sd; never below its detection limit.
-    A component whose diagnostic signals may be present must not pass as absent.
+    The fit's 95 % upper bound from the component's own multiplets; never below its detection
+    limit. A component whose diagnostic signals may be present must not pass as absent.
     """
-    if getattr(comp, "upper_limit", None) is not None:
-        return max(comp.detection_limit, comp.upper_limit)
-    return max(comp.detection_limit, comp.mole_fraction + Z_95 * comp.mole_fraction_sd)
+    return max(comp.detection_limit, comp.upper_limit if comp.upper_limit is not None else 1.0)
 
 
 def _below_detection(name: str, limit_text: str, lod: float, limit: float) -> LimitCheck:
@@ -374,7 +371,7 @@ def _not_measured(name: str, limit_text: str, reason: str, unit: str = "%") -> L
 def _identity_check(result, product_fit, spec: QcSpec) -> LimitCheck:
     verdict = result.verdict
     limit = "expected product detected and identified as the major component"
-    value, sd = product_fit.mole_fraction, product_fit.mole_fraction_sd
+    value, sd = product_fit.share, product_fit.mole_fraction_sd
     common = {"measured": 100 * value, "measured_sd": 100 * sd, "unit": "%", "name": "identity",
               "limit_text": limit}
     unexplained = tuple(getattr(result.fit, "unexplained_ppm", ()))
@@ -480,7 +477,7 @@ def _starting_material_check(result, spec: QcSpec, limit: float) -> LimitCheck:
     hidden = sum(_hidden_upper(fit.components[k]) for k in indices if k not in seen)
     if not seen:
         return _below_detection(name, text, hidden, limit)
-    value = sum(fit.components[k].mole_fraction for k in seen)
+    value = sum(fit.components[k].share for k in seen)
     sd = _sd_of(fit, dict.fromkeys(seen, 1.0))
     return _percent_check(name, text, value, sd, value - Z_95 * sd, value + Z_95 * sd + hidden, maximum=limit)
 

@@ -303,16 +303,16 @@ def yield_from_result(result, standard: InternalStandard, *, sample_mass_mg: flo
     if std_fit is None:
         raise InputError(f"standard smiles: {standard.smiles!r} is not among the fitted components; "
                          "add it to the candidates so the fit can measure it")
-    if not std_fit.detected or std_fit.mole_fraction <= 0:
+    if not std_fit.detected or std_fit.share <= 0:
         raise InputError(f"standard smiles: {standard.smiles!r} was not detected in the spectrum; "
                          "check the standard and its amount")
     signals = [
-        SignalIntegral(smiles=comp.candidate.smiles, integral=max(comp.mole_fraction, 0.0), n_h=1,
+        SignalIntegral(smiles=comp.candidate.smiles, integral=max(comp.share, 0.0), n_h=1,
                        integral_sd=comp.mole_fraction_sd, label=comp.candidate.label)
         for comp in result.fit.components
         if comp.candidate.smiles != standard.smiles and (comp.detected or not detected_only)
     ]
-    return nmr_yield(signals, standard, standard_integral=std_fit.mole_fraction * standard.n_h,
+    return nmr_yield(signals, standard, standard_integral=std_fit.share * standard.n_h,
                      standard_integral_sd=std_fit.mole_fraction_sd * standard.n_h,
                      sample_mass_mg=sample_mass_mg, theoretical_mmol=theoretical_mmol,
                      method_rel_sd=method_rel_sd)
@@ -320,7 +320,8 @@ def yield_from_result(result, standard: InternalStandard, *, sample_mass_mg: flo
 
 def analyze_with_standard(path, standard: InternalStandard, *, substrate: str | None = None,
                           reagent: str | None = None, candidates=None, solvent: str | None = None,
-                          temp_c: float = 25.0, field_mhz: float | None = None, budget=None):
+                          temp_c: float = 25.0, field_mhz: float | None = None, force_field: bool = False,
+                          budget=None):
     """Analyse a spectrum with the internal standard fitted as one more component.
 
     Same arguments as ``confirm.analysis.analyze_path``; the standard is added to the
@@ -355,9 +356,12 @@ def analyze_with_standard(path, standard: InternalStandard, *, substrate: str | 
               "internal_standard": standard.smiles, "standard_mass_mg": standard.mass_mg,
               "standard_purity": standard.purity, "standard_n_h": standard.n_h}
     if isinstance(raw, PeakList):
-        return analyze_peak_list(raw, cands, field_mhz=field_mhz or raw.parameters.field_mhz,
-                                 inputs=(record,), notes=notes, parameters=params, budget=budget)
-    options = ProcessingOptions(field_mhz=field_mhz) if field_mhz else None
+        from confirm.processing import resolve_field
+
+        field = resolve_field(raw.parameters.field_mhz, field_mhz, force=force_field, source=str(path))
+        return analyze_peak_list(raw, cands, field_mhz=field, inputs=(record,), notes=notes,
+                                 parameters=params, budget=budget)
+    options = ProcessingOptions(field_mhz=field_mhz, force_field=force_field) if field_mhz else None
     check_budget(budget, "processing")
     processed = process_measurement(raw, options=options)
     return analyze_spectrum(processed, cands, inputs=(record,), notes=notes, parameters=params, budget=budget)

@@ -287,7 +287,7 @@ def _component_legend(comp) -> str:
         name = name[:35] + "..."
     if comp.detected:
         return f"{name}: {100 * comp.mole_fraction:.1f} ± {100 * comp.mole_fraction_sd:.1f} %"
-    return f"{name}: not detected (< {100 * comp.detection_limit:.1f} %)"
+    return f"{name}: not detected (< {100 * (comp.upper_limit or comp.detection_limit):.1f} %)"
 
 
 def _svg_of(fig, *, salt: str) -> str:
@@ -616,7 +616,8 @@ def _components_csv(result) -> str:
                      "detected"])
     for comp in result.fit.components:
         writer.writerow([comp.candidate.smiles, comp.candidate.label, ";".join(comp.candidate.pathways),
-                         f"{comp.mole_fraction:.6f}", f"{comp.mole_fraction_sd:.6f}",
+                         "" if comp.mole_fraction is None else f"{comp.mole_fraction:.6f}",
+                         f"{comp.mole_fraction_sd:.6f}",
                          f"{comp.detection_limit:.6f}", int(comp.detected)])
     return buffer.getvalue()
 

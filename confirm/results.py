@@ -99,8 +99,11 @@ class AnalysisResult:
         """The ``analyze`` JSON contract (stable field names; new fields may be added)."""
         components = []
         for comp in self.fit.components:
+            evidence = [dict(e.to_json(), text=text)
+                        for e, text in zip(comp.site_evidence, comp.evidence, strict=False)]
             components.append({
                 "smiles": comp.candidate.smiles,
+                "name": None,
                 "label": comp.candidate.label,
                 "pathways": list(comp.candidate.pathways),
                 "mole_fraction": comp.mole_fraction,
@@ -109,11 +112,12 @@ class AnalysisResult:
                 "upper_limit": comp.upper_limit,
                 "detected": comp.detected,
                 "refined_shifts_ppm": list(comp.refined_shifts_ppm),
-                "evidence": list(comp.evidence),
+                "evidence": evidence or [{"text": text} for text in comp.evidence],
             })
         ratios = {
             r.name: {"numerator": r.numerator, "denominator": r.denominator, "share": r.share,
-                     "share_sd": r.share_sd, "ratio": r.ratio_text, "decided": r.decided}
+                     "share_sd": r.share_sd, "ratio": r.ratio_text, "decided": r.decided,
+                     "low": r.low, "high": r.high}
             for r in self.verdict.ratios
         }
         verdict = {

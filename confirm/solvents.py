@@ -3,8 +3,15 @@
 Values live in ``confirm/data/solvent_signals.csv`` (one row per signal, each
 with its ``source``): residual 1H and water lines from Gottlieb, Kotlyar and
 Nudelman, J. Org. Chem. 1997, 62, 7512 (reprinted by Fulmer et al.,
-Organometallics 2010, 29, 2176). Processing uses them to reference a spectrum;
-the mixture fitter uses them to mask lines that belong to no candidate.
+Organometallics 2010, 29, 2176), with the residual line's H-D coupling (its
+multiplet) and the 1J(C,H) of its 13C satellites. Processing uses them to
+recognise and reference a spectrum; the mixture fitter uses them to mask lines
+that belong to no candidate.
+
+:func:`normalise_solvent_name` reads solvent labels as people and instruments
+write them: any case, in English, German, French, Spanish or Italian, with
+isotope marks (``-d``, ``-d6``, ``d6-``, ``[D6]``), purity or volume percentages
+and added TMS (``"Chloroform-d 90vol%"``, ``"Aceton"``, ``"CDCl3 + 0.03% TMS"``).
 """
 
 from __future__ import annotations
@@ -12,6 +19,7 @@ from __future__ import annotations
 import csv
 import functools
 import re
+import unicodedata
 from dataclasses import dataclass
 from importlib import resources
 
@@ -19,6 +27,10 @@ from predictors.errors import InputError
 
 __all__ = [
     "TMS_PPM",
+    "TMS_SI_SATELLITE_J_HZ",
+    "TMS_SI_SATELLITE_SHARE",
+    "TMS_CH_J_HZ",
+    "hdo_shift_ppm",
     "SolventSignals",
     "ImpuritySignal",
     "solvent_signals",
@@ -29,6 +41,16 @@ __all__ = [
 
 #: Tetramethylsilane, the 1H shift origin (by definition).
 TMS_PPM = 0.0
+#: 2J(29Si,1H) of TMS: its 29Si satellites sit +-3.3 Hz from the line (memory; 6.4-6.5 Hz measured
+#: in the shared real spectra).
+TMS_SI_SATELLITE_J_HZ = 6.6
+#: Share of TMS molecules with a 29Si (natural abundance 4.685 %, memory): both satellites together.
+TMS_SI_SATELLITE_SHARE = 0.047
+#: 1J(13C,1H) of TMS (memory; 118.3 Hz measured in the shared real spectra).
+TMS_CH_J_HZ = 118.0
+#: HDO moves upfield as the temperature rises (memory: Gottlieb et al. 1997 give
+#: delta = 7.83 - T/96.9 for HDO in D2O); anchored at the table value at 298 K.
+_HDO_PPM_PER_K = -1.0 / 96.9
 
 
 @dataclass(frozen=True)
@@ -42,7 +64,8 @@ class SolventSignals:
     residual_ppm : float
         Residual protio-solvent line (e.g. CHCl3 in CDCl3).
     residual_multiplicity : str
-        ``"s"`` or ``"quint"`` (CHD2 groups couple to two deuterons).
+        ``"s"``, ``"br s"``, ``"t"`` (CHD groups: 1:1:1) or ``"quint"`` (CHD2 groups:
+        1:2:3:2:1, coupled to two deuterons).
     residual_label : str
         Chemical name of the residual species, e.g. ``"CHCl3"``.
     water_ppm : float or None
@@ -53,6 +76,10 @@ class SolventSignals:
         Names recognised by :func:`normalise_solvent_name`.
     source : str
         Where the residual value comes from.
+    residual_j_hd_hz : float or None
+        H-D coupling that splits the residual line (None for singlets).
+    residual_j_ch_hz : float or None
+        1J(13C,1H) of the residual species: its 13C satellites sit +-J/2 from it.
     """
 
     name: str
@@ -63,6 +90,8 @@ class SolventSignals:
     carbon_ppm: tuple[float, ...]
     aliases: tuple[str, ...]
     source: str
+    residual_j_hd_hz: float | None = None
+    residual_j_ch_hz: float | None = None
 
 
 @dataclass(frozen=True)
@@ -95,7 +124,20 @@ def _read_rows() -> tuple[dict, ...]:
 
 
 def _alias_key(text: str) -> str:
-    return re.sub(r"[\s_\-]+", "", text.strip().lower())
+    plain = unicodedata.normalize("NFKD", text).encode("ascii", "ignore").decode("ascii")
+    return re.sub(r"[\s_\-()\[\]{}<>.,;:+&'\"]+", "", plain.strip().lower())
+
+
+# purity, volume or isotope percentages and added TMS: "99.8 atom % D", "90vol%", "+ 0.03 % v/v TMS"
+_DECORATION = re.compile(
+    r"(?:\b(?:w/|with|mit|avec|con|and)\s*)?(?:\d+(?:[.,]\d+)?\s*(?:%|vol\s*%?|v/v|atom\s*%?)\s*)*"
+    r"(?:v/v\s*)?\b(?:tms|tetramethylsilane)\b"
+    r"|\d+(?:[.,]\d+)?\s*(?:%|vol\s*%?|v/v|atom\s*%?)(?:\s*(?:atom|at\.|d\b|v/v|vol))*\s*%?"
+    r"|\b(?:dry|anhydrous|stabili[sz]ed|trocken)\b",
+    flags=re.IGNORECASE)
+# isotope marks: "-d6", "-d", " d6", "d6-", "[D6]", "deutero", "deuterated"
+_ISOTOPE = re.compile(r"\[d\d*\]|\b\(?d\d*\)?-(?=[a-z])|-d\d*\b|\sd\d*\b|\bdeutero-?|\bdeuterated\s+|"
+                      r"\bdeuteriert(?:es)?\s+|\bdeutéré\b|\bdeuterado\b", flags=re.IGNORECASE)
 
 
 @functools.lru_cache(maxsize=1)
@@ -130,8 +172,27 @@ def normalise_solvent_name(text: str | None) -> str | None:
     """
     if not text:
         return None
+    table = _alias_table()
     cleaned = str(text).strip().strip("<>").strip()
-    return _alias_table().get(_alias_key(cleaned))
+    for candidate in (cleaned, _DECORATION.sub(" ", cleaned)):
+        found = table.get(_alias_key(candidate)) or table.get(_alias_key(_ISOTOPE.sub(" ", candidate)))
+        if found:
+            return found
+    return None
+
+
+def hdo_shift_ppm(solvent: str, temperature_k: float | None) -> float | None:
+    """Where water (HOD/H2O) is expected in ``solvent`` at ``temperature_k`` (table value at 298 K).
+
+    Only the D2O line is moved with temperature (slope -1/96.9 ppm per K, memory); the water
+    lines of organic solvents also depend on concentration, so they stay at the table value.
+    """
+    signals = solvent_signals(solvent)
+    if signals.water_ppm is None:
+        return None
+    if signals.name == "D2O" and temperature_k is not None and 250.0 <= temperature_k <= 380.0:
+        return signals.water_ppm + _HDO_PPM_PER_K * (temperature_k - 298.0)
+    return signals.water_ppm
 
 
 def solvent_signals(name: str) -> SolventSignals:
@@ -163,6 +224,8 @@ def solvent_signals(name: str) -> SolventSignals:
         carbon_ppm=tuple(float(r["ppm"]) for r in rows if r["kind"] == "carbon"),
         aliases=aliases,
         source=residual["source"],
+        residual_j_hd_hz=float(residual["j_hd_hz"]) if residual.get("j_hd_hz") else None,
+        residual_j_ch_hz=float(residual["j_ch_hz"]) if residual.get("j_ch_hz") else None,
     )
 
 

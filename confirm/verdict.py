@@ -9,9 +9,8 @@ signals to be seen (see :mod:`confirm.fitting`).
 
 from __future__ import annotations
 
-import re
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -22,11 +21,6 @@ __all__ = ["decide", "alkene_facts", "AlkeneFacts"]
 
 _ELIMINATION = {"E2", "E1", "E1cB"}
 _SUBSTITUTION = {"SN2", "SN1"}
-_EVIDENCE = re.compile(
-    r"^(?P<label>.+?) \((?P<n>\d+)H\) (?P<seen>observed|not clearly seen) at "
-    r"(?P<ppm>-?[\d.]+) ppm .*?; (?P<sigma>-?\d+) sigma, shape match (?P<shape>-?[\d.]+), "
-    r"overlap (?P<overlap>\d+)%$"
-)
 
 
 @dataclass(frozen=True)
@@ -89,28 +83,14 @@ def alkene_facts(smiles: str) -> AlkeneFacts:
     )
 
 
-@dataclass(frozen=True)
-class _SiteSeen:
-    label: str
-    seen: bool
-    overlap: float
-
-
-def _sites(evidence: Sequence[str]) -> list[_SiteSeen]:
-    out = []
-    for line in evidence:
-        match = _EVIDENCE.match(line)
-        if match:
-            out.append(_SiteSeen(match["label"], match["seen"] == "observed", int(match["overlap"]) / 100))
-    return out
-
-
 #: Two-sided 95 % normal quantile.
 _Z_95 = 1.959963984540054
 
 
 def _share(fit: MixtureFit, num: Sequence[int], den: Sequence[int]) -> tuple[float, float]:
-    x = np.array([c.mole_fraction if c.detected else 0.0 for c in fit.components])
+    """Share of ``num`` in num + den among the detected components, and its sd (first-order
+    propagation through the fraction covariance)."""
+    x = np.array([c.share for c in fit.components])
     a, b = x[list(num)].sum(), x[list(den)].sum()
     if a + b <= 0:
         return 0.0, 0.0
@@ -122,20 +102,30 @@ def _share(fit: MixtureFit, num: Sequence[int], den: Sequence[int]) -> tuple[flo
     if cov is None:
         sd = np.array([c.mole_fraction_sd for c in fit.components])
         cov = np.diag(sd**2)
-    sd = float(np.sqrt(max(0.0, grad @ cov @ grad)))
-    # undetected members may still hold up to their upper bound: the share must allow for it
-    low, high = _share_bounds(fit, num, den, a, b)
-    return float(share), max(sd, (high - low) / (2 * _Z_95))
+    return float(share), float(np.sqrt(max(0.0, grad @ cov @ grad)))
 
 
-def _share_bounds(fit: MixtureFit, num, den, a: float, b: float) -> tuple[float, float]:
-    """Lowest and highest share when undetected members hold up to their 95 % upper bound."""
-    def hidden(indices):
-        comps = [fit.components[i] for i in indices if not fit.components[i].detected]
-        return sum((c.upper_limit if c.upper_limit is not None else c.detection_limit) for c in comps)
+def _ratio(fit: MixtureFit, name: str, num_label: str, den_label: str, num, den) -> RatioEstimate:
+    """The ratio of two groups; a bound, not decided, when a member is only bounded.
 
-    up_num, up_den = hidden(num), hidden(den)
-    return a / (a + b + up_den), (a + up_num) / (a + up_num + b)
+    Undetected members may hold up to their 95 % upper bound: with such members only in the
+    denominator the share is at least a / (a + b + hidden), only in the numerator at most
+    (a + hidden) / (a + hidden + b), in both a range.
+    """
+    share, sd = _share(fit, num, den)
+    x = np.array([c.share for c in fit.components])
+    a, b = x[list(num)].sum(), x[list(den)].sum()
+    up_num, up_den = _hidden(fit, num), _hidden(fit, den)
+    low = a / (a + b + up_den) if up_den > 0 and a + b + up_den > 0 else None
+    high = (a + up_num) / (a + up_num + b) if up_num > 0 and a + up_num + b > 0 else None
+    decided = low is None and high is None and not _undecided_by_bounds(share, sd)
+    return RatioEstimate(name=name, numerator=num_label, denominator=den_label, share=share, share_sd=sd,
+                         decided=decided, low=low, high=high)
+
+
+def _hidden(fit: MixtureFit, indices) -> float:
+    """Sum of the 95 % upper bounds of the undetected members."""
+    return float(sum(fit.components[i].upper_limit or 0.0 for i in indices if not fit.components[i].detected))
 
 
 def _undecided_by_bounds(share: float, sd: float) -> bool:
@@ -160,14 +150,14 @@ def _ez_ratios(fit, facts, vinyl_overlapped):
             continue
         if not any(fit.components[i].detected for i in members):
             continue
-        share, sd = _share(fit, e, z)
-        decided = True
         name = _name(fit.components[e[0]].candidate)
-        if _undecided_by_bounds(share, sd):
-            decided = False
-            unresolved.append(
-                f"E/Z of {name}: an isomer not detected may still be present up to its upper bound"
-            )
+        ratio = _ratio(fit, "E:Z" if len(groups) == 1 else f"E:Z {name}", "E", "Z", e, z)
+        decided = ratio.decided
+        if ratio.is_bound:
+            unresolved.append(f"E/Z of {name}: an isomer not detected may still be present up to its upper bound")
+            steps.append("a spectrum with higher signal-to-noise (more scans) or at higher field")
+        elif not decided:
+            unresolved.append(f"E/Z of {name}: the ratio is uncertain by more than 20 points")
             steps.append("a spectrum with higher signal-to-noise (more scans) or at higher field")
         if not all(facts[i].vicinal_vinyl_h for i in members):
             decided = False
@@ -184,25 +174,14 @@ def _ez_ratios(fit, facts, vinyl_overlapped):
             decided = False
             unresolved.append(f"E/Z of {name}: the diagnostic vinyl signals of the isomers overlap")
             steps.append("record the spectrum at higher field (or in C6D6) to separate the vinyl multiplets")
-        ratios.append(
-            RatioEstimate(
-                name="E:Z" if len(groups) == 1 else f"E:Z {name}",
-                numerator="E",
-                denominator="Z",
-                share=share,
-                share_sd=sd,
-                decided=decided,
-            )
-        )
+        ratios.append(replace(ratio, decided=decided))
     return ratios, unresolved, steps
 
 
 def _group_ratio(fit, name, num_label, den_label, num, den):
     if not num or not den or not any(fit.components[i].detected for i in list(num) + list(den)):
         return None
-    share, sd = _share(fit, num, den)
-    return RatioEstimate(name=name, numerator=num_label, denominator=den_label, share=share, share_sd=sd,
-                         decided=not _undecided_by_bounds(share, sd))
+    return _ratio(fit, name, num_label, den_label, num, den)
 
 
 def _regio_labels(candidates, facts):
@@ -281,11 +260,10 @@ def decide(
         raise InputError("fit: components, systems and candidates must correspond one to one")
     facts = [alkene_facts(c.smiles) for c in candidates]
     comps = fit.components
-    sites = [_sites(c.evidence) for c in comps]
     vinyl_overlapped = [
-        all(s.overlap >= 0.5 or not s.seen for s in ss if "vinyl" in s.label.lower())
-        and any("vinyl" in s.label.lower() for s in ss)
-        for ss in sites
+        all(s.overlap >= 0.5 or not s.seen for s in c.site_evidence if "vinyl" in s.label.lower())
+        and any("vinyl" in s.label.lower() for s in c.site_evidence)
+        for c in comps
     ]
     is_sm = ["starting material" in c.pathways for c in candidates]
     # an internal standard added for the NMR yield is fitted but is no product
@@ -395,7 +373,8 @@ def _summary(comps, major_i, ratios, confidence, facts) -> str:
         f"{100 * major.mole_fraction_sd:.1f} mol % of the detected components{note})."
     ]
     for r in ratios:
-        tag = "" if r.decided else " (not decided by this spectrum)"
-        parts.append(f"{r.name} {r.ratio_text} (+- {100 * r.share_sd:.1f}){tag}.")
+        tag = "" if r.decided else ", not decided by this spectrum"
+        spread = "" if r.is_bound else f" (+- {100 * r.share_sd:.1f} points)"
+        parts.append(f"{r.name} {r.ratio_text}{spread}{tag}.")
     parts.append(f"Confidence: {confidence}.")
     return " ".join(parts)

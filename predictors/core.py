@@ -28,6 +28,7 @@ __all__ = [
     "SpinSystem",
     "LineList",
     "Spectrum",
+    "SiteEvidence",
     "ComponentFit",
     "MixtureFit",
     "RatioEstimate",
@@ -345,47 +346,125 @@ class Spectrum:
 
 
 @dataclass(frozen=True)
+class SiteEvidence:
+    """One multiplet of a candidate read on its own (the basis of the consistency test).
+
+    Attributes
+    ----------
+    site : int
+        Index of the site in the candidate's spin system (the first of a merged group).
+    label : str
+    n_h : int
+        Protons of the multiplet.
+    ppm : float
+        Refined shift.
+    predicted_ppm, predicted_sd_ppm : float
+        Predicted shift and its sd.
+    amount, amount_sd : float
+        The candidate's mole fraction as read from this multiplet alone, and its sd.
+    seen : bool
+        The multiplet stands clear of its uncertainty on its own.
+    missing : bool
+        It should stand out at the candidate's amount but is not in the data.
+    shape_match : float
+        Normalised match of the predicted multiplet with the data left for it (1 = same shape).
+    overlap : float
+        Share of its window's modelled signal that belongs to other components.
+    j_hz : tuple of float
+        Refined couplings of 4 Hz and more, largest first.
+    j_predicted_hz : tuple of float
+        The same couplings as predicted.
+    """
+
+    site: int
+    label: str
+    n_h: int
+    ppm: float
+    predicted_ppm: float
+    predicted_sd_ppm: float
+    amount: float
+    amount_sd: float
+    seen: bool
+    missing: bool
+    shape_match: float
+    overlap: float
+    j_hz: tuple[float, ...] = ()
+    j_predicted_hz: tuple[float, ...] = ()
+
+    def to_json(self) -> dict:
+        """Plain-type dictionary (the ``evidence`` entries of the analyze JSON)."""
+        def num(x: float) -> float | None:
+            return float(x) if math.isfinite(x) else None
+
+        return {
+            "site": self.site, "label": self.label, "n_h": self.n_h, "ppm": num(self.ppm),
+            "predicted_ppm": self.predicted_ppm, "predicted_sd_ppm": self.predicted_sd_ppm,
+            "amount": num(self.amount), "amount_sd": num(self.amount_sd), "seen": self.seen,
+            "missing": self.missing, "shape_match": num(self.shape_match), "overlap": num(self.overlap),
+            "j_hz": list(self.j_hz), "j_predicted_hz": list(self.j_predicted_hz),
+        }
+
+
+@dataclass(frozen=True)
 class ComponentFit:
     """Fit result for one candidate.
 
     Attributes
     ----------
     candidate : Candidate
-    mole_fraction : float
-        Share of molecules among all fitted components.
+    mole_fraction : float or None
+        Share of molecules among the detected components; None when the candidate is not
+        detected (then only ``upper_limit`` is known).
     mole_fraction_sd : float
-        Standard deviation of ``mole_fraction``.
+        Standard deviation of ``mole_fraction`` (0 when not detected).
     detection_limit : float
         Smallest mole fraction this spectrum could detect for the candidate.
     detected : bool
-        True when the amount is clearly above the detection limit and the
-        candidate's diagnostic signals are present.
+        True when the amount is clearly above its uncertainty, one of its diagnostic multiplets
+        is seen on its own and none of its multiplets that should stand out is missing.
     refined_shifts_ppm : tuple of float
         Site shifts after refinement (same order as the spin system's sites).
     evidence : tuple of str
-        Lines of evidence (observed vs predicted).
+        Lines of evidence (observed vs predicted), one per multiplet.
     upper_limit : float or None
-        For an undetected candidate, the 95 % upper bound of its mole fraction
-        (at least the detection limit); None when detected.
+        For an undetected candidate, the 95 % upper bound of its mole fraction; None when
+        detected.
+    site_evidence : tuple of SiteEvidence
+        The same evidence as data, one entry per multiplet.
     """
 
     candidate: Candidate
-    mole_fraction: float
+    mole_fraction: float | None
     mole_fraction_sd: float
     detection_limit: float
     detected: bool
     refined_shifts_ppm: tuple[float, ...] = ()
     evidence: tuple[str, ...] = ()
     upper_limit: float | None = None
+    site_evidence: tuple[SiteEvidence, ...] = ()
 
     def __post_init__(self) -> None:
         if self.upper_limit is not None:
             _check_finite(self.upper_limit, name="upper_limit", low=0.0, high=1 + 1e-9)
-        _check_finite(self.mole_fraction, name="mole_fraction", low=-1e-9, high=1 + 1e-9)
+        if self.mole_fraction is not None:
+            _check_finite(self.mole_fraction, name="mole_fraction", low=-1e-9, high=1 + 1e-9)
+        if self.detected and self.mole_fraction is None:
+            raise InputError("mole_fraction: a detected component needs a value")
+        if not self.detected and self.upper_limit is None:
+            raise InputError("upper_limit: an undetected component needs its upper bound")
+        if self.mole_fraction is not None and self.upper_limit is not None \
+                and self.mole_fraction > self.upper_limit + 1e-12:
+            raise InputError("mole_fraction: exceeds the component's own upper_limit")
         _check_finite(self.mole_fraction_sd, name="mole_fraction_sd", low=0.0)
         _check_finite(self.detection_limit, name="detection_limit", low=0.0)
         object.__setattr__(self, "refined_shifts_ppm", tuple(float(x) for x in self.refined_shifts_ppm))
         object.__setattr__(self, "evidence", tuple(self.evidence))
+        object.__setattr__(self, "site_evidence", tuple(self.site_evidence))
+
+    @property
+    def share(self) -> float:
+        """The mole fraction, 0 when not detected (for sums and ratios of detected parts)."""
+        return float(self.mole_fraction) if self.mole_fraction is not None else 0.0
 
 
 @dataclass(frozen=True, eq=False)
@@ -454,7 +533,10 @@ class RatioEstimate:
     """A ratio between two groups of components, as a share with uncertainty.
 
     ``share`` is numerator / (numerator + denominator), in [0, 1]; e.g. for
-    an E:Z ratio the share of E.
+    an E:Z ratio the share of E. When a part is only bounded (a member not detected, known only
+    by its upper bound) the ratio is a bound: ``low`` (share at least this) and/or ``high``
+    (share at most this) are set, ``share`` is the value with the bounded members at zero, and
+    the ratio is not decided.
     """
 
     name: str
@@ -463,16 +545,35 @@ class RatioEstimate:
     share: float
     share_sd: float
     decided: bool = True
+    low: float | None = None
+    high: float | None = None
 
     def __post_init__(self) -> None:
         _check_finite(self.share, name="share", low=-1e-9, high=1 + 1e-9)
         _check_finite(self.share_sd, name="share_sd", low=0.0)
+        for name in ("low", "high"):
+            value = getattr(self, name)
+            if value is not None:
+                _check_finite(value, name=name, low=-1e-9, high=1 + 1e-9)
+
+    @property
+    def is_bound(self) -> bool:
+        """True when a part is only bounded."""
+        return self.low is not None or self.high is not None
 
     @property
     def ratio_text(self) -> str:
-        """The ratio written as ``a:b`` in percent."""
-        a = 100.0 * self.share
-        return f"{a:.0f}:{100.0 - a:.0f}"
+        """The ratio written as ``a:b`` in percent (``>= a:b``, ``<= a:b`` or a range for a bound)."""
+        def pair(x: float) -> str:
+            return f"{100.0 * x:.0f}:{100.0 - 100.0 * x:.0f}"
+
+        if self.low is not None and self.high is not None:
+            return f"{pair(self.low)} to {pair(self.high)}"
+        if self.low is not None:
+            return f">= {pair(self.low)}"
+        if self.high is not None:
+            return f"<= {pair(self.high)}"
+        return pair(self.share)
 
 
 @dataclass(frozen=True)

@@ -39,7 +39,12 @@ def register(subparsers, parents) -> None:
         "--candidates", nargs="+", metavar="SMILES", help="candidate SMILES (instead of --substrate)"
     )
     parser.add_argument(
-        "--field-mhz", type=float, metavar="F", help="spectrometer frequency (peak lists) or override"
+        "--field-mhz", type=float, metavar="F",
+        help="spectrometer frequency for files that do not record it (peak lists); a value that "
+        "contradicts the file's is refused unless --force-field",
+    )
+    parser.add_argument(
+        "--force-field", action="store_true", help="use --field-mhz even where the file records another field"
     )
     parser.add_argument("--report", metavar="OUT.html", help="also write a self-contained HTML report")
     add_budget_argument(parser)
@@ -77,7 +82,8 @@ def _run(args: argparse.Namespace) -> int:
     standard = standard_from_args(args)
     budget = budget_from_args(args)
     options = {"substrate": args.substrate, "reagent": args.reagent, "candidates": args.candidates,
-               "solvent": args.solvent, "temp_c": args.temp_c, "field_mhz": args.field_mhz, "budget": budget}
+               "solvent": args.solvent, "temp_c": args.temp_c, "field_mhz": args.field_mhz,
+               "force_field": args.force_field, "budget": budget}
     with watch_budget(budget):
         if standard is None:
             result = analyze_path(args.spectrum, **options)

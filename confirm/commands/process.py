@@ -1,8 +1,9 @@
 """``confirm process PATH``: read and process a measured 1H data set.
 
 Prints the acquisition summary, SNR, multiplets and warnings (or JSON with
-``--json``); ``--out`` writes the processed spectrum as CSV (ppm, intensity)
-and ``--plot`` a PNG. A peak list is printed as read (no processing).
+``--json``); ``--out`` writes the processed spectrum as CSV (ppm, intensity, with a
+``# field_mhz=...; nucleus=...; solvent=...`` comment line, so that the file reads back as a
+spectrum) and ``--plot`` a PNG. A peak list is printed as read (no processing).
 """
 
 from __future__ import annotations
@@ -31,7 +32,14 @@ def register(subparsers, parents) -> None:
     parser.add_argument("--plot", metavar="PNG", help="write a plot of the processed spectrum")
     parser.add_argument("--lb-hz", type=float, default=0.3, help="exponential line broadening (default 0.3)")
     parser.add_argument("--solvent", help="solvent, overriding the one recorded in the file")
-    parser.add_argument("--field-mhz", type=float, help="spectrometer frequency when the file lacks it")
+    parser.add_argument("--field-mhz", type=float,
+                        help="spectrometer frequency when the file lacks it (a value that contradicts the "
+                             "file's is refused unless --force-field)")
+    parser.add_argument("--force-field", action="store_true",
+                        help="use --field-mhz even where the file records another field")
+    parser.add_argument("--orientation", choices=("auto", "as-read", "mirrored"), default="auto",
+                        help="auto: as the file's metadata say, checked against the data (default); as-read: "
+                             "the metadata unchecked; mirrored: the opposite")
     parser.add_argument("--reference", choices=("auto", "tms", "solvent", "none"), default="auto",
                         help="how to reference the axis (default: TMS, else solvent, else as acquired)")
     parser.add_argument("--baseline", choices=("arpls", "asls", "iarpls", "none"), default="arpls",
@@ -59,8 +67,9 @@ def _run(args) -> int:
         _print_peak_list(raw, as_json=args.json)
         return 0
     options = ProcessingOptions(lb_hz=args.lb_hz, solvent=args.solvent, field_mhz=args.field_mhz,
-                                reference=args.reference, baseline=args.baseline,
-                                threshold_snr=args.threshold_snr)
+                                force_field=args.force_field, reference=args.reference,
+                                baseline=args.baseline, threshold_snr=args.threshold_snr,
+                                orientation=args.orientation)
     result = process_measurement(raw, options=options)
     if args.out:
         _write_csv(result, Path(args.out))
@@ -88,6 +97,8 @@ def _to_json(result: ProcessedSpectrum) -> dict:
         "snr_definition": SNR_DEFINITION,
         "noise_sd": result.noise_sd,
         "reference": result.reference,
+        "reference_source": result.reference_source,
+        "orientation": result.orientation,
         "phase_deg": list(result.phase_deg),
         "acquisition": dict(spectrum.metadata.get("acquisition", {})),
         "peaks": [{"ppm": p.ppm, "height": p.height, "integral": p.integral, "width_hz": p.width_hz}
@@ -110,6 +121,7 @@ def _to_text(result: ProcessedSpectrum) -> str:
         f"field:     {spectrum.field_mhz:.2f} MHz {spectrum.nucleus}, "
         f"solvent {spectrum.solvent or 'unknown'}",
         f"reference: {result.reference}",
+        f"orientation: {result.orientation}",
         f"phase:     {result.phase_deg[0]:.1f} deg (zero order), {result.phase_deg[1]:.1f} deg (first order)",
         f"SNR:       {result.snr:.0f} (tallest non-solvent line / 2 x noise sd)",
         "",
@@ -146,6 +158,8 @@ def _write_csv(result: ProcessedSpectrum, path: Path) -> None:
     path.parent.mkdir(parents=True, exist_ok=True)
     spectrum = result.spectrum
     with atomic_path(path) as tmp, open(tmp, "w", encoding="utf-8", newline="\n") as out:
+        out.write(f"# processed spectrum: field_mhz={spectrum.field_mhz!r}; nucleus={spectrum.nucleus}; "
+                  f"solvent={spectrum.solvent or 'unknown'}; reference={result.reference}\n")
         out.write("ppm,intensity\n")
         for ppm, value in zip(spectrum.ppm.tolist(), spectrum.intensity.tolist(), strict=True):
             out.write(f"{ppm!r},{value!r}\n")

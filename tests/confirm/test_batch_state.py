@@ -23,8 +23,7 @@ import confirm.batch as batch
 from confirm.batch import BatchItem, item_fingerprint, read_manifest, run_batch, scan_folder
 from confirm.reading import write_jcamp_spectrum
 from predictors.errors import InputError
-from tests.confirm._synthetic_results import pentene_mixture
-from tests.confirm.test_batch import CANDIDATES, SPEC_TEXT, _write_spectra, nnls_analyze
+from tests.confirm.test_batch import CANDIDATES, SPEC_TEXT, _write_spectra, mixture_spectrum, nnls_analyze
 
 PROJECT = Path(__file__).resolve().parents[2]
 
@@ -139,7 +138,7 @@ def test_a_temperature_of_zero_is_kept(tmp_path):
 
 def test_data_sets_one_folder_down_are_found_and_deeper_ones_named(tmp_path):
     root = tmp_path / "plate"
-    spectrum = pentene_mixture(0.9, 0.05, 0.03, 0.02).spectrum
+    spectrum = mixture_spectrum(0.9, 0.05, 0.03, 0.02)
     root.mkdir()
     write_jcamp_spectrum(spectrum, root / "top.jdx")
     (root / "sample1" / "exp10").mkdir(parents=True)
@@ -189,7 +188,7 @@ def test_out_inside_the_input_folder_or_on_an_input_is_refused(run_cli, tmp_path
     assert not (folder / "results").exists()
     # a manifest whose spectrum folder is where an item folder would go
     (tmp_path / "A1").mkdir()
-    write_jcamp_spectrum(pentene_mixture(0.9, 0.05, 0.03, 0.02).spectrum, tmp_path / "A1" / "data.jdx")
+    write_jcamp_spectrum(mixture_spectrum(0.9, 0.05, 0.03, 0.02), tmp_path / "A1" / "data.jdx")
     (tmp_path / "m.csv").write_text(f"id,spectrum,candidates\nA1,A1,{' '.join(CANDIDATES)}\n")
     before = sorted(p.name for p in (tmp_path / "A1").iterdir())
     result = run_cli("batch", tmp_path / "m.csv", "--out", tmp_path)

@@ -42,7 +42,7 @@ def test_text_output_and_files(run_cli, fid_dir, tmp_path):
     result = run_cli("process", fid_dir, "--out", out, "--plot", plot)
     assert result.exit_code == 0, result.stderr
     assert "TMS at 0.00 ppm" in result.stdout and "q" in result.stdout
-    table = np.loadtxt(out, delimiter=",", skiprows=1)
+    table = np.loadtxt(out, delimiter=",", skiprows=2)  # a comment line with the field, then the header
     assert table.shape[1] == 2 and np.all(np.diff(table[:, 0]) < 0)
     assert plot.read_bytes()[:4] == b"\x89PNG"
     assert sorted(p.name for p in tmp_path.iterdir()) == ["s.csv", "s.png"]  # no temporary leftovers

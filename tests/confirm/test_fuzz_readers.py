@@ -4,7 +4,9 @@ Whatever the file (JCAMP-DX spectra and FIDs in every ASDF form, raw FID folders
 parameter file, peak lists; well made, odd or damaged), ``confirm process`` exits 0 or 2 (one
 line), never 3, never hangs, writes nothing outside its output folder and stays within a memory
 bound. Inputs come from the builders of ``tests/confirm/robustness_corpus.py``; settings in
-``tests/confirm/_fuzz.py``. Inputs that once broke a reader are kept below as explicit cases.
+``tests/confirm/_fuzz.py``. Inputs that once broke a reader (exit 3 from parameter files with text
+or zero, DUP counts past the declared size, implausible fields and units accepted, damaged lines
+called 2D) are kept below as explicit cases.
 """
 
 from __future__ import annotations
@@ -121,9 +123,6 @@ def test_fid_folders_with_sound_parameters_and_any_data(files):
                     ("process", "{dir}/exp", "--out", "{out}/spectrum.csv", "--json")), memory_mb=MEMORY_MB)
 
 
-@pytest.mark.xfail(strict=True, reason="reading.py (realfiles): acqus parameters holding text, arrays, an "
-                   "empty value or zero raise ValueError/TypeError/ZeroDivisionError (exit 3) instead of a "
-                   "one-line FileFormatError; see the explicit cases below")
 @FUZZ
 @given(st.dictionaries(st.sampled_from(sorted(ACQUS_DEFAULTS)), _ODD | st.text(max_size=6), max_size=3))
 def test_fid_folders_with_any_parameter_values(params):
@@ -161,8 +160,6 @@ def _fid_folder_case(params: dict[str, str]) -> Case:
     {"TD": "abc"}, {"TD": "(0..1)\n1 2"}, {"SFO1": "x"}, {"SW_h": ""}, {"O1": "1 2 3"}, {"GRPDLY": "abc"},
     {"SW_h": "0"}, {"DTYPA": "x"}, {"BYTORDA": "abc"}, {"BF1": "x"}, {"NS": "abc"}, {"RG": "(0..1)\n1 2"},
 ], ids=lambda p: ",".join(f"{k}={v!r}" for k, v in p.items()))
-@pytest.mark.xfail(strict=True, reason="reading.py (realfiles): an acqus parameter that is text, an array, "
-                   "empty or zero gives an internal error (exit 3) instead of a one-line error naming it")
 def test_acqus_parameters_that_broke_the_reader(params):
     check_case(_fid_folder_case(params))
 
@@ -178,8 +175,6 @@ _IMPLAUSIBLE = {
 
 
 @pytest.mark.parametrize("name", sorted(_IMPLAUSIBLE))
-@pytest.mark.xfail(strict=True, reason="reading.py/processing.py (realfiles): an implausible field, spectral "
-                   "width or axis unit is processed without a word (exit 0, peaks at thousands of ppm)")
 def test_implausible_acquisition_parameters_are_refused_or_flagged(name):
     outcome = check_case(_IMPLAUSIBLE[name])
     if outcome.exit_code == 0:
@@ -224,9 +219,6 @@ def _run_limited(path, *, limit_mb: int, cpu_s: int = 3,
                           text=True, timeout=timeout_s, preexec_fn=cap, check=False)
 
 
-@pytest.mark.xfail(strict=True, reason="reading.py (realfiles): a JCAMP-DX file whose DUP counts expand to "
-                   "more points than it declares (here 1 M against 32,768) is read (exit 0) instead of being "
-                   "refused before allocation")
 def test_dup_counts_past_the_declared_points_are_refused(tmp_path):
     path = tmp_path / "bomb.jdx"
     path.write_bytes(_dup_bomb(declared=32768, repeats=499_999, lines=2))  # 1.0 M points
@@ -235,9 +227,6 @@ def test_dup_counts_past_the_declared_points_are_refused(tmp_path):
     assert result.returncode == 2 and "declare" in result.stderr, (result.returncode, result.stderr[-300:])
 
 
-@pytest.mark.xfail(strict=True, reason="reading.py (realfiles): DUP counts that expand to 20 M points (more "
-                   "than 2^24, as declared) are decoded (seconds of processor time, then a failed "
-                   "allocation) instead of being refused before allocation")
 def test_dup_counts_past_two_to_the_24_are_refused_within_bounded_memory(tmp_path):
     path = tmp_path / "bomb.jdx"
     path.write_bytes(_dup_bomb(declared=19_999_998, repeats=9_999_999, lines=2))  # 20 M points
@@ -247,8 +236,6 @@ def test_dup_counts_past_two_to_the_24_are_refused_within_bounded_memory(tmp_pat
         (result.returncode, result.stderr[-300:])
 
 
-@pytest.mark.xfail(strict=True, reason="reading.py (realfiles): a character that is no ASDF digit in one "
-                   "data line of a 1D JCAMP-DX spectrum is reported as 'holds 2D data'")
 def test_a_damaged_data_line_is_not_called_two_dimensional():
     lines = jcamp_spectrum(_lorentzians(1024, random.Random(1), 10**5), form="SQZ").decode().split("\n")
     k = next(i for i, line in enumerate(lines) if line.startswith("##XYDATA")) + 3

@@ -132,7 +132,7 @@ def test_peak_indices_and_widths_equal_the_scipy_reference(seed):
     # scipy.signal.find_peaks / peak_widths (the reference implementation of the same definitions)
     from scipy.signal import find_peaks, peak_widths
 
-    from confirm.peaks import _half_height_widths, find_peak_indices
+    from confirm.peaks import find_peak_indices, half_height_widths
 
     rng = np.random.default_rng(seed)
     x = np.arange(6000)
@@ -147,4 +147,4 @@ def test_peak_indices_and_widths_equal_the_scipy_reference(seed):
     idx, _ = find_peaks(y, height=5.0, prominence=5.0)
     bases = (np.zeros(idx.size, dtype=np.intp), np.full(idx.size, y.size - 1, dtype=np.intp))
     widths = peak_widths(y, idx, rel_height=0.5, prominence_data=(y[idx], *bases))[0]
-    assert np.allclose(_half_height_widths(y, idx), np.maximum(widths, 1.0))
+    assert np.allclose(half_height_widths(y, idx), np.maximum(widths, 1.0))

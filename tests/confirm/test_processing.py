@@ -35,21 +35,41 @@ SYNTHETIC_SIGNALS = (
 )
 
 
-def _stick_lines(ppm: float, n_h: float, couplings) -> list[tuple[float, float]]:
+#: Satellites of the reference lines, as a real sample has them: (splitting J in Hz, share of the
+#: line's intensity in both satellites together, shift of the satellite pair's midpoint in ppm).
+#: 29Si of TMS: 2J(Si,H) 6.6 Hz, 4.7 % natural abundance, no isotope shift to speak of (memory);
+#: 13C: 1.1 % of the protons sit on 13C (references.md section 5: 0.55 % each satellite),
+#: 1J(C,H) 118 Hz in TMS and 209 Hz in CHCl3, shielded by about 2 ppb (memory; 1.6-2.5 ppb
+#: measured in the shared real spectra).
+REFERENCE_SATELLITES = {
+    0.0: ((6.6, 0.047, 0.0), (118.0, 0.011, -0.002)),
+    7.26: ((209.0, 0.011, -0.002),),
+}
+
+
+def _stick_lines(ppm: float, n_h: float, couplings, satellites=()) -> list[tuple[float, float]]:
     lines = [(ppm * FIELD_MHZ, n_h)]
     for j_hz, n_partners in couplings:
         for _ in range(n_partners):
             lines = [(f + s * j_hz / 2, a / 2) for f, a in lines for s in (-1, 1)]
+    for j_hz, share, shift_ppm in satellites:
+        centre = (ppm + shift_ppm) * FIELD_MHZ
+        lines = [(f, a * (1 - share)) for f, a in lines]
+        lines += [(centre + s * j_hz / 2, n_h * share / 2) for s in (-1, 1)]
     return [(f / FIELD_MHZ, a) for f, a in lines]
 
 
 def synthetic_fid(*, n_points=16384, phase_deg=0.0, group_delay=0.0, noise=2e-4, t2_s=0.5, shift_ppm=0.0,
-                  seed=1, signals=SYNTHETIC_SIGNALS) -> np.ndarray:
-    """Complex FID of SYNTHETIC_SIGNALS (lines displaced by ``shift_ppm``), digital-filter delayed."""
+                  seed=1, signals=SYNTHETIC_SIGNALS, satellites=True) -> np.ndarray:
+    """Complex FID of SYNTHETIC_SIGNALS (lines displaced by ``shift_ppm``), digital-filter delayed.
+
+    With ``satellites`` the TMS and CHCl3 lines carry their 29Si and 13C satellites.
+    """
     t = np.arange(n_points) / SW_HZ
     fid = np.zeros(n_points, dtype=complex)
     for ppm, n_h, couplings in signals:
-        for line_ppm, amp in _stick_lines(ppm + shift_ppm, n_h, couplings):
+        extra = REFERENCE_SATELLITES.get(ppm, ()) if satellites else ()
+        for line_ppm, amp in _stick_lines(ppm + shift_ppm, n_h, couplings, extra):
             fid += amp * np.exp(2j * math.pi * (line_ppm - CARRIER_PPM) * FIELD_MHZ * t)
     fid *= np.exp(-t / t2_s) * np.exp(1j * math.radians(phase_deg))
     rng = np.random.default_rng(seed)
@@ -331,3 +351,21 @@ def test_arpls_baseline_equals_the_pybaselines_reference(lam):
         y += 400 / (1 + ((x - centre) / 4) ** 2)
     expected, _ = Baseline(x_data=x).arpls(y, lam=lam)
     assert np.max(np.abs(arpls_baseline(y, lam=lam) - expected)) < 1e-4
+
+
+def test_noise_free_fid_is_flagged_as_not_physical(tmp_path):
+    # issue 14: a FID without noise gives SNR and detection limits that mean nothing
+    fid = synthetic_fid(noise=0.0, t2_s=0.2)  # decayed within the acquisition: no truncation wiggles
+    raw = read_measurement(write_fid_directory(tmp_path / "clean", fid, dtypa=2, grpdly=0, decim=1, dspfvs=0))
+    result = process_measurement(raw)
+    assert any("not physical" in w and "times the noise" in w for w in result.warnings), result.warnings
+    noisy = load_spectrum(write_fid_directory(tmp_path / "noisy", synthetic_fid()))
+    assert not any("not physical" in w for w in noisy.warnings)
+
+
+def test_pure_noise_is_no_signal(tmp_path):
+    # issue 14: a pure-noise FID must read as "no signal", not as a spectrum with lines in it
+    rng = np.random.default_rng(11)
+    noise = rng.standard_normal(16384) + 1j * rng.standard_normal(16384)
+    result = load_spectrum(write_fid_directory(tmp_path / "noise", noise))
+    assert any(w.startswith("no signal") for w in result.warnings), result.warnings

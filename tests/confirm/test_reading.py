@@ -116,7 +116,7 @@ def _encode(value: int, table) -> str:
 
 
 def _jcamp_text(values: list[int], form: str) -> str:
-    """Encode integer Y values as XYDATA lines (JCAMP-DX 4.24 ASDF forms), 10 values a line."""
+    """Encode integer Y values as XYDATA lines (JCAMP-DX 4.24 ASDF forms), 10 values a line, 10 Hz apart."""
     lines = []
     if form == "DIF":
         # each line ends with the first ordinate of the next line (the Y check value)
@@ -133,7 +133,8 @@ def _jcamp_text(values: list[int], form: str) -> str:
         lines.append(f"{start}{body}")
     header = ["##TITLE=hand encoded", "##JCAMP-DX=4.24", "##DATA TYPE=NMR SPECTRUM", "##XUNITS=HZ",
               "##YUNITS=ARBITRARY UNITS", "##.OBSERVE FREQUENCY=100.0", "##XFACTOR=1", "##YFACTOR=1",
-              "##FIRSTX=0", f"##LASTX={len(values) - 1}", f"##NPOINTS={len(values)}", "##XYDATA=(X++(Y..Y))"]
+              "##FIRSTX=0", f"##LASTX={10 * (len(values) - 1)}", f"##NPOINTS={len(values)}",
+              "##XYDATA=(X++(Y..Y))"]
     return "\n".join(header + lines + ["##END="]) + "\n"
 
 
@@ -315,7 +316,7 @@ def test_parameter_files_read_like_the_nmrglue_reference(real_spectra, tmp_path)
     # equals what nmrglue's Bruker JCAMP reader gives
     import nmrglue as ng
 
-    from confirm.reading import _read_parameter_file
+    from confirm.reading.parameters import read_parameter_file as _read_parameter_file
 
     written = tmp_path / "acqus"
     written.write_text("##TITLE= test\n##$TD= 64\n##$SW_h= 8012.8205128\n##$PULPROG= <zg30>\n"

@@ -70,3 +70,43 @@ def test_every_solvent_has_a_residual_line_and_every_row_a_source():
     for name in known_solvents():
         assert solvent_signals(name).residual_ppm > 0
         assert all(s.n_h > 0 for s in impurity_signals(name))
+
+
+@pytest.mark.parametrize("label, expected", [
+    # spellings met in instrument files and lab notebooks (issue 15): vendor forms, languages,
+    # isotope marks, purity and volume percentages, added TMS
+    ("CD2Cl2", "CD2Cl2"), ("Dichloromethane-d2", "CD2Cl2"), ("Dichlormethan-d2", "CD2Cl2"),
+    ("Aceton", "acetone-d6"), ("Aceton-d6", "acetone-d6"), ("acétone-d6", "acetone-d6"),
+    ("Chloroform-d 90vol%", "CDCl3"), ("CDCl3 + 0.03% TMS", "CDCl3"),
+    ("chloroform-d, 99.8%, +0.03% v/v TMS", "CDCl3"), ("Chloroform-d (99.8 atom % D)", "CDCl3"),
+    ("Chloroforme-d", "CDCl3"), ("Cloroformo deuterado", "CDCl3"), ("CDCL3", "CDCl3"), ("CdCl3", "CDCl3"),
+    ("d6-DMSO", "DMSO-d6"), ("[D6]DMSO", "DMSO-d6"), ("DMSO-D6", "DMSO-d6"),
+    ("Dimethylsulfoxid-d6", "DMSO-d6"),
+    ("DMSO-d6 + TMS", "DMSO-d6"), ("Benzol-d6", "C6D6"), ("Acetonitril-d3", "CD3CN"), ("MeOD", "CD3OD"),
+    ("Deuteriumoxid", "D2O"), ("D2O 99.9 atom % D", "D2O"), ("H2O/D2O", "D2O"),
+    ("Neat", None), ("water", None), ("D", None),
+])
+def test_normaliser_reads_the_spellings_files_use(label, expected):
+    assert normalise_solvent_name(label) == expected
+
+
+def test_residual_multiplets_carry_their_couplings():
+    # residual CHD2 groups are 1:2:3:2:1 quintets, CHD a 1:1:1 triplet (Gottlieb 1997 Table 1
+    # multiplicities); J(H,D) and 1J(C,H) from memory (the table's source column says so)
+    assert solvent_signals("DMSO-d6").residual_multiplicity == "quint"
+    assert 1.5 <= solvent_signals("DMSO-d6").residual_j_hd_hz <= 2.4
+    assert solvent_signals("CD2Cl2").residual_multiplicity == "t"
+    assert (solvent_signals("CD2Cl2").residual_ppm, solvent_signals("CD2Cl2").water_ppm) == (5.32, 1.52)
+    # CHCl3: 1J(C,H) 209 Hz, measured 209.3-209.5 Hz between the satellites in the shared real files
+    assert solvent_signals("CDCl3").residual_j_ch_hz == 209.0
+    assert solvent_signals("CDCl3").residual_j_hd_hz is None
+
+
+def test_hdo_moves_with_temperature_in_d2o_only():
+    from confirm.solvents import hdo_shift_ppm
+
+    # slope -1/96.9 ppm per K (memory, Gottlieb 1997): 10 K warmer, about 0.10 ppm upfield
+    assert hdo_shift_ppm("D2O", 298.0) == pytest.approx(4.79)
+    assert hdo_shift_ppm("D2O", 308.0) == pytest.approx(4.79 - 10 / 96.9)
+    assert hdo_shift_ppm("D2O", None) == pytest.approx(4.79)
+    assert hdo_shift_ppm("CDCl3", 320.0) == 1.56

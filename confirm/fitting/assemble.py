@@ -1,0 +1,220 @@
+"""From refined fits to one coherent result: amounts, fractions, bounds, evidence and warnings.
+
+Several assignments are refined. Each is scored on one common scale (squared residual over a
+common variance plus its prior); the best one decides which candidates are present, and the
+fractions are averaged over the fits with weights ``exp(-(objective - best) / 2)``, so that near
+equal fits share the answer (and their spread enters the uncertainty) instead of one of them
+winning by a rounding difference.
+
+Numbers are coherent by construction: a detected component has a mole fraction and its sd and the
+detected fractions sum to 1; an undetected one has no value, only a 95 % upper bound.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from confirm.fitting.evidence import decide_presence, point_variance, read_sites, weighted_fit
+from predictors.core import ComponentFit, MixtureFit, SiteEvidence
+
+__all__ = ["Evaluation", "evaluate", "rank_fits", "fit_weights", "fraction_covariance"]
+
+#: Fits whose weight falls below this are left out of the average.
+_MIN_WEIGHT = 1e-3
+#: Relative tolerance of the comparison of objectives (ties go to the earlier fit).
+_RTOL = 1e-9
+#: Couplings at least this large (Hz) are quoted in the evidence.
+_QUOTED_J_HZ = 4.0
+
+
+@dataclass(frozen=True, eq=False)
+class Evaluation:
+    """The evidence and amounts of one refined fit."""
+
+    amounts: np.ndarray  # final amounts (0 for candidates not present)
+    cov: np.ndarray  # covariance of the amounts (k, k)
+    base: np.ndarray
+    detected: np.ndarray
+    presence: tuple
+    readings: list
+    var: np.ndarray
+    model: np.ndarray
+
+
+def rank_fits(objectives: np.ndarray) -> np.ndarray:
+    """Order of the fits, best first; objectives equal within a relative 1e-9 keep their order."""
+    scale = max(float(np.max(np.abs(objectives))), 1e-300)
+    return np.lexsort((np.arange(objectives.size), np.round(objectives / (scale * _RTOL))))
+
+
+def fit_weights(objectives: np.ndarray) -> np.ndarray:
+    """Model-averaging weights exp(-(objective - best) / 2), normalised, small ones set to 0."""
+    w = np.exp(-(objectives - objectives.min()) / 2.0)
+    w[w < _MIN_WEIGHT * w.max()] = 0.0
+    return w / w.sum()
+
+
+def diagnostic_sites(model) -> list:
+    """Sites that identify the molecule: its vinyl H when it has any, else every site."""
+    vinyl = [s for s, lab in enumerate(model.labels) if "vinyl" in lab.lower() or "olefin" in lab.lower()]
+    return vinyl or list(range(model.n_sites))
+
+
+def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: float, detection_sigma: float,
+             lw_ppm: float, uncertainty_scale: float) -> Evaluation:
+    """Read the evidence of one refined fit and solve the amounts of the candidates present."""
+    signal = refined.amounts @ refined.cols
+    var = point_variance(noise_sd, signal, model_error)
+    offsets = np.cumsum([0] + [m.n_sites for m in models])[:-1]
+    n_sites = [m.n_sites for m in models]
+    everyone = np.ones(len(models), bool)
+    amounts_all, base_all, _ = weighted_fit(refined.cols, basis, grid, var, everyone)
+    readings = read_sites(grid, refined.per_site, refined.cols, amounts_all, base_all, basis, offsets, n_sites,
+                          var, lw_ppm)
+    presence = tuple(
+        decide_presence(r, detection_sigma=detection_sigma, diagnostic=diagnostic_sites(m))
+        for r, m in zip(readings, models, strict=True)
+    )
+    detected = np.array([p.present for p in presence])
+    amounts, base, cov_sub = weighted_fit(refined.cols, basis, grid, var, detected)
+    cov = np.zeros((len(models), len(models)))
+    idx = np.flatnonzero(detected)
+    if idx.size:
+        sd = np.sqrt(np.clip(np.diag(cov_sub), 0, None))
+        factor = np.array([_local_inflation(readings[k]) for k in idx])
+        wanted = np.maximum(sd * factor, [presence[k].amount_sd for k in idx]) * uncertainty_scale
+        with np.errstate(invalid="ignore", divide="ignore"):
+            corr = cov_sub / np.outer(np.where(sd > 0, sd, 1.0), np.where(sd > 0, sd, 1.0))
+        cov[np.ix_(idx, idx)] = corr * np.outer(wanted, wanted)
+    model = amounts @ refined.cols + basis @ base
+    return Evaluation(amounts, cov, base, detected, presence, readings, var, model)
+
+
+def _local_inflation(readings) -> float:
+    """sqrt of the information-weighted local reduced chi-square of a candidate's multiplets (>= 1)."""
+    use = [r for r in readings if r.usable and np.isfinite(r.amount_sd) and r.amount_sd > 0]
+    if not use:
+        return 1.0
+    info = np.array([1.0 / r.amount_sd**2 for r in use])
+    misfit = np.array([r.misfit for r in use])
+    return float(np.sqrt(max(1.0, np.sum(info * misfit) / np.sum(info))))
+
+
+def fraction_covariance(amounts: np.ndarray, cov: np.ndarray) -> np.ndarray:
+    """Covariance of the fractions amounts / sum(amounts) (first-order propagation)."""
+    total = amounts.sum()
+    if total <= 0:
+        return np.zeros_like(cov)
+    grad = (np.eye(amounts.size) * total - amounts[:, None]) / total**2  # d x_i / d a_j
+    return grad @ cov @ grad.T
+
+
+def fractions_of(ev: Evaluation) -> tuple[np.ndarray, np.ndarray]:
+    """Mole fractions of the detected candidates (0 elsewhere) and their covariance."""
+    total = ev.amounts.sum()
+    frac = ev.amounts / total if total > 0 else np.zeros_like(ev.amounts)
+    return frac, fraction_covariance(ev.amounts, ev.cov)
+
+
+def averaged_fractions(evaluations, weights, detected):
+    """Weighted mean fractions over the fits, their covariance (within plus between fits), and each
+    fit's fractions. Every fit is read with the best fit's set of detected candidates."""
+    fracs, covs = zip(*(fractions_of(ev) for ev in evaluations), strict=True)
+    fracs = np.array([np.where(detected, f, 0.0) for f in fracs])
+    mean = weights @ fracs
+    dev = fracs - mean
+    within = sum(w * c for w, c in zip(weights, covs, strict=True))
+    between = (dev * weights[:, None]).T @ dev
+    return mean, within + between, fracs
+
+
+def component_fits(candidates, systems, models, refined, ev: Evaluation, frac, frac_cov, field_mhz: float,
+                   detection_sigma: float) -> tuple:
+    """One :class:`ComponentFit` per candidate (same order)."""
+    total = float(ev.amounts.sum())
+    lay = refined.layout
+    out = []
+    for k, (cand, system, model) in enumerate(zip(candidates, systems, models, strict=True)):
+        p = ev.presence[k]
+        detected = bool(ev.detected[k])
+        upper = None
+        if not detected:
+            bound = p.upper if np.isfinite(p.upper) else np.inf
+            upper = 1.0 if not np.isfinite(bound) or total + bound <= 0 else float(bound / (total + bound))
+        lod_amount = detection_sigma * p.amount_sd if np.isfinite(p.amount_sd) else np.inf
+        lod = 1.0 if not np.isfinite(lod_amount) or total + lod_amount <= 0 else lod_amount / (total + lod_amount)
+        shifts, jvals = lay.shifts(refined.theta)[k], lay.jvals(refined.theta)[k]
+        sites = _site_evidence(system, model, ev.readings[k], p, shifts, jvals, total)
+        out.append(ComponentFit(
+            candidate=cand,
+            mole_fraction=float(np.clip(frac[k], 0.0, 1.0)) if detected else None,
+            mole_fraction_sd=float(np.sqrt(max(frac_cov[k, k], 0.0))) if detected else 0.0,
+            detection_limit=float(np.clip(lod, 0.0, 1.0)),
+            detected=detected,
+            upper_limit=None if detected else float(np.clip(upper, 0.0, 1.0)),
+            refined_shifts_ppm=_refined_shifts(system, model, shifts),
+            evidence=tuple(_evidence_text(e) for e in sites),
+            site_evidence=sites,
+        ))
+    return tuple(out)
+
+
+def _refined_shifts(system, model, shifts) -> tuple:
+    out = [s.shift_ppm for s in system.sites]
+    for group, value in zip(model.groups, shifts, strict=True):
+        for idx in group:
+            out[idx] = float(value)
+    return tuple(out)
+
+
+def _quoted_couplings(model, j: np.ndarray, s: int) -> tuple:
+    big = [abs(j[s, t]) for t in range(j.shape[0]) if t != s and abs(j[s, t]) >= _QUOTED_J_HZ]
+    return tuple(round(v, 1) for v in sorted(big, reverse=True))
+
+
+def _site_evidence(system, model, readings, presence, shifts, jvals, total: float) -> tuple:
+    from confirm.fitting.models import coupling_matrix
+
+    j_fit = coupling_matrix(model, jvals)
+    scale = 1.0 / total if total > 0 else 0.0
+    out = []
+    for s, r in enumerate(readings):
+        site_index = model.groups[s][0]
+        site = system.sites[site_index]
+        out.append(SiteEvidence(
+            site=int(site_index),
+            label=site.label or "H",
+            n_h=int(model.n_h[s]),
+            ppm=float(shifts[s]),
+            predicted_ppm=float(site.shift_ppm),
+            predicted_sd_ppm=float(site.shift_sd_ppm),
+            amount=float(r.amount * scale) if r.usable else float("nan"),
+            amount_sd=float(r.amount_sd * scale) if r.usable else float("inf"),
+            seen=s in presence.seen,
+            missing=s in presence.missing,
+            shape_match=float(r.shape),
+            overlap=float(r.overlap),
+            j_hz=_quoted_couplings(model, j_fit, s),
+            j_predicted_hz=_quoted_couplings(model, model.j0, s),
+        ))
+    return tuple(out)
+
+
+def _evidence_text(e: SiteEvidence) -> str:
+    j_part = ""
+    if e.j_hz:
+        j_part = (f"; J = {', '.join(f'{v:.1f}' for v in e.j_hz)} Hz "
+                  f"(predicted {', '.join(f'{v:.1f}' for v in e.j_predicted_hz)})")
+    if e.missing:
+        state = "missing"
+    elif e.seen:
+        state = "observed"
+    else:
+        state = "not clearly seen"
+    amount = (f"{100 * e.amount:.1f} +- {100 * e.amount_sd:.1f} %" if np.isfinite(e.amount_sd)
+              else "not readable (masked)")
+    return (f"{e.label} ({e.n_h}H) {state} at {e.ppm:.3f} ppm (predicted {e.predicted_ppm:.2f} +- "
+            f"{e.predicted_sd_ppm:.2f}){j_part}; amount from this multiplet {amount}, shape match "
+            f"{e.shape_match:.2f}, overlap {100 * e.overlap:.0f}%")

@@ -1,0 +1,165 @@
+"""The mixture fit's pieces against slow, obviously correct references.
+
+Each fast piece of :mod:`confirm.fitting` is checked against a plain computation of the same thing:
+bin means drawn in closed form against the mean of many point samples, the bounded solver against
+SciPy's ``least_squares``, the non-negative solve against ``scipy.optimize.nnls`` on the full
+matrix, the evidence reading on hand-made columns.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from confirm.fitting.evidence import SiteReading, decide_presence, point_variance
+from confirm.fitting.grid import Grid, _hilbert_transform
+from confirm.fitting.lineshape import draw_lines
+from confirm.fitting.linear import Projected, solve_amounts
+from confirm.fitting.search import stable_argmax
+from confirm.fitting.solver import least_squares_box
+
+
+def _grid(x, y=None, factor=1, step=None):
+    step = float(x[1] - x[0]) if step is None else step
+    return Grid(x=x, y=np.zeros(x.size) if y is None else y, weight=np.ones(x.size), region=np.zeros(x.size, int),
+                n_regions=1, dx_ppm=step * factor, curvature_ppm2=step**2 * (factor**2 - 1) / 24.0)
+
+
+@pytest.mark.parametrize(("factor", "fwhm_hz"), [(1, 1.0), (2, 1.0), (3, 2.4), (4, 2.4)])
+@pytest.mark.parametrize("gauss", [0.0, 0.4])
+def test_drawn_bin_means_equal_the_mean_of_the_samples(factor, fwhm_hz, gauss):
+    """A bin holds the mean of `factor` samples: drawing the centre value plus the curvature term
+    must equal averaging the samples themselves (pseudo-Voigt at 400 MHz, 0.1 Hz samples, at least
+    the fit's 5 bins per line width)."""
+    field, fwhm = 400.0, fwhm_hz / 400.0
+    raw = np.arange(6000) * (0.1 / field) + 3.0
+    lines = np.array([3.4, 3.4021, 3.7])
+    inten = np.array([1.0, 0.5, 2.0])
+
+    def shape(x):
+        g = fwhm / 2
+        sigma = fwhm / (2 * np.sqrt(2 * np.log(2)))
+        lor = g / np.pi / ((x[:, None] - lines) ** 2 + g * g)
+        gau = np.exp(-((x[:, None] - lines) ** 2) / (2 * sigma**2)) / (sigma * np.sqrt(2 * np.pi))
+        return ((1 - gauss) * lor + gauss * gau) @ inten
+
+    reference = shape(raw).reshape(-1, factor).mean(1)
+    centres = raw.reshape(-1, factor).mean(1)
+    drawn = draw_lines(_grid(centres, factor=factor, step=0.1 / field), lines, inten, np.zeros(3, int), 1, fwhm,
+                       gauss=gauss).values[0]
+    # +-40 half-widths are drawn: compare where the truncated tails do not matter
+    near = np.abs(centres[:, None] - lines).min(1) < 15 * fwhm
+    assert np.max(np.abs(drawn - reference)[near]) < 3e-4 * reference.max()
+
+
+def test_position_and_width_derivatives_match_finite_differences():
+    x = np.linspace(3.0, 3.2, 801)
+    grid = _grid(x)
+    ppm, inten, fwhm = np.array([3.10011]), np.array([2.0]), 0.003  # off a grid point: the window stays
+    d = draw_lines(grid, ppm, inten, np.zeros(1, int), 1, fwhm, gauss=0.3, derivs=True,
+                   width_group=np.zeros(1, int), n_width_groups=1, weight=np.ones(1))
+    h = 1e-7
+    up = draw_lines(grid, ppm + h, inten, np.zeros(1, int), 1, fwhm, gauss=0.3).values[0]
+    down = draw_lines(grid, ppm - h, inten, np.zeros(1, int), 1, fwhm, gauss=0.3).values[0]
+    assert np.allclose(d.dpos[0], (up - down) / (2 * h), atol=1e-3 * np.abs(d.dpos).max())
+    wide = draw_lines(grid, ppm, inten, np.zeros(1, int), 1, fwhm + h, gauss=0.3).values[0]
+    narrow = draw_lines(grid, ppm, inten, np.zeros(1, int), 1, fwhm - h, gauss=0.3).values[0]
+    inside = np.abs(x - ppm[0]) < 15 * fwhm  # the drawing window grows with the width at its edges
+    assert np.allclose(d.dwidth[0][inside], ((wide - narrow) / (2 * h))[inside], atol=1e-3 * np.abs(d.dwidth).max())
+    more = draw_lines(grid, ppm, inten, np.zeros(1, int), 1, fwhm, gauss=0.3 + 1e-6).values[0]
+    less = draw_lines(grid, ppm, inten, np.zeros(1, int), 1, fwhm, gauss=0.3 - 1e-6).values[0]
+    assert np.allclose(d.dgauss, (more - less) / 2e-6, atol=1e-4 * np.abs(d.dgauss).max())
+
+
+def test_bounded_solver_agrees_with_scipy_least_squares():
+    """A bounded exponential fit (one bound active at the optimum): same minimum as SciPy's
+    trust-region reflective solver, the reference implementation."""
+    from scipy.optimize import least_squares
+
+    t = np.linspace(0, 4, 60)
+    y = 2.0 * np.exp(-1.3 * t) + 0.5 + np.random.default_rng(3).normal(0, 0.01, t.size)
+
+    def residual(p):
+        return p[0] * np.exp(-p[1] * t) + p[2] - y
+
+    def jacobian(p):
+        e = np.exp(-p[1] * t)
+        return np.column_stack([e, -p[0] * t * e, np.ones_like(t)])
+
+    lo, hi = np.array([0.0, 0.0, 0.0]), np.array([10.0, 5.0, 0.45])
+    ours = least_squares_box(residual, jacobian, np.array([1.0, 0.5, 0.1]), lo, hi)
+    ref = least_squares(residual, np.array([1.0, 0.5, 0.1]), jac=jacobian, bounds=(lo, hi))
+    assert ours.x == pytest.approx(ref.x, rel=1e-5, abs=1e-7)
+    assert ours.x[2] == pytest.approx(0.45)  # the bound holds
+
+
+def test_nonnegative_amounts_agree_with_nnls_on_the_full_matrix():
+    from scipy.optimize import nnls
+
+    rng = np.random.default_rng(5)
+    n = 300
+    cols = np.abs(rng.normal(size=(4, n)))
+    basis = np.column_stack([np.ones(n), np.linspace(-1, 1, n)])
+    y = np.array([1.0, 0.0, 2.0, 0.5]) @ cols + 0.3 + 0.1 * np.linspace(-1, 1, n) + rng.normal(0, 0.05, n)
+    y -= 3.0 * cols[1]  # the unconstrained amount of column 1 is negative
+    weight = np.ones(n)
+    amounts, base = solve_amounts(cols, basis, y, weight)
+    # reference: NNLS with the baseline split into positive and negative parts
+    full = np.column_stack([cols.T, basis, -basis])
+    ref, _ = nnls(full, y)
+    assert amounts == pytest.approx(ref[:4], abs=1e-8)
+    assert base == pytest.approx(ref[4:6] - ref[6:], abs=1e-8)
+    proj = Projected(_grid(np.arange(n, dtype=float), y), basis)
+    p = proj.project(cols)
+    cost = proj.cost(p)
+    r = y - amounts @ cols - basis @ base
+    assert cost == pytest.approx(float(r @ r), rel=1e-9)
+
+
+def test_hilbert_transform_matches_scipy_signal():
+    # scipy.signal.hilbert is the reference implementation of the analytic signal
+    from scipy.signal import hilbert
+
+    for n in (1000, 1001):
+        y = np.random.default_rng(n).normal(size=n)
+        assert np.allclose(_hilbert_transform(y), hilbert(y).imag, atol=1e-12)
+
+
+def test_stable_argmax_breaks_near_ties_by_position():
+    score = np.array([1.0, 3.0, 3.0 * (1 + 1e-12), 2.0])
+    assert stable_argmax(score) == 1
+    assert stable_argmax(np.array([-np.inf, -np.inf])) == 0
+    assert stable_argmax(np.array([0.0, 5.0, 5.0 + 1e-3])) == 2
+
+
+def _reading(amount, sd, envelope=np.inf, usable=True):
+    return SiteReading(ppm=1.0, amount=amount, amount_sd=sd, envelope=envelope, shape=0.9, overlap=0.0,
+                       misfit=1.0, usable=usable)
+
+
+def test_presence_needs_every_multiplet():
+    consistent = [_reading(0.10, 0.002, 0.12), _reading(0.11, 0.003, 0.13), _reading(0.095, 0.004, 0.11)]
+    p = decide_presence(consistent, detection_sigma=3.0, diagnostic=[0])
+    assert p.present and not p.missing
+    # a decoy: two multiplets sit on borrowed lines, its own vinyl multiplet has no lines at all
+    decoy = consistent[:2] + [_reading(0.002, 0.002, envelope=0.01)]
+    p = decide_presence(decoy, detection_sigma=3.0, diagnostic=[2])
+    assert not p.present and p.missing == (2,)
+    assert p.upper <= 0.0101  # the missing multiplet caps the amount
+    # nothing there: an upper bound from the combined noise
+    absent = [_reading(0.0001, 0.002, 0.007), _reading(-0.001, 0.003, 0.009)]
+    p = decide_presence(absent, detection_sigma=3.0, diagnostic=[0, 1])
+    assert not p.present and 0 < p.upper <= 0.007
+
+
+def test_seen_needs_five_sd_after_a_searched_position():
+    """A multiplet placed by searching its window is 'seen' only at 5 sd (look-elsewhere effect)."""
+    weak = [_reading(0.010, 0.0025, 0.02), _reading(0.010, 0.0025, 0.02)]  # 4 sd each
+    p = decide_presence(weak, detection_sigma=3.0, diagnostic=[0, 1])
+    assert not p.present and p.amount / p.amount_sd > 3.0
+
+
+def test_point_variance_adds_model_error_of_the_signal():
+    signal = np.array([0.0, 10.0, 100.0])
+    var = point_variance(0.5, signal, 0.03)
+    assert var == pytest.approx([0.25, 0.25 + 0.09, 0.25 + 9.0])
