@@ -53,6 +53,8 @@ _LAZY = {
     "nmr_yield": "confirm.qnmr",
     "yield_from_result": "confirm.qnmr",
     "analyze_with_standard": "confirm.qnmr",
+    "Budget": "confirm.budget",
+    "BudgetExceeded": "confirm.budget",
 }
 
 

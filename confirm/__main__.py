@@ -1,5 +1,8 @@
 """Allow ``python -m confirm``."""
 
-from confirm.cli import run
+try:
+    from confirm.cli import run
+except KeyboardInterrupt:  # Ctrl-C while the modules load: end as the command line would
+    raise SystemExit(130) from None
 
 run()

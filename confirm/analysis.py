@@ -8,11 +8,13 @@ candidate's spin system, fits the mixture and decides the verdict. The result is
 
 from __future__ import annotations
 
+import inspect
 from collections.abc import Sequence
 from typing import TYPE_CHECKING
 
 import numpy as np
 
+from confirm.budget import Budget, check_budget
 from confirm.results import AnalysisResult, InputRecord
 from confirm.verdict import alkene_facts, decide
 from predictors.core import Candidate, Spectrum, SpinSystem
@@ -53,9 +55,11 @@ def build_candidates(
             "candidates: no candidate given; pass --candidates SMILES [SMILES ...] or "
             "--substrate SMILES with --reagent NAME"
         )
+    from confirm.structures import load_structure
     from predictors.products import enumerate_products
 
-    products = enumerate_products(substrate, reagent=reagent, solvent=solvent, temp_c=temp_c)
+    # checked here (one molecule, no text after a space), then enumerated from the checked molecule
+    products = enumerate_products(load_structure(substrate), reagent=reagent, solvent=solvent, temp_c=temp_c)
     if not products.candidates:
         raise ChemistryError(f"substrate: no product could be enumerated for {substrate!r} with {reagent!r}")
     return tuple(products.candidates), tuple(products.notes)
@@ -117,6 +121,7 @@ def analyze_spectrum(
     notes: Sequence[str] = (),
     options: FitOptions | None = None,
     parameters: dict | None = None,
+    budget: Budget | None = None,
 ) -> AnalysisResult:
     """Analyse an already processed spectrum (a ``ProcessedSpectrum`` or a bare ``Spectrum``).
 
@@ -133,6 +138,9 @@ def analyze_spectrum(
     options : FitOptions, optional
     parameters : dict, optional
         Extra parameters to record.
+    budget : confirm.budget.Budget, optional
+        Time allowed; checked before the predictions, the fit and the verdict (and inside the fit
+        when it takes a budget). None: no limit.
     """
     candidates = tuple(candidates)
     if not candidates:
@@ -151,8 +159,14 @@ def analyze_spectrum(
         )
     from confirm.fitting import fit_mixture
 
-    systems = tuple(systems) if systems is not None else predict_systems(candidates)
-    fit = fit_mixture(spectrum, systems, candidates, noise_sd=noise_sd, options=options)
+    if systems is None:
+        check_budget(budget, "predictions")
+        systems = predict_systems(candidates)
+    systems = tuple(systems)
+    check_budget(budget, "fit")
+    fit = fit_mixture(spectrum, systems, candidates, noise_sd=noise_sd, options=options,
+                      **_budget_keyword(fit_mixture, budget))
+    check_budget(budget, "verdict")
     context = {"input": "peak list"} if (parameters or {}).get("input") == "peak list" else None
     verdict = decide(fit, systems, candidates, context=context)
     params = {
@@ -172,6 +186,13 @@ def analyze_spectrum(
         warnings=tuple(dict.fromkeys(list(notes) + warnings + list(fit.warnings))),
         parameters=params,
     )
+
+
+def _budget_keyword(func, budget: Budget | None) -> dict:
+    """``{"budget": budget}`` when ``func`` takes a ``budget`` keyword and there is one, else ``{}``."""
+    if budget is None or "budget" not in inspect.signature(func).parameters:
+        return {}
+    return {"budget": budget}
 
 
 def _unpack(processed):
@@ -201,6 +222,7 @@ def analyze_path(
     temp_c: float = 25.0,
     field_mhz: float | None = None,
     force_field: bool = False,
+    budget: Budget | None = None,
 ) -> AnalysisResult:
     """Read, process and analyse one measurement (raw FID, stored spectrum or peak list).
 
@@ -221,19 +243,26 @@ def analyze_path(
         contradicts the file's recorded field is an error unless ``force_field`` is set.
     force_field : bool
         Use ``field_mhz`` even where the file records another field.
+    budget : confirm.budget.Budget, optional
+        Time allowed, checked between the stages (candidates, reading, processing, predictions,
+        fit, verdict). None: no limit.
 
     Raises
     ------
     InputError, ChemistryError, FileFormatError, FitError
         Bad arguments, unparsable candidates, unreadable files, wrong nucleus, nothing to fit.
+    confirm.budget.BudgetExceeded
+        When the budget runs out.
     """
     from confirm.reading import PeakList, read_measurement
 
     if field_mhz is not None and not (np.isfinite(field_mhz) and 40 <= field_mhz <= 1200):
         raise InputError(f"field_mhz: expected 40-1200 MHz (1H), got {field_mhz!r}")
+    check_budget(budget, "candidates")
     cands, notes = build_candidates(
         substrate=substrate, reagent=reagent, candidates=candidates, solvent=solvent, temp_c=temp_c
     )
+    check_budget(budget, "reading")
     raw = read_measurement(path)
     _check_nucleus(raw.parameters.nucleus)
     record = InputRecord(path=str(path), sha256=raw.sha256)
@@ -249,6 +278,7 @@ def analyze_path(
             inputs=(record,),
             notes=notes,
             parameters=params,
+            budget=budget,
         )
     from confirm._parallel import Beside
 
@@ -257,6 +287,7 @@ def analyze_path(
     with Beside(predict_systems, cands) as predictions:
         from confirm.processing import ProcessingOptions, process_measurement
 
+        check_budget(budget, "processing")
         processed = process_measurement(
             raw,
             options=ProcessingOptions(field_mhz=field_mhz, force_field=force_field) if field_mhz else None,
@@ -264,9 +295,10 @@ def analyze_path(
         import confirm.fitting  # noqa: F401
         import predictors.couplings  # noqa: F401  (the fit's 13C satellite positions)
 
+        check_budget(budget, "predictions")
         systems = predictions.result()
     return analyze_spectrum(
-        processed, cands, systems=systems, inputs=(record,), notes=notes, parameters=params
+        processed, cands, systems=systems, inputs=(record,), notes=notes, parameters=params, budget=budget
     )
 
 
@@ -278,6 +310,7 @@ def analyze_peak_list(
     inputs: Sequence[InputRecord] = (),
     notes: Sequence[str] = (),
     parameters: dict | None = None,
+    budget: Budget | None = None,
 ) -> AnalysisResult:
     """Analyse a peak list by assignment and per-site integration.
 
@@ -309,7 +342,7 @@ def analyze_peak_list(
         ],
     )
     return analyze_spectrum(
-        rendered, candidates, inputs=inputs, notes=notes, options=options, parameters=params
+        rendered, candidates, inputs=inputs, notes=notes, options=options, parameters=params, budget=budget
     )
 
 

@@ -157,12 +157,15 @@ def _check_keys(table: Mapping, allowed: set[str], *, where: str) -> None:
 
 
 def _smiles_entry(value, *, name: str) -> str:
+    from confirm.structures import check_smiles
+    from predictors.errors import ChemistryError
+
     if not isinstance(value, str):
         raise InputError(f"spec {name}: expected a SMILES string, got {value!r}")
     try:
-        return canonical_smiles(value)
-    except InputError:
-        raise InputError(f"spec {name}: RDKit cannot parse {value!r}") from None
+        return canonical_smiles(check_smiles(value, name=f"spec {name}"))
+    except ChemistryError as exc:
+        raise InputError(str(exc)) from None
 
 
 def read_spec(path: str | Path) -> QcSpec:
@@ -186,7 +189,7 @@ def read_spec(path: str | Path) -> QcSpec:
     except OSError as exc:
         raise FileFormatError(f"spec: cannot read {str(path)!r} ({exc.strerror or exc})") from None
     try:
-        table = tomllib.loads(raw.decode("utf-8"))
+        table = tomllib.loads(raw.decode("utf-8-sig"))  # a byte-order mark some editors write is fine
     except (UnicodeDecodeError, tomllib.TOMLDecodeError) as exc:
         raise FileFormatError(f"spec: {str(path)!r} is not valid TOML ({_one_line(exc)})") from None
     return parse_spec(table, sha256=hashlib.sha256(raw).hexdigest(), source=str(path))
@@ -533,7 +536,7 @@ def _summary(status: str, checks) -> str:
     return f"{status}: {', '.join(failed)}."
 
 
-def run_qc(spec: QcSpec, spectrum_path: str | Path, *, analyze: Callable | None = None):
+def run_qc(spec: QcSpec, spectrum_path: str | Path, *, analyze: Callable | None = None, budget=None):
     """Analyse a spectrum as the specification says and evaluate it.
 
     Parameters
@@ -543,6 +546,8 @@ def run_qc(spec: QcSpec, spectrum_path: str | Path, *, analyze: Callable | None 
     analyze : callable, keyword-only
         ``analyze(path, **spec.analysis_kwargs()) -> AnalysisResult``;
         ``confirm.analysis.analyze_path`` by default.
+    budget : confirm.budget.Budget, keyword-only
+        Time allowed for the analysis; passed on as ``budget=`` when given.
 
     Returns
     -------
@@ -550,7 +555,10 @@ def run_qc(spec: QcSpec, spectrum_path: str | Path, *, analyze: Callable | None 
     """
     if analyze is None:
         from confirm.analysis import analyze_path as analyze
-    result = analyze(spectrum_path, **spec.analysis_kwargs())
+    kwargs = spec.analysis_kwargs()
+    if budget is not None:
+        kwargs["budget"] = budget
+    result = analyze(spectrum_path, **kwargs)
     return result, evaluate_qc(result, spec)
 
 

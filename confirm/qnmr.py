@@ -320,25 +320,36 @@ def yield_from_result(result, standard: InternalStandard, *, sample_mass_mg: flo
 
 def analyze_with_standard(path, standard: InternalStandard, *, substrate: str | None = None,
                           reagent: str | None = None, candidates=None, solvent: str | None = None,
-                          temp_c: float = 25.0, field_mhz: float | None = None, force_field: bool = False):
+                          temp_c: float = 25.0, field_mhz: float | None = None, force_field: bool = False,
+                          budget=None):
     """Analyse a spectrum with the internal standard fitted as one more component.
 
     Same arguments as ``confirm.analysis.analyze_path``; the standard is added to the
     candidates (enumerated or given) with the pathway tag ``"user"`` and the label
     ``"internal standard"``, so :func:`yield_from_result` can use its fitted amount.
+
+    Raises
+    ------
+    InputError
+        When the standard is one of the candidates: its signal would be counted twice.
     """
     from confirm.analysis import analyze_peak_list, analyze_spectrum, build_candidates
+    from confirm.budget import check_budget
     from confirm.processing import ProcessingOptions, process_measurement
     from confirm.reading import PeakList, read_measurement
     from confirm.results import InputRecord
     from confirm.verdict import STANDARD_LABEL
     from predictors.core import Candidate
 
+    check_budget(budget, "candidates")
     cands, notes = build_candidates(substrate=substrate, reagent=reagent, candidates=candidates,
                                     solvent=solvent, temp_c=temp_c)
-    if standard.smiles not in {c.smiles for c in cands}:
-        cands = (*cands, Candidate(smiles=standard.smiles, pathways=("user",), label=STANDARD_LABEL,
-                                   rationale="weighed internal standard for the NMR yield"))
+    if standard.smiles in {c.smiles for c in cands}:
+        raise InputError(f"--std-smiles: the internal standard {standard.smiles!r} is also one of the "
+                         "candidates; a standard must be a compound the reaction cannot give")
+    cands = (*cands, Candidate(smiles=standard.smiles, pathways=("user",), label=STANDARD_LABEL,
+                               rationale="weighed internal standard for the NMR yield"))
+    check_budget(budget, "reading")
     raw = read_measurement(path)
     record = InputRecord(path=str(path), sha256=raw.sha256)
     params = {"substrate": substrate, "reagent": reagent, "reaction_solvent": solvent, "temp_c": temp_c,
@@ -349,10 +360,11 @@ def analyze_with_standard(path, standard: InternalStandard, *, substrate: str | 
 
         field = resolve_field(raw.parameters.field_mhz, field_mhz, force=force_field, source=str(path))
         return analyze_peak_list(raw, cands, field_mhz=field, inputs=(record,), notes=notes,
-                                 parameters=params)
+                                 parameters=params, budget=budget)
     options = ProcessingOptions(field_mhz=field_mhz, force_field=force_field) if field_mhz else None
-    return analyze_spectrum(process_measurement(raw, options=options), cands, inputs=(record,), notes=notes,
-                            parameters=params)
+    check_budget(budget, "processing")
+    processed = process_measurement(raw, options=options)
+    return analyze_spectrum(processed, cands, inputs=(record,), notes=notes, parameters=params, budget=budget)
 
 
 def yields_to_json(yields: Sequence[ProductYield], standard: InternalStandard | None = None) -> dict:
@@ -396,12 +408,17 @@ def add_yield_arguments(parser: argparse.ArgumentParser) -> None:
     group.add_argument("--std-protons", type=int, metavar="N",
                        help="number of protons in the standard's quantified signal")
     group.add_argument("--std-mass-mg", type=float, metavar="MG", help="weighed mass of the standard, mg")
-    group.add_argument("--std-purity-percent", type=float, default=100.0, metavar="P",
+    group.add_argument("--std-purity-percent", type=float, default=None, metavar="P",
                        help="purity of the standard, mass %% (default 100)")
     group.add_argument("--sample-mass-mg", type=float, metavar="MG",
                        help="weighed sample mass, mg (gives content in wt%%)")
     group.add_argument("--theoretical-mmol", type=float, metavar="MMOL",
                        help="theoretical amount of product, mmol (gives yield in %%)")
+
+
+#: Options that mean nothing without ``--std-smiles``.
+_COMPANION_OPTIONS = ("std_protons", "std_mass_mg", "std_purity_percent", "sample_mass_mg",
+                      "theoretical_mmol")
 
 
 def standard_from_args(args: argparse.Namespace) -> InternalStandard | None:
@@ -414,11 +431,19 @@ def standard_from_args(args: argparse.Namespace) -> InternalStandard | None:
     """
     smiles = getattr(args, "std_smiles", None)
     if not smiles:
+        given = [option for option in _COMPANION_OPTIONS if getattr(args, option, None) is not None]
+        if given:
+            raise InputError(f"--{given[0].replace('_', '-')}: needs an internal standard; give "
+                             "--std-smiles, --std-protons and --std-mass-mg too")
         return None
+    from confirm.structures import check_smiles_text
+
+    smiles = check_smiles_text(smiles, name="--std-smiles")
     for option in ("std_protons", "std_mass_mg"):
         if getattr(args, option, None) is None:
             raise InputError(f"--{option.replace('_', '-')}: required with --std-smiles")
-    purity = _check_positive(getattr(args, "std_purity_percent", 100.0), name="--std-purity-percent")
+    purity = getattr(args, "std_purity_percent", None)
+    purity = _check_positive(100.0 if purity is None else purity, name="--std-purity-percent")
     if purity > 100.0:
         raise InputError(f"--std-purity-percent: must be in (0, 100], got {purity!r}")
     return InternalStandard(smiles=smiles, n_h=args.std_protons, mass_mg=args.std_mass_mg,

@@ -1,4 +1,11 @@
-"""Read a structure given on the command line: a molfile/SDF path or a SMILES string."""
+"""Read a structure given on the command line: a molfile/SDF path or a SMILES string.
+
+A SMILES is one word: RDKit would take text after a space as the molecule's name and drop it,
+so :func:`check_smiles_text` refuses it. A structure is one molecule: fragments that are common
+counter-ions (halides, metal cations, tosylate, acetate...) are allowed beside it, but two
+organic molecules (``CCCBr.CC(Br)C``) are refused rather than one of them being taken for a
+counter-ion.
+"""
 
 from __future__ import annotations
 
@@ -9,7 +16,8 @@ from rdkit import Chem, RDLogger
 from predictors.errors import ChemistryError, FileFormatError, InputError
 from predictors.molecules import parse_molecule
 
-__all__ = ["STRUCTURE_SUFFIXES", "load_structure"]
+__all__ = ["STRUCTURE_SUFFIXES", "check_smiles", "check_smiles_text", "check_single_molecule",
+           "load_structure"]
 
 #: File suffixes read as structure files (molfile, SD file).
 STRUCTURE_SUFFIXES = (".mol", ".sdf", ".mdl", ".sd")
@@ -36,6 +44,72 @@ def _read_file(path: Path) -> Chem.Mol:
     return mol
 
 
+def check_smiles_text(text: str, *, name: str = "structure") -> str:
+    """Return ``text`` stripped; raise when it holds whitespace inside (text after a space).
+
+    Raises
+    ------
+    InputError
+        Empty text, or a space, tab or line break inside it.
+    """
+    if not isinstance(text, str) or not text.strip():
+        raise InputError(f"{name}: expected a SMILES string, got {text!r}")
+    stripped = text.strip()
+    words = stripped.split()
+    if len(words) > 1:
+        raise InputError(f"{name}: {stripped!r} has text after a space ({' '.join(words[1:])!r}); a SMILES "
+                         "has no spaces: give one SMILES per argument, quoted")
+    return stripped
+
+
+def check_single_molecule(mol: Chem.Mol, *, name: str = "structure") -> None:
+    """Raise when ``mol`` holds two or more organic molecules besides common counter-ions.
+
+    Fragments that RDKit's default salt list recognises (halides, alkali and alkaline-earth
+    cations, sulfonates, carboxylates such as acetate and trifluoroacetate, ...) and fragments
+    without carbon (water, ammonium) are counter-ions or solvent; more than one remaining
+    fragment with carbon is a mixture, which is not one structure.
+
+    Raises
+    ------
+    ChemistryError
+        Naming the organic fragments.
+    """
+    from rdkit.Chem.SaltRemover import SaltRemover
+
+    if len(Chem.GetMolFrags(mol)) < 2:
+        return
+    stripped = SaltRemover().StripMol(mol, dontRemoveEverything=True)
+    organic = [Chem.MolToSmiles(f) for f in Chem.GetMolFrags(stripped, asMols=True, sanitizeFrags=False)
+               if any(a.GetAtomicNum() == 6 for a in f.GetAtoms())]
+    if len(organic) > 1:
+        raise ChemistryError(f"{name}: {Chem.MolToSmiles(mol)!r} holds {len(organic)} separate organic "
+                             f"molecules ({', '.join(organic)}); give one structure per argument (a "
+                             "counter-ion must be a common inorganic or sulfonate/carboxylate ion)")
+
+
+def check_smiles(text: str, *, name: str = "smiles") -> str:
+    """Return the stripped SMILES after :func:`check_smiles_text` and :func:`check_single_molecule`.
+
+    Raises
+    ------
+    InputError
+        Empty, or text after a space.
+    ChemistryError
+        Not parsable, or two organic molecules.
+    """
+    text = check_smiles_text(text, name=name)
+    RDLogger.DisableLog("rdApp.*")
+    try:
+        mol = Chem.MolFromSmiles(text)
+    finally:
+        RDLogger.EnableLog("rdApp.*")
+    if mol is None:
+        raise ChemistryError(f"{name}: RDKit cannot parse {text!r} (invalid SMILES or valence)")
+    check_single_molecule(mol, name=name)
+    return text
+
+
 def load_structure(arg: str) -> Chem.Mol:
     """Return an RDKit molecule from a molfile/SDF path or a SMILES string.
 
@@ -51,7 +125,9 @@ def load_structure(arg: str) -> Chem.Mol:
     FileFormatError
         Missing or unreadable structure file.
     ChemistryError
-        Invalid SMILES, radicals, unsupported elements, too many atoms.
+        Invalid SMILES, radicals, unsupported elements, too many atoms, two organic molecules.
+    InputError
+        Empty text, or text after a space in a SMILES.
     """
     if not isinstance(arg, str) or not arg.strip():
         raise InputError(f"structure: expected a SMILES string or a molfile path, got {arg!r}")
@@ -60,6 +136,7 @@ def load_structure(arg: str) -> Chem.Mol:
     if path.suffix.lower() in STRUCTURE_SUFFIXES:
         mol = _read_file(path)
     else:
+        text = check_smiles_text(text)
         RDLogger.DisableLog("rdApp.*")
         try:
             mol = Chem.MolFromSmiles(text)
@@ -67,5 +144,6 @@ def load_structure(arg: str) -> Chem.Mol:
             RDLogger.EnableLog("rdApp.*")
         if mol is None:
             raise ChemistryError(f"structure: {text!r} is neither a readable file nor a valid SMILES")
+    check_single_molecule(mol)
     parse_molecule(mol, strip_salts=True)
     return mol

@@ -1,7 +1,8 @@
-"""Helpers shared by the subcommands: JSON output and plain-text tables."""
+"""Helpers shared by the subcommands: JSON output, plain-text tables, time budgets."""
 
 from __future__ import annotations
 
+import contextlib
 import json
 import math
 import sys
@@ -9,7 +10,11 @@ from collections.abc import Sequence
 
 import numpy as np
 
-__all__ = ["emit_json", "format_table", "to_jsonable"]
+__all__ = ["emit_json", "format_table", "to_jsonable", "add_budget_argument", "budget_from_args",
+           "existing_paths", "data_inputs"]
+
+#: Files that stand for the FID folder holding them (``read_measurement`` reads the folder).
+_FOLDER_FILES = ("fid", "ser", "acqus", "acqu", "procpar")
 
 
 def to_jsonable(obj):
@@ -57,3 +62,65 @@ def format_table(headers: Sequence[str], rows: Sequence[Sequence[object]]) -> st
     for row in cells[1:]:
         lines.append("  ".join(c.ljust(w) for c, w in zip(row, widths, strict=True)).rstrip())
     return "\n".join(lines)
+
+
+def add_budget_argument(parser, *, per: str = "analysis") -> None:
+    """Add ``--max-seconds`` (default 60) to a subcommand parser."""
+    from confirm.budget import DEFAULT_MAX_SECONDS
+
+    parser.add_argument(
+        "--max-seconds", type=float, default=DEFAULT_MAX_SECONDS, metavar="S",
+        help=f"time allowed per {per} (default {DEFAULT_MAX_SECONDS:g} s); past it the analysis stops with "
+             "exit 2 and says which stage ran out. Progress lines go to stderr after 5 s (with --json only "
+             "when stderr is a terminal)")
+
+
+def budget_from_args(args):
+    """A fresh :class:`~confirm.budget.Budget` from ``--max-seconds``, with progress lines on stderr.
+
+    Progress is printed unless ``--json`` was given and stderr is not a terminal (a program reading
+    the JSON then keeps its log free of them).
+    """
+    from confirm.budget import Budget, ProgressLines
+
+    show = not getattr(args, "json", False) or _is_terminal(sys.stderr)
+    return Budget(max_seconds=args.max_seconds, progress=ProgressLines(enabled=show))
+
+
+def _is_terminal(stream) -> bool:
+    try:
+        return bool(stream.isatty())
+    except (AttributeError, ValueError):
+        return False
+
+
+def existing_paths(label: str, values) -> list[tuple[str, str]]:
+    """``(label, value)`` for each value that names an existing file or folder (structure files
+    given in place of SMILES, for the output checks)."""
+    from pathlib import Path
+
+    out = []
+    for value in values or ():
+        try:
+            if isinstance(value, str) and Path(value).exists():
+                out.append((label, value))
+        except (OSError, ValueError):
+            continue
+    return out
+
+
+def data_inputs(label: str, path) -> list[tuple[str, object]]:
+    """``(label, path)``, plus the FID folder when ``path`` is its ``fid``/``acqus``/... file (the
+    reader then reads the whole folder, so outputs must stay out of all of it)."""
+    from pathlib import Path
+
+    out = [(label, path)]
+    if path is None:
+        return out
+    path = Path(path)
+    with contextlib.suppress(OSError):
+        partners = [n for n in _FOLDER_FILES if n != path.name]
+        beside = any((path.parent / n).exists() for n in partners)
+        if path.name in _FOLDER_FILES and path.is_file() and beside:
+            out.append((f"{label} (its folder)", path.parent))
+    return out

@@ -4,7 +4,14 @@ from __future__ import annotations
 
 import argparse
 
-from confirm.commands._common import emit_json, format_table
+from confirm.commands._common import (
+    add_budget_argument,
+    budget_from_args,
+    data_inputs,
+    emit_json,
+    existing_paths,
+    format_table,
+)
 
 __all__ = ["register", "format_result"]
 
@@ -40,6 +47,7 @@ def register(subparsers, parents) -> None:
         "--force-field", action="store_true", help="use --field-mhz even where the file records another field"
     )
     parser.add_argument("--report", metavar="OUT.html", help="also write a self-contained HTML report")
+    add_budget_argument(parser)
     from confirm.qnmr import add_yield_arguments
 
     add_yield_arguments(parser)
@@ -57,16 +65,30 @@ def _run(args: argparse.Namespace) -> int:
             "--candidates: no candidate given; pass --candidates SMILES [SMILES ...] or "
             "--substrate SMILES with --reagent NAME"
         )
+    import math
+
+    from confirm._files import check_file_targets, check_outputs
+
+    if not math.isfinite(args.temp_c) or not -100.0 <= args.temp_c <= 300.0:
+        raise InputError(f"--temp-c: expected a reaction temperature between -100 and 300 C, "
+                         f"got {args.temp_c!r}")
+    from confirm.budget import watch_budget
     from confirm.qnmr import analyze_with_standard, standard_from_args, yield_from_args, yields_to_json
 
+    inputs = [*data_inputs("--spectrum", args.spectrum), *existing_paths("--substrate", [args.substrate]),
+              *existing_paths("--candidates", args.candidates)]
+    check_outputs([("--report", args.report)], inputs)
+    check_file_targets([("--report", args.report)])
     standard = standard_from_args(args)
+    budget = budget_from_args(args)
     options = {"substrate": args.substrate, "reagent": args.reagent, "candidates": args.candidates,
                "solvent": args.solvent, "temp_c": args.temp_c, "field_mhz": args.field_mhz,
-               "force_field": args.force_field}
-    if standard is None:
-        result = analyze_path(args.spectrum, **options)
-    else:
-        result = analyze_with_standard(args.spectrum, standard, **options)
+               "force_field": args.force_field, "budget": budget}
+    with watch_budget(budget):
+        if standard is None:
+            result = analyze_path(args.spectrum, **options)
+        else:
+            result = analyze_with_standard(args.spectrum, standard, **options)
     yields = yield_from_args(args, result)
     if args.report:
         from confirm.report_html import write_html_report

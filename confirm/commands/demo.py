@@ -4,12 +4,10 @@ from __future__ import annotations
 
 import argparse
 import json
-import os
-import tempfile
 from importlib import resources
 from pathlib import Path
 
-from confirm.commands._common import emit_json, to_jsonable
+from confirm.commands._common import add_budget_argument, budget_from_args, emit_json, to_jsonable
 
 __all__ = ["register", "DEMO_SUBSTRATE", "DEMO_REAGENT", "DEMO_SOLVENT", "DEMO_TEMP_C", "sample_files"]
 
@@ -31,6 +29,7 @@ def register(subparsers, parents) -> None:
         "dehydrobromination, see sample_spectra/README.md) from the substrate and reagent.",
     )
     parser.add_argument("--out", metavar="DIR", help="also write one JSON result per sample into DIR")
+    add_budget_argument(parser, per="sample")
     parser.set_defaults(handler=_run)
 
 
@@ -47,18 +46,22 @@ def sample_files() -> list[Path]:
 
 def _run(args: argparse.Namespace) -> int:
     from confirm.analysis import analyze_path
+    from confirm.budget import watch_budget
     from confirm.commands.analyze import format_result
     from predictors.errors import FileFormatError
 
+    if args.out:
+        _check_out(Path(args.out))
     results = {}
     for path in sample_files():
         if not path.exists():
             raise FileFormatError(
                 f"sample spectra: {path} is missing; regenerate with python scripts/make_sample_spectra.py"
             )
-        results[path.name] = analyze_path(
-            path, substrate=DEMO_SUBSTRATE, reagent=DEMO_REAGENT, solvent=DEMO_SOLVENT, temp_c=DEMO_TEMP_C
-        )
+        budget = budget_from_args(args)
+        with watch_budget(budget):
+            results[path.name] = analyze_path(path, substrate=DEMO_SUBSTRATE, reagent=DEMO_REAGENT,
+                                              solvent=DEMO_SOLVENT, temp_c=DEMO_TEMP_C, budget=budget)
     if args.out:
         _write_results(results, Path(args.out))
     if args.json:
@@ -84,15 +87,33 @@ def _run(args: argparse.Namespace) -> int:
     return 0
 
 
+def _result_paths(out_dir: Path) -> list[Path]:
+    return [out_dir / (Path(p.name).stem + ".json") for p in sample_files()]
+
+
+def _check_out(out_dir: Path) -> None:
+    """Refuse ``--out`` before any work: an existing file, or a place that would hit the samples."""
+    from confirm._files import check_outputs
+    from predictors.errors import InputError
+
+    try:
+        if out_dir.exists() and not out_dir.is_dir():
+            raise InputError(f"--out: {str(out_dir)!r} is an existing file; give a folder "
+                             "(created when missing)")
+    except OSError as exc:
+        raise InputError(f"--out: cannot use {str(out_dir)!r} ({exc.strerror or exc})") from None
+    samples = [("sample spectrum", p) for p in sample_files()]
+    check_outputs([("--out", p) for p in _result_paths(out_dir)], samples, folders=[("--out", out_dir)])
+
+
 def _write_results(results, out_dir: Path) -> None:
-    out_dir.mkdir(parents=True, exist_ok=True)
+    from confirm._files import write_text_atomic
+    from predictors.errors import InputError
+
+    try:
+        out_dir.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise InputError(f"--out: cannot create folder {str(out_dir)!r} ({exc.strerror or exc})") from None
     for name, result in results.items():
         target = out_dir / (Path(name).stem + ".json")
-        fd, tmp = tempfile.mkstemp(dir=out_dir, prefix=".tmp_", suffix=".json")
-        try:
-            with os.fdopen(fd, "w") as handle:
-                json.dump(to_jsonable(result.to_json()), handle, indent=2, allow_nan=False)
-            os.replace(tmp, target)
-        finally:
-            if os.path.exists(tmp):
-                os.unlink(tmp)
+        write_text_atomic(target, json.dumps(to_jsonable(result.to_json()), indent=2, allow_nan=False) + "\n")

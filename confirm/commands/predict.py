@@ -7,7 +7,7 @@ from pathlib import Path
 
 import numpy as np
 
-from confirm._files import atomic_path
+from confirm._files import atomic_path, check_file_targets
 from confirm.commands._common import emit_json, format_table
 from predictors.errors import InputError
 
@@ -54,7 +54,10 @@ def _run(args) -> int:
         raise InputError(f"--field-mhz: expected a frequency between 40 and 1200 MHz, got {field!r}")
     if args.plot is not None and not str(args.plot).lower().endswith(".png"):
         raise InputError(f"--plot: expected a .png file name, got {args.plot!r}")
-    system = predict_spin_system(args.smiles)
+    check_file_targets([("--plot", args.plot)])
+    from confirm.structures import check_smiles
+
+    system = predict_spin_system(check_smiles(args.smiles, name="smiles"))
     if args.plot is not None:
         _write_plot(system, Path(args.plot), field_mhz=field)
     if args.json:

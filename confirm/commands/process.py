@@ -11,8 +11,8 @@ from __future__ import annotations
 from pathlib import Path
 from typing import TYPE_CHECKING
 
-from confirm._files import atomic_path
-from confirm.commands._common import emit_json, format_table
+from confirm._files import atomic_path, check_outputs
+from confirm.commands._common import data_inputs, emit_json, format_table
 from predictors.errors import InputError
 
 if TYPE_CHECKING:
@@ -53,6 +53,7 @@ def _run(args) -> int:
     from confirm.processing import ProcessingOptions, process_measurement
     from confirm.reading import PeakList, read_measurement
 
+    check_outputs([("--out", args.out), ("--plot", args.plot)], data_inputs("PATH", args.path))
     for name in ("out", "plot"):
         value = getattr(args, name)
         if value and Path(value).is_dir():

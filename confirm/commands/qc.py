@@ -8,7 +8,13 @@ from __future__ import annotations
 import argparse
 from pathlib import Path
 
-from confirm.commands._common import emit_json, format_table
+from confirm.commands._common import (
+    add_budget_argument,
+    budget_from_args,
+    data_inputs,
+    emit_json,
+    format_table,
+)
 from confirm.qc import (
     CAUTION,
     audit_record,
@@ -30,6 +36,7 @@ def register(subparsers, parents) -> None:
     parser.add_argument("--spectrum", required=True, type=Path, help="spectrum file or FID folder")
     parser.add_argument("--report", type=Path, metavar="OUT.html", help="write an HTML report")
     parser.add_argument("--audit", type=Path, metavar="AUDIT.json", help="write the audit record (JSON)")
+    add_budget_argument(parser)
     parser.set_defaults(handler=_run)
 
 
@@ -40,14 +47,18 @@ def _analyze(path, **kwargs):
 
 
 def _run(args: argparse.Namespace) -> int:
+    from confirm._files import check_file_targets, check_outputs
+    from confirm.budget import watch_budget
+
+    outputs = [("--report", args.report), ("--audit", args.audit)]
+    check_outputs(outputs, [("--spec", args.spec), *data_inputs("--spectrum", args.spectrum)])
     spec = read_spec(args.spec)
     if not args.spectrum.exists():
         raise FileFormatError(f"--spectrum: {str(args.spectrum)!r} does not exist")
-    for option in ("report", "audit"):
-        target = getattr(args, option)
-        if target is not None and not target.resolve().parent.is_dir():
-            raise FileFormatError(f"--{option}: folder {str(target.parent)!r} does not exist")
-    result, qc = run_qc(spec, args.spectrum, analyze=_analyze)
+    check_file_targets(outputs)
+    budget = budget_from_args(args)
+    with watch_budget(budget):
+        result, qc = run_qc(spec, args.spectrum, analyze=_analyze, budget=budget)
     if args.audit is not None:
         write_json_atomic(audit_record(result, qc), args.audit)
     if args.report is not None:

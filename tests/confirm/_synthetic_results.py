@@ -107,9 +107,11 @@ def build_result(parts: list[Part], *, major: str | None, confidence: str = "hig
         candidate = Candidate(smiles=smiles, pathways=part.pathways, label=label, geometry=part.geometry)
         detected = part.fraction > 3 * part.detection_limit if part.detected is None else part.detected
         system = spin_system_of(smiles)
+        # an undetected component has no mole fraction, only its 95 % upper bound (fraction + 1.96 sd)
         components.append(ComponentFit(
-            candidate=candidate, mole_fraction=part.fraction, mole_fraction_sd=part.sd,
-            detection_limit=part.detection_limit, detected=detected,
+            candidate=candidate, mole_fraction=part.fraction if detected else None,
+            mole_fraction_sd=part.sd if detected else 0.0, detection_limit=part.detection_limit,
+            detected=detected, upper_limit=None if detected else min(1.0, part.fraction + 1.959964 * part.sd),
             refined_shifts_ppm=tuple(s.shift_ppm for s in system.sites),
             evidence=(f"{candidate.label}: multiplet at {system.sites[1].shift_ppm:.2f} ppm observed",)
             if detected else ()))
@@ -129,7 +131,7 @@ def build_result(parts: list[Part], *, major: str | None, confidence: str = "hig
     ratios = ()
     by = {c.candidate.smiles: c for c in components}
     if E_PENTENE in by and Z_PENTENE in by:
-        e, z = by[E_PENTENE].mole_fraction, by[Z_PENTENE].mole_fraction
+        e, z = by[E_PENTENE].share, by[Z_PENTENE].share
         if e + z > 0:
             ratios = (RatioEstimate(name="E:Z pent-2-ene", numerator=E_PENTENE, denominator=Z_PENTENE,
                                     share=e / (e + z), share_sd=0.01),)

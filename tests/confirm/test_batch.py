@@ -25,8 +25,8 @@ from tests.confirm._synthetic_results import (
     PENT_1_ENE,
     SUBSTRATE,
     Z_PENTENE,
+    _axis,
     _unit_curve,
-    pentene_mixture,
     spin_system_of,
 )
 
@@ -40,6 +40,16 @@ max_other_isomer_percent = 2.0
 """
 
 
+def mixture_spectrum(e: float, z: float, terminal: float, substrate: float, *, seed: int = 7,
+                     snr: float = 400.0) -> Spectrum:
+    """The measured spectrum of a pentene mixture: the candidates' model spectra in these amounts
+    plus white noise (SNR of the tallest point)."""
+    amounts = (e, z, terminal, substrate)
+    model = sum(x * _unit_curve(s, 400.0) for s, x in zip(CANDIDATES, amounts, strict=True))
+    noise = np.random.default_rng(seed).normal(0.0, model.max() / snr, model.size)
+    return Spectrum(ppm=_axis(), intensity=model + noise, field_mhz=400.0, solvent="CDCl3")
+
+
 def nnls_analyze(path, *, candidates=None, substrate=None, reagent=None, solvent=None, temp_c=25.0,
                  field_mhz=None):
     """Stand-in analysis: read the file, fit non-negative amounts of the four candidates."""
@@ -49,9 +59,13 @@ def nnls_analyze(path, *, candidates=None, substrate=None, reagent=None, solvent
     amounts, _ = nnls(basis, np.asarray(raw.intensity))
     fractions = amounts / amounts.sum()
     model = basis @ amounts
-    comps = tuple(ComponentFit(candidate=Candidate(smiles=s, pathways=("user",)), mole_fraction=float(x),
-                               mole_fraction_sd=0.002, detection_limit=0.005, detected=bool(x > 0.015))
-                  for s, x in zip(smiles, fractions, strict=True))
+    seen = fractions > 0.015
+    shares = fractions / fractions[seen].sum()  # mole fractions among the detected components
+    comps = tuple(ComponentFit(candidate=Candidate(smiles=s, pathways=("user",)),
+                               mole_fraction=float(x) if d else None, mole_fraction_sd=0.002 if d else 0.0,
+                               detection_limit=0.005, detected=bool(d),
+                               upper_limit=None if d else float(min(1.0, x + 0.01)))
+                  for s, x, d in zip(smiles, shares, seen, strict=True))
     fit = MixtureFit(components=comps, ppm=raw.ppm, model=model, residual=raw.intensity - model,
                      line_width_hz=2.0, quality={"snr": 300.0})
     major = smiles[int(np.argmax(fractions))]
@@ -67,12 +81,12 @@ def _write_spectra(folder, n, *, corrupt_index=None, z_values=None, terminal=0.0
     paths = []
     for k in range(n):
         z = z_values[k] if z_values else 0.01 + 0.01 * k
-        result = pentene_mixture(0.99 - terminal - z, z, terminal, 0.01, seed=k)
+        spectrum = mixture_spectrum(0.99 - terminal - z, z, terminal, 0.01, seed=k)
         path = folder / f"lot{k:02d}.jdx"
         if k == corrupt_index:
             path.write_bytes(b"##TITLE=broken\n##JCAMP-DX=5.01\n##XYDATA=(X++(Y..Y))\n1 2 3\x00\x00")
         else:
-            write_jcamp_spectrum(result.spectrum, path)
+            write_jcamp_spectrum(spectrum, path)
         paths.append(path)
     return paths
 
@@ -120,7 +134,7 @@ def test_rerun_skips_finished_items_unless_forced(tmp_path):
     again = run_batch(items, tmp_path / "out", analyze=nnls_analyze, write_reports=False, progress=False)
     assert again.counts == {"done": 0, "skipped": 2, "error": 1}  # errors are retried, not skipped
     assert [o.major for o in again.outcomes[:2]] == [o.major for o in first.outcomes[:2]]
-    write_jcamp_spectrum(pentene_mixture(0.5, 0.5, 0.0, 0.0).spectrum, paths[1])  # input changed
+    write_jcamp_spectrum(mixture_spectrum(0.5, 0.5, 0.0, 0.0), paths[1])  # input changed
     changed = run_batch(items, tmp_path / "out", analyze=nnls_analyze, write_reports=False, progress=False)
     assert [o.status for o in changed.outcomes] == ["skipped", "done", "error"]
     forced = run_batch(items, tmp_path / "out", force=True, analyze=nnls_analyze, write_reports=False,
@@ -137,7 +151,7 @@ def test_folder_with_a_shared_spec_runs_qc_and_writes_reports(tmp_path, run_cli,
     spec.write_text(SPEC_TEXT)
     monkeypatch.setattr(batch_command, "_analyze", nnls_analyze)
     out = run_cli("batch", folder, "--out", tmp_path / "out", "--spec", spec, "--json")
-    assert out.exit_code == 0, out.stderr
+    assert out.exit_code == 1, out.stderr  # one lot does not pass
     data = json.loads(out.stdout)
     assert data["counts"]["done"] == 2
     assert [i["qc_status"] for i in data["items"]] == ["PASS", "FAIL"]  # 0.5 % and 5 % of Z, limit 2 %
@@ -145,7 +159,8 @@ def test_folder_with_a_shared_spec_runs_qc_and_writes_reports(tmp_path, run_cli,
     assert json.loads((tmp_path / "out" / "lot00" / "audit.json").read_text())["qc"]["status"] == "PASS"
     assert 'href="lot00/report.html"' in (tmp_path / "out" / "index.html").read_text()
     text = run_cli("batch", folder, "--out", tmp_path / "out", "--spec", spec)
-    assert text.exit_code == 0 and "2 skipped" in text.stdout and "decision aid" in text.stdout
+    assert text.exit_code == 1 and "2 skipped" in text.stdout and "decision aid" in text.stdout
+    assert text.stdout.splitlines()[-1] == "Not all items passed: 1 did not pass their QC check (exit 1)."
     assert data["caution"].startswith("This result is a decision aid")
 
 

@@ -345,7 +345,7 @@ def _published_jcamp(mixture, path, *, seed=3, field_mhz=400.0, n_points=32768, 
 
 def _details(result, qc) -> list:
     return [(c.name, c.status, c.measured_text(), c.reason) for c in qc.checks] + [
-        (c.candidate.smiles, round(c.mole_fraction, 3), c.detected) for c in result.fit.components]
+        (c.candidate.smiles, round(c.share, 3), c.upper_limit, c.detected) for c in result.fit.components]
 
 
 def _anethole_lots(tmp_path_factory, snr: float):
