@@ -24,6 +24,7 @@ from collections.abc import Sequence
 import numpy as np
 
 from confirm._parallel import TaskPool
+from confirm.budget import check_budget
 from confirm.fitting.assemble import (
     averaged_fractions,
     component_fits,
@@ -78,6 +79,7 @@ def fit_mixture(
     *,
     noise_sd: float | None = None,
     options: FitOptions | None = None,
+    budget=None,
 ) -> MixtureFit:
     """Fit a processed 1H spectrum as a non-negative mixture of candidate spectra.
 
@@ -92,6 +94,8 @@ def fit_mixture(
     noise_sd : float, optional
         Noise standard deviation of ``spectrum.intensity``; estimated when None.
     options : FitOptions, optional
+    budget : confirm.budget.Budget, optional
+        Time budget, checked between the fit's stages (search, refinement, reading).
 
     Returns
     -------
@@ -119,7 +123,8 @@ def fit_mixture(
     intervals = fit_intervals(models, field, lw)
     # the refinement models the solvent, water and TMS lines instead of masking them (see nuisance)
     nuisances = nuisance_models(spectrum.solvent, intervals) if options.mask_solvent else []
-    fit_masks = [m for m in masks if not _modelled(m[2])] if nuisances else masks
+    modelled = {m.labels[0] for m in nuisances}
+    fit_masks = [m for m in masks if m[2].replace(" 13C satellite", "") not in modelled]
     fit_models = models + nuisances
     factor = bin_factor(spectrum, lw, options.points_per_width)
     grid = build_grid(spectrum, intervals, fit_masks, factor=factor, with_dispersion=options.fit_phase)
@@ -136,6 +141,7 @@ def fit_mixture(
                      blur_hz=_RESWEEP_BLUR_HZ)
     mid_view = (mid, baseline_basis(mid, options.baseline_degree, phase=False),
                 estimate_noise_sd(blur_spectrum(spectrum, _RESWEEP_BLUR_HZ)))
+    check_budget(budget, "fit: search")
     with TaskPool(max_workers=options.n_workers, shared=(models, fit_models)) as pool:
         assignments, swaps = search_assignments(
             coarse, baseline_basis(coarse, options.baseline_degree, phase=False), models,
@@ -143,6 +149,7 @@ def fit_mixture(
             n_random=options.n_random_starts, n_keep=options.n_refined_starts, n_swaps=_N_SWAPS,
             seed=options.seed, pool=pool,
         )
+        check_budget(budget, "fit: refinement")
         task = (grid, basis, mid_view, field, lw / field, noise_bin * corr, options)
         start = [m.shift0.copy() for m in nuisances]
         refined = pool.map(_refine_task, [task + (list(shifts) + start, swaps if i == 0 else None)
@@ -151,6 +158,7 @@ def fit_mixture(
                                                                 fit_masks, factor, options)
     if phase_deg > _MIN_PHASE_DEG:
         notes = list(notes) + [f"a residual phase error of up to {phase_deg:.1f} degrees was measured and corrected"]
+    check_budget(budget, "fit: reading the multiplets")
     # the evidence and the amounts are read on a copy blurred a little (see refine.blurred_view)
     view_grid = build_grid(spectrum, intervals, fit_masks, factor=factor, blur_hz=_READING_BLUR_HZ,
                            with_dispersion=options.fit_phase)
@@ -198,11 +206,6 @@ _RESWEEP_BLUR_HZ = 1.5
 
 #: Near swaps of the best assignment tested with refitted couplings (see :mod:`confirm.fitting.swaps`).
 _N_SWAPS = 3
-
-
-def _modelled(name: str) -> bool:
-    """Masks of lines the refinement models itself (solvent, its 13C satellites, water, TMS)."""
-    return name in ("TMS", "water") or name.startswith("residual solvent")
 
 
 def _refine_task(shared, task):

@@ -33,8 +33,7 @@ _MAIN_LINE_SHARE = 0.3
 _WINDOW_SHARE = 0.02
 #: Noise margin (sd) of the envelope: a line counts as there up to this many sd below expectation.
 _ENVELOPE_MARGIN_SD = 3.0
-#: A multiplet is missing when its envelope is below this share of the amount most of the
-#: candidate's multiplets carry ...
+#: A multiplet is missing when its envelope is below this share of the candidate's amount ...
 _MISSING_SHARE = 0.5
 #: ... provided that amount stands this many sd clear of zero.
 _MISSING_SD = 3.0
@@ -210,47 +209,52 @@ def _envelope(u, d, var, others, window, reach: int, misfit: float) -> float:
 def decide_presence(readings, *, detection_sigma: float, diagnostic) -> Presence:
     """Combine a candidate's multiplet readings into its evidence of presence.
 
+    The multiplets seen on their own (amount above 5 sd, at most half their window filled by
+    others) carry the amount: a multiplet misplaced in a crowded region, or sitting on another
+    component's line, reads something else with a deceptively small sd. Without any such
+    multiplet (a crowded low-field spectrum) every readable multiplet counts. The candidate is
+    present when that amount stands clear of its uncertainty, one of its diagnostic multiplets is
+    seen (or, without a seen one, the combination stands 5 sd clear), and none of its multiplets
+    is missing (an envelope below half the amount).
+
     Parameters
     ----------
     readings : sequence of SiteReading
     detection_sigma : float
     diagnostic : sequence of int
-        Sites that identify the candidate (one of them must be seen on its own).
+        Sites that identify the candidate.
     """
     use = [i for i, r in enumerate(readings) if r.usable and np.isfinite(r.amount_sd) and r.amount_sd > 0]
     if not use:
         return Presence(0.0, np.inf, False, (), (), np.inf)
-    a = np.array([readings[i].amount for i in use])
-    sd = np.array([readings[i].amount_sd for i in use])
-    w = 1.0 / sd**2
-    mean = float(np.sum(w * a) / np.sum(w))
-    plain_sd = float(1.0 / np.sqrt(np.sum(w)))
-    mean_sd = plain_sd
-    if len(use) > 1:  # disagreement beyond the stated uncertainties widens the combined one
-        birge = float(np.sum(w * (a - mean) ** 2) / (len(use) - 1))
-        mean_sd *= np.sqrt(max(1.0, birge))
-    # the amount most multiplets carry (a weighted median: a few multiplets on borrowed lines do
-    # not move it); a multiplet whose lines cannot carry half of it is missing
-    reference = _weighted_median(a, w)
     seen = tuple(i for i in use if readings[i].sigma > max(detection_sigma, SEEN_SIGMA)
                  and readings[i].overlap < _SEEN_OVERLAP)
+    carriers = list(seen) or use
+    mean, mean_sd, plain_sd = _combine([readings[i] for i in carriers])
     missing = ()
-    if reference > _MISSING_SD * plain_sd:
-        missing = tuple(i for i in use if readings[i].envelope < _MISSING_SHARE * reference)
-    present = (
-        mean > detection_sigma * mean_sd
-        and not missing
-        and any(i in seen for i in diagnostic)
-    )
+    if mean > _MISSING_SD * plain_sd:
+        missing = tuple(i for i in use if readings[i].envelope < _MISSING_SHARE * mean)
+    if seen:
+        evidence = any(i in seen for i in diagnostic)
+    else:
+        evidence = mean > SEEN_SIGMA * mean_sd
+    present = mean > detection_sigma * mean_sd and evidence and not missing
+    all_mean, all_sd, _ = _combine([readings[i] for i in use])
+    upper = max(all_mean, 0.0) + Z_UPPER_95 * all_sd
     envelopes = [readings[i].envelope for i in use if np.isfinite(readings[i].envelope)]
-    upper = max(mean, 0.0) + Z_UPPER_95 * mean_sd
     if envelopes:
         upper = min(upper, max(min(envelopes), 0.0))
     return Presence(mean, mean_sd, bool(present), missing, seen, float(upper))
 
 
-def _weighted_median(values: np.ndarray, weights: np.ndarray) -> float:
-    """Value at which the cumulative weight of the sorted values reaches half (ties: fixed order)."""
-    order = np.lexsort((np.arange(values.size), values))
-    cum = np.cumsum(weights[order])
-    return float(values[order][int(np.searchsorted(cum, 0.5 * cum[-1]))])
+def _combine(readings) -> tuple[float, float, float]:
+    """Inverse-variance mean of the readings' amounts, its sd widened when they disagree beyond
+    their uncertainties (Birge ratio), and the plain sd."""
+    a = np.array([r.amount for r in readings])
+    w = 1.0 / np.array([r.amount_sd for r in readings]) ** 2
+    mean = float(np.sum(w * a) / np.sum(w))
+    plain = float(1.0 / np.sqrt(np.sum(w)))
+    if len(readings) < 2:
+        return mean, plain, plain
+    birge = float(np.sum(w * (a - mean) ** 2) / (len(readings) - 1))
+    return mean, plain * float(np.sqrt(max(1.0, birge))), plain

@@ -271,14 +271,9 @@ class _Round:
         return out
 
     def set_scale(self, theta: np.ndarray, noise_sd: float) -> float:
-        """Fix the variance that weighs the data against the priors for this round: the noise, or
-        the misfit per point at ``theta`` when the model is not yet that good."""
-        _, cols = self._draw(theta)
-        lay = self.layout
-        r = (theta[lay.amount_slice] @ cols + self.basis @ theta[lay.base_slice] - self.grid.y)
-        w = self.grid.weight > 0
-        misfit = float(np.mean(r[w] ** 2)) if w.any() else 0.0
-        self.scale = float(np.sqrt(max(noise_sd**2, misfit, 1e-300)))
+        """Fix the noise sd that weighs the data against the priors (the noise itself: weighing
+        them against a large misfit would let the priors hold a poor model where it is)."""
+        self.scale = float(noise_sd)
         return self.scale
 
     def residual(self, theta):

@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 from confirm.verdict import alkene_facts, decide
-from predictors.core import ComponentFit, MixtureFit
+from predictors.core import ComponentFit, MixtureFit, SiteEvidence
 from tests.confirm.published_spectra import (
     ANISYL_BROMIDE,
     E_ANETHOLE,
@@ -21,25 +21,26 @@ from tests.confirm.published_spectra import (
 )
 
 
+def vinyl_evidence(overlap=0.05):
+    """One seen vinyl multiplet, as the fit reports it."""
+    return SiteEvidence(site=0, label="vinyl", n_h=1, ppm=6.0, predicted_ppm=6.0, predicted_sd_ppm=0.1,
+                        amount=0.5, amount_sd=0.01, seen=True, missing=False, shape_match=0.95, overlap=overlap)
+
+
 def make_fit(compounds, fractions, detected, sd=0.01, evidence=None):
     comps = []
     for i, (c, x, d) in enumerate(zip(compounds, fractions, detected, strict=True)):
-        ev = (
-            evidence[i]
-            if evidence
-            else (
-                "vinyl (1H) observed at 6.000 ppm (predicted 6.00 +- 0.10); 40 sigma, shape match 0.95, "
-                "overlap 5%",
-            )
-        )
+        site = evidence[i] if evidence else vinyl_evidence()
         comps.append(
             ComponentFit(
                 candidate=published_candidate(c),
-                mole_fraction=x,
-                mole_fraction_sd=sd,
+                mole_fraction=x if d else None,
+                mole_fraction_sd=sd if d else 0.0,
                 detection_limit=0.01,
                 detected=d,
-                evidence=ev,
+                upper_limit=None if d else 0.02,
+                evidence=("vinyl (1H) observed at 6.000 ppm",),
+                site_evidence=(site,),
             )
         )
     cov = np.diag([sd**2 if d else 0.0 for d in detected])
@@ -113,9 +114,7 @@ def test_trisubstituted_pair_is_undecided_and_names_noe():
 
 
 def test_overlapped_vinyl_signals_leave_e_z_undecided():
-    overlapped = (
-        "vinyl (1H) observed at 6.000 ppm (predicted 6.00 +- 0.10); 40 sigma, shape match 0.95, overlap 80%",
-    )
+    overlapped = vinyl_evidence(overlap=0.8)
     compounds = [E_ANETHOLE, Z_ANETHOLE]
     fit = make_fit(compounds, [0.6, 0.4], [True, True], evidence=[overlapped, overlapped])
     verdict = decide(
@@ -151,18 +150,21 @@ def test_ratio_with_an_undetected_isomer_allows_for_its_upper_bound():
 
     def verdict_with(z_upper):
         comps = (ComponentFit(e, 1.0, 0.0, 0.01, True),
-                 ComponentFit(z, 0.0, 0.0, 0.01, False, upper_limit=z_upper))
+                 ComponentFit(z, None, 0.0, 0.01, False, upper_limit=z_upper))
         fit = MixtureFit(components=comps, ppm=[1.0, 0.0], model=[0.0, 0.0], residual=[0.0, 0.0],
                          line_width_hz=1.0)
         return decide(fit, systems, [e, z])
 
+    # a ratio with a part known only by its bound is a bound, and not decided (issue 13)
     loose = verdict_with(0.30)
     ratio = next(r for r in loose.ratios if r.name == "E:Z")
-    assert not ratio.decided and ratio.share_sd > 0.05
+    assert not ratio.decided and ratio.low == pytest.approx(1 / 1.3) and ratio.high is None
+    assert ratio.ratio_text == ">= 77:23"
+    assert "E:Z >= 77:23, not decided" in loose.summary
     assert "up to 30.0 %" in loose.summary
     tight = verdict_with(0.005)
     ratio = next(r for r in tight.ratios if r.name == "E:Z")
-    assert ratio.decided and ratio.share_sd < 0.01
+    assert not ratio.decided and ratio.ratio_text == ">= 100:0" and ratio.low > 0.99
 
 
 def test_an_almost_as_good_alternative_assignment_is_reported_and_lowers_the_confidence():
