@@ -192,6 +192,49 @@ def _coverage(records) -> tuple[int, int, int, int]:
     return inside, n_det, below, n_und
 
 
+def _family_rows(records) -> list[str]:
+    """Per family: error over present components (ours, by hand) and absent candidates claimed."""
+    rows = [f"{'per family':<18}{'n comp':>7}{'ours med':>10}{'ours max':>10}{'hand med':>10}{'claimed':>9}"]
+    for fam in sorted({r["family"] for r in records}):
+        recs = [r for r in records if r["family"] == fam]
+        ours = [100 * abs(_ours(c) - c["truth"]) for r in recs for c in r["components"] if c["truth"] > 0]
+        hand = [
+            100 * abs(r["by_hand"].get(c["key"], 0.0) - c["truth"])
+            for r in recs
+            for c in r["components"]
+            if c["truth"] > 0
+        ]
+        absent = [c["detected"] for r in recs for c in r["components"] if c["truth"] == 0]
+        rows.append(
+            f"{fam:<18}{len(ours):>7}{_pct(ours, 50):>10}{_pct(ours, 100):>10}{_pct(hand, 50):>10}"
+            f"{f'{sum(absent)}/{len(absent)}':>9}"
+        )
+    return rows
+
+
+def _claim_rows(records) -> list[str]:
+    """Controls and identity cases that went wrong: what was claimed, how sure."""
+    rows = []
+    for r in records:
+        truth = dict(r["truth"])
+        wrong = [c for c in r["components"] if c["detected"] and c["truth"] == 0]
+        if r["kind"] == "control" and wrong:
+            what = ", ".join(f"{c['key'] or c['smiles']} {100 * _ours(c):.0f} %" for c in wrong)
+            rows.append(
+                f"  {r['id']} ({r['field_mhz']:g} MHz, SNR {r['snr']:.0f}): {what}; {r['confidence']}"
+            )
+        if r["kind"] == "identity" and r["major"] is not None and r["major_key"] not in truth:
+            rows.append(
+                f"  {r['id']} ({r['field_mhz']:g} MHz, SNR {r['snr']:.0f}): decoy {r['major']} named major; "
+                f"{r['confidence']}"
+            )
+    return (
+        ["", "wrong claims (controls: detected candidates; identity: decoy named major):", *rows]
+        if rows
+        else []
+    )
+
+
 def summarise(records, *, half: str) -> str:
     """The printed report of one run."""
     ok = [r for r in records if r["error"] is None]
@@ -203,7 +246,7 @@ def summarise(records, *, half: str) -> str:
         f"{len(ctl)} controls ok; {len(records) - len(ok)} errors)"
     ]
     if mix:
-        out += ["", *_error_rows(mix), "", *_detection_rows(mix)]
+        out += ["", *_error_rows(mix), "", *_family_rows(mix), "", *_detection_rows(mix)]
         absent = [(r["id"], c) for r in mix for c in r["components"] if c["truth"] == 0]
         claimed = [(i, c) for i, c in absent if c["detected"]]
         out.append(f"\nabsent candidates claimed in mixtures: {len(claimed)}/{len(absent)}")
@@ -237,6 +280,7 @@ def summarise(records, *, half: str) -> str:
             sub = [r for r in ident if test(r["field_mhz"])]
             t = sum(r["major_key"] in dict(r["truth"]) for r in sub if r["major_key"])
             out.append(f"  {band}: true {t}/{len(sub)}")
+    out += _claim_rows(ok)
     times = [r["time_s"] for r in records]
     if times:
         out.append(
