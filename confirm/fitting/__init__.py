@@ -128,7 +128,7 @@ def fit_mixture(
     fit_models = models + nuisances
     factor = bin_factor(spectrum, lw, options.points_per_width)
     grid = build_grid(spectrum, intervals, fit_masks, factor=factor, with_dispersion=options.fit_phase)
-    noise_bin, corr = _binned_noise(spectrum, factor)
+    noise_bin, corr = _binned_noise(spectrum, factor) if not noise_sd else (noise / np.sqrt(factor), 1.0)
     if np.max(np.abs(grid.y * grid.weight)) < 5 * noise_bin:
         raise FitError("spectrum: no signal above 5x the noise where the candidates have signals")
     basis = baseline_basis(grid, options.baseline_degree, phase=options.fit_phase)

@@ -82,7 +82,7 @@ def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: floa
     everyone = np.ones(len(models), bool)
     amounts_all, base_all, _ = weighted_fit(refined.cols, basis, grid, var, everyone)
     readings = read_sites(grid, refined.per_site, refined.cols, amounts_all, base_all, basis, offsets, n_sites,
-                          var, lw_ppm, noise_sd=noise_sd, model_error=model_error)
+                          lw_ppm, noise_sd=noise_sd, model_error=model_error)
     presence = tuple(
         decide_presence(r, detection_sigma=detection_sigma, diagnostic=diagnostic_sites(m))
         for r, m in zip(readings, models, strict=True)

@@ -133,7 +133,7 @@ def weighted_fit(cols: np.ndarray, basis: np.ndarray, grid, var: np.ndarray, use
     return amounts, base, cov
 
 
-def read_sites(grid, per_site, cols, amounts, base, basis, offsets, n_sites, var, lw_ppm, *,
+def read_sites(grid, per_site, cols, amounts, base, basis, offsets, n_sites, lw_ppm, *,
                noise_sd: float, model_error: float) -> list:
     """Every site of every candidate read on its own (see the module docstring).
 
@@ -147,8 +147,6 @@ def read_sites(grid, per_site, cols, amounts, base, basis, offsets, n_sites, var
         The fit whose other contributions are taken away.
     offsets, n_sites : sequence of int
         First row of each candidate in ``per_site`` and its number of sites.
-    var : ndarray, shape (n,)
-        Variance of each point (:func:`point_variance`): the envelope's margin.
     lw_ppm : float
         Line width: a line counts as there within half a width of its place.
     noise_sd : float
@@ -168,13 +166,12 @@ def read_sites(grid, per_site, cols, amounts, base, basis, offsets, n_sites, var
         for s in range(n):
             u = per_site[o + s]
             own = amounts[k] * u
-            rows.append(_read_one(grid, u, grid.y - (model - own), signal - own, var, reach, noise_sd,
-                                  model_error))
+            rows.append(_read_one(grid, u, grid.y - (model - own), signal - own, reach, noise_sd, model_error))
         out.append(rows)
     return out
 
 
-def _read_one(grid, u, d, others, var, reach: int, noise_sd: float, model_error: float) -> SiteReading:
+def _read_one(grid, u, d, others, reach: int, noise_sd: float, model_error: float) -> SiteReading:
     top = float(u.max()) if u.size else 0.0
     window = (u > _WINDOW_SHARE * top) & (grid.weight > 0) if top > 0 else np.zeros(u.size, bool)
     ppm = float(np.sum(grid.x * u) / np.sum(u)) if top > 0 else float("nan")
@@ -190,11 +187,15 @@ def _read_one(grid, u, d, others, var, reach: int, noise_sd: float, model_error:
     norm = float(np.linalg.norm(uw) * np.linalg.norm(dw))
     shape = float(np.dot(uw, dw) / norm) if norm > 0 else 0.0
     overlap = shared / max(shared + abs(alpha), 1e-300)
-    envelope = _envelope(u, d, var, others, window, reach, misfit)
+    # the margin comes from the noise and the model error of the others, never from the local
+    # misfit: a candidate whose multiplet is absent makes its own window misfit, and that must not
+    # widen the test that finds the absence
+    margin_var = point_variance(noise_sd, others, model_error)
+    envelope = _envelope(u, d, margin_var, window, reach, max(1.0, misfit))
     return SiteReading(ppm, alpha, sd, envelope, shape, overlap, misfit, True)
 
 
-def _envelope(u, d, var, others, window, reach: int, misfit: float) -> float:
+def _envelope(u, d, var, window, reach: int, misfit: float) -> float:
     """Largest amount every main line supports: min over the main lines' points of
     (best nearby data + margin) / line height."""
     main = window & (u >= _MAIN_LINE_SHARE * float(u.max()))
@@ -212,10 +213,10 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic) -> Presence
     The multiplets seen on their own (amount above 5 sd, at most half their window filled by
     others) carry the amount: a multiplet misplaced in a crowded region, or sitting on another
     component's line, reads something else with a deceptively small sd. Without any such
-    multiplet (a crowded low-field spectrum) every readable multiplet counts. The candidate is
-    present when that amount stands clear of its uncertainty, one of its diagnostic multiplets is
-    seen (or, without a seen one, the combination stands 5 sd clear), and none of its multiplets
-    is missing (an envelope below half the amount).
+    multiplet every readable multiplet counts. The candidate is present when that amount stands
+    clear of its uncertainty, one of its diagnostic multiplets is seen (or, when every multiplet is
+    overlapped, as in a crowded low-field spectrum, the combination stands 5 sd clear), and none of
+    its multiplets is missing (an envelope below half the amount).
 
     Parameters
     ----------
@@ -236,8 +237,12 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic) -> Presence
         missing = tuple(i for i in use if readings[i].envelope < _MISSING_SHARE * mean)
     if seen:
         evidence = any(i in seen for i in diagnostic)
-    else:
+    elif all(readings[i].overlap >= _SEEN_OVERLAP for i in use):
+        # every multiplet shares its window with others (a crowded low-field spectrum): nothing
+        # could be seen on its own, so the combination must stand 5 sd clear
         evidence = mean > SEEN_SIGMA * mean_sd
+    else:
+        evidence = False  # a multiplet that stands alone would show the candidate: none does
     present = mean > detection_sigma * mean_sd and evidence and not missing
     all_mean, all_sd, _ = _combine([readings[i] for i in use])
     upper = max(all_mean, 0.0) + Z_UPPER_95 * all_sd

@@ -79,16 +79,15 @@ def _suspect_swaps(grid, basis, models, refined: Refined, noise_sd: float, model
     (a multiplet of the wrong size for its molecule is the mark of a crossed assignment), worst
     first, each with the sites it could exchange places with, those whose exchange brings both
     multiplets closest to their molecules' amounts first."""
-    from confirm.fitting.evidence import point_variance, read_sites
+    from confirm.fitting.evidence import read_sites
 
     lay = refined.layout
     shifts = lay.shifts(refined.theta)
     amounts = refined.amounts
-    var = point_variance(noise_sd, amounts @ refined.cols, model_error)
     offsets = np.cumsum([0] + [m.n_sites for m in models])[:-1]
     base = refined.theta[lay.base_slice]
     readings = read_sites(grid, refined.per_site, refined.cols, amounts, base, basis, offsets,
-                          [m.n_sites for m in models], var, float(np.median(refined.widths_ppm)),
+                          [m.n_sites for m in models], float(np.median(refined.widths_ppm)),
                           noise_sd=noise_sd, model_error=model_error)
     sites = [(k, s) for k, m in enumerate(models) for s in range(m.n_sites)]  # nuisance lines left out below
     a = np.array([readings[k][s].amount for k, s in sites])
