@@ -6,6 +6,7 @@ import numpy as np
 
 from predictors.core import LineList, SpinSystem
 from predictors.errors import InputError
+from predictors.spin._blas import one_blas_thread
 from predictors.spin._checks import _check_arrays, _check_field, _check_options
 from predictors.spin._cluster import _prepare_cluster, _simulate_cluster, _simulate_clusters_reusing
 from predictors.spin._lines import _DROP_FRACTION, _merge_lines, _significant
@@ -91,12 +92,13 @@ def _simulate(shifts_ppm, j_hz, n_protons, field_mhz, max_cluster_spins, cluster
     plan = _plan(nu, j, n, max_spins, ratio)
     total = float(n.sum())
     min_intensity = 1e-3 * _DROP_FRACTION * total
-    if memo is None:
-        clusters = [_prepare_cluster(c, nu, j, n, min_intensity) for c in plan.clusters]
-        parts = [_simulate_cluster(c, [o for o in clusters if o is not c], nu, j, min_intensity)
-                 for c in clusters]
-    else:
-        parts = _simulate_clusters_reusing(plan.clusters, nu, j, n, min_intensity, memo)
+    with one_blas_thread():
+        if memo is None:
+            clusters = [_prepare_cluster(c, nu, j, n, min_intensity) for c in plan.clusters]
+            parts = [_simulate_cluster(c, [o for o in clusters if o is not c], nu, j, min_intensity)
+                     for c in clusters]
+        else:
+            parts = _simulate_clusters_reusing(plan.clusters, nu, j, n, min_intensity, memo)
     freq = np.concatenate([p[0] for p in parts])
     inten = np.concatenate([p[1] for p in parts])
     site = np.concatenate([p[2] for p in parts]).astype(int)
