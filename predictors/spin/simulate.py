@@ -2,15 +2,10 @@
 
 from __future__ import annotations
 
-import numpy as np
-
 from predictors.core import LineList, SpinSystem
 from predictors.errors import InputError
-from predictors.spin._blas import one_blas_thread
 from predictors.spin._checks import _check_arrays, _check_field, _check_options
-from predictors.spin._cluster import _prepare_cluster, _simulate_cluster, _simulate_clusters_reusing
-from predictors.spin._lines import _DROP_FRACTION, _merge_lines, _significant
-from predictors.spin.clusters import _plan
+from predictors.spin._run import run
 
 # Clusters kept by simulate_arrays_reusing before its memo is emptied.
 _MEMO_LIMIT = 4096
@@ -88,27 +83,9 @@ def _simulate(shifts_ppm, j_hz, n_protons, field_mhz, max_cluster_spins, cluster
     field = _check_field(field_mhz)
     shifts, j, n = _check_arrays(shifts_ppm, j_hz, n_protons)
     max_spins, ratio = _check_options(max_cluster_spins, cluster_ratio)
-    nu = shifts * field
-    plan = _plan(nu, j, n, max_spins, ratio)
-    total = float(n.sum())
-    min_intensity = 1e-3 * _DROP_FRACTION * total
-    with one_blas_thread():
-        if memo is None:
-            clusters = [_prepare_cluster(c, nu, j, n, min_intensity) for c in plan.clusters]
-            parts = [_simulate_cluster(c, [o for o in clusters if o is not c], nu, j, min_intensity)
-                     for c in clusters]
-        else:
-            parts = _simulate_clusters_reusing(plan.clusters, nu, j, n, min_intensity, memo)
-    freq = np.concatenate([p[0] for p in parts])
-    inten = np.concatenate([p[1] for p in parts])
-    site = np.concatenate([p[2] for p in parts]).astype(int)
-    freq, inten, site = _merge_lines(freq, inten, site)
-    keep = _significant(inten, total)
-    freq, inten, site = freq[keep], inten[keep], site[keep]
-    inten = inten * (total / inten.sum())
-    order = np.argsort(-freq, kind="stable")  # fast: the merged lines are nearly in this order
-    return LineList(ppm=freq[order] / field, intensity=inten[order], field_mhz=field,
-                    site_index=site[order], warnings=plan.warnings)
+    result = run(shifts * field, j, n, max_spins, ratio, memo=memo)
+    return LineList(ppm=result.freq / field, intensity=result.inten, field_mhz=field,
+                    site_index=result.site, warnings=result.plan.warnings)
 
 
 def simulate_lines(system: SpinSystem, *, field_mhz: float, **options) -> LineList:

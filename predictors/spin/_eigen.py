@@ -1,0 +1,344 @@
+"""Eigenstates of one composite-spin subsystem and the lines between them, batched over neighbour states.
+
+Besides frequency and intensity, every line carries the change (upper minus lower
+eigenstate) of a few expectation values: ``<Fz_g>`` of every cluster site (which
+site the line belongs to, and by Hellmann-Feynman its derivative with respect
+to the site's frequency), and on request ``<Fz_g^2>``, ``<Fz_g Fz_h>`` and
+``<F+_g F-_h + F-_g F+_h>`` of chosen site pairs (derivatives with respect to
+the couplings and the neighbour terms). Eigenstates of one block closer than
+``_DEGENERATE_HZ`` are degenerate: there the eigenvectors are any basis of the
+subspace, so lines touching them get the change of the intensity-weighted
+centroid of all lines between the two subspaces, which does not depend on the
+basis (first-order degenerate perturbation theory).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from predictors.spin._basis import _Block, _Subsystem
+
+#: Blocks whose work (states**3 x neighbour states) reaches this are diagonalised on two
+#: threads (LAPACK releases the GIL); smaller work is not worth a thread.
+_THREADED_BLOCK_WORK = 2_000_000
+#: Eigenvalues of one block closer than this (Hz, scaled by 1 + |E| / 1 kHz) are one degenerate level.
+_DEGENERATE_HZ = 1e-7
+#: Elements (neighbour states x flip-flop elements x block size) gathered at once.
+_GATHER_ELEMENTS = 4_000_000
+
+
+@dataclass(frozen=True)
+class _States:
+    """Spin states of the neighbours of a cluster as seen by the cluster's k sites.
+
+    Each row is one combination of neighbour eigenstates with its weight.
+    ``lin`` moves the shifts (first order plus the second-order Bloch-Siegert
+    type term), ``quad`` multiplies ``Fz_g**2``, ``scale`` multiplies each
+    site's share of the lowering operator (intensity correction), ``dj`` adds
+    to the flip-flop couplings inside the cluster (k x k).
+    """
+
+    lin: np.ndarray
+    quad: np.ndarray
+    scale: np.ndarray
+    dj: np.ndarray
+    weight: np.ndarray
+
+    def rows(self, sl: slice) -> _States:
+        return _States(self.lin[sl], self.quad[sl], self.scale[sl], self.dj[sl], self.weight[sl])
+
+
+def _isolated_states(k: int) -> _States:
+    return _States(np.zeros((1, k)), np.zeros((1, k)), np.ones((1, k)), np.zeros((1, k, k)), np.ones(1))
+
+
+@dataclass(frozen=True)
+class _Observe:
+    """Expectation values measured in every eigenstate besides ``<Fz_g>`` of the k cluster sites.
+
+    ``zz`` and ``xx`` hold cluster-local site pairs as positions in
+    ``np.triu_indices(k, 1)`` order. Columns come in the order
+    ``Fz (k) | Fz^2 (k, if fz2) | Fz Fz (len zz) | F+F- + F-F+ (len xx)``.
+    """
+
+    k: int
+    fz2: bool = False
+    zz: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=int))
+    xx: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=int))
+    degenerate: bool = False   # centroid changes for degenerate levels (derivatives only)
+
+    @property
+    def width(self) -> int:
+        return self.k * (2 if self.fz2 else 1) + len(self.zz) + len(self.xx)
+
+
+def _pair_index(a, b, k):
+    """Position of site pairs (a < b) in ``np.triu_indices(k, 1)`` order."""
+    return (a * (2 * k - a - 1)) // 2 + (b - a - 1)
+
+
+def _diagonalise_batch(block: _Block, nu, quad, j_pairs, dj_pairs):
+    """Eigenvalues (S, n) and vectors (S, n, n) of one block for S neighbour states."""
+    n_batch, n_states = nu.shape[0], block.m.shape[0]
+    diag = nu @ block.m.T + (block.mm @ j_pairs)[None, :] + quad @ (block.m**2).T
+    if n_states == 1:
+        return diag, np.ones((n_batch, 1, 1))
+    h = np.zeros((n_batch, n_states, n_states))
+    idx = np.arange(n_states)
+    h[:, idx, idx] = diag
+    if block.rows.size:
+        vals = 0.5 * (j_pairs[block.pair][None, :] + dj_pairs[:, block.pair]) * block.coef[None, :]
+        h[:, block.rows, block.cols] = vals
+        h[:, block.cols, block.rows] = vals
+    return np.linalg.eigh(h)
+
+
+def _diagonalise_blocks(blocks, nu, quad, j_pairs, dj_pairs):
+    """Eigen-decomposition of every Fz block; the large ones on two threads."""
+    work = [b.m.shape[0] ** 3 * nu.shape[0] for b in blocks]
+    big = [i for i, w in enumerate(work) if w >= _THREADED_BLOCK_WORK]
+    if len(big) < 2:
+        return [_diagonalise_batch(b, nu, quad, j_pairs, dj_pairs) for b in blocks]
+    from concurrent.futures import ThreadPoolExecutor
+
+    out = [None] * len(blocks)
+    with ThreadPoolExecutor(max_workers=2) as pool:
+        futures = {i: pool.submit(_diagonalise_batch, blocks[i], nu, quad, j_pairs, dj_pairs) for i in big}
+        for i, b in enumerate(blocks):
+            if i not in futures:
+                out[i] = _diagonalise_batch(b, nu, quad, j_pairs, dj_pairs)
+        for i, fut in futures.items():
+            out[i] = fut.result()
+    return out
+
+
+@dataclass(frozen=True)
+class _Measure:
+    """How one subsystem measures the requested expectation values (composite-spin indices)."""
+
+    diag: list          # per block: (n, n_diag) values of the diagonal observables in the m basis
+    xx_pairs: np.ndarray    # composite pair of each requested flip-flop column (-1: not in this subsystem)
+    xx_cols: np.ndarray     # output column of each
+
+
+def _measure(sub: _Subsystem, observe: _Observe) -> _Measure:
+    k = observe.k
+    to_sites = np.zeros((len(sub.sites), k))
+    to_sites[np.arange(len(sub.sites)), sub.sites] = 1.0
+    comp = np.full(k * (k - 1) // 2, -1)
+    if len(sub.pairs):
+        where = _pair_index(sub.sites[sub.pairs[:, 0]], sub.sites[sub.pairs[:, 1]], k)
+        comp[where] = np.arange(len(sub.pairs))
+    zz_comp = comp[observe.zz]
+    diag = []
+    for b in sub.blocks:
+        cols = [b.m @ to_sites]
+        if observe.fz2:
+            cols.append(np.square(b.m) @ to_sites)
+        if len(observe.zz):
+            zz = np.zeros((b.m.shape[0], len(observe.zz)))
+            have = zz_comp >= 0
+            zz[:, have] = b.mm[:, zz_comp[have]]
+            cols.append(zz)
+        diag.append(np.hstack(cols))
+    xx_comp = comp[observe.xx]
+    first = observe.width - len(observe.xx)
+    return _Measure(diag, xx_comp, first + np.arange(len(observe.xx)))
+
+
+def _flip_flop_expectations(block: _Block, vecs: np.ndarray, comps: np.ndarray) -> np.ndarray:
+    """<F+_g F-_h + F-_g F+_h> of the composite pairs ``comps`` in every eigenstate, (S, n, len(comps)).
+
+    Pairs absent from the subsystem (``comps < 0``) give 0. Only the elements of
+    the requested pairs are gathered, in chunks of neighbour states.
+    """
+    n_batch, n = vecs.shape[0], vecs.shape[2]
+    out = np.zeros((n_batch, n, len(comps)))
+    if not block.rows.size or not np.any(comps >= 0):
+        return out
+    wanted = np.zeros(int(block.pair.max()) + 1, dtype=bool)
+    wanted[comps[(comps >= 0) & (comps <= block.pair.max())]] = True
+    sel = np.flatnonzero(wanted[block.pair])
+    if not sel.size:
+        return out
+    rows, cols, pair = block.rows[sel], block.cols[sel], block.pair[sel]
+    coef = 2.0 * block.coef[sel]
+    starts = np.flatnonzero(np.diff(pair, prepend=-1))
+    where = {int(p): i for i, p in enumerate(pair[starts])}
+    col_of = np.array([where.get(int(c), -1) for c in comps])
+    step = max(1, _GATHER_ELEMENTS // max(1, sel.size * n))
+    for s0 in range(0, n_batch, step):
+        v = vecs[s0:s0 + step]
+        prod = np.take(v, rows, axis=1) * np.take(v, cols, axis=1)
+        prod *= coef[None, :, None]
+        sums = np.add.reduceat(prod, starts, axis=1)   # (s, n_present_pairs, n)
+        have = col_of >= 0
+        out[s0:s0 + step][:, :, have] = np.swapaxes(sums[:, col_of[have], :], 1, 2)
+    return out
+
+
+def _state_values(block: _Block, vecs: np.ndarray, diag: np.ndarray, measure: _Measure, width: int):
+    """Requested expectation values of every eigenstate, (S, n, width)."""
+    weights = np.swapaxes(np.square(vecs), 1, 2)
+    if diag.shape[1] == width:
+        return weights @ diag
+    out = np.empty((vecs.shape[0], vecs.shape[2], width))
+    out[:, :, :diag.shape[1]] = weights @ diag
+    out[:, :, diag.shape[1]:] = _flip_flop_expectations(block, vecs, measure.xx_pairs)
+    return out
+
+
+def _subsystem_lines(sub: _Subsystem, nu_local, j_local, states: _States, min_intensity,
+                     observe: _Observe, keep_states: bool = False):
+    """Lines of one composite-spin subsystem for every neighbour state (batched).
+
+    Returns
+    -------
+    freq, inten : ndarray (L,)
+        Frequencies (Hz) and intensities times the state and subsystem weights (not normalised).
+    state : ndarray of int (L,)
+        Neighbour state (row of ``states``) of each line.
+    change : ndarray (L, observe.width)
+        Upper minus lower expectation values; the first k columns are the changes of ``<Fz>``.
+    values : ndarray (n_eigenstates, observe.width) or None
+        With ``keep_states``: the expectation values of every eigenstate of the first neighbour
+        state, blocks in order.
+    """
+    g_first, g_second = sub.sites[sub.pairs[:, 0]], sub.sites[sub.pairs[:, 1]]
+    nu = nu_local[None, sub.sites] + states.lin[:, sub.sites]
+    quad = states.quad[:, sub.sites]
+    j_pairs = j_local[g_first, g_second]
+    dj_pairs = states.dj[:, g_first, g_second]
+    eig = _diagonalise_blocks(sub.blocks, nu, quad, j_pairs, dj_pairs)
+    measure = _measure(sub, observe)
+    width = observe.width
+    values = [_state_values(b, v, d, measure, width).reshape(-1, width)
+              for (_, v), b, d in zip(eig, sub.blocks, measure.diag, strict=True)]
+    scale = states.scale[:, sub.sites]
+    isolated = len(states.weight) == 1 and np.all(scale == 1.0)
+    weight = sub.weight * states.weight
+    freqs, intens, index, fixes = [], [], [], []
+    for b, op in enumerate(sub.lowering):
+        (e_up, v_up), (e_lo, v_lo) = eig[b], eig[b + 1]
+        n_lo, n_up = op.shape[1:]
+        if isolated:
+            amp = (v_lo[0].T @ (sub.lowering_sum[b] @ v_up[0]))[None]
+        else:
+            lower = (scale @ op.reshape(op.shape[0], -1)).reshape(-1, n_lo, n_up)
+            amp = np.swapaxes(v_lo, 1, 2) @ (lower @ v_up)
+        if observe.degenerate:
+            fixes.append(_degenerate_levels(b, eig, sub, amp, measure, width))
+        inten = np.square(amp, out=amp)
+        inten *= weight[:, None, None]
+        allowed = inten > min_intensity
+        s, lo, up = np.nonzero(allowed)
+        up_index, lo_index = s * n_up + up, s * n_lo + lo
+        freqs.append(np.take(e_up, up_index) - np.take(e_lo, lo_index))
+        intens.append(inten[allowed])
+        index.append((s, up_index, lo_index))
+    n_lines = sum(len(f) for f in freqs)
+    change = np.empty((n_lines, width))
+    state = np.empty(n_lines, dtype=int)
+    start = 0
+    for b, (s, up_index, lo_index) in enumerate(index):  # written in place: no per-pair copies
+        part = change[start:start + len(up_index)]
+        np.take(values[b], up_index, axis=0, out=part)
+        part -= np.take(values[b + 1], lo_index, axis=0)
+        if fixes and fixes[b] is not None:
+            n_up, n_lo = sub.lowering[b].shape[2], sub.lowering[b].shape[1]
+            _apply_degenerate(part, fixes[b], up_index, lo_index, values[b], values[b + 1], n_up, n_lo)
+        state[start:start + len(up_index)] = s
+        start += len(up_index)
+    freq = np.concatenate(freqs) if freqs else np.zeros(0)
+    inten = np.concatenate(intens) if intens else np.zeros(0)
+    kept = None
+    if keep_states:
+        kept = np.concatenate([v[:b.m.shape[0]] for v, b in zip(values, sub.blocks, strict=True)])
+    return freq, inten, state, change, kept
+
+
+# ---------------------------------------------------------------------------
+# degenerate levels
+
+
+def _degenerate(energies: np.ndarray) -> np.ndarray:
+    """Mask (S, n - 1): eigenvalue i + 1 of a block is degenerate with eigenvalue i (ascending)."""
+    tol = _DEGENERATE_HZ * (1.0 + np.abs(energies[:, 1:]) / 1e3)
+    return np.diff(energies, axis=1) <= tol
+
+
+def _levels(same: np.ndarray) -> np.ndarray:
+    """Level number of every eigenvalue of one block from its degeneracy mask (n - 1,)."""
+    return np.concatenate(([0], np.cumsum(~same)))
+
+
+def _operator_in(vecs, idx, block: _Block, measure: _Measure, diag: np.ndarray, width: int):
+    """Matrices of the requested observables inside a degenerate subspace, (width, d, d)."""
+    v = vecs[:, idx]
+    out = np.zeros((width, len(idx), len(idx)))
+    out[:diag.shape[1]] = np.einsum("ia,ic,ib->cab", v, diag, v)
+    for c, comp in zip(measure.xx_cols, measure.xx_pairs, strict=True):
+        if comp >= 0:
+            sel = block.pair == comp
+            half = np.einsum("ia,i,ib->ab", v[block.rows[sel]], block.coef[sel], v[block.cols[sel]])
+            out[c] = half + half.T
+    return out
+
+
+def _level_matrices(same, vecs, block, measure, diag, width):
+    """{level: (eigenstate indices, observable matrices)} of the degenerate levels of one block."""
+    levels = _levels(same)
+    out = {}
+    for lev in np.flatnonzero(np.bincount(levels) > 1):
+        idx = np.flatnonzero(levels == lev)
+        out[int(lev)] = (idx, _operator_in(vecs, idx, block, measure, diag, width))
+    return levels, out
+
+
+def _degenerate_levels(b, eig, sub: _Subsystem, amp, measure: _Measure, width: int):
+    """What lines between degenerate levels of blocks b and b+1 need, per neighbour state, or None.
+
+    For levels U (upper) and L (lower) with amplitudes C = <L|F-|U>, the
+    intensity-weighted mean change of an observable A over all lines U -> L is
+    ``(tr(C^T C A_U) - tr(C C^T A_L)) / |C|^2``, whatever basis eigh chose.
+    """
+    (e_up, v_up), (e_lo, v_lo) = eig[b], eig[b + 1]
+    same_up, same_lo = _degenerate(e_up), _degenerate(e_lo)
+    hit = np.flatnonzero(same_up.any(axis=1) | same_lo.any(axis=1))
+    if not hit.size:
+        return None
+    fixes = []
+    for s in hit:
+        lev_up, mats_up = _level_matrices(same_up[s], v_up[s], sub.blocks[b], measure, measure.diag[b], width)
+        lev_lo, mats_lo = _level_matrices(same_lo[s], v_lo[s], sub.blocks[b + 1], measure,
+                                          measure.diag[b + 1], width)
+        fixes.append((int(s), lev_up, lev_lo, mats_up, mats_lo, amp[s].copy()))
+    return fixes
+
+
+def _apply_degenerate(change, fixes, up_index, lo_index, values_up, values_lo, n_up, n_lo):
+    """Give every line that starts or ends on a degenerate level the change of its group's centroid."""
+    for s, lev_up, lev_lo, mats_up, mats_lo, amp in fixes:
+        rows = np.flatnonzero(up_index // n_up == s)
+        up, lo = up_index[rows] - s * n_up, lo_index[rows] - s * n_lo
+        lu, ll = lev_up[up], lev_lo[lo]
+        touched = np.isin(lu, list(mats_up)) | np.isin(ll, list(mats_lo))
+        groups = {}
+        for r, a, c in zip(rows[touched], lu[touched], ll[touched], strict=True):
+            groups.setdefault((int(a), int(c)), []).append(r)
+        for (a, c), members in groups.items():
+            first = members[0]
+            i_up, m_up = mats_up.get(a, (np.array([up_index[first] - s * n_up]), None))
+            i_lo, m_lo = mats_lo.get(c, (np.array([lo_index[first] - s * n_lo]), None))
+            if m_up is None:
+                m_up = values_up[up_index[first]][:, None, None]
+            if m_lo is None:
+                m_lo = values_lo[lo_index[first]][:, None, None]
+            amp_ul = amp[np.ix_(i_lo, i_up)]
+            total = float(np.sum(amp_ul * amp_ul))
+            if total > 0.0:
+                centroid = (np.einsum("ab,cab->c", amp_ul.T @ amp_ul, m_up)
+                            - np.einsum("ab,cab->c", amp_ul @ amp_ul.T, m_lo)) / total
+                change[members] = centroid
