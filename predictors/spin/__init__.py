@@ -32,12 +32,19 @@ from __future__ import annotations
 from predictors.spin._checks import FIELD_RANGE_MHZ
 from predictors.spin.clusters import ClusterPlan, plan_clusters
 from predictors.spin.render import LINE_SHAPES, model_spectrum, render_lines, render_sites
-from predictors.spin.simulate import simulate_arrays, simulate_arrays_reusing, simulate_lines
+from predictors.spin.simulate import (
+    LineDerivatives,
+    simulate_arrays,
+    simulate_arrays_reusing,
+    simulate_lines,
+    simulate_with_derivatives,
+)
 
 __all__ = [
     "FIELD_RANGE_MHZ",
     "ClusterPlan",
     "LINE_SHAPES",
+    "LineDerivatives",
     "model_spectrum",
     "plan_clusters",
     "render_lines",
@@ -45,4 +52,5 @@ __all__ = [
     "simulate_arrays",
     "simulate_arrays_reusing",
     "simulate_lines",
+    "simulate_with_derivatives",
 ]

@@ -89,9 +89,12 @@ def export_pairs(local, j, requested) -> np.ndarray:
     return np.flatnonzero(both.any(axis=1)) if both.size else np.zeros(0, dtype=int)
 
 
-def prepare_cluster(sites, nu, j, n, min_intensity, *, cost: float, exports: np.ndarray,
+def prepare_cluster(sites, nu, j, n, min_intensity, *, cost: float, exports: tuple,
                     request: _Request | None) -> _Cluster:
-    """Diagonalise a cluster on its own: its lines and, when coupled outside, its eigenstates."""
+    """Diagonalise a cluster on its own: its lines and, when coupled outside, its eigenstates.
+
+    ``exports`` = (flip-flop pairs the neighbours' lines need, pairs only their derivatives need).
+    """
     local = np.array(sites)
     k = len(local)
     outside = np.setdiff1d(np.arange(len(n)), local)
@@ -99,7 +102,7 @@ def prepare_cluster(sites, nu, j, n, min_intensity, *, cost: float, exports: np.
     subsystems = _build_cluster(n[local])
     sizes = [b.m.shape[0] for s in subsystems for b in s.blocks] or [1]
     in_pairs = request.pairs if request is not None else np.zeros(0, dtype=int)
-    xx = np.union1d(in_pairs, exports if want_states else np.zeros(0, dtype=int)).astype(int)
+    xx = np.union1d(in_pairs, np.concatenate(exports) if want_states else np.zeros(0, dtype=int)).astype(int)
     observe = _Observe(k, fz2=want_states, zz=in_pairs, xx=xx, degenerate=request is not None)
     n_total = int(n[local].sum())
     scale = 2.0 ** (n_total - 1)
@@ -117,10 +120,15 @@ def prepare_cluster(sites, nu, j, n, min_intensity, *, cost: float, exports: np.
 
 
 def _exported_states(parts, subsystems, observe: _Observe, exports, k, n_total):
-    """Rows (<Fz> | I(I+1) - <Fz^2> | flip-flops in triu order) of every eigenstate, grouped."""
+    """Rows (<Fz> | I(I+1) - <Fz^2> | flip-flops in triu order) of every eigenstate, grouped.
+
+    ``exports`` = (pairs whose flip-flops move the neighbours' lines, pairs needed only for
+    derivatives); states are grouped by the first kind only, so the lines do not depend on
+    whether derivatives are asked for, and the second kind is averaged within each group.
+    """
+    base, extra = exports
     n_pairs = k * (k - 1) // 2
-    rows = [np.zeros((1, 2 * k + n_pairs))]
-    weights = []
+    rows, more, weights = [np.zeros((1, 2 * k + n_pairs))], [np.zeros((1, len(extra)))], []
     xx_col = {int(p): i for i, p in enumerate(observe.xx)}
     first_xx = observe.width - len(observe.xx)
     for p, sub in zip(parts, subsystems, strict=True):
@@ -130,12 +138,14 @@ def _exported_states(parts, subsystems, observe: _Observe, exports, k, n_total):
         block = np.zeros((len(values), 2 * k + n_pairs))
         block[:, :k] = values[:, :k]
         block[:, k:2 * k] = np.where(spin_sq > 0, spin_sq[None, :] - values[:, k:2 * k], 0.0)
-        for pos in exports:
+        for pos in base:
             block[:, 2 * k + pos] = values[:, first_xx + xx_col[int(pos)]]
         rows.append(block)
+        more.append(values[:, [first_xx + xx_col[int(pos)] for pos in extra]])
         weights.append(np.full(len(values), sub.weight / 2.0**n_total))
     rest = max(1.0 - sum(w.sum() for w in weights), 0.0)
-    zq, w, _ = group_rows(np.concatenate(rows), np.concatenate([[rest], *weights]))
+    zq, w, added = group_rows(np.concatenate(rows), np.concatenate([[rest], *weights]), np.concatenate(more))
+    zq[:, 2 * k + extra] = added
     return zq, w
 
 

@@ -119,7 +119,8 @@ def _cluster_key(red: _Reduced, sites, want_states, exports, request, min_intens
     req = None if request is None else (request.pairs.tobytes(), request.params.sites.tobytes(),
                                         request.params.pairs.tobytes(), request.params.pair_out.tobytes())
     return ("prepared", tuple(sites), red.nu[local].tobytes(), red.j[np.ix_(local, local)].tobytes(),
-            red.n[local].tobytes(), want_states, exports.tobytes(), min_intensity, cost, req)
+            red.n[local].tobytes(), want_states, exports[0].tobytes(), exports[1].tobytes(), min_intensity,
+            cost, req)
 
 
 def _simulate_all(red: _Reduced, min_intensity, memo: dict | None, want, derivs: bool):
@@ -134,7 +135,11 @@ def _simulate_all(red: _Reduced, min_intensity, memo: dict | None, want, derivs:
     for i, (local, cost) in enumerate(zip(sites, red.costs, strict=True)):
         outside = np.setdiff1d(np.arange(len(n)), local)
         want_states = bool(np.any(j[np.ix_(local, outside)]))
-        exports = export_pairs(local, j, requested) if want_states else np.zeros(0, dtype=int)
+        none = np.zeros(0, dtype=int)
+        exports = (none, none)
+        if want_states:
+            base = export_pairs(local, j, np.zeros_like(requested))
+            exports = (base, np.setdiff1d(export_pairs(local, j, requested), base))
         request = None
         if derivs:
             request = request_for(local, [s for i2, s in enumerate(sites) if i2 != i], j, want)
