@@ -103,7 +103,7 @@ def prepare_cluster(sites, nu, j, n, min_intensity, *, cost: float, exports: tup
     sizes = [b.m.shape[0] for s in subsystems for b in s.blocks] or [1]
     in_pairs = request.pairs if request is not None else np.zeros(0, dtype=int)
     xx = np.union1d(in_pairs, np.concatenate(exports) if want_states else np.zeros(0, dtype=int)).astype(int)
-    observe = _Observe(k, fz2=want_states, zz=in_pairs, xx=xx, degenerate=request is not None)
+    observe = _Observe(k, fz2=want_states, zz=in_pairs, xx=xx)
     n_total = int(n[local].sum())
     scale = 2.0 ** (n_total - 1)
     states = _isolated_states(k)
@@ -192,7 +192,7 @@ def _exact_lines(cluster: _Cluster, nu, j, rows, weights, drows, min_intensity, 
     if request is not None:
         dj_used = np.flatnonzero(np.any(drows[:, 3 * k:, :] != 0, axis=(0, 2)))
     xx = np.union1d(in_pairs, dj_used).astype(int)
-    observe = _Observe(k, fz2=request is not None, zz=in_pairs, xx=xx, degenerate=request is not None)
+    observe = _Observe(k, fz2=request is not None, zz=in_pairs, xx=xx)
     scale = 2.0 ** (cluster.n_protons - 1)
     chunk = max(1, _BATCH_ELEMENTS // cluster.largest_block**2)
     nu_local, j_local = nu[local], j[np.ix_(local, local)]

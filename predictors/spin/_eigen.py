@@ -9,7 +9,9 @@ the couplings and the neighbour terms). Eigenstates of one block closer than
 ``_DEGENERATE_HZ`` are degenerate: there the eigenvectors are any basis of the
 subspace, so lines touching them get the change of the intensity-weighted
 centroid of all lines between the two subspaces, which does not depend on the
-basis (first-order degenerate perturbation theory).
+basis (first-order degenerate perturbation theory); the change of ``<Fz>``
+also decides which site a line belongs to, so this keeps that choice, and the
+merging of such lines, independent of the basis.
 """
 
 from __future__ import annotations
@@ -67,7 +69,6 @@ class _Observe:
     fz2: bool = False
     zz: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=int))
     xx: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=int))
-    degenerate: bool = False   # centroid changes for degenerate levels (derivatives only)
 
     @property
     def width(self) -> int:
@@ -219,6 +220,8 @@ def _subsystem_lines(sub: _Subsystem, nu_local, j_local, states: _States, min_in
     scale = states.scale[:, sub.sites]
     isolated = len(states.weight) == 1 and np.all(scale == 1.0)
     weight = sub.weight * states.weight
+    same = [_degenerate(e) for e, _ in eig]
+    hit = [bool(m.any()) for m in same]
     freqs, intens, index, fixes = [], [], [], []
     for b, op in enumerate(sub.lowering):
         (e_up, v_up), (e_lo, v_lo) = eig[b], eig[b + 1]
@@ -228,8 +231,8 @@ def _subsystem_lines(sub: _Subsystem, nu_local, j_local, states: _States, min_in
         else:
             lower = (scale @ op.reshape(op.shape[0], -1)).reshape(-1, n_lo, n_up)
             amp = np.swapaxes(v_lo, 1, 2) @ (lower @ v_up)
-        if observe.degenerate:
-            fixes.append(_degenerate_levels(b, eig, sub, amp, measure, width))
+        fixes.append(_degenerate_levels(b, eig, same, sub, amp, measure, width) if hit[b] or hit[b + 1]
+                     else None)
         inten = np.square(amp, out=amp)
         inten *= weight[:, None, None]
         allowed = inten > min_intensity
@@ -246,7 +249,7 @@ def _subsystem_lines(sub: _Subsystem, nu_local, j_local, states: _States, min_in
         part = change[start:start + len(up_index)]
         np.take(values[b], up_index, axis=0, out=part)
         part -= np.take(values[b + 1], lo_index, axis=0)
-        if fixes and fixes[b] is not None:
+        if fixes[b] is not None:
             n_up, n_lo = sub.lowering[b].shape[2], sub.lowering[b].shape[1]
             _apply_degenerate(part, fixes[b], up_index, lo_index, values[b], values[b + 1], n_up, n_lo)
         state[start:start + len(up_index)] = s
@@ -297,15 +300,15 @@ def _level_matrices(same, vecs, block, measure, diag, width):
     return levels, out
 
 
-def _degenerate_levels(b, eig, sub: _Subsystem, amp, measure: _Measure, width: int):
+def _degenerate_levels(b, eig, same, sub: _Subsystem, amp, measure: _Measure, width: int):
     """What lines between degenerate levels of blocks b and b+1 need, per neighbour state, or None.
 
     For levels U (upper) and L (lower) with amplitudes C = <L|F-|U>, the
     intensity-weighted mean change of an observable A over all lines U -> L is
     ``(tr(C^T C A_U) - tr(C C^T A_L)) / |C|^2``, whatever basis eigh chose.
     """
-    (e_up, v_up), (e_lo, v_lo) = eig[b], eig[b + 1]
-    same_up, same_lo = _degenerate(e_up), _degenerate(e_lo)
+    v_up, v_lo = eig[b][1], eig[b + 1][1]
+    same_up, same_lo = same[b], same[b + 1]
     hit = np.flatnonzero(same_up.any(axis=1) | same_lo.any(axis=1))
     if not hit.size:
         return None
