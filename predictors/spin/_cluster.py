@@ -54,7 +54,7 @@ class _Cluster:
     subsystems: tuple              # composite-spin subsystems
     n_protons: int
     largest_block: int
-    cost: float                    # cost that decides the neighbour treatment (sum of block sizes cubed)
+    cost: float                    # sum of block sizes cubed (decides the neighbour treatment)
     zq: np.ndarray | None          # isolated eigenstates: <Fz>, I(I+1) - <Fz^2>, flip-flops per site (pair)
     weight: np.ndarray | None      # state weights, sum 1
     lines: _Lines                  # isolated lines, derivatives by the cluster's own sites and pairs
@@ -89,7 +89,7 @@ def export_pairs(local, j, requested) -> np.ndarray:
     return np.flatnonzero(both.any(axis=1)) if both.size else np.zeros(0, dtype=int)
 
 
-def prepare_cluster(sites, nu, j, n, min_intensity, *, cost: float, exports: tuple,
+def prepare_cluster(sites, nu, j, n, min_intensity, *, exports: tuple,
                     request: _Request | None) -> _Cluster:
     """Diagonalise a cluster on its own: its lines and, when coupled outside, its eigenstates.
 
@@ -116,6 +116,7 @@ def prepare_cluster(sites, nu, j, n, min_intensity, *, cost: float, exports: tup
     zq = weight = None
     if want_states:
         zq, weight = _exported_states(parts, subsystems, observe, exports, k, n_total)
+    cost = float(np.sum(np.power(sizes, 3.0)))
     return _Cluster(local, subsystems, n_total, max(sizes), cost, zq, weight, lines)
 
 
@@ -150,17 +151,18 @@ def _exported_states(parts, subsystems, observe: _Observe, exports, k, n_total):
 
 
 def _explicit(change, observe: _Observe, request: _Request, k):
-    """Derivatives by the cluster's own shifts and couplings: d nu_line / d nu_g = delta <Fz_g>,
-    d nu_line / d J_gh = delta <Fz_g Fz_h> + delta <F+_g F-_h + F-_g F+_h> / 2 (Hellmann-Feynman)."""
-    deriv = np.zeros((len(change), request.params.size))
-    deriv[:, :k] = change[:, :k]     # the cluster's sites come first in its parameter list
+    """Derivatives by the cluster's own shifts and couplings: d nu / d nu_g = delta <Fz_g>,
+    d nu / d J_gh = delta <Fz_g Fz_h> + delta <F+_g F-_h + F-_g F+_h> / 2 (Hellmann-Feynman)."""
+    mapping = np.zeros((observe.width, request.params.size))
+    mapping[np.arange(k), np.arange(k)] = 1.0     # the cluster's sites come first in its parameter list
     if len(request.pairs):
         zz0 = k * (2 if observe.fz2 else 1)
         xx_col = {int(p): i for i, p in enumerate(observe.xx)}
         xx0 = observe.width - len(observe.xx)
         for i, (pos, col) in enumerate(zip(request.pairs, request.columns, strict=True)):
-            deriv[:, col] = change[:, zz0 + i] + 0.5 * change[:, xx0 + xx_col[int(pos)]]
-    return deriv
+            mapping[zz0 + i, col] = 1.0
+            mapping[xx0 + xx_col[int(pos)], col] = 0.5
+    return change @ mapping
 
 
 def _rows_to_states(rows, weights, k) -> _States:

@@ -133,11 +133,12 @@ def simulate_with_derivatives(shifts_ppm, j_hz, n_protons, *, field_mhz: float, 
 
     Merged lines: lines pooled into one (same site, within 1e-4 Hz, or within 0.005 Hz after a
     neighbour's split) get the intensity-weighted mean derivative, the derivative of their
-    centroid for fixed intensities; lines from exactly degenerate eigenstates (and lines of
-    joined equivalent sites) get the derivative of the centroid of all the lines between the
-    degenerate levels, which does not depend on the basis chosen. A coupling inside one
-    magnetically equivalent group (equal shift and couplings) has derivative 0; a coupling to
-    a site in a cluster not coupled to the line's cluster also 0 (the centroid does not move).
+    centroid for fixed intensities; lines from exactly degenerate eigenstates get the
+    derivative of the centroid of all the lines between the two degenerate levels, which does
+    not depend on the basis chosen. Two sites with equal shifts and equal couplings to all
+    others (one magnetically equivalent group given as two sites) get equal shares of the
+    group's derivatives, and the coupling between them has derivative 0; a coupling to a site
+    in a cluster not coupled to the line's cluster has derivative 0 (the centroid does not move).
 
     Parameters
     ----------
