@@ -24,7 +24,14 @@ import numpy as np
 from scipy import sparse
 
 from predictors.spin._basis import _build_cluster
-from predictors.spin._eigen import _isolated_states, _Observe, _pair_index, _States, _subsystem_lines
+from predictors.spin._eigen import (
+    _isolated_states,
+    _Observe,
+    _pair_index,
+    _States,
+    _subsystem_lines,
+    diagonalise,
+)
 from predictors.spin._lines import _SPLIT_POOL_HZ, _pool_split_lines
 from predictors.spin._neighbours import _Params, combine, group_rows, neighbour_sets, reduce_states
 
@@ -33,7 +40,7 @@ from predictors.spin._neighbours import _Params, combine, group_rows, neighbour_
 # neighbours are applied as first-order splittings of the finished lines.
 _NEIGHBOUR_COST_BUDGET = 4e6
 _MAX_NEIGHBOUR_STATES = 4096
-_BATCH_ELEMENTS = 1_000_000  # states x block size^2 diagonalised in one stacked call
+_BATCH_ELEMENTS = 4_000_000  # neighbour states x sum of block sizes^2 diagonalised at once
 # Neighbours applied as splittings of finished lines: at most this many state offsets each.
 _MAX_SPLIT_STATES = 16
 
@@ -53,7 +60,7 @@ class _Cluster:
     sites: np.ndarray              # global site indices
     subsystems: tuple              # composite-spin subsystems
     n_protons: int
-    largest_block: int
+    area: int                      # sum of block sizes squared (memory per neighbour state)
     cost: float                    # sum of block sizes cubed (decides the neighbour treatment)
     zq: np.ndarray | None          # isolated eigenstates: <Fz>, I(I+1) - <Fz^2>, flip-flops per site (pair)
     weight: np.ndarray | None      # state weights, sum 1
@@ -107,9 +114,9 @@ def prepare_cluster(sites, nu, j, n, min_intensity, *, exports: tuple,
     n_total = int(n[local].sum())
     scale = 2.0 ** (n_total - 1)
     states = _isolated_states(k)
-    nu_local, j_local = nu[local], j[np.ix_(local, local)]
-    parts = [_subsystem_lines(s, nu_local, j_local, states, min_intensity * scale, observe, want_states)
-             for s in subsystems]
+    eig = diagonalise(subsystems, nu[local], j[np.ix_(local, local)], states)
+    parts = [_subsystem_lines(s, e, states, min_intensity * scale, observe, want_states)
+             for s, e in zip(subsystems, eig, strict=True)]
     change = np.concatenate([p[3] for p in parts])
     lines = _Lines(np.concatenate([p[0] for p in parts]), np.concatenate([p[1] for p in parts]) / scale,
                    change[:, :k], None if request is None else _explicit(change, observe, request, k))
@@ -117,7 +124,7 @@ def prepare_cluster(sites, nu, j, n, min_intensity, *, exports: tuple,
     if want_states:
         zq, weight = _exported_states(parts, subsystems, observe, exports, k, n_total)
     cost = float(np.sum(np.power(sizes, 3.0)))
-    return _Cluster(local, subsystems, n_total, max(sizes), cost, zq, weight, lines)
+    return _Cluster(local, subsystems, n_total, int(np.sum(np.square(sizes))), cost, zq, weight, lines)
 
 
 def _exported_states(parts, subsystems, observe: _Observe, exports, k, n_total):
@@ -196,14 +203,14 @@ def _exact_lines(cluster: _Cluster, nu, j, rows, weights, drows, min_intensity, 
     xx = np.union1d(in_pairs, dj_used).astype(int)
     observe = _Observe(k, fz2=request is not None, zz=in_pairs, xx=xx)
     scale = 2.0 ** (cluster.n_protons - 1)
-    chunk = max(1, _BATCH_ELEMENTS // cluster.largest_block**2)
+    chunk = max(1, _BATCH_ELEMENTS // cluster.area)
     nu_local, j_local = nu[local], j[np.ix_(local, local)]
     freqs, intens, changes, state_of = [], [], [], []
     for start in range(0, len(weights), chunk):
         part_states = states.rows(slice(start, start + chunk))
-        for sub in cluster.subsystems:
-            f, i, s, c, _ = _subsystem_lines(sub, nu_local, j_local, part_states, min_intensity * scale,
-                                             observe)
+        eig = diagonalise(cluster.subsystems, nu_local, j_local, part_states)
+        for sub, e in zip(cluster.subsystems, eig, strict=True):
+            f, i, s, c, _ = _subsystem_lines(sub, e, part_states, min_intensity * scale, observe)
             freqs.append(f)
             intens.append(i)
             changes.append(c)

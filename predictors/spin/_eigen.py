@@ -80,12 +80,12 @@ def _pair_index(a, b, k):
     return (a * (2 * k - a - 1)) // 2 + (b - a - 1)
 
 
-def _diagonalise_batch(block: _Block, nu, quad, j_pairs, dj_pairs):
-    """Eigenvalues (S, n) and vectors (S, n, n) of one block for S neighbour states."""
+def _hamiltonians(block: _Block, nu, quad, j_pairs, dj_pairs):
+    """Diagonal (S, n) and, for n > 1, the matrices (S, n, n) of one block for S neighbour states."""
     n_batch, n_states = nu.shape[0], block.m.shape[0]
     diag = nu @ block.m.T + (block.mm @ j_pairs)[None, :] + quad @ (block.m**2).T
     if n_states == 1:
-        return diag, np.ones((n_batch, 1, 1))
+        return diag, None
     h = np.zeros((n_batch, n_states, n_states))
     idx = np.arange(n_states)
     h[:, idx, idx] = diag
@@ -93,25 +93,67 @@ def _diagonalise_batch(block: _Block, nu, quad, j_pairs, dj_pairs):
         vals = 0.5 * (j_pairs[block.pair][None, :] + dj_pairs[:, block.pair]) * block.coef[None, :]
         h[:, block.rows, block.cols] = vals
         h[:, block.cols, block.rows] = vals
-    return np.linalg.eigh(h)
+    return diag, h
 
 
-def _diagonalise_blocks(blocks, nu, quad, j_pairs, dj_pairs):
-    """Eigen-decomposition of every Fz block; the large ones on two threads."""
-    work = [b.m.shape[0] ** 3 * nu.shape[0] for b in blocks]
-    big = [i for i, w in enumerate(work) if w >= _THREADED_BLOCK_WORK]
+def diagonalise(subsystems, nu_local, j_local, states: _States):
+    """Eigenvalues (S, n) and vectors (S, n, n) of every block of every subsystem, ``[sub][block]``.
+
+    Blocks of one size are diagonalised in one stacked call whatever subsystem they belong to
+    (hundreds of small calls cost more than their arithmetic); the large ones are shared
+    between two threads (LAPACK releases the GIL).
+    """
+    out = [[None] * len(sub.blocks) for sub in subsystems]
+    by_size: dict[int, list] = {}
+    for i, sub in enumerate(subsystems):
+        g_first, g_second = sub.sites[sub.pairs[:, 0]], sub.sites[sub.pairs[:, 1]]
+        nu = nu_local[None, sub.sites] + states.lin[:, sub.sites]
+        quad = states.quad[:, sub.sites]
+        j_pairs = j_local[g_first, g_second]
+        dj_pairs = states.dj[:, g_first, g_second]
+        for b, block in enumerate(sub.blocks):
+            diag, h = _hamiltonians(block, nu, quad, j_pairs, dj_pairs)
+            if h is None:
+                out[i][b] = (diag, np.ones(diag.shape + (1,)))
+            else:
+                by_size.setdefault(h.shape[1], []).append((i, b, h))
+    jobs = []
+    for size, items in by_size.items():
+        stack = items[0][2] if len(items) == 1 else np.concatenate([h for _, _, h in items])
+        work = stack.shape[0] * size**3
+        halves = 2 if work >= 2 * _THREADED_BLOCK_WORK and stack.shape[0] > 1 else 1
+        bounds = np.linspace(0, stack.shape[0], halves + 1).round().astype(int)
+        for lo, hi in zip(bounds[:-1], bounds[1:], strict=True):
+            jobs.append((items, lo, hi, stack[lo:hi], (hi - lo) * size**3))
+    results = _run_jobs(jobs)
+    for (items, lo, _, _, _), (energies, vectors) in zip(jobs, results, strict=True):
+        start = 0
+        for i, b, h in items:
+            count = h.shape[0]
+            first, last = max(start, lo), min(start + count, lo + energies.shape[0])
+            if first < last:
+                part = (energies[first - lo:last - lo], vectors[first - lo:last - lo])
+                out[i][b] = part if out[i][b] is None else (np.concatenate([out[i][b][0], part[0]]),
+                                                             np.concatenate([out[i][b][1], part[1]]))
+            start += count
+    return out
+
+
+def _run_jobs(jobs):
+    """``eigh`` of every job's stack; the large ones on two threads."""
+    big = [k for k, job in enumerate(jobs) if job[4] >= _THREADED_BLOCK_WORK]
     if len(big) < 2:
-        return [_diagonalise_batch(b, nu, quad, j_pairs, dj_pairs) for b in blocks]
+        return [np.linalg.eigh(job[3]) for job in jobs]
     from concurrent.futures import ThreadPoolExecutor
 
-    out = [None] * len(blocks)
+    out = [None] * len(jobs)
     with ThreadPoolExecutor(max_workers=2) as pool:
-        futures = {i: pool.submit(_diagonalise_batch, blocks[i], nu, quad, j_pairs, dj_pairs) for i in big}
-        for i, b in enumerate(blocks):
-            if i not in futures:
-                out[i] = _diagonalise_batch(b, nu, quad, j_pairs, dj_pairs)
-        for i, fut in futures.items():
-            out[i] = fut.result()
+        futures = {k: pool.submit(np.linalg.eigh, jobs[k][3]) for k in big}
+        for k, job in enumerate(jobs):
+            if k not in futures:
+                out[k] = np.linalg.eigh(job[3])
+        for k, fut in futures.items():
+            out[k] = fut.result()
     return out
 
 
@@ -191,9 +233,10 @@ def _state_values(block: _Block, vecs: np.ndarray, diag: np.ndarray, measure: _M
     return out
 
 
-def _subsystem_lines(sub: _Subsystem, nu_local, j_local, states: _States, min_intensity,
-                     observe: _Observe, keep_states: bool = False):
-    """Lines of one composite-spin subsystem for every neighbour state (batched).
+def _subsystem_lines(sub: _Subsystem, eig, states: _States, min_intensity, observe: _Observe,
+                     keep_states: bool = False):
+    """Lines of one composite-spin subsystem for every neighbour state (batched), from the
+    eigenvalues and vectors ``eig`` of its blocks (see :func:`diagonalise`).
 
     Returns
     -------
@@ -207,12 +250,6 @@ def _subsystem_lines(sub: _Subsystem, nu_local, j_local, states: _States, min_in
         With ``keep_states``: the expectation values of every eigenstate of the first neighbour
         state, blocks in order.
     """
-    g_first, g_second = sub.sites[sub.pairs[:, 0]], sub.sites[sub.pairs[:, 1]]
-    nu = nu_local[None, sub.sites] + states.lin[:, sub.sites]
-    quad = states.quad[:, sub.sites]
-    j_pairs = j_local[g_first, g_second]
-    dj_pairs = states.dj[:, g_first, g_second]
-    eig = _diagonalise_blocks(sub.blocks, nu, quad, j_pairs, dj_pairs)
     measure = _measure(sub, observe)
     width = observe.width
     values = [_state_values(b, v, d, measure, width).reshape(-1, width)
