@@ -30,7 +30,7 @@ class _Block:
     coef: np.ndarray       # sqrt factors of the flip-flop
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class _Subsystem:
     sites: np.ndarray      # local cluster site of each composite spin (I > 0)
     spin_sq: np.ndarray    # I (I + 1) of each composite spin

@@ -16,6 +16,7 @@ merging of such lines, independent of the basis.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -164,72 +165,87 @@ class _Measure:
     diag: list          # per block: (n, n_diag) values of the diagonal observables in the m basis
     xx_pairs: np.ndarray    # composite pair of each requested flip-flop column (-1: not in this subsystem)
     xx_cols: np.ndarray     # output column of each
+    gathers: list       # per block: (rows, cols, 2 coef, segment starts, columns filled) or None
 
 
 def _measure(sub: _Subsystem, observe: _Observe) -> _Measure:
-    k = observe.k
+    zz, xx = tuple(observe.zz.tolist()), tuple(observe.xx.tolist())
+    return _measure_cached(sub, observe.k, observe.fz2, zz, xx)
+
+
+@functools.lru_cache(maxsize=1024)
+def _measure_cached(sub: _Subsystem, k: int, fz2: bool, zz_pairs: tuple, xx_pairs: tuple) -> _Measure:
     to_sites = np.zeros((len(sub.sites), k))
     to_sites[np.arange(len(sub.sites)), sub.sites] = 1.0
     comp = np.full(k * (k - 1) // 2, -1)
     if len(sub.pairs):
         where = _pair_index(sub.sites[sub.pairs[:, 0]], sub.sites[sub.pairs[:, 1]], k)
         comp[where] = np.arange(len(sub.pairs))
-    zz_comp = comp[observe.zz]
-    diag = []
+    zz_comp = comp[np.array(zz_pairs, dtype=int)]
+    xx_comp = comp[np.array(xx_pairs, dtype=int)]
+    diag, gathers = [], []
     for b in sub.blocks:
         cols = [b.m @ to_sites]
-        if observe.fz2:
+        if fz2:
             cols.append(np.square(b.m) @ to_sites)
-        if len(observe.zz):
-            zz = np.zeros((b.m.shape[0], len(observe.zz)))
+        if len(zz_pairs):
+            zz = np.zeros((b.m.shape[0], len(zz_pairs)))
             have = zz_comp >= 0
             zz[:, have] = b.mm[:, zz_comp[have]]
             cols.append(zz)
         diag.append(np.hstack(cols))
-    xx_comp = comp[observe.xx]
-    first = observe.width - len(observe.xx)
-    return _Measure(diag, xx_comp, first + np.arange(len(observe.xx)))
+        gathers.append(_gather_plan(b, xx_comp))
+    first = k * (2 if fz2 else 1) + len(zz_pairs)
+    return _Measure(diag, xx_comp, first + np.arange(len(xx_pairs)), gathers)
 
 
-def _flip_flop_expectations(block: _Block, vecs: np.ndarray, comps: np.ndarray) -> np.ndarray:
-    """<F+_g F-_h + F-_g F+_h> of the composite pairs ``comps`` in every eigenstate, (S, n, len(comps)).
-
-    Pairs absent from the subsystem (``comps < 0``) give 0. Only the elements of
-    the requested pairs are gathered, in chunks of neighbour states.
-    """
-    n_batch, n = vecs.shape[0], vecs.shape[2]
-    out = np.zeros((n_batch, n, len(comps)))
+def _gather_plan(block: _Block, comps: np.ndarray):
+    """Flip-flop elements of the requested composite pairs in one block, grouped by pair."""
     if not block.rows.size or not np.any(comps >= 0):
-        return out
-    wanted = np.zeros(int(block.pair.max()) + 1, dtype=bool)
-    wanted[comps[(comps >= 0) & (comps <= block.pair.max())]] = True
+        return None
+    wanted = np.zeros(int(max(block.pair.max(), comps.max())) + 1, dtype=bool)
+    wanted[comps[comps >= 0]] = True
     sel = np.flatnonzero(wanted[block.pair])
     if not sel.size:
-        return out
-    rows, cols, pair = block.rows[sel], block.cols[sel], block.pair[sel]
-    coef = 2.0 * block.coef[sel]
+        return None
+    pair = block.pair[sel]
     starts = np.flatnonzero(np.diff(pair, prepend=-1))
     where = {int(p): i for i, p in enumerate(pair[starts])}
     col_of = np.array([where.get(int(c), -1) for c in comps])
-    step = max(1, _GATHER_ELEMENTS // max(1, sel.size * n))
+    have = np.flatnonzero(col_of >= 0)
+    return block.rows[sel], block.cols[sel], 2.0 * block.coef[sel], starts, have, col_of[have]
+
+
+def _flip_flop_expectations(plan, vecs: np.ndarray, n_cols: int) -> np.ndarray:
+    """<F+_g F-_h + F-_g F+_h> of the requested pairs in every eigenstate, (S, n, n_cols).
+
+    Pairs absent from the block give 0. Only the elements of the requested pairs
+    are gathered, in chunks of neighbour states.
+    """
+    n_batch, n = vecs.shape[0], vecs.shape[2]
+    out = np.zeros((n_batch, n, n_cols))
+    if plan is None:
+        return out
+    rows, cols, coef, starts, have, source = plan
+    step = max(1, _GATHER_ELEMENTS // max(1, rows.size * n))
     for s0 in range(0, n_batch, step):
         v = vecs[s0:s0 + step]
-        prod = np.take(v, rows, axis=1) * np.take(v, cols, axis=1)
+        prod = np.take(v, rows, axis=1)
+        prod *= np.take(v, cols, axis=1)
         prod *= coef[None, :, None]
         sums = np.add.reduceat(prod, starts, axis=1)   # (s, n_present_pairs, n)
-        have = col_of >= 0
-        out[s0:s0 + step][:, :, have] = np.swapaxes(sums[:, col_of[have], :], 1, 2)
+        out[s0:s0 + step][:, :, have] = np.swapaxes(sums[:, source, :], 1, 2)
     return out
 
 
-def _state_values(block: _Block, vecs: np.ndarray, diag: np.ndarray, measure: _Measure, width: int):
+def _state_values(vecs: np.ndarray, diag: np.ndarray, gather, width: int):
     """Requested expectation values of every eigenstate, (S, n, width)."""
     weights = np.swapaxes(np.square(vecs), 1, 2)
     if diag.shape[1] == width:
         return weights @ diag
     out = np.empty((vecs.shape[0], vecs.shape[2], width))
     out[:, :, :diag.shape[1]] = weights @ diag
-    out[:, :, diag.shape[1]:] = _flip_flop_expectations(block, vecs, measure.xx_pairs)
+    out[:, :, diag.shape[1]:] = _flip_flop_expectations(gather, vecs, width - diag.shape[1])
     return out
 
 
@@ -252,8 +268,8 @@ def _subsystem_lines(sub: _Subsystem, eig, states: _States, min_intensity, obser
     """
     measure = _measure(sub, observe)
     width = observe.width
-    values = [_state_values(b, v, d, measure, width).reshape(-1, width)
-              for (_, v), b, d in zip(eig, sub.blocks, measure.diag, strict=True)]
+    values = [_state_values(v, d, g, width).reshape(-1, width)
+              for (_, v), d, g in zip(eig, measure.diag, measure.gathers, strict=True)]
     scale = states.scale[:, sub.sites]
     isolated = len(states.weight) == 1 and np.all(scale == 1.0)
     weight = sub.weight * states.weight
