@@ -25,6 +25,19 @@ two AB quartets), and any remaining neighbours split each line first order by
 the line's change of ``<Fz>``. If a cluster would exceed ``max_cluster_spins``
 protons, its weakest strong couplings are cut; this is reported in
 :attr:`LineList.warnings`.
+
+:func:`simulate_with_derivatives` also gives the derivative of every line
+frequency by chosen couplings and by every site frequency (Hellmann-Feynman
+inside clusters, exact derivatives of the terms across cuts), for fits that
+refine shifts and couplings. The simulation runs OpenBLAS on one thread (many
+small blocks; threads only contend for the cores).
+
+Modules, one job each: ``clusters`` (how the system is cut), ``_basis``
+(composite-spin blocks), ``_eigen`` (eigenstates, lines, expectation values),
+``_neighbours`` (what cut neighbours do to a cluster), ``_cluster`` (one
+cluster's lines), ``_lines`` (pooling, merging, pruning), ``_run`` (one
+simulation), ``simulate`` (public entry points), ``render`` (line shapes),
+``_checks`` and ``_blas``.
 """
 
 from __future__ import annotations
