@@ -238,14 +238,21 @@ def _flip_flop_expectations(plan, vecs: np.ndarray, n_cols: int) -> np.ndarray:
     return out
 
 
-def _state_values(vecs: np.ndarray, diag: np.ndarray, gather, width: int):
-    """Requested expectation values of every eigenstate, (S, n, width)."""
+def _state_values(vecs: np.ndarray, diag: np.ndarray, gather, width: int, k: int):
+    """Requested expectation values of every eigenstate, (S, n, width).
+
+    The ``<Fz>`` columns (which decide a line's site) are computed alone, so that they round
+    the same whatever else is requested.
+    """
     weights = np.swapaxes(np.square(vecs), 1, 2)
-    if diag.shape[1] == width:
+    if width == k:
         return weights @ diag
     out = np.empty((vecs.shape[0], vecs.shape[2], width))
-    out[:, :, :diag.shape[1]] = weights @ diag
-    out[:, :, diag.shape[1]:] = _flip_flop_expectations(gather, vecs, width - diag.shape[1])
+    out[:, :, :k] = weights @ diag[:, :k]
+    if diag.shape[1] > k:
+        out[:, :, k:diag.shape[1]] = weights @ diag[:, k:]
+    if diag.shape[1] < width:
+        out[:, :, diag.shape[1]:] = _flip_flop_expectations(gather, vecs, width - diag.shape[1])
     return out
 
 
@@ -268,7 +275,7 @@ def _subsystem_lines(sub: _Subsystem, eig, states: _States, min_intensity, obser
     """
     measure = _measure(sub, observe)
     width = observe.width
-    values = [_state_values(v, d, g, width).reshape(-1, width)
+    values = [_state_values(v, d, g, width, observe.k).reshape(-1, width)
               for (_, v), d, g in zip(eig, measure.diag, measure.gathers, strict=True)]
     scale = states.scale[:, sub.sites]
     isolated = len(states.weight) == 1 and np.all(scale == 1.0)
