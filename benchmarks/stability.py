@@ -59,13 +59,12 @@ def _worker(n_cases: int, n_workers: int, perturb: float) -> dict:
     """Analyse the demo and the corpus cases in this process; the outcome of each as plain data."""
     import numpy as np
 
+    import confirm.analysis as analysis_module
     from benchmarks.corpus.synthesis import render_case
-    from confirm.analysis import analyze_path, analyze_spectrum, build_candidates, predict_systems
+    from confirm.analysis import analyze_path, build_candidates, predict_systems
     from confirm.commands.demo import DEMO_REAGENT, DEMO_SOLVENT, DEMO_SUBSTRATE, DEMO_TEMP_C, sample_files
     from confirm.fitting import FitOptions
     from predictors.core import Spectrum
-
-    import confirm.analysis as analysis_module
 
     options = FitOptions(n_workers=n_workers)
     original = analysis_module.analyze_spectrum

@@ -37,17 +37,21 @@ class Drawn:
         group (per ppm of full width).
     dgauss : ndarray or None, shape (n,)
         Derivative of ``sum(weight * line)`` with respect to the Gaussian share.
+    dextra : ndarray or None, shape (n_extra, n)
+        ``sum over lines of pos_weights[r, line] * d(line)/d(its position)`` for each row r of
+        ``pos_weights`` (parameters that move lines by different amounts, such as couplings).
     """
 
     values: np.ndarray
     dpos: np.ndarray | None = None
     dwidth: np.ndarray | None = None
     dgauss: np.ndarray | None = None
+    dextra: np.ndarray | None = None
 
 
 def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float = 0.0,
                near=None, derivs: bool = False, width_group=None, n_width_groups: int = 0,
-               weight=None, reach=None) -> Drawn:
+               weight=None, reach=None, pos_weights=None) -> Drawn:
     """Draw lines on a grid.
 
     Parameters
@@ -74,6 +78,8 @@ def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float
     reach : ndarray, optional
         Half-widths either side over which each line is drawn (default 40, 10 for ``near``
         lines); see :func:`line_reach`.
+    pos_weights : ndarray, optional, shape (n_extra, n_lines)
+        With ``derivs``: how far each line moves per unit of each extra parameter (``dextra``).
     """
     ppm = np.asarray(ppm, dtype=float)
     inten = np.asarray(inten, dtype=float)
@@ -101,7 +107,8 @@ def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float
         if sel.any():
             table = _line_table(x, centre[sel], ppm[sel], inten[sel], fwhm[sel], gauss, points,
                                 grid.curvature_ppm2, derivs, wt[sel])
-            table.update(group=group[sel], wgroup=wgroup[sel], shape=np.zeros(int(sel.sum()), int))
+            table.update(group=group[sel], wgroup=wgroup[sel], shape=np.zeros(int(sel.sum()), int),
+                         lines=np.flatnonzero(sel))
             parts.append(table)
 
     def _accumulate(item: str, rows: str, n_rows: int) -> np.ndarray:
@@ -116,7 +123,19 @@ def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float
     dpos = _accumulate("dpos", "group", n_groups)
     dwidth = _accumulate("dwidth", "wgroup", max(1, n_width_groups))
     dgauss = _accumulate("dgauss", "shape", 1)[0]
-    return Drawn(values, dpos, dwidth, dgauss)
+    dextra = None
+    if pos_weights is not None:
+        weights = np.asarray(pos_weights, dtype=float)
+        flat, vals = [np.zeros(0, int)], [np.zeros(0)]
+        for p in parts:
+            rows, i = np.nonzero(weights[:, p["lines"]])
+            if rows.size:
+                flat.append((p["idx"][i] + width_total * rows[:, None]).ravel())
+                vals.append((p["dpos"][i] * weights[rows, p["lines"][i]][:, None]).ravel())
+        n_extra = weights.shape[0]
+        table = np.bincount(np.concatenate(flat), weights=np.concatenate(vals), minlength=width_total * n_extra)
+        dextra = np.ascontiguousarray(table.reshape(n_extra, width_total)[:, span : span + n])
+    return Drawn(values, dpos, dwidth, dgauss, dextra)
 
 
 def line_reach(size: np.ndarray, near=None) -> np.ndarray:

@@ -16,7 +16,8 @@ import numpy as np
 from predictors.core import SpinSystem
 from predictors.errors import FitError
 
-__all__ = ["SATELLITE_SHARE", "CandidateModel", "build_model", "model_lines", "coupling_matrix"]
+__all__ = ["SATELLITE_SHARE", "CandidateModel", "build_model", "model_lines", "model_lines_with_derivatives",
+           "coupling_matrix"]
 
 #: 13C natural abundance: each satellite is 0.55 % of its parent (references.md section 5).
 SATELLITE_SHARE = 0.0055
@@ -264,6 +265,34 @@ def model_lines(model: CandidateModel, shifts: np.ndarray, j_values: np.ndarray,
         lines = simulate_arrays_reusing(nudged, j, model.n_h, field_mhz=field_mhz, memo=model.memo)
     return _with_satellites(model, np.asarray(lines.ppm), np.asarray(lines.intensity),
                             np.asarray(lines.site_index), field_mhz, satellites)
+
+
+def model_lines_with_derivatives(model: CandidateModel, shifts: np.ndarray, j_values: np.ndarray,
+                                 field_mhz: float):
+    """:func:`model_lines` and, per line, the derivative of its position (ppm) with respect to each
+    refined coupling (Hz), shape (n_lines, n_pairs); satellites move with their parent.
+
+    The derivatives are exact first-order perturbation theory of the spin simulation
+    (``predictors.spin.simulate_with_derivatives``): within a refinement round the couplings move
+    lines as the shifts do, which stays accurate over changes of a line width and more."""
+    from predictors.spin import simulate_with_derivatives
+
+    if model.pattern is not None or not model.j_pairs:
+        lines = model_lines(model, shifts, j_values, field_mhz)
+        return lines + (np.zeros((lines[0].size, len(model.j_pairs))),)
+    j = coupling_matrix(model, j_values)
+    try:
+        out = simulate_with_derivatives(shifts, j, model.n_h, field_mhz=field_mhz, pairs=model.j_pairs,
+                                        memo=model.memo)
+    except np.linalg.LinAlgError:
+        nudged = np.asarray(shifts) + 1e-5 * np.arange(len(shifts)) / max(field_mhz, 1.0)
+        out = simulate_with_derivatives(nudged, j, model.n_h, field_mhz=field_mhz, pairs=model.j_pairs,
+                                        memo=model.memo)
+    lines, dfreq_dj, _ = out
+    ppm, inten, site, sat = _with_satellites(model, np.asarray(lines.ppm), np.asarray(lines.intensity),
+                                             np.asarray(lines.site_index), field_mhz, True)
+    dppm = np.asarray(dfreq_dj, dtype=float) / field_mhz
+    return ppm, inten, site, sat, np.concatenate([dppm] * (ppm.size // max(dppm.shape[0], 1)))
 
 
 def _with_satellites(model: CandidateModel, ppm, inten, site, field_mhz: float, satellites: bool):

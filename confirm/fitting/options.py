@@ -83,7 +83,7 @@ class FitOptions:
     coarse_blur_hz: float = 2.5
     n_random_starts: int = 4
     n_refined_starts: int = 2
-    rounds: int = 4
+    rounds: int = 3
     n_workers: int = 2
     uncertainty_scale: float = 1.0
     seed: int = 7

@@ -8,9 +8,9 @@ Gaussian priors of the shifts (predicted sd), the couplings (predicted sd) and t
 of the measured width). The priors keep every parameter defined: a site of a molecule with no
 amount stays at its prediction instead of wandering with rounding.
 
-Within a round the lines translate with their site and couplings act through derivative columns
-computed once; between rounds the spin systems are simulated again, so strongly coupled patterns
-stay exact. The last step simulates the final parameters exactly and solves the linear part
+Within a round every line moves with its site's shift and with each refined coupling by its exact
+first-order derivative (from the spin simulation); between rounds the spin systems are simulated
+again, so strongly coupled patterns (and line intensities) stay exact. The last step simulates the final parameters exactly and solves the linear part
 again: the residual reported is that of the exact model.
 """
 
@@ -22,7 +22,7 @@ import numpy as np
 
 from confirm.fitting.linear import solve_amounts
 from confirm.fitting.lineshape import draw_lines, line_reach
-from confirm.fitting.models import model_lines
+from confirm.fitting.models import model_lines, model_lines_with_derivatives
 from confirm.fitting.solver import least_squares_box
 
 __all__ = ["Layout", "Priors", "Refined", "Refinement", "blurred_view", "exact_columns", "line_regions",
@@ -30,8 +30,6 @@ __all__ = ["Layout", "Priors", "Refined", "Refinement", "blurred_view", "exact_c
 
 #: Prior sd of a region's line width, relative to the measured width.
 _WIDTH_PRIOR_REL = 0.5
-#: Step (Hz) of the finite differences that give the coupling derivative columns.
-_J_STEP_HZ = 0.05
 #: Most iterations of one round (the next round starts from a fresh simulation anyway).
 _MAX_ITERATIONS = 15
 #: A round's iterations stop when a step lowers the objective by less than this (chi-square units).
@@ -195,8 +193,9 @@ class _Round:
         self.priors, self.scale = priors, 1.0
         self.base_shifts = [s.copy() for s in layout.shifts(theta0)]
         self.base_j = [j.copy() for j in layout.jvals(theta0)]
-        self.lines = [model_lines(m, s, j, field_mhz)
-                      for m, s, j in zip(models, self.base_shifts, self.base_j, strict=True)]
+        simulated = [model_lines_with_derivatives(m, s, j, field_mhz)
+                     for m, s, j in zip(models, self.base_shifts, self.base_j, strict=True)]
+        self.lines = [out[:4] for out in simulated]
         offsets = np.cumsum([0] + list(layout.n_sites))[:-1]
         self.site = np.concatenate([ln[2] + o for ln, o in zip(self.lines, offsets, strict=True)])
         self.molecule = np.concatenate([np.full(ln[0].size, k) for k, ln in enumerate(self.lines)])
@@ -204,35 +203,19 @@ class _Round:
         self.inten = np.concatenate([ln[1] for ln in self.lines])
         self.ppm0 = np.concatenate([ln[0] for ln in self.lines])
         self.region = np.concatenate([layout.width_index(grid, k, ln[0]) for k, ln in enumerate(self.lines)])
-        amounts0 = np.maximum(theta0[layout.amount_slice], 1e-3 * max(float(theta0[layout.amount_slice].max()), 1e-300))
+        amounts0 = theta0[layout.amount_slice]
+        amounts0 = np.maximum(amounts0, 1e-3 * max(float(amounts0.max()), 1e-300))
         self.reach = line_reach(self.inten * amounts0[self.molecule], self.near)
-        self.jcols = self._coupling_columns(theta0)
+        # how far each line moves (ppm) per Hz of each refined coupling, (n_pairs, n_lines)
+        self.moves = np.zeros((sum(layout.n_j), self.ppm0.size))
+        self.pair_molecule = np.zeros(sum(layout.n_j), int)
+        row, col = 0, 0
+        for k, out in enumerate(simulated):
+            n_lines, n_pairs = out[0].size, out[4].shape[1]
+            self.moves[row : row + n_pairs, col : col + n_lines] = out[4].T
+            self.pair_molecule[row : row + n_pairs] = k
+            row, col = row + n_pairs, col + n_lines
         self._cache = (None, None)
-
-    def _coupling_columns(self, theta0):
-        """Per candidate, d(unit column)/d(coupling) by simulating each coupling nudged."""
-        widths = theta0[self.layout.width_slice]
-        gauss = float(theta0[self.layout.gauss_index])
-        out = []
-        for k, m in enumerate(self.models):
-            if not m.j_pairs:
-                out.append(None)
-                continue
-            base = self._draw_one(k, self.lines[k], widths, gauss)
-            rows = []
-            for p in range(len(m.j_pairs)):
-                j = self.base_j[k].copy()
-                step = _J_STEP_HZ if j[p] + _J_STEP_HZ <= m.j_hi[p] else -_J_STEP_HZ
-                j[p] += step
-                rows.append((self._draw_one(k, model_lines(m, self.base_shifts[k], j, self.field), widths, gauss)
-                             - base) / step)
-            out.append(np.array(rows))
-        return out
-
-    def _draw_one(self, k: int, lines, widths, gauss: float) -> np.ndarray:
-        ppm, inten, _, sat = lines
-        fwhm = widths[self.layout.width_index(self.grid, k, ppm)]
-        return draw_lines(self.grid, ppm, inten, np.zeros(ppm.size, int), 1, fwhm, gauss=gauss, near=sat).values[0]
 
     def _draw(self, theta):
         key = theta.tobytes()
@@ -240,17 +223,16 @@ class _Round:
             return self._cache[1]
         lay = self.layout
         delta = theta[lay.shift_slice] - np.concatenate(self.base_shifts)
+        dj = theta[lay.j_slice] - np.concatenate(self.base_j)
         amounts = theta[lay.amount_slice]
         widths = theta[lay.width_slice]
         drawn = draw_lines(
-            self.grid, self.ppm0 + delta[self.site], self.inten, self.site, sum(lay.n_sites),
+            self.grid, self.ppm0 + delta[self.site] + dj @ self.moves, self.inten, self.site, sum(lay.n_sites),
             widths[self.region], gauss=float(theta[lay.gauss_index]), near=self.near, derivs=True,
             width_group=self.region, n_width_groups=lay.n_widths, weight=amounts[self.molecule], reach=self.reach,
+            pos_weights=self.moves,
         )
         cols = self._molecule_columns(drawn.values)
-        for k, (jcol, j, j_base) in enumerate(zip(self.jcols, lay.jvals(theta), self.base_j, strict=True)):
-            if jcol is not None:
-                cols[k] += (j - j_base) @ jcol
         self._cache = (key, (drawn, cols))
         return drawn, cols
 
@@ -291,11 +273,8 @@ class _Round:
         amounts = theta[lay.amount_slice]
         site_amount = np.concatenate([np.full(m, a) for m, a in zip(lay.n_sites, amounts, strict=True)])
         out[:n, lay.shift_slice] = (drawn.dpos * site_amount[:, None]).T
-        pos = lay.j_slice.start
-        for k, jcol in enumerate(self.jcols):
-            if jcol is not None:
-                out[:n, pos : pos + jcol.shape[0]] = (jcol * amounts[k]).T
-                pos += jcol.shape[0]
+        if drawn.dextra is not None and drawn.dextra.shape[0]:
+            out[:n, lay.j_slice] = (drawn.dextra * amounts[self.pair_molecule][:, None]).T
         out[:n, lay.width_slice] = drawn.dwidth.T
         out[:n, lay.gauss_index] = drawn.dgauss
         out[:n, lay.amount_slice] = cols.T

@@ -42,6 +42,7 @@ simulation), ``simulate`` (public entry points), ``render`` (line shapes),
 
 from __future__ import annotations
 
+from predictors.spin._blas import one_blas_thread
 from predictors.spin._checks import FIELD_RANGE_MHZ
 from predictors.spin.clusters import ClusterPlan, plan_clusters
 from predictors.spin.render import LINE_SHAPES, model_spectrum, render_lines, render_sites
@@ -59,6 +60,7 @@ __all__ = [
     "LINE_SHAPES",
     "LineDerivatives",
     "model_spectrum",
+    "one_blas_thread",
     "plan_clusters",
     "render_lines",
     "render_sites",

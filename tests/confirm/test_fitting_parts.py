@@ -13,8 +13,8 @@ import pytest
 
 from confirm.fitting.evidence import SiteReading, decide_presence, point_variance
 from confirm.fitting.grid import Grid, _hilbert_transform
-from confirm.fitting.lineshape import draw_lines
 from confirm.fitting.linear import Projected, solve_amounts
+from confirm.fitting.lineshape import draw_lines
 from confirm.fitting.search import stable_argmax
 from confirm.fitting.solver import least_squares_box
 
