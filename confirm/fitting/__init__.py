@@ -47,6 +47,8 @@ from confirm.fitting.noise import estimate_line_width_hz, estimate_noise_sd, noi
 from confirm.fitting.nuisance import nuisance_models
 from confirm.fitting.options import FitOptions
 from confirm.fitting.refine import Refinement, blurred_view, resolve_linear
+from confirm.fitting.evidence import SEEN_SIGMA
+from confirm.fitting.refit import refit_without
 from confirm.fitting.search import resweep, search_assignments
 from confirm.fitting.swaps import settle_swaps
 from confirm.fitting.unexplained import unexplained_signals
@@ -172,6 +174,8 @@ def _fit(spectrum, systems, candidates, noise_sd, options: FitOptions, budget) -
                            with_dispersion=options.fit_phase)
     view_basis = baseline_basis(view_grid, options.baseline_degree, phase=options.fit_phase)
     views = [blurred_view(r, view_grid, view_basis, fit_models, field, _READING_BLUR_HZ) for r in refined]
+    refined, views = _without_rejected(refined, views, view_grid, view_basis, len(candidates), grid, basis, fit_models,
+                                       mid_view, field, lw, noise_bin * corr, options)
     return _assemble(spectrum, systems, candidates, fit_models, grid, basis, refined, views, view_grid,
                      view_basis, fit_masks, notes, noise_bin, corr, options, lw)
 
@@ -295,6 +299,24 @@ def _assemble(spectrum, systems, candidates, models, grid, basis, refined, views
         unexplained_ppm=tuple(p for p, _ in unknown),
         alternative_fractions=tuple(map(tuple, fracs[1:])) if len(kept) > 1 else (),
     )
+
+
+def _without_rejected(refined, views, view_grid, view_basis, n_candidates, grid, basis, models, mid_view, field,
+                      lw, noise, options):
+    """The fits, refitted once without the candidates the evidence rejects although they carry clear
+    signal (see :mod:`confirm.fitting.refit`); unchanged when there is none."""
+    best = int(np.argmin([r.objective for r in refined]))
+    settings = {"noise_sd": noise, "model_error": options.model_error, "detection_sigma": options.detection_sigma,
+                "lw_ppm": (lw + _READING_BLUR_HZ) / field, "uncertainty_scale": options.uncertainty_scale}
+    ev = evaluate(views[best], models, view_grid, view_basis, **settings)
+    rejected = [k for k in range(n_candidates) if not ev.detected[k]
+                and ev.presence[k].amount > SEEN_SIGMA * ev.presence[k].amount_sd]
+    if not rejected:
+        return refined, views
+    again = refit_without(refined[best], rejected, grid=grid, basis=basis, models=models, mid_view=mid_view,
+                          field_mhz=field, width_ppm=lw / field, noise_sd=noise, options=options,
+                          resweep_blur_hz=_RESWEEP_BLUR_HZ)
+    return [again], [blurred_view(again, view_grid, view_basis, models, field, _READING_BLUR_HZ)]
 
 
 def _with_resolution_spread(ev, refined, grid, basis, models, noise_sd: float, model_error: float, lw_ppm: float):

@@ -44,6 +44,14 @@ SEEN_SIGMA = 5.0
 #: ... and only where at most this share of its window's modelled signal belongs to others: a
 #: multiplet sitting on another component's line is not seen on its own.
 _SEEN_OVERLAP = 0.5
+#: Error of a multiplet's own refined pattern the shape test allows (relative, point by point).
+_PATTERN_ERROR = 0.10
+#: A multiplet standing alone, seen clearly, whose window misfits beyond this (in units of what
+#: noise and pattern error allow) is the wrong multiplet for its place.
+_MISSHAPEN = 4.0
+#: ... judged only where it is nearly alone (others' share of its window below this): elsewhere a
+#: neighbour's misfit is not its own.
+_ALONE = 0.2
 #: One-sided 95 % normal quantile (upper bounds).
 Z_UPPER_95 = 1.6448536269514722
 
@@ -68,6 +76,10 @@ class SiteReading:
         Reduced chi-square of the window after the multiplet is fitted.
     usable : bool
         Enough unmasked points to read it.
+    shape_misfit : float
+        The window's residual over what the noise and a 10 % error of the multiplet's own pattern
+        allow (about 1 when the pattern fits, far above when it is the wrong multiplet: a triplet
+        on a doublet).
     """
 
     ppm: float
@@ -78,6 +90,7 @@ class SiteReading:
     overlap: float
     misfit: float
     usable: bool
+    shape_misfit: float = 0.0
 
     @property
     def sigma(self) -> float:
@@ -95,7 +108,8 @@ class Presence:
         Inverse-variance combination of its multiplets' amounts (sd widened when they disagree).
     present : bool
     missing : tuple of int
-        Model sites whose multiplet should stand out at ``amount`` but is not in the data.
+        Model sites whose multiplet should stand out at ``amount`` but is not in the data, or that
+        sit on a line of the wrong shape (misshapen).
     seen : tuple of int
         Model sites seen on their own (amount > detection threshold).
     upper : float
@@ -187,12 +201,14 @@ def _read_one(grid, u, d, others, reach: int, noise_sd: float, model_error: floa
     norm = float(np.linalg.norm(uw) * np.linalg.norm(dw))
     shape = float(np.dot(uw, dw) / norm) if norm > 0 else 0.0
     overlap = shared / max(shared + abs(alpha), 1e-300)
+    allowed = noise_sd**2 + (_PATTERN_ERROR * alpha * uw) ** 2 + (model_error * ow) ** 2
+    shape_misfit = float(np.sum(resid * resid) / np.sum(allowed))
     # the margin comes from the noise and the model error of the others, never from the local
     # misfit: a candidate whose multiplet is absent makes its own window misfit, and that must not
     # widen the test that finds the absence
     margin_var = point_variance(noise_sd, others, model_error)
     envelope = _envelope(u, d, margin_var, window, reach, max(1.0, misfit))
-    return SiteReading(ppm, alpha, sd, envelope, shape, overlap, misfit, True)
+    return SiteReading(ppm, alpha, sd, envelope, shape, overlap, misfit, True, shape_misfit)
 
 
 def _envelope(u, d, var, window, reach: int, misfit: float) -> float:
@@ -214,9 +230,10 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic) -> Presence
     others) carry the amount: a multiplet misplaced in a crowded region, or sitting on another
     component's line, reads something else with a deceptively small sd. Without any such
     multiplet every readable multiplet counts. The candidate is present when that amount stands
-    clear of its uncertainty, one of its diagnostic multiplets is seen (or, when every multiplet is
-    overlapped, as in a crowded low-field spectrum, the combination stands 5 sd clear), and none of
-    its multiplets is missing (an envelope below half the amount).
+    clear of its uncertainty, one of its diagnostic multiplets reads 5 sd clear (on its own or with
+    the others' share taken away; or, when every multiplet is overlapped, as in a crowded low-field
+    spectrum, the combination stands 5 sd clear), and none of its multiplets is missing (an
+    envelope below half the amount).
 
     Parameters
     ----------
@@ -235,8 +252,14 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic) -> Presence
     missing = ()
     if mean > _MISSING_SD * plain_sd:
         missing = tuple(i for i in use if readings[i].envelope < _MISSING_SHARE * mean)
-    if seen:
-        evidence = any(i in seen for i in diagnostic)
+    misshapen = tuple(i for i in use if readings[i].overlap < _ALONE and readings[i].sigma > SEEN_SIGMA
+                      and readings[i].shape_misfit > _MISSHAPEN)
+    missing = tuple(sorted(set(missing) | set(misshapen)))
+    strong = max(detection_sigma, SEEN_SIGMA)
+    if any(i in use and readings[i].sigma > strong for i in diagnostic):
+        # a diagnostic multiplet stands 5 sd clear, on its own or with the others' share taken away
+        # (its sd then carries their model error)
+        evidence = True
     elif all(readings[i].overlap >= _SEEN_OVERLAP for i in use):
         # every multiplet shares its window with others (a crowded low-field spectrum): nothing
         # could be seen on its own, so the combination must stand 5 sd clear

@@ -26,7 +26,7 @@ from confirm.fitting.models import model_lines, model_lines_with_derivatives
 from confirm.fitting.solver import least_squares_box
 
 __all__ = ["Layout", "Priors", "Refined", "Refinement", "blurred_view", "exact_columns", "line_regions",
-           "resolve_linear"]
+           "parameter_map", "resolve_linear"]
 
 #: Prior sd of a region's line width, relative to the measured width.
 _WIDTH_PRIOR_REL = 0.5
@@ -34,6 +34,8 @@ _WIDTH_PRIOR_REL = 0.5
 _MAX_ITERATIONS = 15
 #: A round's iterations stop when a step lowers the objective by less than this (chi-square units).
 _CHI2_TOL = 0.05
+#: ... or by less than this share of it (a large misfit need not be polished to 0.05).
+_REL_TOL = 1e-4
 #: Rounds stop when no shift moved more than this share of the line width and no coupling more than
 #: this many Hz in the last round (the linearised couplings are then exact enough).
 _SETTLED = 0.1
@@ -148,6 +150,8 @@ class Refined:
         Noise scale of the objective.
     width0_ppm : float
         Centre of the width prior (the measured line width).
+    excluded : tuple of int
+        Candidates left out of the model by a refit (their amount stays 0).
     """
 
     theta: np.ndarray
@@ -161,6 +165,7 @@ class Refined:
     jacobian: np.ndarray
     scale: float
     width0_ppm: float
+    excluded: tuple = ()  # candidates refitted out of the model (amount 0)
 
     @property
     def amounts(self) -> np.ndarray:
@@ -212,7 +217,7 @@ class _Round:
         row, col = 0, 0
         for k, out in enumerate(simulated):
             n_lines, n_pairs = out[0].size, out[4].shape[1]
-            self.moves[row : row + n_pairs, col : col + n_lines] = out[4].T
+            self.moves[row : row + n_pairs, col : col + n_lines] = out[4].T * ~out[3]  # satellites: parents do
             self.pair_molecule[row : row + n_pairs] = k
             row, col = row + n_pairs, col + n_lines
         self._cache = (None, None)
@@ -396,7 +401,7 @@ class Refinement:
             theta = step.solve_linear(theta)
             scale = step.set_scale(theta, self.noise)
             result = least_squares_box(step.residual, step.jacobian, theta, lo, hi,
-                                       max_iterations=_MAX_ITERATIONS, atol=_CHI2_TOL * scale**2)
+                                       max_iterations=_MAX_ITERATIONS, atol=_CHI2_TOL * scale**2, ftol=_REL_TOL)
             moved = _largest_move(lay, theta, result.x, self.width0)
             theta, jac = result.x, result.jac
             if round_ >= 1 and moved < _SETTLED:
@@ -447,11 +452,34 @@ def _largest_move(layout: Layout, before: np.ndarray, after: np.ndarray, width_p
     return float(max(shift, coupling))
 
 
+def parameter_map(full: Layout, sub: Layout, keep) -> np.ndarray:
+    """Index in ``full``'s parameter vector of each parameter of ``sub``, the layout of the models
+    ``keep`` (indices into ``full``'s models, in order) on the same grid and free columns."""
+    starts_s = np.cumsum([0] + list(full.n_sites))
+    starts_j = np.cumsum([0] + list(full.n_j))
+    shifts = np.concatenate([np.arange(starts_s[k], starts_s[k + 1]) for k in keep] or [np.zeros(0, int)])
+    jvals = np.concatenate([np.arange(starts_j[k], starts_j[k + 1]) for k in keep] or [np.zeros(0, int)])
+    own = [full.n_regions + full.own[k] for k in keep if full.own and full.own[k] >= 0]
+    widths = np.concatenate([np.arange(full.n_regions), np.array(own, int)])
+    return np.concatenate([
+        full.shift_slice.start + shifts,
+        full.j_slice.start + jvals,
+        full.width_slice.start + widths,
+        [full.gauss_index],
+        full.amount_slice.start + np.asarray(keep, int),
+        np.arange(full.base_slice.start, full.base_slice.stop),
+    ]).astype(int)
+
+
 def resolve_linear(refined: Refined, grid, basis) -> Refined:
-    """``refined`` with its amounts and baseline solved again for other data on the same axis."""
+    """``refined`` with its amounts and baseline solved again for other data on the same axis
+    (candidates left out of the fit keep no amount)."""
     from dataclasses import replace
 
-    amounts, base = solve_amounts(refined.cols, basis, grid.y, grid.weight)
+    use = np.ones(refined.cols.shape[0], bool)
+    use[list(refined.excluded)] = False
+    amounts = np.zeros(use.size)
+    amounts[use], base = solve_amounts(refined.cols[use], basis, grid.y, grid.weight)
     theta = refined.theta.copy()
     theta[refined.layout.amount_slice] = amounts
     theta[refined.layout.base_slice] = base
