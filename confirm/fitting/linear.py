@@ -48,19 +48,36 @@ def linear_cost(cols: np.ndarray, basis: np.ndarray, y: np.ndarray, weight: np.n
 
 
 def _nnls_gram_scaled(gram: np.ndarray, rhs: np.ndarray) -> np.ndarray:
-    scale = np.sqrt(np.clip(np.diag(gram), 0, None))
-    scale[scale == 0] = 1.0
-    g = gram / np.outer(scale, scale) + 1e-12 * np.eye(gram.shape[0])
-    return _nnls_gram(g, rhs / scale) / scale
+    """Non-negative amounts from the normal equations; a column with (almost) nothing left once
+    the baseline is projected out (all zero, or inside the baseline's span) gets amount 0."""
+    diag = np.diag(gram)
+    live = diag > 1e-12 * max(float(diag.max(initial=0.0)), 1e-300)
+    out = np.zeros(gram.shape[0])
+    if not live.any():
+        return out
+    g, r = gram[np.ix_(live, live)], rhs[live]
+    scale = np.sqrt(np.diag(g))
+    g = g / np.outer(scale, scale) + 1e-12 * np.eye(g.shape[0])
+    out[live] = _nnls_gram(g, r / scale) / scale
+    return out
 
 
 def _nnls_gram(g: np.ndarray, rhs: np.ndarray) -> np.ndarray:
-    """Non-negative solution of ``g a = rhs`` in the least-squares sense (g positive definite)."""
+    """Non-negative solution of ``g a = rhs`` in the least-squares sense (g symmetric, positive
+    semi-definite; a factor from its eigenvalues when rounding leaves it not quite definite)."""
     from scipy.optimize import nnls
 
-    chol = np.linalg.cholesky(g)
-    a, _ = nnls(chol.T, np.linalg.solve(chol, rhs))
-    return a
+    try:
+        chol = np.linalg.cholesky(g)
+        a, _ = nnls(chol.T, np.linalg.solve(chol, rhs))
+        return a
+    except np.linalg.LinAlgError:
+        val, vec = np.linalg.eigh(g)
+        keep = val > 1e-10 * max(float(val.max()), 1e-300)
+        root = vec[:, keep] * np.sqrt(val[keep])  # g ~= root @ root.T
+        target = (vec[:, keep].T @ rhs) / np.sqrt(val[keep])
+        a, _ = nnls(root.T, target)
+        return a
 
 
 def _solve_batch(g: np.ndarray, b: np.ndarray) -> np.ndarray:
