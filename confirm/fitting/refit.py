@@ -30,10 +30,12 @@ def refit_without(refined: Refined, exclude, *, grid, basis, models, mid_view, f
                      max_width_hz=options.max_line_width_hz)
     mid, mid_basis, mid_noise = mid_view
     candidates = [k for k in keep if not models[k].nuisance]
-    moved, _ = resweep(mid, mid_basis, [models[k] for k in candidates], [shifts[k] for k in candidates],
-                       [jvals[k] for k in candidates],
-                       lw_ppm=float(np.median(refined.widths_ppm)) + resweep_blur_hz / field_mhz,
-                       field_mhz=field_mhz, noise_sd=mid_noise)
+    moved = []
+    if candidates:  # every candidate may be rejected: then only the nuisances are refitted
+        moved, _ = resweep(mid, mid_basis, [models[k] for k in candidates], [shifts[k] for k in candidates],
+                           [jvals[k] for k in candidates],
+                           lw_ppm=float(np.median(refined.widths_ppm)) + resweep_blur_hz / field_mhz,
+                           field_mhz=field_mhz, noise_sd=mid_noise)
     moved = dict(zip(candidates, moved, strict=True))
     index = parameter_map(lay, sub.layout, keep)
     start = refined.theta[index].copy()
@@ -46,5 +48,6 @@ def refit_without(refined: Refined, exclude, *, grid, basis, models, mid_view, f
     jac = np.zeros((fit.jacobian.shape[0], lay.size))
     jac[:, index] = fit.jacobian
     return Refined(theta=theta, layout=lay, per_site=per_site, cols=cols, model=fit.model, cost=fit.cost,
-                   prior=fit.prior, objective=fit.objective, jacobian=jac, scale=fit.scale, width0_ppm=width_ppm,
+                   prior=fit.prior, objective=fit.objective, jacobian=jac, scale=fit.scale,
+                   width0_ppm=width_ppm,
                    excluded=tuple(sorted(set(exclude) | set(refined.excluded))))
