@@ -49,6 +49,10 @@ _PATTERN_ERROR = 0.10
 #: A multiplet standing alone, seen clearly, whose window misfits beyond this (in units of what
 #: noise and pattern error allow) is the wrong multiplet for its place.
 _MISSHAPEN = 4.0
+#: ... and whose pattern correlates with the data below this: on a real spectrum at high SNR a
+#: right multiplet misfits too (unmodelled small couplings, imperfect shims), but its lines still
+#: sit on the measured ones; a triplet on a doublet's place correlates far less.
+_MISSHAPEN_MATCH = 0.8
 #: ... judged only where it is nearly alone (others' share of its window below this): elsewhere a
 #: neighbour's misfit is not its own.
 _ALONE = 0.2
@@ -180,7 +184,8 @@ def read_sites(grid, per_site, cols, amounts, base, basis, offsets, n_sites, lw_
         for s in range(n):
             u = per_site[o + s]
             own = amounts[k] * u
-            rows.append(_read_one(grid, u, grid.y - (model - own), signal - own, reach, noise_sd, model_error))
+            rows.append(_read_one(grid, u, grid.y - (model - own), signal - own, reach, noise_sd,
+                    model_error))
         out.append(rows)
     return out
 
@@ -253,7 +258,7 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic) -> Presence
     if mean > _MISSING_SD * plain_sd:
         missing = tuple(i for i in use if readings[i].envelope < _MISSING_SHARE * mean)
     misshapen = tuple(i for i in use if readings[i].overlap < _ALONE and readings[i].sigma > SEEN_SIGMA
-                      and readings[i].shape_misfit > _MISSHAPEN)
+                      and readings[i].shape_misfit > _MISSHAPEN and readings[i].shape < _MISSHAPEN_MATCH)
     missing = tuple(sorted(set(missing) | set(misshapen)))
     strong = max(detection_sigma, SEEN_SIGMA)
     if any(i in use and readings[i].sigma > strong for i in diagnostic):
