@@ -33,6 +33,7 @@ from confirm.fitting.assemble import (
     rank_fits,
     refined_amount_covariance,
 )
+from confirm.fitting.evidence import SEEN_SIGMA
 from confirm.fitting.grid import (
     baseline_basis,
     bin_factor,
@@ -47,7 +48,6 @@ from confirm.fitting.noise import estimate_line_width_hz, estimate_noise_sd, noi
 from confirm.fitting.nuisance import nuisance_models
 from confirm.fitting.options import FitOptions
 from confirm.fitting.refine import Refinement, blurred_view, resolve_linear
-from confirm.fitting.evidence import SEEN_SIGMA
 from confirm.fitting.refit import refit_without
 from confirm.fitting.search import resweep, search_assignments
 from confirm.fitting.swaps import settle_swaps
@@ -129,7 +129,8 @@ def _fit(spectrum, systems, candidates, noise_sd, options: FitOptions, budget) -
         raise InputError(f"noise_sd: must be a positive number, got {noise_sd!r}")
     lw = options.line_width_hz or estimate_line_width_hz(spectrum, noise_sd=noise)
     models = [build_model(s, options) for s in systems]
-    masks, notes = ([], []) if not options.mask_solvent else mask_intervals(spectrum.solvent, field, lw, models)
+    masks, notes = ([], []) if not options.mask_solvent else mask_intervals(spectrum.solvent, field, lw,
+            models)
     intervals = fit_intervals(models, field, lw)
     # the refinement models the solvent, water and TMS lines instead of masking them (see nuisance)
     nuisances = nuisance_models(spectrum.solvent, intervals) if options.mask_solvent else []
@@ -167,14 +168,16 @@ def _fit(spectrum, systems, candidates, noise_sd, options: FitOptions, budget) -
     spectrum, grid, basis, refined, phase_deg = _take_out_phase(spectrum, grid, basis, refined, intervals,
                                                                 fit_masks, factor, options)
     if phase_deg > _MIN_PHASE_DEG:
-        notes = list(notes) + [f"a residual phase error of up to {phase_deg:.1f} degrees was measured and corrected"]
+        notes = list(notes) + [
+            f"a residual phase error of up to {phase_deg:.1f} degrees was measured and corrected"]
     check_budget(budget, "fit: reading the multiplets")
     # the evidence and the amounts are read on a copy blurred a little (see refine.blurred_view)
     view_grid = build_grid(spectrum, intervals, fit_masks, factor=factor, blur_hz=_READING_BLUR_HZ,
                            with_dispersion=options.fit_phase)
     view_basis = baseline_basis(view_grid, options.baseline_degree, phase=options.fit_phase)
     views = [blurred_view(r, view_grid, view_basis, fit_models, field, _READING_BLUR_HZ) for r in refined]
-    refined, views = _without_rejected(refined, views, view_grid, view_basis, len(candidates), grid, basis, fit_models,
+    refined, views = _without_rejected(refined, views, view_grid, view_basis, len(candidates), grid,
+            basis, fit_models,
                                        mid_view, field, lw, noise_bin * corr, options)
     return _assemble(spectrum, systems, candidates, fit_models, grid, basis, refined, views, view_grid,
                      view_basis, fit_masks, notes, noise_bin, corr, options, lw)
@@ -207,7 +210,8 @@ def _take_out_phase(spectrum, grid, basis, refined, intervals, masks, factor, op
         return spectrum, grid, basis, refined, 0.0
     new_grid = build_grid(corrected, intervals, masks, factor=factor, with_dispersion=True)
     new_basis = baseline_basis(new_grid, options.baseline_degree, phase=True)
-    return corrected, new_grid, new_basis, [resolve_linear(r, new_grid, new_basis) for r in refined], phase_deg
+    return corrected, new_grid, new_basis, [resolve_linear(r, new_grid,
+            new_basis) for r in refined], phase_deg
 
 
 #: Extra width (Hz) of the copy on which sites are moved again after the refinement: at full
@@ -253,7 +257,8 @@ def _binned_noise(spectrum: Spectrum, factor: int) -> tuple[float, float]:
     return estimate_noise_sd(binned), noise_correlation_factor(binned)
 
 
-def _assemble(spectrum, systems, candidates, models, grid, basis, refined, views, view_grid, view_basis, masks,
+def _assemble(spectrum, systems, candidates, models, grid, basis, refined, views, view_grid, view_basis,
+        masks,
               notes, noise_bin, corr, options, lw_hz) -> MixtureFit:
     field = float(spectrum.field_mhz)
     n_points = max(1.0, float(np.sum(grid.weight > 0)))
@@ -269,8 +274,11 @@ def _assemble(spectrum, systems, candidates, models, grid, basis, refined, views
     settings = {"noise_sd": noise_bin * corr, "model_error": options.model_error,
                 "detection_sigma": options.detection_sigma, "lw_ppm": (lw_hz + _READING_BLUR_HZ) / field,
                 "uncertainty_scale": options.uncertainty_scale}
-    ev = evaluate(views[0], models, view_grid, view_basis, amount_cov=refined_amount_covariance(best), **settings)
-    ev = _with_resolution_spread(ev, best, grid, basis, models, noise_bin * corr, options.model_error, lw_hz / field)
+    ev = evaluate(views[0], models, view_grid, view_basis, amount_cov=refined_amount_covariance(best),
+            **settings)
+    ev = _with_resolution_spread(ev, best, grid, basis, models, noise_bin * corr, options.model_error,
+            lw_hz / field)
+    ev = _with_carrier_spread(ev)
     evaluations = [ev] + [_evaluate_with(views[i], models, view_grid, view_basis, ev.detected, settings)
                           for i in kept[1:]]
     k = len(candidates)
@@ -301,12 +309,14 @@ def _assemble(spectrum, systems, candidates, models, grid, basis, refined, views
     )
 
 
-def _without_rejected(refined, views, view_grid, view_basis, n_candidates, grid, basis, models, mid_view, field,
+def _without_rejected(refined, views, view_grid, view_basis, n_candidates, grid, basis, models, mid_view,
+        field,
                       lw, noise, options):
     """The fits, refitted once without the candidates the evidence rejects although they carry clear
     signal (see :mod:`confirm.fitting.refit`); unchanged when there is none."""
     best = int(np.argmin([r.objective for r in refined]))
-    settings = {"noise_sd": noise, "model_error": options.model_error, "detection_sigma": options.detection_sigma,
+    settings = {"noise_sd": noise, "model_error": options.model_error,
+            "detection_sigma": options.detection_sigma,
                 "lw_ppm": (lw + _READING_BLUR_HZ) / field, "uncertainty_scale": options.uncertainty_scale}
     ev = evaluate(views[best], models, view_grid, view_basis, **settings)
     rejected = [k for k in range(n_candidates) if not ev.detected[k]
@@ -319,7 +329,8 @@ def _without_rejected(refined, views, view_grid, view_basis, n_candidates, grid,
     return [again], [blurred_view(again, view_grid, view_basis, models, field, _READING_BLUR_HZ)]
 
 
-def _with_resolution_spread(ev, refined, grid, basis, models, noise_sd: float, model_error: float, lw_ppm: float):
+def _with_resolution_spread(ev, refined, grid, basis, models, noise_sd: float, model_error: float,
+        lw_ppm: float):
     """``ev`` with the change of each amount between the blurred copy and full resolution added
     to its variance.
 
@@ -336,6 +347,24 @@ def _with_resolution_spread(ev, refined, grid, basis, models, noise_sd: float, m
     var = point_variance(noise_sd, refined.amounts @ refined.cols, model_error)
     fine, _, _ = weighted_fit(refined.cols, basis, grid, var, ev.detected | nuisance)
     spread = np.where(ev.detected, ev.amounts - fine, 0.0)
+    return replace(ev, cov=ev.cov + np.diag(spread**2))
+
+
+def _with_carrier_spread(ev):
+    """``ev`` with the difference between each detected amount and the amount its multiplets seen
+    on their own read (``Presence.amount``) added to its variance.
+
+    The whole-spectrum amount also draws on multiplets that share their lines with others (two
+    methyl doublets 2 Hz apart at 60 MHz); where the clean multiplets say something else, the
+    split of the shared lines is what decides the amount, and the data do not fix it."""
+    from dataclasses import replace
+
+    spread = np.zeros(ev.amounts.size)
+    for k, p in enumerate(ev.presence):
+        if k < ev.amounts.size and ev.detected[k] and p.seen and np.isfinite(p.amount):
+            spread[k] = ev.amounts[k] - p.amount
+    if not spread.any():
+        return ev
     return replace(ev, cov=ev.cov + np.diag(spread**2))
 
 
@@ -392,7 +421,8 @@ def _quality(grid, model, resid, noise_bin, corr, best, unknown, spectrum, noise
     y = grid.y[w]
     ss_tot = float(np.sum((y - y.mean()) ** 2)) or 1.0
     strong = w & (np.abs(grid.y) > 10 * noise_bin * corr)
-    explained = 1.0 - float(np.sum(np.abs(resid[strong]))) / max(float(np.sum(np.abs(grid.y[strong]))), 1e-300)
+    explained = 1.0 - float(np.sum(np.abs(resid[strong]))) / max(float(np.sum(np.abs(grid.y[strong]))),
+            1e-300)
     dof = max(1.0, float(w.sum()) - best.theta.size)
     y_all = np.asarray(spectrum.intensity, dtype=float)
     return {
