@@ -150,7 +150,8 @@ def _compare(reference: dict, other: dict) -> tuple[float, list[str]]:
 
 
 def main(argv=None) -> int:
-    parser = argparse.ArgumentParser(prog="python -m benchmarks.stability", description=__doc__.split("\n")[0])
+    parser = argparse.ArgumentParser(prog="python -m benchmarks.stability",
+            description=__doc__.split("\n")[0])
     parser.add_argument("--cases", type=int, default=30, help="corpus cases besides the demo")
     parser.add_argument("--worker", action="store_true", help=argparse.SUPPRESS)
     parser.add_argument("--workers", type=int, default=2, help=argparse.SUPPRESS)

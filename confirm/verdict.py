@@ -154,7 +154,8 @@ def _ez_ratios(fit, facts, vinyl_overlapped):
         ratio = _ratio(fit, "E:Z" if len(groups) == 1 else f"E:Z {name}", "E", "Z", e, z)
         decided = ratio.decided
         if ratio.is_bound:
-            unresolved.append(f"E/Z of {name}: an isomer not detected may still be present up to its upper bound")
+            unresolved.append(f"E/Z of {name}: an isomer not detected may still be present "
+                              "up to its upper bound")
             steps.append("a spectrum with higher signal-to-noise (more scans) or at higher field")
         elif not decided:
             unresolved.append(f"E/Z of {name}: the ratio is uncertain by more than 20 points")

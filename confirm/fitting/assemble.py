@@ -19,7 +19,8 @@ import numpy as np
 from confirm.fitting.evidence import decide_presence, point_variance, read_sites, weighted_fit
 from predictors.core import ComponentFit, SiteEvidence
 
-__all__ = ["Evaluation", "evaluate", "rank_fits", "fit_weights", "fraction_covariance", "refined_amount_covariance"]
+__all__ = ["Evaluation", "evaluate", "rank_fits", "fit_weights", "fraction_covariance",
+        "refined_amount_covariance"]
 
 import os as _os
 
@@ -81,7 +82,8 @@ def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: floa
     n_sites = [m.n_sites for m in models]
     everyone = np.ones(len(models), bool)
     amounts_all, base_all, _ = weighted_fit(refined.cols, basis, grid, var, everyone)
-    readings = read_sites(grid, refined.per_site, refined.cols, amounts_all, base_all, basis, offsets, n_sites,
+    readings = read_sites(grid, refined.per_site, refined.cols, amounts_all, base_all, basis, offsets,
+            n_sites,
                           lw_ppm, noise_sd=noise_sd, model_error=model_error)
     presence = tuple(
         decide_presence(r, detection_sigma=detection_sigma, diagnostic=diagnostic_sites(m))
@@ -167,7 +169,8 @@ def component_fits(candidates, systems, models, refined, ev: Evaluation, frac, f
             bound = p.upper if np.isfinite(p.upper) else np.inf
             upper = 1.0 if not np.isfinite(bound) or total + bound <= 0 else float(bound / (total + bound))
         lod_amount = detection_sigma * p.amount_sd if np.isfinite(p.amount_sd) else np.inf
-        lod = 1.0 if not np.isfinite(lod_amount) or total + lod_amount <= 0 else lod_amount / (total + lod_amount)
+        lod = (1.0 if not np.isfinite(lod_amount) or total + lod_amount <= 0
+               else lod_amount / (total + lod_amount))
         shifts, jvals = lay.shifts(refined.theta)[k], lay.jvals(refined.theta)[k]
         sites = _site_evidence(system, model, ev.readings[k], p, shifts, jvals, total)
         out.append(ComponentFit(

@@ -98,7 +98,8 @@ def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float
     reach = np.asarray(reach)
     span = int(np.ceil(float(reach.max()) * gamma_max / grid.dx_ppm)) + 1
     step = grid.dx_ppm
-    x = np.concatenate([grid.x[0] - step * np.arange(span, 0, -1), grid.x, grid.x[-1] + step * np.arange(1, span + 2)])
+    x = np.concatenate([grid.x[0] - step * np.arange(span, 0, -1), grid.x,
+            grid.x[-1] + step * np.arange(1, span + 2)])
     width_total = n + 2 * span + 1
     centre = np.searchsorted(grid.x, ppm) + span
     wgroup = np.zeros(ppm.size, int) if width_group is None else np.asarray(width_group, int)
@@ -143,7 +144,8 @@ def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float
                 flat.append((p["idx"][i, cols] + width_total * rows[:, None]).ravel())
                 vals.append((p["dpos"][i, cols] * weights[rows, p["lines"][i]][:, None]).ravel())
         n_extra = weights.shape[0]
-        table = np.bincount(np.concatenate(flat), weights=np.concatenate(vals), minlength=width_total * n_extra)
+        table = np.bincount(np.concatenate(flat), weights=np.concatenate(vals),
+                minlength=width_total * n_extra)
         dextra = np.ascontiguousarray(table.reshape(n_extra, width_total)[:, span : span + n])
     return Drawn(values, dpos, dwidth, dgauss, dextra)
 

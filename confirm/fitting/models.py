@@ -137,7 +137,8 @@ def _merge_remote_pairs(system: SpinSystem, keep: list, j: np.ndarray) -> list:
     carbon = {}
     for i in keep:
         atoms = system.sites[i].atoms
-        if len(atoms) == 1 and atoms[0] < mol_h.GetNumAtoms() and mol_h.GetAtomWithIdx(atoms[0]).GetAtomicNum() == 1:
+        if (len(atoms) == 1 and atoms[0] < mol_h.GetNumAtoms()
+                and mol_h.GetAtomWithIdx(atoms[0]).GetAtomicNum() == 1):
             carbon[i] = mol_h.GetAtomWithIdx(atoms[0]).GetNeighbors()[0]
     groups, used = [], set()
     for i in keep:

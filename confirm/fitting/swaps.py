@@ -110,7 +110,8 @@ def _suspect_swaps(grid, basis, models, refined: Refined, noise_sd: float, model
             pa, pb = shifts[k][s], shifts[k2][s2]
             if j == i or nuisance[j] or abs(pa - pb) <= 2 * width or not np.isfinite(sd[j]):
                 continue
-            if abs(pb - models[k].shift0[s]) > models[k].window[s] or abs(pa - models[k2].shift0[s2]) > models[k2].window[s2]:
+            if (abs(pb - models[k].shift0[s]) > models[k].window[s]
+                    or abs(pa - models[k2].shift0[s2]) > models[k2].window[s2]):
                 continue
             before = ((a[i] - own[i]) / sd[i]) ** 2 + ((a[j] - own[j]) / sd[j]) ** 2
             after = ((a[i] - own[j]) / sd[i]) ** 2 + ((a[j] - own[i]) / sd[j]) ** 2

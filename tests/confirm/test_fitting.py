@@ -68,7 +68,8 @@ def fit_perturbed(spectrum, compounds, *, j_offset_hz=0.6, seed=0, **kw):
     """Fit with published systems moved away from the truth: shifts by ~0.04 ppm (sd 0.08 stated),
     every coupling by ``j_offset_hz``."""
     systems = [
-        published_system(c, shift_sd_ppm=0.08, shift_offsets_ppm=_offsets(c, seed + i), j_offsets_hz=j_offset_hz)
+        published_system(c, shift_sd_ppm=0.08, shift_offsets_ppm=_offsets(c, seed + i),
+                j_offsets_hz=j_offset_hz)
         for i, c in enumerate(compounds)
     ]
     return fit_mixture(spectrum, systems, [published_candidate(c) for c in compounds], **kw)
@@ -191,8 +192,10 @@ def test_the_result_does_not_depend_on_workers_or_rounding():
     compounds = [E_CROTONATE, Z_CROTONATE, BUTENOATE]
     one = fit_perturbed(spectrum, compounds, options=FitOptions(n_workers=1))
     two = fit_perturbed(spectrum, compounds, options=FitOptions(n_workers=2))
-    y = np.asarray(spectrum.intensity) * (1 + 1e-9 * np.random.default_rng(1).standard_normal(spectrum.ppm.size))
-    nudged = fit_perturbed(Spectrum(ppm=spectrum.ppm, intensity=y, field_mhz=400.0, solvent="CDCl3"), compounds)
+    noise = np.random.default_rng(1).standard_normal(spectrum.ppm.size)
+    y = np.asarray(spectrum.intensity) * (1 + 1e-9 * noise)
+    nudged = fit_perturbed(Spectrum(ppm=spectrum.ppm, intensity=y, field_mhz=400.0, solvent="CDCl3"),
+            compounds)
     for other in (two, nudged):
         assert [c.detected for c in other.components] == [c.detected for c in one.components]
         assert np.max(np.abs(_values(other) - _values(one))) < 1e-3
