@@ -117,8 +117,29 @@ def fit_mixture(
     systems, candidates = _check_inputs(spectrum, systems, candidates)
     # many small matrix products: threaded BLAS only waits for time slices (and one thread gives the
     # same rounding whatever the machine's thread count)
+    # the fit sees the candidates in one canonical order, so the answer does not depend on the
+    # order they were given in (the search breaks ties and draws its starts in model order)
+    order = sorted(range(len(candidates)), key=lambda i: (candidates[i].smiles, candidates[i].label, i))
     with one_blas_thread():
-        return _fit(spectrum, systems, candidates, noise_sd, options, budget)
+        fit = _fit(spectrum, [systems[i] for i in order], [candidates[i] for i in order], noise_sd,
+                   options, budget)
+    return _in_given_order(fit, order)
+
+
+def _in_given_order(fit: MixtureFit, order: list) -> MixtureFit:
+    """``fit`` (candidates in ``order``) with its per-candidate parts back in the given order."""
+    from dataclasses import replace
+
+    if order == sorted(order):
+        return fit
+    back = np.argsort(order)
+    cov = fit.fraction_covariance
+    return replace(
+        fit,
+        components=tuple(fit.components[i] for i in back),
+        fraction_covariance=None if cov is None else np.asarray(cov)[np.ix_(back, back)],
+        alternative_fractions=tuple(tuple(a[i] for i in back) for a in fit.alternative_fractions),
+    )
 
 
 def _fit(spectrum, systems, candidates, noise_sd, options: FitOptions, budget) -> MixtureFit:

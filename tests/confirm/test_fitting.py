@@ -201,6 +201,22 @@ def test_the_result_does_not_depend_on_workers_or_rounding():
         assert np.max(np.abs(_values(other) - _values(one))) < 1e-3
 
 
+def test_the_result_does_not_depend_on_the_order_of_the_candidates():
+    """The candidates given in reverse order: the same answer, reported in the order given."""
+    mix = ((E_CROTONATE, 0.9), (Z_CROTONATE, 0.1))
+    spectrum = render_mixture(mix, field_mhz=400.0, n=16384, snr=300.0, seed=13)
+    compounds = [E_CROTONATE, Z_CROTONATE, BUTENOATE]
+    systems = [published_system(c, shift_sd_ppm=0.08, shift_offsets_ppm=_offsets(c, i), j_offsets_hz=0.6)
+               for i, c in enumerate(compounds)]
+    given = fit_mixture(spectrum, systems, [published_candidate(c) for c in compounds])
+    back = fit_mixture(spectrum, systems[::-1], [published_candidate(c) for c in compounds[::-1]])
+    assert [c.candidate.smiles for c in back.components] == [c.smiles for c in compounds[::-1]]
+    assert [c.detected for c in back.components][::-1] == [c.detected for c in given.components]
+    assert np.max(np.abs(_values(back)[::-1] - _values(given))) < 1e-3
+    cov, cov_back = given.fraction_covariance, back.fraction_covariance
+    assert np.allclose(cov_back[::-1, ::-1], cov, atol=1e-6)
+
+
 def test_noise_estimate_matches_known_noise():
     rng = np.random.default_rng(1)
     y = rng.standard_normal(65536) * 3.0
