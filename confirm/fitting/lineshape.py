@@ -95,7 +95,7 @@ def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float
     gamma_max = float(fwhm.max()) / 2
     if reach is None:
         reach = np.where(near, _NEAR_HALF_WIDTHS, _FAR_HALF_WIDTHS)
-    reach = np.asarray(reach)
+    reach = np.broadcast_to(np.asarray(reach), ppm.shape)
     span = int(np.ceil(float(reach.max()) * gamma_max / grid.dx_ppm)) + 1
     step = grid.dx_ppm
     x = np.concatenate([grid.x[0] - step * np.arange(span, 0, -1), grid.x,
@@ -105,9 +105,12 @@ def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float
     wgroup = np.zeros(ppm.size, int) if width_group is None else np.asarray(width_group, int)
     wt = np.ones(ppm.size) if weight is None else np.asarray(weight, dtype=float)
     parts = []
-    for half_widths in np.unique(reach):
-        sel = reach == half_widths
-        points = int(np.ceil(float(half_widths) * gamma_max / grid.dx_ppm)) + 1
+    # lines are drawn in classes of reach and width (within a factor 2), each over the points its
+    # own widest line needs: one broad line (water) must not widen the table of every narrow one
+    width_class = np.floor(np.log2(np.maximum(fwhm, 1e-300) / float(fwhm.min()))).astype(int)
+    for half_widths, wclass in sorted(set(zip(reach.tolist(), width_class.tolist(), strict=True))):
+        sel = (reach == half_widths) & (width_class == wclass)
+        points = int(np.ceil(float(half_widths) * float(fwhm[sel].max()) / 2 / grid.dx_ppm)) + 1
         if sel.any():
             table = _line_table(x, centre[sel], ppm[sel], inten[sel], fwhm[sel], gauss, points,
                                 grid.curvature_ppm2, derivs, wt[sel])
@@ -116,7 +119,8 @@ def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float
             parts.append(table)
 
     def _accumulate(item: str, rows: str, n_rows: int) -> np.ndarray:
-        flat = np.concatenate([(p["idx"] + width_total * p[rows][:, None]).ravel() for p in parts])
+        key = "idx" if item == "val" else "didx"
+        flat = np.concatenate([(p[key] + width_total * p[rows][:, None]).ravel() for p in parts])
         weights = np.concatenate([p[item].ravel() for p in parts])
         table = np.bincount(flat, weights=weights, minlength=width_total * n_rows)
         return np.ascontiguousarray(table.reshape(n_rows, width_total)[:, span : span + n])
@@ -139,9 +143,9 @@ def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float
         for p in parts:
             rows, i = np.nonzero(keep[:, p["lines"]] & (weights[:, p["lines"]] != 0))
             if rows.size:
-                mid = p["idx"].shape[1] // 2
+                mid = p["didx"].shape[1] // 2
                 cols = slice(max(0, mid - core), mid + core + 1)
-                flat.append((p["idx"][i, cols] + width_total * rows[:, None]).ravel())
+                flat.append((p["didx"][i, cols] + width_total * rows[:, None]).ravel())
                 vals.append((p["dpos"][i, cols] * weights[rows, p["lines"][i]][:, None]).ravel())
         n_extra = weights.shape[0]
         table = np.bincount(np.concatenate(flat), weights=np.concatenate(vals),
@@ -192,12 +196,25 @@ def _line_table(x, centre, ppm, inten, fwhm, gauss: float, reach: int, curvature
         val[:, core] += gauss * (gau + curvature * gau * (u2c - sig * sig) / sig**4)
     if not derivs:
         return {"idx": idx, "val": amp * val}
+    # the derivatives steer the refinement (the residual itself is always exact): they are drawn
+    # over +-10 half-widths of the widest line, where they hold all but a few % of their weight
+    half = int(np.ceil(_NEAR_HALF_WIDTHS * float(gamma.max()) / step)) + 1
+    dcore = slice(max(0, reach - half), reach + half + 1)
+    u, u2, den, lor = u[:, dcore], u2[:, dcore], den[:, dcore], lor[:, dcore]
     dpos = (1 - gauss) * 2 * gamma / np.pi * u / (den * den)
     dwidth = (1 - gauss) * 0.5 * (u2 - gamma * gamma) / np.pi / (den * den)
     dgauss = -lor
-    dgauss[:, core] += gau
-    if gauss > 0:
-        dpos[:, core] += gauss * gau * uc / (sig * sig)
-        dwidth[:, core] += gauss * gau * (u2c / sig**3 - 1 / sig) * _SIGMA_PER_FWHM
+    # the Gaussian core in the derivative window's coordinates
+    g0 = max(core.start, dcore.start)
+    g1 = min(core.stop, dcore.stop)
+    if g1 > g0:
+        in_d = slice(g0 - dcore.start, g1 - dcore.start)
+        in_c = slice(g0 - core.start, g1 - core.start)
+        gd, ucd, u2cd = gau[:, in_c], uc[:, in_c], u2c[:, in_c]
+        dgauss[:, in_d] += gd
+        if gauss > 0:
+            dpos[:, in_d] += gauss * gd * ucd / (sig * sig)
+            dwidth[:, in_d] += gauss * gd * (u2cd / sig**3 - 1 / sig) * _SIGMA_PER_FWHM
     w = amp * wt[:, None]
-    return {"idx": idx, "val": amp * val, "dpos": amp * dpos, "dwidth": w * dwidth, "dgauss": w * dgauss}
+    return {"idx": idx, "didx": idx[:, dcore], "val": amp * val, "dpos": amp * dpos, "dwidth": w * dwidth,
+            "dgauss": w * dgauss}
