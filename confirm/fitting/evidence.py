@@ -259,7 +259,12 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic) -> Presence
         missing = tuple(i for i in use if readings[i].envelope < _MISSING_SHARE * mean)
     misshapen = tuple(i for i in use if readings[i].overlap < _ALONE and readings[i].sigma > SEEN_SIGMA
                       and readings[i].shape_misfit > _MISSHAPEN and readings[i].shape < _MISSHAPEN_MATCH)
-    missing = tuple(sorted(set(missing) | set(misshapen)))
+    # one misshapen multiplet from a wrong predicted coupling (a ring CH2 deep in a second-order
+    # pattern) does not veto a molecule whose other multiplets stand; a misshapen diagnostic one
+    # (the vinyl H of an alkene) does, and so do misshapen multiplets making up half of them
+    specific = set(diagnostic) if len(diagnostic) < len(readings) else set()
+    veto = set(misshapen) if 2 * len(misshapen) >= len(use) else set(misshapen) & specific
+    missing = tuple(sorted(set(missing) | veto))
     strong = max(detection_sigma, SEEN_SIGMA)
     if any(i in use and readings[i].sigma > strong for i in diagnostic):
         # a diagnostic multiplet stands 5 sd clear, on its own or with the others' share taken away
