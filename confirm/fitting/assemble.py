@@ -22,9 +22,6 @@ from predictors.core import ComponentFit, SiteEvidence
 __all__ = ["Evaluation", "evaluate", "rank_fits", "fit_weights", "fraction_covariance",
         "refined_amount_covariance"]
 
-import os as _os
-
-_OWN_MULTIPLETS = bool(_os.environ.get("CONFIRM_OWN_MULTIPLETS"))
 #: Fits whose weight falls below this are left out of the average.
 _MIN_WEIGHT = 1e-3
 #: Relative tolerance of the comparison of objectives (ties go to the earlier fit).
@@ -107,8 +104,6 @@ def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: floa
         cov[np.ix_(idx, idx)] = corr * np.outer(wanted, wanted)
     model = amounts @ refined.cols + basis @ base
     amounts = np.where(nuisance, 0.0, amounts)  # the components' amounts; the model keeps the rest
-    if _OWN_MULTIPLETS:
-        amounts = np.where(detected, [max(p.amount, 0.0) for p in presence], 0.0)
     return Evaluation(amounts, cov, base, detected, presence, readings, var, model)
 
 
