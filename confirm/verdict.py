@@ -105,12 +105,16 @@ def _share(fit: MixtureFit, num: Sequence[int], den: Sequence[int]) -> tuple[flo
     return float(share), float(np.sqrt(max(0.0, grad @ cov @ grad)))
 
 
-def _ratio(fit: MixtureFit, name: str, num_label: str, den_label: str, num, den) -> RatioEstimate:
+def _ratio(fit: MixtureFit, name: str, num_label: str, den_label: str, num, den, *,
+           isomers: bool = False) -> RatioEstimate:
     """The ratio of two groups; a bound, not decided, when a member is only bounded.
 
     Undetected members may hold up to their 95 % upper bound: with such members only in the
     denominator the share is at least a / (a + b + hidden), only in the numerator at most
-    (a + hidden) / (a + hidden + b), in both a range.
+    (a + hidden) / (a + hidden + b), in both a range. For geometric ``isomers`` (E against Z,
+    whose multiplets nearly coincide) an undetected member whose multiplets all lie under the
+    others' lines may hold any part of the signal the fit gave to the other isomer: the spectrum
+    does not bound that side of the ratio at all.
     """
     share, sd = _share(fit, num, den)
     x = np.array([c.share for c in fit.components])
@@ -118,14 +122,26 @@ def _ratio(fit: MixtureFit, name: str, num_label: str, den_label: str, num, den)
     up_num, up_den = _hidden(fit, num), _hidden(fit, den)
     low = a / (a + b + up_den) if up_den > 0 and a + b + up_den > 0 else None
     high = (a + up_num) / (a + up_num + b) if up_num > 0 and a + up_num + b > 0 else None
+    if isomers and _hidden(fit, den, under_others=True) > 0:
+        low = 0.0  # the whole of the other isomer's signal may be this one's
+    if isomers and _hidden(fit, num, under_others=True) > 0:
+        high = 1.0
     decided = low is None and high is None and not _undecided_by_bounds(share, sd)
     return RatioEstimate(name=name, numerator=num_label, denominator=den_label, share=share, share_sd=sd,
                          decided=decided, low=low, high=high)
 
 
-def _hidden(fit: MixtureFit, indices) -> float:
-    """Sum of the 95 % upper bounds of the undetected members."""
-    return float(sum(fit.components[i].upper_limit or 0.0 for i in indices if not fit.components[i].detected))
+def _hidden(fit: MixtureFit, indices, *, under_others: bool = False) -> float:
+    """Sum of the 95 % upper bounds of the undetected members (only of those whose multiplets all
+    lie under other components' lines, overlap >= 50 %, with ``under_others``)."""
+    def counts(c) -> bool:
+        if c.detected:
+            return False
+        if not under_others:
+            return True
+        return bool(c.site_evidence) and all(e.overlap >= 0.5 for e in c.site_evidence)
+
+    return float(sum(fit.components[i].upper_limit or 0.0 for i in indices if counts(fit.components[i])))
 
 
 def _undecided_by_bounds(share: float, sd: float) -> bool:
@@ -151,7 +167,7 @@ def _ez_ratios(fit, facts, vinyl_overlapped):
         if not any(fit.components[i].detected for i in members):
             continue
         name = _name(fit.components[e[0]].candidate)
-        ratio = _ratio(fit, "E:Z" if len(groups) == 1 else f"E:Z {name}", "E", "Z", e, z)
+        ratio = _ratio(fit, "E:Z" if len(groups) == 1 else f"E:Z {name}", "E", "Z", e, z, isomers=True)
         decided = ratio.decided
         if ratio.is_bound:
             unresolved.append(f"E/Z of {name}: an isomer not detected may still be present "

@@ -84,6 +84,9 @@ class SiteReading:
         The window's residual over what the noise and a 10 % error of the multiplet's own pattern
         allow (about 1 when the pattern fits, far above when it is the wrong multiplet: a triplet
         on a doublet).
+    envelope_all : float
+        Largest amount every main line supports against the data themselves, the other components'
+        signal included: the bound of a candidate whose multiplets all sit on others' lines.
     """
 
     ppm: float
@@ -95,6 +98,7 @@ class SiteReading:
     misfit: float
     usable: bool
     shape_misfit: float = 0.0
+    envelope_all: float = np.inf
 
     @property
     def sigma(self) -> float:
@@ -213,7 +217,8 @@ def _read_one(grid, u, d, others, reach: int, noise_sd: float, model_error: floa
     # widen the test that finds the absence
     margin_var = point_variance(noise_sd, others, model_error)
     envelope = _envelope(u, d, margin_var, window, reach, max(1.0, misfit))
-    return SiteReading(ppm, alpha, sd, envelope, shape, overlap, misfit, True, shape_misfit)
+    envelope_all = _envelope(u, d + others, margin_var, window, reach, max(1.0, misfit))
+    return SiteReading(ppm, alpha, sd, envelope, shape, overlap, misfit, True, shape_misfit, envelope_all)
 
 
 def _envelope(u, d, var, window, reach: int, misfit: float) -> float:
@@ -282,6 +287,12 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic) -> Presence
     envelopes = [readings[i].envelope for i in use if np.isfinite(readings[i].envelope)]
     if envelopes:
         upper = min(upper, max(min(envelopes), 0.0))
+    if all(readings[i].overlap >= _SEEN_OVERLAP for i in use):
+        # every multiplet sits on other components' lines: its reading is conditional on their
+        # amounts (an E isomer read under its Z isomer's lines), so only the data themselves bound it
+        shared = [readings[i].envelope_all for i in use if np.isfinite(readings[i].envelope_all)]
+        if shared:
+            upper = max(upper, min(shared))
     return Presence(mean, mean_sd, bool(present), missing, seen, float(upper))
 
 
