@@ -63,10 +63,15 @@ def _check_options(max_cluster_spins, cluster_ratio) -> tuple[int, float]:
             f"max_cluster_spins: expected a whole number from 1 to {_MAX_SPINS_ALLOWED}, "
             f"got {max_cluster_spins!r}"
         )
+    return int(max_cluster_spins), positive_number(cluster_ratio, "cluster_ratio")
+
+
+def positive_number(value, name: str) -> float:
+    """``value`` as a finite float > 0, or an InputError naming ``name``."""
     try:
-        ratio = float(cluster_ratio)
+        number = float(value)
     except (TypeError, ValueError):
-        raise InputError(f"cluster_ratio: expected a number, got {cluster_ratio!r}") from None
-    if not math.isfinite(ratio) or ratio <= 0:
-        raise InputError(f"cluster_ratio: expected a finite number > 0, got {cluster_ratio!r}")
-    return int(max_cluster_spins), ratio
+        raise InputError(f"{name}: expected a number, got {value!r}") from None
+    if not math.isfinite(number) or number <= 0:
+        raise InputError(f"{name}: expected a finite number > 0, got {value!r}")
+    return number

@@ -9,6 +9,7 @@ from scipy.special import erf
 
 from predictors.core import LineList, SpinSystem
 from predictors.errors import InputError
+from predictors.spin._checks import positive_number
 from predictors.spin.simulate import simulate_lines
 
 #: Allowed values of ``shape`` in the rendering functions.
@@ -94,12 +95,7 @@ def render_sites(lines: LineList, ppm, *, n_sites: int, line_width_hz: float, sh
         raise InputError(f"lines: expected a LineList, got {type(lines).__name__}")
     grid = _check_grid(ppm)
     eta = _gaussian_share(shape, gaussian_fraction)
-    try:
-        width = float(line_width_hz)
-    except (TypeError, ValueError):
-        raise InputError(f"line_width_hz: expected a number, got {line_width_hz!r}") from None
-    if not math.isfinite(width) or width <= 0:
-        raise InputError(f"line_width_hz: expected a finite number > 0, got {line_width_hz!r}")
+    width = positive_number(line_width_hz, "line_width_hz")
     if isinstance(n_sites, bool) or not isinstance(n_sites, (int, np.integer)) or n_sites < 1:
         raise InputError(f"n_sites: expected a whole number >= 1, got {n_sites!r}")
     if lines.site_index.size and (lines.site_index.min() < 0 or lines.site_index.max() >= n_sites):
