@@ -150,8 +150,9 @@ def _fit(spectrum, systems, candidates, noise_sd, options: FitOptions, budget) -
         raise InputError(f"noise_sd: must be a positive number, got {noise_sd!r}")
     lw = options.line_width_hz or estimate_line_width_hz(spectrum, noise_sd=noise)
     models = [build_model(s, options) for s in systems]
-    masks, notes = ([], []) if not options.mask_solvent else mask_intervals(spectrum.solvent, field, lw,
-            models)
+    masks, notes = ([], [])
+    if options.mask_solvent:
+        masks, notes = mask_intervals(spectrum.solvent, field, lw, models)
     intervals = fit_intervals(models, field, lw)
     # the refinement models the solvent, water and TMS lines instead of masking them (see nuisance)
     nuisances = nuisance_models(spectrum.solvent, intervals) if options.mask_solvent else []
@@ -197,9 +198,8 @@ def _fit(spectrum, systems, candidates, noise_sd, options: FitOptions, budget) -
                            with_dispersion=options.fit_phase)
     view_basis = baseline_basis(view_grid, options.baseline_degree, phase=options.fit_phase)
     views = [blurred_view(r, view_grid, view_basis, fit_models, field, _READING_BLUR_HZ) for r in refined]
-    refined, views = _without_rejected(refined, views, view_grid, view_basis, len(candidates), grid,
-            basis, fit_models,
-                                       mid_view, field, lw, noise_bin * corr, options)
+    refined, views = _without_rejected(refined, views, view_grid, view_basis, len(candidates), grid, basis,
+                                       fit_models, mid_view, field, lw, noise_bin * corr, options)
     return _assemble(spectrum, systems, candidates, fit_models, grid, basis, refined, views, view_grid,
                      view_basis, fit_masks, notes, noise_bin, corr, options, lw)
 
@@ -231,8 +231,8 @@ def _take_out_phase(spectrum, grid, basis, refined, intervals, masks, factor, op
         return spectrum, grid, basis, refined, 0.0
     new_grid = build_grid(corrected, intervals, masks, factor=factor, with_dispersion=True)
     new_basis = baseline_basis(new_grid, options.baseline_degree, phase=True)
-    return corrected, new_grid, new_basis, [resolve_linear(r, new_grid,
-            new_basis) for r in refined], phase_deg
+    refined = [resolve_linear(r, new_grid, new_basis) for r in refined]
+    return corrected, new_grid, new_basis, refined, phase_deg
 
 
 #: Extra width (Hz) of the copy on which sites are moved again after the refinement: at full
@@ -279,8 +279,7 @@ def _binned_noise(spectrum: Spectrum, factor: int) -> tuple[float, float]:
 
 
 def _assemble(spectrum, systems, candidates, models, grid, basis, refined, views, view_grid, view_basis,
-        masks,
-              notes, noise_bin, corr, options, lw_hz) -> MixtureFit:
+              masks, notes, noise_bin, corr, options, lw_hz) -> MixtureFit:
     field = float(spectrum.field_mhz)
     n_points = max(1.0, float(np.sum(grid.weight > 0)))
     costs = np.array([r.cost for r in refined])
@@ -296,9 +295,9 @@ def _assemble(spectrum, systems, candidates, models, grid, basis, refined, views
                 "detection_sigma": options.detection_sigma, "lw_ppm": (lw_hz + _READING_BLUR_HZ) / field,
                 "uncertainty_scale": options.uncertainty_scale}
     ev = evaluate(views[0], models, view_grid, view_basis, amount_cov=refined_amount_covariance(best),
-            **settings)
+                  **settings)
     ev = _with_resolution_spread(ev, best, grid, basis, models, noise_bin * corr, options.model_error,
-            lw_hz / field)
+                                 lw_hz / field)
     ev = _with_carrier_spread(ev)
     evaluations = [ev] + [_evaluate_with(views[i], models, view_grid, view_basis, ev.detected, settings)
                           for i in kept[1:]]
@@ -331,13 +330,12 @@ def _assemble(spectrum, systems, candidates, models, grid, basis, refined, views
 
 
 def _without_rejected(refined, views, view_grid, view_basis, n_candidates, grid, basis, models, mid_view,
-        field,
-                      lw, noise, options):
+                      field, lw, noise, options):
     """The fits, refitted once without the candidates the evidence rejects although they carry clear
     signal (see :mod:`confirm.fitting.refit`); unchanged when there is none."""
     best = int(np.argmin([r.objective for r in refined]))
     settings = {"noise_sd": noise, "model_error": options.model_error,
-            "detection_sigma": options.detection_sigma,
+                "detection_sigma": options.detection_sigma,
                 "lw_ppm": (lw + _READING_BLUR_HZ) / field, "uncertainty_scale": options.uncertainty_scale}
     ev = evaluate(views[best], models, view_grid, view_basis, **settings)
     rejected = [k for k in range(n_candidates) if not ev.detected[k]
@@ -351,7 +349,7 @@ def _without_rejected(refined, views, view_grid, view_basis, n_candidates, grid,
 
 
 def _with_resolution_spread(ev, refined, grid, basis, models, noise_sd: float, model_error: float,
-        lw_ppm: float):
+                            lw_ppm: float):
     """``ev`` with the change of each amount between the blurred copy and full resolution added
     to its variance.
 
@@ -382,7 +380,7 @@ def _with_carrier_spread(ev):
 
     spread = np.zeros(ev.amounts.size)
     for k, p in enumerate(ev.presence):
-        if k < ev.amounts.size and ev.detected[k] and p.seen and np.isfinite(p.amount):
+        if ev.detected[k] and p.seen and np.isfinite(p.amount):
             spread[k] = ev.amounts[k] - p.amount
     if not spread.any():
         return ev
@@ -442,8 +440,8 @@ def _quality(grid, model, resid, noise_bin, corr, best, unknown, spectrum, noise
     y = grid.y[w]
     ss_tot = float(np.sum((y - y.mean()) ** 2)) or 1.0
     strong = w & (np.abs(grid.y) > 10 * noise_bin * corr)
-    explained = 1.0 - float(np.sum(np.abs(resid[strong]))) / max(float(np.sum(np.abs(grid.y[strong]))),
-            1e-300)
+    strong_signal = max(float(np.sum(np.abs(grid.y[strong]))), 1e-300)
+    explained = 1.0 - float(np.sum(np.abs(resid[strong]))) / strong_signal
     dof = max(1.0, float(w.sum()) - best.theta.size)
     y_all = np.asarray(spectrum.intensity, dtype=float)
     return {

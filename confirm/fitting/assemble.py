@@ -20,7 +20,7 @@ from confirm.fitting.evidence import decide_presence, point_variance, read_sites
 from predictors.core import ComponentFit, SiteEvidence
 
 __all__ = ["Evaluation", "evaluate", "rank_fits", "fit_weights", "fraction_covariance",
-        "refined_amount_covariance"]
+           "refined_amount_covariance"]
 
 #: Fits whose weight falls below this are left out of the average.
 _MIN_WEIGHT = 1e-3
@@ -80,8 +80,7 @@ def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: floa
     everyone = np.ones(len(models), bool)
     amounts_all, base_all, _ = weighted_fit(refined.cols, basis, grid, var, everyone)
     readings = read_sites(grid, refined.per_site, refined.cols, amounts_all, base_all, basis, offsets,
-            n_sites,
-                          lw_ppm, noise_sd=noise_sd, model_error=model_error)
+                          n_sites, lw_ppm, noise_sd=noise_sd, model_error=model_error)
     presence = tuple(
         decide_presence(r, detection_sigma=detection_sigma, diagnostic=diagnostic_sites(m))
         for r, m in zip(readings, models, strict=True)

@@ -189,7 +189,7 @@ def read_sites(grid, per_site, cols, amounts, base, basis, offsets, n_sites, lw_
             u = per_site[o + s]
             own = amounts[k] * u
             rows.append(_read_one(grid, u, grid.y - (model - own), signal - own, reach, noise_sd,
-                    model_error))
+                                  model_error))
         out.append(rows)
     return out
 
@@ -270,12 +270,13 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic) -> Presence
     specific = set(diagnostic) if len(diagnostic) < len(readings) else set()
     veto = set(misshapen) if 2 * len(misshapen) >= len(use) else set(misshapen) & specific
     missing = tuple(sorted(set(missing) | veto))
+    crowded = all(readings[i].overlap >= _SEEN_OVERLAP for i in use)
     strong = max(detection_sigma, SEEN_SIGMA)
     if any(i in use and readings[i].sigma > strong for i in diagnostic):
         # a diagnostic multiplet stands 5 sd clear, on its own or with the others' share taken away
         # (its sd then carries their model error)
         evidence = True
-    elif all(readings[i].overlap >= _SEEN_OVERLAP for i in use):
+    elif crowded:
         # every multiplet shares its window with others (a crowded low-field spectrum): nothing
         # could be seen on its own, so the combination must stand 5 sd clear
         evidence = mean > SEEN_SIGMA * mean_sd
@@ -287,7 +288,7 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic) -> Presence
     envelopes = [readings[i].envelope for i in use if np.isfinite(readings[i].envelope)]
     if envelopes:
         upper = min(upper, max(min(envelopes), 0.0))
-    if all(readings[i].overlap >= _SEEN_OVERLAP for i in use):
+    if crowded:
         # every multiplet sits on other components' lines: its reading is conditional on their
         # amounts (an E isomer read under its Z isomer's lines), so only the data themselves bound it
         shared = [readings[i].envelope_all for i in use if np.isfinite(readings[i].envelope_all)]

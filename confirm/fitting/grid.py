@@ -16,8 +16,7 @@ from predictors.core import Spectrum
 from predictors.errors import FitError
 
 __all__ = ["Grid", "fit_intervals", "mask_intervals", "build_grid", "baseline_basis", "blur_spectrum",
-        "bin_factor",
-           "rephase"]
+           "bin_factor", "rephase"]
 
 #: 1J(C,H) (Hz) of the widest-spaced satellites considered when a region is laid out.
 _SATELLITE_REACH_HZ = 160.0

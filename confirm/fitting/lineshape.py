@@ -99,7 +99,7 @@ def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float
     span = int(np.ceil(float(reach.max()) * gamma_max / grid.dx_ppm)) + 1
     step = grid.dx_ppm
     x = np.concatenate([grid.x[0] - step * np.arange(span, 0, -1), grid.x,
-            grid.x[-1] + step * np.arange(1, span + 2)])
+                        grid.x[-1] + step * np.arange(1, span + 2)])
     width_total = n + 2 * span + 1
     centre = np.searchsorted(grid.x, ppm) + span
     wgroup = np.zeros(ppm.size, int) if width_group is None else np.asarray(width_group, int)
@@ -111,12 +111,11 @@ def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float
     for half_widths, wclass in sorted(set(zip(reach.tolist(), width_class.tolist(), strict=True))):
         sel = (reach == half_widths) & (width_class == wclass)
         points = int(np.ceil(float(half_widths) * float(fwhm[sel].max()) / 2 / grid.dx_ppm)) + 1
-        if sel.any():
-            table = _line_table(x, centre[sel], ppm[sel], inten[sel], fwhm[sel], gauss, points,
-                                grid.curvature_ppm2, derivs, wt[sel])
-            table.update(group=group[sel], wgroup=wgroup[sel], shape=np.zeros(int(sel.sum()), int),
-                         lines=np.flatnonzero(sel))
-            parts.append(table)
+        table = _line_table(x, centre[sel], ppm[sel], inten[sel], fwhm[sel], gauss, points,
+                            grid.curvature_ppm2, derivs, wt[sel])
+        table.update(group=group[sel], wgroup=wgroup[sel], shape=np.zeros(int(sel.sum()), int),
+                     lines=np.flatnonzero(sel))
+        parts.append(table)
 
     def _accumulate(item: str, rows: str, n_rows: int) -> np.ndarray:
         key = "idx" if item == "val" else "didx"
@@ -149,7 +148,7 @@ def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float
                 vals.append((p["dpos"][i, cols] * weights[rows, p["lines"][i]][:, None]).ravel())
         n_extra = weights.shape[0]
         table = np.bincount(np.concatenate(flat), weights=np.concatenate(vals),
-                minlength=width_total * n_extra)
+                            minlength=width_total * n_extra)
         dextra = np.ascontiguousarray(table.reshape(n_extra, width_total)[:, span : span + n])
     return Drawn(values, dpos, dwidth, dgauss, dextra)
 

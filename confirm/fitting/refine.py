@@ -11,7 +11,8 @@ amount stays at its prediction instead of wandering with rounding.
 Within a round every line moves with its site's shift and with each refined coupling by its exact
 first-order derivative (from the spin simulation); between rounds the spin systems are simulated
 again, so strongly coupled patterns (and line intensities) stay exact. The last step simulates the
-final parameters exactly and solves the linear part again: the residual reported is that of the exact model.
+final parameters exactly and solves the linear part again: the residual reported is that of the
+exact model.
 """
 
 from __future__ import annotations
@@ -217,8 +218,8 @@ class _Round:
         row, col = 0, 0
         for k, out in enumerate(simulated):
             n_lines, n_pairs = out[0].size, out[4].shape[1]
-            self.moves[row : row + n_pairs,
-                    col : col + n_lines] = out[4].T * ~out[3]  # satellites: parents do
+            # satellites do not move by themselves: their parents do
+            self.moves[row : row + n_pairs, col : col + n_lines] = out[4].T * ~out[3]
             self.pair_molecule[row : row + n_pairs] = k
             row, col = row + n_pairs, col + n_lines
         self._cache = (None, None)
@@ -234,11 +235,9 @@ class _Round:
         widths = theta[lay.width_slice]
         drawn = draw_lines(
             self.grid, self.ppm0 + delta[self.site] + dj @ self.moves, self.inten, self.site,
-                    sum(lay.n_sites),
-            widths[self.region], gauss=float(theta[lay.gauss_index]), near=self.near, derivs=True,
-            width_group=self.region, n_width_groups=lay.n_widths, weight=amounts[self.molecule],
-                    reach=self.reach,
-            pos_weights=self.moves,
+            sum(lay.n_sites), widths[self.region], gauss=float(theta[lay.gauss_index]), near=self.near,
+            derivs=True, width_group=self.region, n_width_groups=lay.n_widths,
+            weight=amounts[self.molecule], reach=self.reach, pos_weights=self.moves,
         )
         cols = self._molecule_columns(drawn.values)
         self._cache = (key, (drawn, cols))
@@ -405,13 +404,13 @@ class Refinement:
             scale = step.set_scale(theta, self.noise)
             result = least_squares_box(step.residual, step.jacobian, theta, lo, hi,
                                        max_iterations=_MAX_ITERATIONS, atol=_CHI2_TOL * scale**2,
-                                               ftol=_REL_TOL)
+                                       ftol=_REL_TOL)
             moved = _largest_move(lay, theta, result.x, self.width0)
             theta, jac = result.x, result.jac
             if round_ >= 1 and moved < _SETTLED:
                 break
-        theta, per_site, cols, model = _solve_linear_part(self.grid, self.basis, self.models, lay, field,
-                theta)
+        theta, per_site, cols, model = _solve_linear_part(self.grid, self.basis, self.models, lay,
+                                                          field, theta)
         r = (self.grid.y - model) * self.grid.weight
         cost = float(np.dot(r, r))
         prior = self.priors.value(theta)
@@ -492,7 +491,7 @@ def resolve_linear(refined: Refined, grid, basis) -> Refined:
     r = (grid.y - model) * grid.weight
     cost = float(np.dot(r, r))
     return replace(refined, theta=theta, model=model, cost=cost,
-            objective=cost / refined.scale**2 + refined.prior)
+                   objective=cost / refined.scale**2 + refined.prior)
 
 
 def blurred_view(refined: Refined, grid, basis, models, field_mhz: float, blur_hz: float) -> Refined:
@@ -514,11 +513,10 @@ def exact_columns(grid, models, layout: Layout, field_mhz: float, theta: np.ndar
     widths = theta[layout.width_slice]
     gauss = float(theta[layout.gauss_index])
     amounts = theta[layout.amount_slice]
-    amounts = np.maximum(amounts, 1e-3 * max(float(amounts.max()),
-            1e-300)) if amounts.max() > 0 else np.ones(len(models))
-    lines = [model_lines(m, s, j, field_mhz) for m, s, j in zip(models, layout.shifts(theta),
-            layout.jvals(theta),
-                                                                  strict=True)]
+    floor = 1e-3 * max(float(amounts.max()), 1e-300)
+    amounts = np.maximum(amounts, floor) if amounts.max() > 0 else np.ones(len(models))
+    lines = [model_lines(m, s, j, field_mhz)
+             for m, s, j in zip(models, layout.shifts(theta), layout.jvals(theta), strict=True)]
     reach = line_reach(np.concatenate([ln[1] * a for ln, a in zip(lines, amounts, strict=True)]),
                        np.concatenate([ln[3] for ln in lines]))
     rows, pos = [], 0

@@ -102,8 +102,8 @@ def _translate_column(grid, column: np.ndarray, delta_ppm: float) -> np.ndarray:
 
 
 def _prior(models, shifts) -> float:
-    return float(sum(np.sum(((s - m.shift0) / _prior_sd(m)) ** 2) for s, m in zip(shifts, models,
-            strict=True)))
+    return float(sum(np.sum(((s - m.shift0) / _prior_sd(m)) ** 2)
+                     for s, m in zip(shifts, models, strict=True)))
 
 
 def _prior_sd(model) -> np.ndarray:
@@ -382,7 +382,7 @@ class _SwapPass:
         if k == k2:
             return False
         pairs = _like_pairs(self.models[k], self.models[k2], self.shifts[k], self.shifts[k2],
-                self.grid.dx_ppm)
+                            self.grid.dx_ppm)
         if len(pairs) < 2:
             return False
         trial, moved = self.cols.copy(), {}
@@ -590,7 +590,7 @@ def _replace_molecules(problem: _Problem, models, state, shifts, *, passes: int 
             others = amounts @ cols - amounts[k] * cols[k] + problem.basis @ base
             resid = (grid.y - others) * grid.weight
             new_k, _, _, _ = _place(grid, m, units[offsets[k] : offsets[k] + m.n_sites], resid,
-                    problem.noise_sd)
+                                    problem.noise_sd)
             trial = [s.copy() for s in shifts]
             trial[k] = new_k
             trial = _sweep_sites(problem, models, state, trial, n_sweeps=3, swaps=False)
@@ -658,8 +658,8 @@ def search_assignments(grid, basis, models, *, lw_ppm: float, field_mhz: float, 
     # 13C satellites (0.55 % each) do not decide an assignment on blurred data: parents only
     state = simulate_state(models, [m.shift0 for m in models], field_mhz, satellites=False)
     rng = np.random.default_rng(seed)
-    starts = [[m.shift0.copy() for m in models], _pursue(problem, models, state), _own_best(problem,
-            models, state)]
+    starts = [[m.shift0.copy() for m in models], _pursue(problem, models, state),
+              _own_best(problem, models, state)]
     for _ in range(n_random):
         starts.append([m.shift0 + rng.standard_normal(m.n_sites) * _prior_sd(m) for m in models])
     found = pool.map(_sweep_task, [(problem, state, s) for s in starts])
@@ -715,8 +715,8 @@ def _rank(problem: _Problem, models, state, found, n_keep: int) -> list:
     """Indices of distinct starts, best MAP objective first (a common variance for all; ties and
     near-ties in a fixed order); starts within two grid steps of a better one count once."""
     costs = np.array([_cost(problem, models, state, s) for s in found])
-    var = max(float(costs.min()) / max(1.0, float(np.sum(problem.grid.weight > 0))), problem.noise_sd**2,
-            1e-300)
+    n_points = max(1.0, float(np.sum(problem.grid.weight > 0)))
+    var = max(float(costs.min()) / n_points, problem.noise_sd**2, 1e-300)
     objective = costs / var + np.array([_prior(models, s) for s in found])
     scale = max(float(np.max(np.abs(objective))), 1e-300)
     order = np.lexsort((np.arange(objective.size), np.round(objective / (scale * 1e-9))))
