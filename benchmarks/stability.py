@@ -132,9 +132,10 @@ def _run_config(core: str | None, n_cases: int, workers: int, perturb: float) ->
     return json.loads(done.stdout.strip().splitlines()[-1])
 
 
-def _compare(reference: dict, other: dict) -> tuple[float, list[str]]:
-    worst, changes = 0.0, []
-    per_case = {}
+def _compare(reference: dict, other: dict) -> tuple[float, list[str], list[str]]:
+    """Largest change of a mole fraction (points), the changes of detected set, major product or
+    error, and every analysis whose amounts moved (so that a change can be traced to its case)."""
+    worst, changes, moved = 0.0, [], []
     for key, ref in reference.items():
         got = other.get(key, {})
         if "error" in ref or "error" in got:
@@ -145,19 +146,17 @@ def _compare(reference: dict, other: dict) -> tuple[float, list[str]]:
             changes.append(f"{key}: detected {ref['detected']} vs {got['detected']}")
         if ref["major"] != got["major"]:
             changes.append(f"{key}: major {ref['major']} vs {got['major']}")
-        moves = [abs(x - got["fractions"].get(smiles, 0.0)) for smiles, x in ref["fractions"].items()]
-        case_worst = max(moves, default=0.0)
-        per_case[key] = case_worst
+        case_worst = max((abs(x - got["fractions"].get(s, 0.0)) for s, x in ref["fractions"].items()),
+                         default=0.0)
+        if case_worst >= 1e-3:
+            moved.append(f"{key}: amounts moved by up to {100 * case_worst:.2f} points")
         worst = max(worst, case_worst)
-    # which analyses moved, so that a change can be traced to its case
-    changes += [f"{key}: amounts moved by up to {100 * w:.2f} points"
-                for key, w in per_case.items() if w >= 1e-3]
-    return 100 * worst, changes
+    return 100 * worst, changes, moved
 
 
 def main(argv=None) -> int:
     parser = argparse.ArgumentParser(prog="python -m benchmarks.stability",
-            description=__doc__.split("\n")[0])
+                                     description=__doc__.split("\n")[0])
     parser.add_argument("--cases", type=int, default=30, help="corpus cases besides the demo")
     parser.add_argument("--worker", action="store_true", help=argparse.SUPPRESS)
     parser.add_argument("--workers", type=int, default=2, help=argparse.SUPPRESS)
@@ -181,12 +180,11 @@ def main(argv=None) -> int:
     reference = results[configs[0]]
     all_changes, overall = [], 0.0
     for config in configs[1:]:
-        worst, changes = _compare(reference, results[config])
+        worst, changes, moved = _compare(reference, results[config])
         overall = max(overall, worst)
-        n_set = sum(1 for c in changes if "amounts moved" not in c)
         print(f"{config[0]:>12s}, {config[1]} worker(s), perturbation {config[2]:g}: largest change "
-              f"{worst:.3f} points; {n_set} change(s) of detected set or major product")
-        all_changes += [f"  [{config[0]}/{config[1]}/{config[2]:g}] {c}" for c in changes]
+              f"{worst:.3f} points; {len(changes)} change(s) of detected set or major product")
+        all_changes += [f"  [{config[0]}/{config[1]}/{config[2]:g}] {c}" for c in changes + moved]
     print("\n".join(all_changes) if all_changes else "no change of any detected set, major product or amount")
     print(f"largest change of a mole fraction: {overall:.3f} points (target < 0.1); "
           f"total {time.perf_counter() - start:.0f} s")
