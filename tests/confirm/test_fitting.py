@@ -64,14 +64,17 @@ def _offsets(compound, seed, scale=0.04):
     return np.random.default_rng(seed).normal(0.0, scale, len(compound.sites))
 
 
+def perturbed_systems(compounds, *, j_offset_hz=0.6, seed=0):
+    """Published systems moved away from the truth: shifts by ~0.04 ppm (sd 0.08 stated), every
+    coupling by ``j_offset_hz``."""
+    return [published_system(c, shift_sd_ppm=0.08, shift_offsets_ppm=_offsets(c, seed + i),
+                             j_offsets_hz=j_offset_hz)
+            for i, c in enumerate(compounds)]
+
+
 def fit_perturbed(spectrum, compounds, *, j_offset_hz=0.6, seed=0, **kw):
-    """Fit with published systems moved away from the truth: shifts by ~0.04 ppm (sd 0.08 stated),
-    every coupling by ``j_offset_hz``."""
-    systems = [
-        published_system(c, shift_sd_ppm=0.08, shift_offsets_ppm=_offsets(c, seed + i),
-                j_offsets_hz=j_offset_hz)
-        for i, c in enumerate(compounds)
-    ]
+    """Fit with :func:`perturbed_systems`."""
+    systems = perturbed_systems(compounds, j_offset_hz=j_offset_hz, seed=seed)
     return fit_mixture(spectrum, systems, [published_candidate(c) for c in compounds], **kw)
 
 
@@ -195,7 +198,7 @@ def test_the_result_does_not_depend_on_workers_or_rounding():
     noise = np.random.default_rng(1).standard_normal(spectrum.ppm.size)
     y = np.asarray(spectrum.intensity) * (1 + 1e-9 * noise)
     nudged = fit_perturbed(Spectrum(ppm=spectrum.ppm, intensity=y, field_mhz=400.0, solvent="CDCl3"),
-            compounds)
+                           compounds)
     for other in (two, nudged):
         assert [c.detected for c in other.components] == [c.detected for c in one.components]
         assert np.max(np.abs(_values(other) - _values(one))) < 1e-3
@@ -206,8 +209,7 @@ def test_the_result_does_not_depend_on_the_order_of_the_candidates():
     mix = ((E_CROTONATE, 0.9), (Z_CROTONATE, 0.1))
     spectrum = render_mixture(mix, field_mhz=400.0, n=16384, snr=300.0, seed=13)
     compounds = [E_CROTONATE, Z_CROTONATE, BUTENOATE]
-    systems = [published_system(c, shift_sd_ppm=0.08, shift_offsets_ppm=_offsets(c, i), j_offsets_hz=0.6)
-               for i, c in enumerate(compounds)]
+    systems = perturbed_systems(compounds)
     given = fit_mixture(spectrum, systems, [published_candidate(c) for c in compounds])
     back = fit_mixture(spectrum, systems[::-1], [published_candidate(c) for c in compounds[::-1]])
     assert [c.candidate.smiles for c in back.components] == [c.smiles for c in compounds[::-1]]

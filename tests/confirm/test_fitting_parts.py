@@ -22,8 +22,8 @@ from confirm.fitting.solver import least_squares_box
 def _grid(x, y=None, factor=1, step=None):
     step = float(x[1] - x[0]) if step is None else step
     return Grid(x=x, y=np.zeros(x.size) if y is None else y, weight=np.ones(x.size),
-            region=np.zeros(x.size, int),
-                n_regions=1, dx_ppm=step * factor, curvature_ppm2=step**2 * (factor**2 - 1) / 24.0)
+                region=np.zeros(x.size, int), n_regions=1, dx_ppm=step * factor,
+                curvature_ppm2=step**2 * (factor**2 - 1) / 24.0)
 
 
 @pytest.mark.parametrize(("factor", "fwhm_hz"), [(1, 1.0), (2, 1.0), (3, 2.4), (4, 2.4)])
@@ -47,8 +47,7 @@ def test_drawn_bin_means_equal_the_mean_of_the_samples(factor, fwhm_hz, gauss):
     reference = shape(raw).reshape(-1, factor).mean(1)
     centres = raw.reshape(-1, factor).mean(1)
     drawn = draw_lines(_grid(centres, factor=factor, step=0.1 / field), lines, inten, np.zeros(3, int), 1,
-            fwhm,
-                       gauss=gauss).values[0]
+                       fwhm, gauss=gauss).values[0]
     # +-40 half-widths are drawn: compare where the truncated tails do not matter
     near = np.abs(centres[:, None] - lines).min(1) < 15 * fwhm
     assert np.max(np.abs(drawn - reference)[near]) < 3e-4 * reference.max()
@@ -72,7 +71,7 @@ def test_position_and_width_derivatives_match_finite_differences():
     wide = draw_lines(grid, ppm, inten, np.zeros(1, int), 1, fwhm + h, gauss=0.3).values[0]
     narrow = draw_lines(grid, ppm, inten, np.zeros(1, int), 1, fwhm - h, gauss=0.3).values[0]
     assert np.allclose(d.dwidth[0][inside], ((wide - narrow) / (2 * h))[inside],
-            atol=1e-3 * np.abs(d.dwidth).max())
+                       atol=1e-3 * np.abs(d.dwidth).max())
     more = draw_lines(grid, ppm, inten, np.zeros(1, int), 1, fwhm, gauss=0.3 + 1e-6).values[0]
     less = draw_lines(grid, ppm, inten, np.zeros(1, int), 1, fwhm, gauss=0.3 - 1e-6).values[0]
     assert np.allclose(d.dgauss[inside], ((more - less) / 2e-6)[inside], atol=1e-4 * np.abs(d.dgauss).max())

@@ -25,7 +25,7 @@ def vinyl_evidence(overlap=0.05):
     """One seen vinyl multiplet, as the fit reports it."""
     return SiteEvidence(site=0, label="vinyl", n_h=1, ppm=6.0, predicted_ppm=6.0, predicted_sd_ppm=0.1,
                         amount=0.5, amount_sd=0.01, seen=True, missing=False, shape_match=0.95,
-                                overlap=overlap)
+                        overlap=overlap)
 
 
 def make_fit(compounds, fractions, detected, sd=0.01, evidence=None):
