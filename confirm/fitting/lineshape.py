@@ -6,7 +6,7 @@ grid bin holds the mean of several samples; the mean is drawn as the value at th
 plus ``curvature * f''`` (see :class:`confirm.fitting.grid.Grid`), so binned data and model agree
 to fourth order in the sample spacing. Each line is drawn over +-40 half-widths (its tails
 beyond hold ~1.6 % of its area), smaller lines over +-20 or +-10 (:func:`line_reach`), 13C
-satellites over +-10.
+satellites over +-10. Lines that nearly coincide are drawn as one (``MERGE_SHARE``).
 """
 
 from __future__ import annotations
@@ -92,18 +92,21 @@ def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float
     near = np.zeros(ppm.size, bool) if near is None else np.asarray(near, bool)
     if ppm.size == 0:
         return _empty(n_groups, n, n_width_groups, derivs)
-    gamma_max = float(fwhm.max()) / 2
     if reach is None:
         reach = np.where(near, _NEAR_HALF_WIDTHS, _FAR_HALF_WIDTHS)
     reach = np.broadcast_to(np.asarray(reach), ppm.shape)
+    wgroup = np.zeros(ppm.size, int) if width_group is None else np.asarray(width_group, int)
+    wt = np.ones(ppm.size) if weight is None else np.asarray(weight, dtype=float)
+    ppm, inten, group, fwhm, near, reach, wgroup, wt, pos_weights, spread = _merge_close(
+        ppm, inten, group, fwhm, near, reach, wgroup, wt, pos_weights)
+    curvature = grid.curvature_ppm2 + spread[:, None]
+    gamma_max = float(fwhm.max()) / 2
     span = int(np.ceil(float(reach.max()) * gamma_max / grid.dx_ppm)) + 1
     step = grid.dx_ppm
     x = np.concatenate([grid.x[0] - step * np.arange(span, 0, -1), grid.x,
                         grid.x[-1] + step * np.arange(1, span + 2)])
     width_total = n + 2 * span + 1
     centre = np.searchsorted(grid.x, ppm) + span
-    wgroup = np.zeros(ppm.size, int) if width_group is None else np.asarray(width_group, int)
-    wt = np.ones(ppm.size) if weight is None else np.asarray(weight, dtype=float)
     parts = []
     # lines are drawn in classes of reach and width (within a factor 2), each over the points its
     # own widest line needs: one broad line (water) must not widen the table of every narrow one
@@ -112,7 +115,7 @@ def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float
         sel = (reach == half_widths) & (width_class == wclass)
         points = int(np.ceil(float(half_widths) * float(fwhm[sel].max()) / 2 / grid.dx_ppm)) + 1
         table = _line_table(x, centre[sel], ppm[sel], inten[sel], fwhm[sel], gauss, points,
-                            grid.curvature_ppm2, derivs, wt[sel])
+                            curvature[sel], derivs, wt[sel])
         table.update(group=group[sel], wgroup=wgroup[sel], shape=np.zeros(int(sel.sum()), int),
                      lines=np.flatnonzero(sel))
         parts.append(table)
@@ -153,6 +156,44 @@ def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float
     return Drawn(values, dpos, dwidth, dgauss, dextra)
 
 
+#: Lines of one group, width and reach closer than this share of their width are drawn as one line at
+#: their centroid, with their spread drawn as a second-derivative term (as a bin's spread is): the
+#: error left is of third order in the spread, below 1e-4 of the line's height. An exactly
+#: simulated chain has hundreds of such near-coincident combination lines.
+MERGE_SHARE = 0.05
+
+
+def _merge_close(ppm, inten, group, fwhm, near, reach, wgroup, wt, pos_weights):
+    """Lines merged on a lattice of ``MERGE_SHARE`` widths (same group, width, reach, kind and sign);
+    returns the merged arrays and each merged line's half second moment (ppm^2)."""
+    cell = np.floor(ppm / (MERGE_SHARE * fwhm)).astype(np.int64)
+    _, width_id = np.unique(fwhm, return_inverse=True)
+    order = np.lexsort((cell, inten > 0, near, reach, width_id, wgroup, group))
+    keys = np.stack([group, wgroup, width_id.ravel(), reach, near, inten > 0, cell])[:, order]
+    first = np.r_[True, np.any(keys[:, 1:] != keys[:, :-1], axis=0)]
+    if first.all():
+        return ppm, inten, group, fwhm, near, reach, wgroup, wt, pos_weights, np.zeros(ppm.size)
+    label = np.empty(ppm.size, int)
+    label[order] = np.cumsum(first) - 1
+    m = int(first.sum())
+    lead = order[first]
+    area = np.bincount(label, weights=inten, minlength=m)
+    safe = np.where(area == 0, 1.0, area)
+    centre = np.bincount(label, weights=inten * ppm, minlength=m) / safe
+    centre = np.where(area == 0, ppm[lead], centre)
+    spread = np.bincount(label, weights=inten * (ppm - centre[label]) ** 2, minlength=m) / safe / 2
+    mean_wt = np.bincount(label, weights=inten * wt, minlength=m) / safe
+    mean_wt = np.where(area == 0, wt[lead], mean_wt)
+    if pos_weights is not None:
+        pw = np.asarray(pos_weights, dtype=float)
+        merged = np.zeros((pw.shape[0], m))
+        for r in range(pw.shape[0]):
+            merged[r] = np.bincount(label, weights=pw[r] * inten, minlength=m) / safe
+        pos_weights = merged
+    return (centre, area, group[lead], fwhm[lead], near[lead], reach[lead], wgroup[lead], mean_wt,
+            pos_weights, np.maximum(spread, 0.0))
+
+
 def line_reach(size: np.ndarray, near=None) -> np.ndarray:
     """Half-widths over which to draw lines of the given sizes (intensity times amount): the
     tallest (at least 10 % of the largest) over +-40, the smaller over +-20, those under 1 % and
@@ -172,7 +213,7 @@ def _empty(n_groups: int, n: int, n_width_groups: int, derivs: bool) -> Drawn:
     return Drawn(zero, zero.copy(), np.zeros((max(1, n_width_groups), n)), np.zeros(n))
 
 
-def _line_table(x, centre, ppm, inten, fwhm, gauss: float, reach: int, curvature: float, derivs: bool, wt):
+def _line_table(x, centre, ppm, inten, fwhm, gauss: float, reach: int, curvature, derivs: bool, wt):
     """Table positions and values (and derivatives) of lines within +-reach points."""
     step = float(x[1] - x[0])
     idx = centre[:, None] + np.arange(-reach, reach + 1)[None, :]

@@ -53,6 +53,29 @@ def test_drawn_bin_means_equal_the_mean_of_the_samples(factor, fwhm_hz, gauss):
     assert np.max(np.abs(drawn - reference)[near]) < 3e-4 * reference.max()
 
 
+@pytest.mark.parametrize("gauss", [0.0, 0.5])
+def test_near_coincident_lines_drawn_as_one_keep_their_sum(gauss):
+    """Lines closer than a few % of their width are drawn as one line with their spread as a
+    second-derivative term: the drawn sum must equal the analytic sum of the separate lines (and a
+    cluster with lines of both signs, or of two groups, is not merged across them)."""
+    field, fwhm = 400.0, 1.0 / 400.0
+    x = np.arange(-0.05, 0.05, 0.1 / field) + 2.0
+    rng = np.random.default_rng(5)
+    lines = 2.0 + np.concatenate([rng.uniform(0, 0.02 * fwhm, 6), 0.004 + rng.uniform(0, 0.03 * fwhm, 5)])
+    inten = rng.uniform(0.2, 1.0, lines.size)
+    inten[-1] = -0.1
+    group = np.r_[np.zeros(6, int), np.ones(5, int)]
+    g, sigma = fwhm / 2, fwhm / (2 * np.sqrt(2 * np.log(2)))
+    lor = g / np.pi / ((x[:, None] - lines) ** 2 + g * g)
+    gau = np.exp(-((x[:, None] - lines) ** 2) / (2 * sigma**2)) / (sigma * np.sqrt(2 * np.pi))
+    shapes = ((1 - gauss) * lor + gauss * gau) * inten
+    reference = np.array([shapes[:, group == k].sum(1) for k in (0, 1)])
+    drawn = draw_lines(_grid(x), lines, inten, group, 2, fwhm, gauss=gauss).values
+    near = np.abs(x - 2.002) < 10 * fwhm  # away from the truncated tails
+    for k in (0, 1):
+        assert np.max(np.abs(drawn[k] - reference[k])[near]) < 2e-5 * np.abs(reference[k]).max()
+
+
 def test_position_and_width_derivatives_match_finite_differences():
     x = np.linspace(3.0, 3.2, 801)
     grid = _grid(x)
