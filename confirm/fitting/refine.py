@@ -224,9 +224,9 @@ class _Round:
             row, col = row + n_pairs, col + n_lines
         self._cache = (None, None)
 
-    def _draw(self, theta):
+    def _draw(self, theta, derivs: bool = True):
         key = theta.tobytes()
-        if self._cache[0] == key:
+        if self._cache[0] == key and (self._cache[1][0].dpos is not None or not derivs):
             return self._cache[1]
         lay = self.layout
         delta = theta[lay.shift_slice] - np.concatenate(self.base_shifts)
@@ -236,8 +236,8 @@ class _Round:
         drawn = draw_lines(
             self.grid, self.ppm0 + delta[self.site] + dj @ self.moves, self.inten, self.site,
             sum(lay.n_sites), widths[self.region], gauss=float(theta[lay.gauss_index]), near=self.near,
-            derivs=True, width_group=self.region, n_width_groups=lay.n_widths,
-            weight=amounts[self.molecule], reach=self.reach, pos_weights=self.moves,
+            derivs=derivs, width_group=self.region, n_width_groups=lay.n_widths,
+            weight=amounts[self.molecule], reach=self.reach, pos_weights=self.moves if derivs else None,
         )
         cols = self._molecule_columns(drawn.values)
         self._cache = (key, (drawn, cols))
@@ -252,7 +252,7 @@ class _Round:
 
     def solve_linear(self, theta: np.ndarray) -> np.ndarray:
         """``theta`` with amounts and baseline solved for its other parameters (this round's lines)."""
-        _, cols = self._draw(theta)
+        _, cols = self._draw(theta, derivs=False)
         amounts, base = solve_amounts(cols, self.basis, self.grid.y, self.grid.weight)
         out = theta.copy()
         out[self.layout.amount_slice] = amounts
@@ -266,7 +266,9 @@ class _Round:
         return self.scale
 
     def residual(self, theta):
-        _, cols = self._draw(theta)
+        # a trial point's residual needs the lines only; their derivatives are drawn for the
+        # Jacobian, at the points the solver accepts
+        _, cols = self._draw(theta, derivs=False)
         lay = self.layout
         model = theta[lay.amount_slice] @ cols + self.basis @ theta[lay.base_slice]
         data = (model - self.grid.y) * self.grid.weight
