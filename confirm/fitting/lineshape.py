@@ -14,6 +14,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+from scipy import sparse
 
 __all__ = ["Drawn", "draw_lines", "line_reach"]
 
@@ -81,7 +82,7 @@ def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float
     reach : ndarray, optional
         Half-widths either side over which each line is drawn (default 40, 10 for ``near``
         lines); see :func:`line_reach`.
-    pos_weights : ndarray, optional, shape (n_extra, n_lines)
+    pos_weights : ndarray or scipy sparse matrix, optional, shape (n_extra, n_lines)
         With ``derivs``: how far each line moves per unit of each extra parameter (``dextra``).
     """
     ppm = np.asarray(ppm, dtype=float)
@@ -99,6 +100,8 @@ def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float
     wt = np.ones(ppm.size) if weight is None else np.asarray(weight, dtype=float)
     ppm, inten, group, fwhm, near, reach, wgroup, wt, pos_weights, spread = _merge_close(
         ppm, inten, group, fwhm, near, reach, wgroup, wt, pos_weights)
+    if sparse.issparse(pos_weights):
+        pos_weights = pos_weights.toarray()
     curvature = grid.curvature_ppm2 + spread[:, None]
     gamma_max = float(fwhm.max()) / 2
     span = int(np.ceil(float(reach.max()) * gamma_max / grid.dx_ppm)) + 1
@@ -167,31 +170,50 @@ def _merge_close(ppm, inten, group, fwhm, near, reach, wgroup, wt, pos_weights):
     """Lines merged on a lattice of ``MERGE_SHARE`` widths (same group, width, reach, kind and sign);
     returns the merged arrays and each merged line's half second moment (ppm^2)."""
     cell = np.floor(ppm / (MERGE_SHARE * fwhm)).astype(np.int64)
-    _, width_id = np.unique(fwhm, return_inverse=True)
-    order = np.lexsort((cell, inten > 0, near, reach, width_id, wgroup, group))
-    keys = np.stack([group, wgroup, width_id.ravel(), reach, near, inten > 0, cell])[:, order]
-    first = np.r_[True, np.any(keys[:, 1:] != keys[:, :-1], axis=0)]
+    if fwhm.min() == fwhm.max():
+        width_id = np.zeros(ppm.size, int)
+    else:
+        width_id = np.unique(fwhm, return_inverse=True)[1].ravel()
+    key = _packed_key([group, wgroup, width_id, reach, near, inten > 0, cell])
+    order = np.argsort(key, kind="stable")
+    first = np.r_[True, key[order][1:] != key[order][:-1]]
     if first.all():
         return ppm, inten, group, fwhm, near, reach, wgroup, wt, pos_weights, np.zeros(ppm.size)
-    label = np.empty(ppm.size, int)
-    label[order] = np.cumsum(first) - 1
-    m = int(first.sum())
-    lead = order[first]
-    area = np.bincount(label, weights=inten, minlength=m)
+    # sums over each merged line's members: they are consecutive in ``order``
+    starts = np.flatnonzero(first)
+    lead = order[starts]
+    p, a = ppm[order], inten[order]
+    area = np.add.reduceat(a, starts)
     safe = np.where(area == 0, 1.0, area)
-    centre = np.bincount(label, weights=inten * ppm, minlength=m) / safe
-    centre = np.where(area == 0, ppm[lead], centre)
-    spread = np.bincount(label, weights=inten * (ppm - centre[label]) ** 2, minlength=m) / safe / 2
-    mean_wt = np.bincount(label, weights=inten * wt, minlength=m) / safe
-    mean_wt = np.where(area == 0, wt[lead], mean_wt)
+    centre = np.where(area == 0, ppm[lead], np.add.reduceat(a * p, starts) / safe)
+    offset = p - np.repeat(centre, np.diff(np.r_[starts, p.size]))
+    spread = np.add.reduceat(a * offset * offset, starts) / safe / 2
+    mean_wt = np.where(area == 0, wt[lead], np.add.reduceat(a * wt[order], starts) / safe)
     if pos_weights is not None:
-        pw = np.asarray(pos_weights, dtype=float)
-        merged = np.zeros((pw.shape[0], m))
-        for r in range(pw.shape[0]):
-            merged[r] = np.bincount(label, weights=pw[r] * inten, minlength=m) / safe
-        pos_weights = merged
+        # intensity-weighted mean of the members' motions (the motion of their centroid)
+        label = np.repeat(np.arange(starts.size), np.diff(np.r_[starts, p.size]))
+        mean = sparse.csr_matrix((a / safe[label], (order, label)), shape=(ppm.size, starts.size))
+        pos_weights = pos_weights @ mean
+        pos_weights = pos_weights.toarray() if sparse.issparse(pos_weights) else np.asarray(pos_weights)
     return (centre, area, group[lead], fwhm[lead], near[lead], reach[lead], wgroup[lead], mean_wt,
             pos_weights, np.maximum(spread, 0.0))
+
+
+def _packed_key(columns) -> np.ndarray:
+    """One int64 per row that orders rows as the columns do (first column most significant)."""
+    key = np.zeros(np.asarray(columns[0]).size, np.int64)
+    capacity = 1
+    for col in columns:
+        col = np.asarray(col).astype(np.int64)
+        low = int(col.min())
+        size = int(col.max()) - low + 1
+        capacity *= size
+        if capacity >= 2**62:  # too many distinct values for one word: order by all columns
+            stacked = np.stack([np.asarray(c).astype(np.int64) for c in columns])
+            _, inverse = np.unique(stacked, axis=1, return_inverse=True)
+            return inverse.ravel().astype(np.int64)
+        key = key * size + (col - low)
+    return key
 
 
 def line_reach(size: np.ndarray, near=None) -> np.ndarray:

@@ -20,6 +20,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+from scipy import sparse
 
 from confirm.fitting.linear import solve_amounts
 from confirm.fitting.lineshape import draw_lines, line_reach
@@ -222,6 +223,7 @@ class _Round:
             self.moves[row : row + n_pairs, col : col + n_lines] = out[4].T * ~out[3]
             self.pair_molecule[row : row + n_pairs] = k
             row, col = row + n_pairs, col + n_lines
+        self.moves_sparse = sparse.csr_matrix(self.moves)  # each coupling moves one molecule's lines
         self._cache = (None, None)
 
     def _draw(self, theta, derivs: bool = True):
@@ -237,7 +239,7 @@ class _Round:
             self.grid, self.ppm0 + delta[self.site] + dj @ self.moves, self.inten, self.site,
             sum(lay.n_sites), widths[self.region], gauss=float(theta[lay.gauss_index]), near=self.near,
             derivs=derivs, width_group=self.region, n_width_groups=lay.n_widths,
-            weight=amounts[self.molecule], reach=self.reach, pos_weights=self.moves if derivs else None,
+            weight=amounts[self.molecule], reach=self.reach, pos_weights=self.moves_sparse if derivs else None,
         )
         cols = self._molecule_columns(drawn.values)
         self._cache = (key, (drawn, cols))
