@@ -50,7 +50,7 @@ from confirm.fitting.options import FitOptions
 from confirm.fitting.refine import Refinement, blurred_view, resolve_linear
 from confirm.fitting.refit import refit_without
 from confirm.fitting.search import resweep, search_assignments
-from confirm.fitting.swaps import settle_swaps
+from confirm.fitting.swaps import settle_exchanges, settle_swaps, stereo_partners
 from confirm.fitting.unexplained import unexplained_signals
 from predictors.core import Candidate, MixtureFit, Spectrum, SpinSystem
 from predictors.errors import FitError, InputError
@@ -183,7 +183,8 @@ def _fit(spectrum, systems, candidates, noise_sd, options: FitOptions, budget) -
             seed=options.seed, pool=pool,
         )
         check_budget(budget, "fit: refinement")
-        task = (grid, basis, mid_view, field, lw / field, noise_bin * corr, options)
+        task = (grid, basis, mid_view, field, lw / field, noise_bin * corr, options,
+                stereo_partners(systems, models))
         start = [m.shift0.copy() for m in nuisances]
         refined = pool.map(_refine_task, [task + (list(shifts) + start, swaps if i == 0 else None)
                                           for i, shifts in enumerate(assignments)])
@@ -248,18 +249,35 @@ _N_SWAPS = 3
 def _refine_task(shared, task):
     """One assignment refined in full (a task for ``TaskPool.map``): refine, test the suspect and
     near swaps (the best assignment only), move the sites again against the now small residual, and
-    refine once more when a site moved."""
+    refine once more when a site moved; then test each pair of stereoisomers exchanged."""
     candidates, models = shared
     n = len(candidates)
-    grid, basis, (mid, mid_basis, mid_noise), field, width_ppm, noise, options, shifts, swaps = task
+    grid, basis, (mid, mid_basis, mid_noise), field, width_ppm, noise, options, partners, shifts, swaps = task
     refinement = Refinement(grid, basis, models, field_mhz=field, width_ppm=width_ppm, noise_sd=noise,
                             max_width_hz=options.max_line_width_hz)
     refined = refinement.run(refinement.start(shifts), rounds=options.rounds)
     if swaps is not None:
         refined = settle_swaps(refinement, refined, swaps, model_error=options.model_error)
+    refined = _moved_again(refinement, refined, n, (mid, mid_basis, mid_noise), options)
+    # stereoisomers on each other's signals: the exchanged fit is carried through the same steps
+    # and kept only when it ends better, so the exchange can never leave a worse fit
+    exchanged = settle_exchanges(refinement, refined, partners)
+    if exchanged is not refined:
+        exchanged = _moved_again(refinement, exchanged, n, (mid, mid_basis, mid_noise), options)
+        if exchanged.cost / refined.scale**2 + exchanged.prior < refined.objective:
+            refined = exchanged
+    return refined
+
+
+def _moved_again(refinement, refined, n: int, mid_view, options):
+    """``refined`` with its sites moved again on the lightly blurred copy and refined once more
+    when one moved (kept only when the objective drops)."""
+    mid, mid_basis, mid_noise = mid_view
+    field = refinement.field
     lay = refined.layout
     shifts_now = lay.shifts(refined.theta)
-    moved_shifts, moved = resweep(mid, mid_basis, candidates, shifts_now[:n], lay.jvals(refined.theta)[:n],
+    moved_shifts, moved = resweep(mid, mid_basis, refinement.models[:n], shifts_now[:n],
+                                  lay.jvals(refined.theta)[:n],
                                   lw_ppm=float(np.median(refined.widths_ppm)) + _RESWEEP_BLUR_HZ / field,
                                   field_mhz=field, noise_sd=mid_noise)
     if not moved:

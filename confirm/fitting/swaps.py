@@ -18,7 +18,7 @@ import numpy as np
 
 from confirm.fitting.refine import Refined, Refinement
 
-__all__ = ["settle_swaps"]
+__all__ = ["settle_swaps", "settle_exchanges", "stereo_partners"]
 
 #: Relative tolerance of the comparison of objectives.
 _RTOL = 1e-9
@@ -46,6 +46,58 @@ def settle_swaps(refinement: Refinement, refined: Refined, swaps, *, model_error
         shifts = [x.copy() for x in lay.shifts(refined.theta)]
         shifts[k][s], shifts[k2][s2] = shifts[k2][s2], shifts[k][s]
         theta = _refit_pair(refinement, refined, shifts, sorted({k, k2}))
+        value, theta = refinement.objective(theta, refined.scale)
+        if not value < refined.objective - _RTOL * abs(refined.objective):
+            continue
+        again = refinement.run(theta, rounds=1)
+        if again.cost / refined.scale**2 + again.prior < refined.objective:
+            refined = again
+    return refined
+
+
+def stereo_partners(systems, models) -> list:
+    """Pairs of candidates that differ only in their stereochemistry (an E/Z pair, epimers), as
+    (k, k2, mapping) with ``mapping[s]`` the site of ``k2`` that stands for site ``s`` of ``k``
+    (same label and proton count, nearest predicted shifts)."""
+    from rdkit import Chem
+    from scipy.optimize import linear_sum_assignment
+
+    keys = []
+    for system in systems:
+        mol = Chem.MolFromSmiles(system.smiles)
+        keys.append(Chem.MolToSmiles(mol, isomericSmiles=False) if mol is not None else None)
+    out = []
+    for k in range(len(systems)):
+        for k2 in range(k + 1, len(systems)):
+            a, b = models[k], models[k2]
+            if keys[k] is None or keys[k] != keys[k2] or a.n_sites != b.n_sites:
+                continue
+            unlike = (a.n_h[:, None] != b.n_h[None, :]) | (np.array(a.labels)[:, None] != np.array(b.labels)[None, :])
+            cost = np.abs(a.shift0[:, None] - b.shift0[None, :]) + 1e3 * unlike
+            rows, cols = linear_sum_assignment(cost)
+            if np.any(unlike[rows, cols]):
+                continue
+            mapping = np.empty(a.n_sites, int)
+            mapping[rows] = cols
+            out.append((k, k2, mapping))
+    return out
+
+
+def settle_exchanges(refinement: Refinement, refined: Refined, partners) -> Refined:
+    """Test, for each pair of stereoisomers, the fit with their places exchanged.
+
+    The search places multiplets on blurred data with predicted couplings, where an E and a Z
+    isomer (same multiplets, a few Hz apart in their couplings) look alike, and the refinement
+    only moves lines locally: one isomer can end up on the other's signals. Each pair is refitted
+    with the two isomers' sites exchanged (couplings from their own predictions) and the exchange
+    kept, followed by one more round of the whole fit, when the full objective drops."""
+    for k, k2, mapping in partners:
+        lay = refined.layout
+        shifts = [x.copy() for x in lay.shifts(refined.theta)]
+        mine, theirs = shifts[k].copy(), shifts[k2].copy()
+        shifts[k] = theirs[mapping]
+        shifts[k2][mapping] = mine
+        theta = _refit_pair(refinement, refined, shifts, [k, k2])
         value, theta = refinement.objective(theta, refined.scale)
         if not value < refined.objective - _RTOL * abs(refined.objective):
             continue
