@@ -363,7 +363,10 @@ def _without_rejected(refined, views, view_grid, view_basis, n_candidates, grid,
     again = refit_without(refined[best], rejected, grid=grid, basis=basis, models=models, mid_view=mid_view,
                           field_mhz=field, width_ppm=lw / field, noise_sd=noise, options=options,
                           resweep_blur_hz=_RESWEEP_BLUR_HZ)
-    return [again], [blurred_view(again, view_grid, view_basis, models, field, _READING_BLUR_HZ)]
+    # the refit competes with the fit it came from: a rejected candidate may be the true one with one
+    # multiplet misplaced, and leaving it out then leaves most of the signal unexplained
+    return ([again, refined[best]],
+            [blurred_view(again, view_grid, view_basis, models, field, _READING_BLUR_HZ), views[best]])
 
 
 def _with_resolution_spread(ev, refined, grid, basis, models, noise_sd: float, model_error: float,

@@ -79,8 +79,11 @@ def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: floa
     n_sites = [m.n_sites for m in models]
     everyone = np.ones(len(models), bool)
     amounts_all, base_all, _ = weighted_fit(refined.cols, basis, grid, var, everyone)
+    shifts = refined.layout.shifts(refined.theta)
+    moves = [np.stack([m.shift0 - m.window - s, m.shift0 + m.window - s], axis=1)
+             for m, s in zip(models, shifts, strict=False)]
     readings = read_sites(grid, refined.per_site, refined.cols, amounts_all, base_all, basis, offsets,
-                          n_sites, lw_ppm, noise_sd=noise_sd, model_error=model_error)
+                          n_sites, lw_ppm, noise_sd=noise_sd, model_error=model_error, moves=moves)
     presence = tuple(
         decide_presence(r, detection_sigma=detection_sigma, diagnostic=diagnostic_sites(m))
         for r, m in zip(readings, models, strict=True)

@@ -13,8 +13,9 @@ on its own, against the data with every other contribution taken away:
 
 A candidate counts as present only when its amount, combined over its multiplets, stands clear of
 its uncertainty and none of its multiplets that should stand out is missing (envelope well below
-the amount). A decoy that borrows the lines of another compound lacks the multiplets that
-compound does not have, so it is not claimed; the reading says which multiplet is missing.
+the amount at every place of its shift window: a multiplet the fit left beside its lines is
+misplaced, not missing). A decoy that borrows the lines of another compound lacks the multiplets
+that compound does not have, so it is not claimed; the reading says which multiplet is missing.
 """
 
 from __future__ import annotations
@@ -87,6 +88,10 @@ class SiteReading:
     envelope_all : float
         Largest amount every main line supports against the data themselves, the other components'
         signal included: the bound of a candidate whose multiplets all sit on others' lines.
+    envelope_window : float
+        The envelope at the best place within the site's shift window (the multiplet moved as a
+        whole): a multiplet the fit left beside its signal is misplaced, not missing (NaN: not
+        read; ``envelope`` stands for it).
     """
 
     ppm: float
@@ -99,6 +104,7 @@ class SiteReading:
     usable: bool
     shape_misfit: float = 0.0
     envelope_all: float = np.inf
+    envelope_window: float = np.nan
 
     @property
     def sigma(self) -> float:
@@ -156,7 +162,7 @@ def weighted_fit(cols: np.ndarray, basis: np.ndarray, grid, var: np.ndarray, use
 
 
 def read_sites(grid, per_site, cols, amounts, base, basis, offsets, n_sites, lw_ppm, *,
-               noise_sd: float, model_error: float) -> list:
+               noise_sd: float, model_error: float, moves=None) -> list:
     """Every site of every candidate read on its own (see the module docstring).
 
     Parameters
@@ -178,6 +184,9 @@ def read_sites(grid, per_site, cols, amounts, base, basis, offsets, n_sites, lw_
         each component is one coherent error over the line, not independent point by point, so
         it enters a multiplet's amount sd as ``model_error`` times the overlapping signal (in
         amount units), not through the point weights.
+    moves : sequence of ndarray, optional
+        Per candidate, per site, the (lowest, highest) move in ppm that keeps the site inside its
+        shift window, shape (n_sites, 2); without it ``envelope_window`` equals ``envelope``.
     """
     model = amounts @ cols + basis @ base
     signal = amounts @ cols
@@ -188,13 +197,14 @@ def read_sites(grid, per_site, cols, amounts, base, basis, offsets, n_sites, lw_
         for s in range(n):
             u = per_site[o + s]
             own = amounts[k] * u
+            span = None if moves is None else moves[k][s]
             rows.append(_read_one(grid, u, grid.y - (model - own), signal - own, reach, noise_sd,
-                                  model_error))
+                                  model_error, span))
         out.append(rows)
     return out
 
 
-def _read_one(grid, u, d, others, reach: int, noise_sd: float, model_error: float) -> SiteReading:
+def _read_one(grid, u, d, others, reach: int, noise_sd: float, model_error: float, span=None) -> SiteReading:
     top = float(u.max()) if u.size else 0.0
     window = (u > _WINDOW_SHARE * top) & (grid.weight > 0) if top > 0 else np.zeros(u.size, bool)
     ppm = float(np.sum(grid.x * u) / np.sum(u)) if top > 0 else float("nan")
@@ -218,7 +228,32 @@ def _read_one(grid, u, d, others, reach: int, noise_sd: float, model_error: floa
     margin_var = point_variance(noise_sd, others, model_error)
     envelope = _envelope(u, d, margin_var, window, reach, max(1.0, misfit))
     envelope_all = _envelope(u, d + others, margin_var, window, reach, max(1.0, misfit))
-    return SiteReading(ppm, alpha, sd, envelope, shape, overlap, misfit, True, shape_misfit, envelope_all)
+    envelope_window = envelope
+    if span is not None:
+        steps = (int(np.ceil(span[0] / grid.dx_ppm)), int(np.floor(span[1] / grid.dx_ppm)))
+        envelope_window = max(envelope, _best_envelope(u, d, margin_var, window, reach, max(1.0, misfit), steps))
+    return SiteReading(ppm, alpha, sd, envelope, shape, overlap, misfit, True, shape_misfit, envelope_all,
+                       envelope_window)
+
+
+def _best_envelope(u, d, var, window, reach: int, misfit: float, steps) -> float:
+    """Largest envelope of the multiplet moved by a whole number of grid steps within ``steps``
+    (lowest, highest), each position read as :func:`_envelope` reads the fitted one."""
+    main = np.flatnonzero(window & (u >= _MAIN_LINE_SHARE * float(u.max())))
+    lo, hi = min(steps[0], 0), max(steps[1], 0)
+    if main.size == 0 or hi <= lo:
+        return -np.inf
+    padded = np.concatenate([np.full(reach, -np.inf), d, np.full(reach, -np.inf)])
+    near = np.max(np.lib.stride_tricks.sliding_window_view(padded, 2 * reach + 1), axis=1)
+    margin = _ENVELOPE_MARGIN_SD * np.sqrt(var * max(1.0, misfit))
+    shifted = main[None, :] + np.arange(lo, hi + 1)[:, None]
+    inside = np.all((shifted >= 0) & (shifted < d.size), axis=1)
+    if not inside.any():
+        return -np.inf
+    shifted = shifted[inside]
+    # the margin stays that of the fitted place (the others' model error there)
+    values = np.min((near[shifted] + margin[main][None, :]) / u[main][None, :], axis=1)
+    return float(values.max())
 
 
 def _envelope(u, d, var, window, reach: int, misfit: float) -> float:
@@ -261,7 +296,7 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic) -> Presence
     mean, mean_sd, plain_sd = _combine([readings[i] for i in carriers])
     missing = ()
     if mean > _MISSING_SD * plain_sd:
-        missing = tuple(i for i in use if readings[i].envelope < _MISSING_SHARE * mean)
+        missing = tuple(i for i in use if _anywhere(readings[i]) < _MISSING_SHARE * mean)
     misshapen = tuple(i for i in use if readings[i].overlap < _ALONE and readings[i].sigma > SEEN_SIGMA
                       and readings[i].shape_misfit > _MISSHAPEN and readings[i].shape < _MISSHAPEN_MATCH)
     # one misshapen multiplet from a wrong predicted coupling (a ring CH2 deep in a second-order
@@ -295,6 +330,11 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic) -> Presence
         if shared:
             upper = max(upper, min(shared))
     return Presence(mean, mean_sd, bool(present), missing, seen, float(upper))
+
+
+def _anywhere(reading: SiteReading) -> float:
+    """The envelope of a multiplet at its best place in its window (at its place when not read)."""
+    return reading.envelope if np.isnan(reading.envelope_window) else reading.envelope_window
 
 
 def _combine(readings) -> tuple[float, float, float]:

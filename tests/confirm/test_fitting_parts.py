@@ -181,6 +181,32 @@ def test_presence_needs_every_multiplet():
     assert not p.present and 0 < p.upper <= 0.007
 
 
+def test_a_multiplet_beside_its_signal_is_misplaced_not_missing():
+    """The missing test asks whether the data hold the multiplet anywhere in its shift window: a
+    doublet the fit left twelve line widths beside its lines is not missing; with no lines in the
+    window it is."""
+    from confirm.fitting.evidence import _read_one
+
+    x = np.linspace(7.0, 7.4, 1601)
+    grid = _grid(x)
+    g = 0.0025 / 2
+
+    def doublet(centre):
+        return sum(g / np.pi / ((x - c) ** 2 + g * g) for c in (centre - 0.0075, centre + 0.0075))
+
+    u = doublet(7.19)  # the fitted place
+    noise = 0.5
+    others = np.zeros(x.size)
+    beside = 3.0 * doublet(7.19 + 12 * 0.0025) + np.random.default_rng(2).normal(0, noise, x.size)
+    reach = 2
+    moves = (-0.1, 0.1)  # the site's window around its fitted place (ppm)
+    r = _read_one(grid, u, beside, others, reach, noise, 0.03, moves)
+    assert r.envelope < 1.0 and r.envelope_window > 2.5
+    nothing = np.random.default_rng(3).normal(0, noise, x.size)
+    r = _read_one(grid, u, nothing, others, reach, noise, 0.03, moves)
+    assert r.envelope_window < 0.2
+
+
 def test_seen_needs_five_sd_after_a_searched_position():
     """A multiplet placed by searching its window is 'seen' only at 5 sd (look-elsewhere effect)."""
     weak = [_reading(0.010, 0.0025, 0.02), _reading(0.010, 0.0025, 0.02)]  # 4 sd each
