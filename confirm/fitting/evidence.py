@@ -231,7 +231,8 @@ def _read_one(grid, u, d, others, reach: int, noise_sd: float, model_error: floa
     envelope_window = envelope
     if span is not None:
         steps = (int(np.ceil(span[0] / grid.dx_ppm)), int(np.floor(span[1] / grid.dx_ppm)))
-        envelope_window = max(envelope, _best_envelope(u, d, margin_var, window, reach, max(1.0, misfit), steps))
+        best = _best_envelope(u, d, margin_var, window, reach, max(1.0, misfit), steps)
+        envelope_window = max(envelope, best)
     return SiteReading(ppm, alpha, sd, envelope, shape, overlap, misfit, True, shape_misfit, envelope_all,
                        envelope_window)
 

@@ -239,7 +239,8 @@ class _Round:
             self.grid, self.ppm0 + delta[self.site] + dj @ self.moves, self.inten, self.site,
             sum(lay.n_sites), widths[self.region], gauss=float(theta[lay.gauss_index]), near=self.near,
             derivs=derivs, width_group=self.region, n_width_groups=lay.n_widths,
-            weight=amounts[self.molecule], reach=self.reach, pos_weights=self.moves_sparse if derivs else None,
+            weight=amounts[self.molecule], reach=self.reach,
+            pos_weights=self.moves_sparse if derivs else None,
         )
         cols = self._molecule_columns(drawn.values)
         self._cache = (key, (drawn, cols))

@@ -72,7 +72,8 @@ def stereo_partners(systems, models) -> list:
             a, b = models[k], models[k2]
             if keys[k] is None or keys[k] != keys[k2] or a.n_sites != b.n_sites:
                 continue
-            unlike = (a.n_h[:, None] != b.n_h[None, :]) | (np.array(a.labels)[:, None] != np.array(b.labels)[None, :])
+            labels_a, labels_b = np.array(a.labels), np.array(b.labels)
+            unlike = (a.n_h[:, None] != b.n_h[None, :]) | (labels_a[:, None] != labels_b[None, :])
             cost = np.abs(a.shift0[:, None] - b.shift0[None, :]) + 1e3 * unlike
             rows, cols = linear_sum_assignment(cost)
             if np.any(unlike[rows, cols]):
