@@ -249,7 +249,8 @@ _N_SWAPS = 3
 def _refine_task(shared, task):
     """One assignment refined in full (a task for ``TaskPool.map``): refine, test the suspect and
     near swaps (the best assignment only), move the sites again against the now small residual, and
-    refine once more when a site moved; then test each pair of stereoisomers exchanged."""
+    refine once more when a site moved; then (the best assignment only) test each pair of
+    stereoisomers exchanged."""
     candidates, models = shared
     n = len(candidates)
     grid, basis, (mid, mid_basis, mid_noise), field, width_ppm, noise, options, partners, shifts, swaps = task
@@ -261,7 +262,7 @@ def _refine_task(shared, task):
     refined = _moved_again(refinement, refined, n, (mid, mid_basis, mid_noise), options)
     # stereoisomers on each other's signals: the exchanged fit is carried through the same steps
     # and kept only when it ends better, so the exchange can never leave a worse fit
-    exchanged = settle_exchanges(refinement, refined, partners)
+    exchanged = settle_exchanges(refinement, refined, partners if swaps is not None else [])
     if exchanged is not refined:
         exchanged = _moved_again(refinement, exchanged, n, (mid, mid_basis, mid_noise), options)
         if exchanged.cost / refined.scale**2 + exchanged.prior < refined.objective:
