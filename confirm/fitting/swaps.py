@@ -42,16 +42,9 @@ def settle_swaps(refinement: Refinement, refined: Refined, swaps, *, model_error
     for tested, (k, s, k2, s2) in enumerate(suspects + [sw for sw in swaps if sw not in suspects]):
         if tested >= _MAX_TESTS:
             break
-        lay = refined.layout
-        shifts = [x.copy() for x in lay.shifts(refined.theta)]
+        shifts = [x.copy() for x in refined.layout.shifts(refined.theta)]
         shifts[k][s], shifts[k2][s2] = shifts[k2][s2], shifts[k][s]
-        theta = _refit_pair(refinement, refined, shifts, sorted({k, k2}))
-        value, theta = refinement.objective(theta, refined.scale)
-        if not value < refined.objective - _RTOL * abs(refined.objective):
-            continue
-        again = refinement.run(theta, rounds=1)
-        if again.cost / refined.scale**2 + again.prior < refined.objective:
-            refined = again
+        refined = _taken_if_better(refinement, refined, shifts, sorted({k, k2}))
     return refined
 
 
@@ -93,19 +86,23 @@ def settle_exchanges(refinement: Refinement, refined: Refined, partners) -> Refi
     with the two isomers' sites exchanged (couplings from their own predictions) and the exchange
     kept, followed by one more round of the whole fit, when the full objective drops."""
     for k, k2, mapping in partners:
-        lay = refined.layout
-        shifts = [x.copy() for x in lay.shifts(refined.theta)]
+        shifts = [x.copy() for x in refined.layout.shifts(refined.theta)]
         mine, theirs = shifts[k].copy(), shifts[k2].copy()
         shifts[k] = theirs[mapping]
         shifts[k2][mapping] = mine
-        theta = _refit_pair(refinement, refined, shifts, [k, k2])
-        value, theta = refinement.objective(theta, refined.scale)
-        if not value < refined.objective - _RTOL * abs(refined.objective):
-            continue
-        again = refinement.run(theta, rounds=1)
-        if again.cost / refined.scale**2 + again.prior < refined.objective:
-            refined = again
+        refined = _taken_if_better(refinement, refined, shifts, [k, k2])
     return refined
+
+
+def _taken_if_better(refinement: Refinement, refined: Refined, shifts, subset) -> Refined:
+    """The fit with the molecules in ``subset`` refitted at ``shifts`` (see :func:`_refit_pair`)
+    and one more round of the whole fit, when both lower the objective; else ``refined``."""
+    theta = _refit_pair(refinement, refined, shifts, subset)
+    value, theta = refinement.objective(theta, refined.scale)
+    if not value < refined.objective - _RTOL * abs(refined.objective):
+        return refined
+    again = refinement.run(theta, rounds=1)
+    return again if again.cost / refined.scale**2 + again.prior < refined.objective else refined
 
 
 def _refit_pair(refinement: Refinement, refined: Refined, shifts, subset) -> np.ndarray:
