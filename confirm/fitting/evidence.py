@@ -226,47 +226,30 @@ def _read_one(grid, u, d, others, reach: int, noise_sd: float, model_error: floa
     # misfit: a candidate whose multiplet is absent makes its own window misfit, and that must not
     # widen the test that finds the absence
     margin_var = point_variance(noise_sd, others, model_error)
-    envelope = _envelope(u, d, margin_var, window, reach, max(1.0, misfit))
-    envelope_all = _envelope(u, d + others, margin_var, window, reach, max(1.0, misfit))
-    envelope_window = envelope
-    if span is not None:
-        steps = (int(np.ceil(span[0] / grid.dx_ppm)), int(np.floor(span[1] / grid.dx_ppm)))
-        best = _best_envelope(u, d, margin_var, window, reach, max(1.0, misfit), steps)
-        envelope_window = max(envelope, best)
+    steps = (0, 0) if span is None else (int(np.ceil(span[0] / grid.dx_ppm)),
+                                         int(np.floor(span[1] / grid.dx_ppm)))
+    envelope, envelope_window = _envelope(u, d, margin_var, window, reach, max(1.0, misfit), steps)
+    envelope_all, _ = _envelope(u, d + others, margin_var, window, reach, max(1.0, misfit))
     return SiteReading(ppm, alpha, sd, envelope, shape, overlap, misfit, True, shape_misfit, envelope_all,
                        envelope_window)
 
 
-def _best_envelope(u, d, var, window, reach: int, misfit: float, steps) -> float:
-    """Largest envelope of the multiplet moved by a whole number of grid steps within ``steps``
-    (lowest, highest), each position read as :func:`_envelope` reads the fitted one."""
+def _envelope(u, d, var, window, reach: int, misfit: float, steps=(0, 0)) -> tuple[float, float]:
+    """Largest amount every main line supports: min over the main lines' points of (best nearby
+    data + margin) / line height, at the multiplet's place and at its best place when moved by a
+    whole number of grid steps within ``steps`` (lowest, highest; the margin stays that of the
+    fitted place, the others' model error there)."""
     main = np.flatnonzero(window & (u >= _MAIN_LINE_SHARE * float(u.max())))
-    lo, hi = min(steps[0], 0), max(steps[1], 0)
-    if main.size == 0 or hi <= lo:
-        return -np.inf
+    if main.size == 0:
+        return np.inf, np.inf
     padded = np.concatenate([np.full(reach, -np.inf), d, np.full(reach, -np.inf)])
     near = np.max(np.lib.stride_tricks.sliding_window_view(padded, 2 * reach + 1), axis=1)
     margin = _ENVELOPE_MARGIN_SD * np.sqrt(var * max(1.0, misfit))
-    shifted = main[None, :] + np.arange(lo, hi + 1)[:, None]
-    inside = np.all((shifted >= 0) & (shifted < d.size), axis=1)
-    if not inside.any():
-        return -np.inf
-    shifted = shifted[inside]
-    # the margin stays that of the fitted place (the others' model error there)
-    values = np.min((near[shifted] + margin[main][None, :]) / u[main][None, :], axis=1)
-    return float(values.max())
-
-
-def _envelope(u, d, var, window, reach: int, misfit: float) -> float:
-    """Largest amount every main line supports: min over the main lines' points of
-    (best nearby data + margin) / line height."""
-    main = window & (u >= _MAIN_LINE_SHARE * float(u.max()))
-    if not main.any():
-        return np.inf
-    padded = np.concatenate([np.full(reach, -np.inf), d, np.full(reach, -np.inf)])
-    near = np.max(np.lib.stride_tricks.sliding_window_view(padded, 2 * reach + 1), axis=1)
-    margin = _ENVELOPE_MARGIN_SD * np.sqrt(var * max(1.0, misfit))
-    return float(np.min((near[main] + margin[main]) / u[main]))
+    moves = np.arange(min(steps[0], 0), max(steps[1], 0) + 1)
+    shifted = main[None, :] + moves[:, None]
+    inside = np.all((shifted >= 0) & (shifted < d.size), axis=1)  # the place itself always is
+    values = np.min((near[shifted[inside]] + margin[main][None, :]) / u[main][None, :], axis=1)
+    return float(values[np.flatnonzero(moves[inside] == 0)[0]]), float(values.max())
 
 
 def decide_presence(readings, *, detection_sigma: float, diagnostic) -> Presence:
