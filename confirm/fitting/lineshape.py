@@ -55,7 +55,7 @@ class Drawn:
 
 def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float = 0.0,
                near=None, derivs: bool = False, width_group=None, n_width_groups: int = 0,
-               weight=None, reach=None, pos_weights=None) -> Drawn:
+               weight=None, reach=None, pos_weights=None, deriv_mask=None, value_mask=None) -> Drawn:
     """Draw lines on a grid.
 
     Parameters
@@ -84,6 +84,14 @@ def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float
         lines); see :func:`line_reach`.
     pos_weights : ndarray or scipy sparse matrix, optional, shape (n_extra, n_lines)
         With ``derivs``: how far each line moves per unit of each extra parameter (``dextra``).
+    deriv_mask : ndarray of bool, optional
+        With ``derivs``: the lines whose derivatives are drawn (default all). The others add their
+        values only; the caller knows their derivatives are not needed (a molecule with no amount).
+        Lines of one group must share the flag.
+    value_mask : ndarray of bool, optional
+        The lines drawn at all (default all); the others are left out as if their area were 0.
+        Lines of one group must share the flag. Either mask leaves every drawn value exactly as
+        without it: how far a line is drawn depends on all the lines given, not on the masks.
     """
     ppm = np.asarray(ppm, dtype=float)
     inten = np.asarray(inten, dtype=float)
@@ -98,8 +106,11 @@ def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float
     reach = np.broadcast_to(np.asarray(reach), ppm.shape)
     wgroup = np.zeros(ppm.size, int) if width_group is None else np.asarray(width_group, int)
     wt = np.ones(ppm.size) if weight is None else np.asarray(weight, dtype=float)
-    ppm, inten, group, fwhm, near, reach, wgroup, wt, pos_weights, spread = _merge_close(
-        ppm, inten, group, fwhm, near, reach, wgroup, wt, pos_weights)
+    dmask = np.ones(ppm.size, bool) if deriv_mask is None else np.asarray(deriv_mask, bool)
+    vmask = np.ones(ppm.size, bool) if value_mask is None else np.asarray(value_mask, bool)
+    ppm, inten, group, fwhm, near, reach, wgroup, wt, pos_weights, spread, masks = _merge_close(
+        ppm, inten, group, fwhm, near, reach, wgroup, wt, pos_weights, np.stack([dmask, vmask]))
+    dmask, vmask = masks
     if sparse.issparse(pos_weights):
         pos_weights = pos_weights.toarray()
     curvature = grid.curvature_ppm2 + spread[:, None]
@@ -115,18 +126,26 @@ def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float
     # own widest line needs: one broad line (water) must not widen the table of every narrow one
     width_class = np.floor(np.log2(np.maximum(fwhm, 1e-300) / float(fwhm.min()))).astype(int)
     for half_widths, wclass in sorted(set(zip(reach.tolist(), width_class.tolist(), strict=True))):
-        sel = (reach == half_widths) & (width_class == wclass)
-        points = int(np.ceil(float(half_widths) * float(fwhm[sel].max()) / 2 / grid.dx_ppm)) + 1
-        table = _line_table(x, centre[sel], ppm[sel], inten[sel], fwhm[sel], gauss, points,
-                            curvature[sel], derivs, wt[sel])
-        table.update(group=group[sel], wgroup=wgroup[sel], shape=np.zeros(int(sel.sum()), int),
-                     lines=np.flatnonzero(sel))
-        parts.append(table)
+        in_class = (reach == half_widths) & (width_class == wclass)
+        widest = float(fwhm[in_class].max())
+        points = int(np.ceil(float(half_widths) * widest / 2 / grid.dx_ppm)) + 1
+        for with_derivs in ((True, False) if derivs else (False,)):
+            sel = in_class & vmask & (dmask == with_derivs) if derivs else in_class & vmask
+            if not sel.any():
+                continue
+            table = _line_table(x, centre[sel], ppm[sel], inten[sel], fwhm[sel], gauss, points,
+                                curvature[sel], with_derivs, wt[sel], widest)
+            table.update(group=group[sel], wgroup=wgroup[sel], shape=np.zeros(int(sel.sum()), int),
+                         lines=np.flatnonzero(sel))
+            parts.append(table)
 
     def _accumulate(item: str, rows: str, n_rows: int) -> np.ndarray:
         key = "idx" if item == "val" else "didx"
-        flat = np.concatenate([(p[key] + width_total * p[rows][:, None]).ravel() for p in parts])
-        weights = np.concatenate([p[item].ravel() for p in parts])
+        have = [p for p in parts if item in p]
+        if not have:
+            return np.zeros((n_rows, n))
+        flat = np.concatenate([(p[key] + width_total * p[rows][:, None]).ravel() for p in have])
+        weights = np.concatenate([p[item].ravel() for p in have])
         table = np.bincount(flat, weights=weights, minlength=width_total * n_rows)
         return np.ascontiguousarray(table.reshape(n_rows, width_total)[:, span : span + n])
 
@@ -146,6 +165,8 @@ def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float
         core = int(np.ceil(_NEAR_HALF_WIDTHS * gamma_max / grid.dx_ppm)) + 1
         flat, vals = [np.zeros(0, int)], [np.zeros(0)]
         for p in parts:
+            if "dpos" not in p:
+                continue
             rows, i = np.nonzero(keep[:, p["lines"]] & (weights[:, p["lines"]] != 0))
             if rows.size:
                 mid = p["didx"].shape[1] // 2
@@ -166,7 +187,7 @@ def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float
 MERGE_SHARE = 0.05
 
 
-def _merge_close(ppm, inten, group, fwhm, near, reach, wgroup, wt, pos_weights):
+def _merge_close(ppm, inten, group, fwhm, near, reach, wgroup, wt, pos_weights, masks):
     """Lines merged on a lattice of ``MERGE_SHARE`` widths (same group, width, reach, kind and sign);
     returns the merged arrays and each merged line's half second moment (ppm^2)."""
     cell = np.floor(ppm / (MERGE_SHARE * fwhm)).astype(np.int64)
@@ -178,7 +199,7 @@ def _merge_close(ppm, inten, group, fwhm, near, reach, wgroup, wt, pos_weights):
     order = np.argsort(key, kind="stable")
     first = np.r_[True, key[order][1:] != key[order][:-1]]
     if first.all():
-        return ppm, inten, group, fwhm, near, reach, wgroup, wt, pos_weights, np.zeros(ppm.size)
+        return ppm, inten, group, fwhm, near, reach, wgroup, wt, pos_weights, np.zeros(ppm.size), masks
     # sums over each merged line's members: they are consecutive in ``order``
     starts = np.flatnonzero(first)
     lead = order[starts]
@@ -196,7 +217,7 @@ def _merge_close(ppm, inten, group, fwhm, near, reach, wgroup, wt, pos_weights):
         pos_weights = pos_weights @ mean
         pos_weights = pos_weights.toarray() if sparse.issparse(pos_weights) else np.asarray(pos_weights)
     return (centre, area, group[lead], fwhm[lead], near[lead], reach[lead], wgroup[lead], mean_wt,
-            pos_weights, np.maximum(spread, 0.0))
+            pos_weights, np.maximum(spread, 0.0), masks[:, lead])
 
 
 def _packed_key(columns) -> np.ndarray:
@@ -235,37 +256,53 @@ def _empty(n_groups: int, n: int, n_width_groups: int, derivs: bool) -> Drawn:
     return Drawn(zero, zero.copy(), np.zeros((max(1, n_width_groups), n)), np.zeros(n))
 
 
-def _line_table(x, centre, ppm, inten, fwhm, gauss: float, reach: int, curvature, derivs: bool, wt):
-    """Table positions and values (and derivatives) of lines within +-reach points."""
+def _line_table(x, centre, ppm, inten, fwhm, gauss: float, reach: int, curvature, derivs: bool, wt,
+                widest: float):
+    """Table positions and values (and derivatives) of lines within +-reach points; ``widest`` is
+    the largest width of the lines' class (it sets the Gaussian and derivative spans)."""
     step = float(x[1] - x[0])
     idx = centre[:, None] + np.arange(-reach, reach + 1)[None, :]
-    u = x[idx] - ppm[:, None]
+    u = x[idx]
+    u -= ppm[:, None]
     amp = inten[:, None]
     gamma = fwhm[:, None] / 2
+    g2 = gamma * gamma
     u2 = u * u
-    den = u2 + gamma * gamma
-    lor = gamma / np.pi / den
-    val = (1 - gauss) * (lor + curvature * gamma / np.pi * (6 * u2 - 2 * gamma * gamma) / (den * den * den))
+    inv = u2 + g2  # 1 / (u**2 + gamma**2), in place: these tables are the fit's largest arrays
+    np.reciprocal(inv, out=inv)
+    # Lorentzian gamma/pi * inv plus the curvature term gamma/pi * (6 u**2 - 2 gamma**2) * inv**3
+    lor_scale = gamma / np.pi
+    val = u2 * 6
+    val -= 2 * g2
+    val *= inv
+    val *= inv
+    val *= inv
+    val *= lor_scale * curvature
+    val += lor_scale * inv
+    val *= 1 - gauss
     # the Gaussian part is drawn over its own short reach (+-5 sd): beyond it is below 4e-6 of its peak
     sigma = fwhm[:, None] * _SIGMA_PER_FWHM
-    core = slice(max(0, reach - int(np.ceil(5 * float(sigma.max()) / step))),
-                 reach + int(np.ceil(5 * float(sigma.max()) / step)) + 1)
+    core_half = int(np.ceil(5 * widest * _SIGMA_PER_FWHM / step))
+    core = slice(max(0, reach - core_half), reach + core_half + 1)
     if gauss <= 0 and not derivs:
-        return {"idx": idx, "val": amp * val}
+        val *= amp
+        return {"idx": idx, "val": val}
     uc, u2c, sig = u[:, core], u2[:, core], sigma
     gau = np.exp(-u2c / (2 * sig * sig)) / (sig * np.sqrt(2 * np.pi))
     if gauss > 0:
         val[:, core] += gauss * (gau + curvature * gau * (u2c - sig * sig) / sig**4)
     if not derivs:
-        return {"idx": idx, "val": amp * val}
+        val *= amp
+        return {"idx": idx, "val": val}
     # the derivatives steer the refinement (the residual itself is always exact): they are drawn
     # over +-10 half-widths of the widest line, where they hold all but a few % of their weight
-    half = int(np.ceil(_NEAR_HALF_WIDTHS * float(gamma.max()) / step)) + 1
+    half = int(np.ceil(_NEAR_HALF_WIDTHS * widest / 2 / step)) + 1
     dcore = slice(max(0, reach - half), reach + half + 1)
-    u, u2, den, lor = u[:, dcore], u2[:, dcore], den[:, dcore], lor[:, dcore]
-    dpos = (1 - gauss) * 2 * gamma / np.pi * u / (den * den)
-    dwidth = (1 - gauss) * 0.5 * (u2 - gamma * gamma) / np.pi / (den * den)
-    dgauss = -lor
+    u, u2, inv = u[:, dcore], u2[:, dcore], inv[:, dcore]
+    inv2 = inv * inv
+    dpos = (1 - gauss) * 2 * lor_scale * u * inv2
+    dwidth = (1 - gauss) * 0.5 / np.pi * (u2 - g2) * inv2
+    dgauss = -lor_scale * inv
     # the Gaussian core in the derivative window's coordinates
     g0 = max(core.start, dcore.start)
     g1 = min(core.stop, dcore.stop)
@@ -278,5 +315,6 @@ def _line_table(x, centre, ppm, inten, fwhm, gauss: float, reach: int, curvature
             dpos[:, in_d] += gauss * gd * ucd / (sig * sig)
             dwidth[:, in_d] += gauss * gd * (u2cd / sig**3 - 1 / sig) * _SIGMA_PER_FWHM
     w = amp * wt[:, None]
-    return {"idx": idx, "didx": idx[:, dcore], "val": amp * val, "dpos": amp * dpos, "dwidth": w * dwidth,
+    val *= amp
+    return {"idx": idx, "didx": idx[:, dcore], "val": val, "dpos": amp * dpos, "dwidth": w * dwidth,
             "dgauss": w * dgauss}

@@ -226,24 +226,34 @@ class _Round:
         self.moves_sparse = sparse.csr_matrix(self.moves)  # each coupling moves one molecule's lines
         self._cache = (None, None)
 
-    def _draw(self, theta, derivs: bool = True):
+    def _draw(self, theta, derivs: bool = True, complete: bool = True):
+        """Lines drawn at ``theta``: per-site values (and derivatives) and molecule columns.
+
+        A molecule with no amount adds nothing to the model and its derivatives are zero (they are
+        scaled by its amount): ``derivs`` draws derivatives of the molecules with an amount only,
+        and ``complete=False`` (a residual) leaves the columns of the others at zero. Solving the
+        amounts and the amount columns of the Jacobian need every column (``complete``)."""
         key = theta.tobytes()
-        if self._cache[0] == key and (self._cache[1][0].dpos is not None or not derivs):
-            return self._cache[1]
+        if self._cache[0] == key:
+            drawn, cols, whole = self._cache[1]
+            if (drawn.dpos is not None or not derivs) and (whole or not complete):
+                return drawn, cols
         lay = self.layout
         delta = theta[lay.shift_slice] - np.concatenate(self.base_shifts)
         dj = theta[lay.j_slice] - np.concatenate(self.base_j)
         amounts = theta[lay.amount_slice]
         widths = theta[lay.width_slice]
+        live = amounts[self.molecule] != 0
         drawn = draw_lines(
             self.grid, self.ppm0 + delta[self.site] + dj @ self.moves, self.inten, self.site,
             sum(lay.n_sites), widths[self.region], gauss=float(theta[lay.gauss_index]), near=self.near,
             derivs=derivs, width_group=self.region, n_width_groups=lay.n_widths,
             weight=amounts[self.molecule], reach=self.reach,
-            pos_weights=self.moves_sparse if derivs else None,
+            pos_weights=self.moves_sparse if derivs else None, deriv_mask=live,
+            value_mask=None if complete else live,
         )
         cols = self._molecule_columns(drawn.values)
-        self._cache = (key, (drawn, cols))
+        self._cache = (key, (drawn, cols, complete or live.all()))
         return drawn, cols
 
     def _molecule_columns(self, per_site: np.ndarray) -> np.ndarray:
@@ -271,7 +281,7 @@ class _Round:
     def residual(self, theta):
         # a trial point's residual needs the lines only; their derivatives are drawn for the
         # Jacobian, at the points the solver accepts
-        _, cols = self._draw(theta, derivs=False)
+        _, cols = self._draw(theta, derivs=False, complete=False)
         lay = self.layout
         model = theta[lay.amount_slice] @ cols + self.basis @ theta[lay.base_slice]
         data = (model - self.grid.y) * self.grid.weight

@@ -100,6 +100,60 @@ def test_position_and_width_derivatives_match_finite_differences():
     assert np.allclose(d.dgauss[inside], ((more - less) / 2e-6)[inside], atol=1e-4 * np.abs(d.dgauss).max())
 
 
+@pytest.mark.parametrize("gauss", [0.0, 0.3])
+def test_masks_leave_every_drawn_value_as_it_was(gauss):
+    """Lines of a molecule with no amount are drawn without derivatives (``deriv_mask``) or not at all
+    (``value_mask``, a residual): every value and derivative still drawn must be exactly what the
+    unmasked drawing gives, whatever widths the left-out lines had."""
+    x = np.linspace(2.0, 3.0, 3001)
+    grid = _grid(x)
+    rng = np.random.default_rng(11)
+    n = 400
+    ppm = rng.uniform(2.1, 2.9, n)
+    inten = rng.uniform(0.1, 1.0, n)
+    group = rng.integers(0, 6, n)
+    width_group = group % 3
+    fwhm = np.array([0.002, 0.0045, 0.011])[width_group]  # three width classes
+    reach = np.where(rng.random(n) < 0.3, 10, 40)
+    weight = np.array([1.0, 0.0, 0.4, 0.0, 2.0, 0.7])[group]
+    live = weight != 0
+    moves = rng.normal(size=(2, n)) * 1e-4
+    kwargs = {"gauss": gauss, "derivs": True, "width_group": width_group, "n_width_groups": 3,
+              "weight": weight, "reach": reach, "pos_weights": moves}
+    full = draw_lines(grid, ppm, inten, group, 6, fwhm, **kwargs)
+    masked = draw_lines(grid, ppm, inten, group, 6, fwhm, deriv_mask=live, **kwargs)
+    assert np.array_equal(full.values, masked.values)
+    rows = np.unique(group[live])
+    assert np.array_equal(full.dpos[rows], masked.dpos[rows])
+    assert not masked.dpos[np.unique(group[~live])].any()
+    # width, shape and coupling derivatives of the left-out lines carry their weight 0
+    assert np.allclose(full.dwidth, masked.dwidth, rtol=0, atol=1e-12 * np.abs(full.dwidth).max())
+    assert np.allclose(full.dgauss, masked.dgauss, rtol=0, atol=1e-12 * np.abs(full.dgauss).max())
+    values_only = draw_lines(grid, ppm, inten, group, 6, fwhm, gauss=gauss, reach=reach,
+                             value_mask=live).values
+    assert np.array_equal(values_only[rows], full.values[rows])
+    assert not values_only[np.unique(group[~live])].any()
+
+
+def test_translated_column_equals_interpolation_over_the_whole_grid():
+    """A column is moved by interpolating only where its non-zero stretch lands; the result must be
+    exactly the whole-grid interpolation (grids with a gap, moves of any size, columns at the edges)."""
+    from confirm.fitting.search import _translate_column
+
+    x = np.sort(np.concatenate([np.linspace(0.0, 1.0, 700), np.linspace(2.0, 3.0, 900)]))
+    grid = _grid(x)
+    rng = np.random.default_rng(2)
+    for _ in range(300):
+        col = np.zeros(x.size)
+        a = int(rng.integers(0, x.size - 1))
+        b = min(a + int(rng.integers(1, 200)), x.size)
+        col[a:b] = rng.random(b - a) - 0.3
+        delta = float(rng.normal(0.0, 0.3)) if rng.random() < 0.8 else float(x[5] - x[0])
+        reference = np.interp(x - delta, x, col, left=0.0, right=0.0)
+        assert np.array_equal(_translate_column(grid, col, delta), reference)
+    assert not _translate_column(grid, np.zeros(x.size), 0.1).any()
+
+
 def test_bounded_solver_agrees_with_scipy_least_squares():
     """A bounded exponential fit (one bound active at the optimum): same minimum as SciPy's
     trust-region reflective solver, the reference implementation."""
