@@ -96,9 +96,39 @@ def _molecule_columns(models, per_site: np.ndarray) -> np.ndarray:
     return np.array([per_site[o : o + m.n_sites].sum(0) for o, m in zip(offsets, models, strict=True)])
 
 
-def _translate_column(grid, column: np.ndarray, delta_ppm: float) -> np.ndarray:
-    """Column moved by delta along the grid (interpolated; exact for whole grid steps)."""
-    return np.interp(grid.x - delta_ppm, grid.x, column, left=0.0, right=0.0)
+def _translate_column(grid, column: np.ndarray, delta_ppm: float, span=None) -> np.ndarray:
+    """Column moved by delta along the grid (interpolated; exact for whole grid steps).
+
+    Only the points that the column's non-zero stretch lands on are interpolated: elsewhere the
+    interpolation is between zeros, which is exactly zero, so the result is the same as over the
+    whole grid. ``span``: the first and last non-zero index of the column when known."""
+    x = grid.x
+    out = np.zeros(x.size)
+    first, last = _nonzero_span(column) if span is None else span
+    if last < first:
+        return out
+    lo = x[max(int(first) - 1, 0)] + delta_ppm
+    hi = x[min(int(last) + 1, x.size - 1)] + delta_ppm
+    i0, i1 = int(np.searchsorted(x, lo, "left")), int(np.searchsorted(x, hi, "right"))
+    out[i0:i1] = np.interp(x[i0:i1] - delta_ppm, x, column, left=0.0, right=0.0)
+    return out
+
+
+def _nonzero_span(column: np.ndarray) -> tuple[int, int]:
+    """First and last index where the column is not zero ((0, -1) when it is zero everywhere)."""
+    nz = np.flatnonzero(column)
+    return (int(nz[0]), int(nz[-1])) if nz.size else (0, -1)
+
+
+def _nonzero_spans(columns: np.ndarray) -> np.ndarray:
+    """``_nonzero_span`` of every row, shape (n_rows, 2)."""
+    nz = columns != 0
+    n = columns.shape[1]
+    first = np.argmax(nz, axis=1)
+    last = n - 1 - np.argmax(nz[:, ::-1], axis=1)
+    empty = ~nz.any(axis=1)
+    first[empty], last[empty] = 0, -1
+    return np.stack([first, last], axis=1)
 
 
 def _prior(models, shifts) -> float:
@@ -257,6 +287,7 @@ class _SwapPass:
         self.cols = _molecule_columns(models, per_site)
         self._set_columns(self.proj.project(self.cols))
         self.p_site = self.proj.project(per_site)
+        self.spans = _nonzero_spans(per_site)
         self.moved: dict = {}
         self.version = np.zeros(len(per_site), dtype=int)
 
@@ -325,7 +356,7 @@ class _SwapPass:
             keys.append(key)
         if missing:
             cols = [
-                _translate_column(self.grid, self.per_site[j], d)
+                _translate_column(self.grid, self.per_site[j], d, self.spans[j])
                 for i, i2, _, _ in missing
                 for j, d in ((i, self.flat[i2] - self.flat[i]), (i2, self.flat[i] - self.flat[i2]))
             ]
@@ -369,6 +400,7 @@ class _SwapPass:
         self.gram, self.rhs, self.zero = part[2], part[3], part[5] == 0
         self.cost = float(part[6])
         self.per_site[i], self.per_site[i2] = u, u2
+        self.spans[i], self.spans[i2] = _nonzero_span(u), _nonzero_span(u2)
         self.p_site[i], self.p_site[i2] = part[4][2], part[4][3]
         self.version[[i, i2]] += 1
         s, s2 = i - self.offsets[k], i2 - self.offsets[k2]
@@ -390,8 +422,8 @@ class _SwapPass:
         for s, s2 in pairs:
             i, i2 = self.offsets[k] + s, self.offsets[k2] + s2
             a, b = self.shifts[k][s], self.shifts[k2][s2]
-            moved[i] = _translate_column(self.grid, self.per_site[i], b - a)
-            moved[i2] = _translate_column(self.grid, self.per_site[i2], a - b)
+            moved[i] = _translate_column(self.grid, self.per_site[i], b - a, self.spans[i])
+            moved[i2] = _translate_column(self.grid, self.per_site[i2], a - b, self.spans[i2])
             trial[k] += moved[i] - self.per_site[i]
             trial[k2] += moved[i2] - self.per_site[i2]
             prior_change += float(self._prior_change(np.array([i]), np.array([i2]))[0])
@@ -407,6 +439,7 @@ class _SwapPass:
         self.cols = trial
         self._set_columns(trial_p)
         self.p_site = self.proj.project(self.per_site)
+        self.spans = _nonzero_spans(self.per_site)
         self.version += 1
         self.flat = np.concatenate(self.shifts)
         return True
