@@ -262,47 +262,33 @@ def _line_table(x, centre, ppm, inten, fwhm, gauss: float, reach: int, curvature
     the largest width of the lines' class (it sets the Gaussian and derivative spans)."""
     step = float(x[1] - x[0])
     idx = centre[:, None] + np.arange(-reach, reach + 1)[None, :]
-    u = x[idx]
-    u -= ppm[:, None]
+    u = x[idx] - ppm[:, None]
     amp = inten[:, None]
     gamma = fwhm[:, None] / 2
-    g2 = gamma * gamma
     u2 = u * u
-    inv = u2 + g2  # 1 / (u**2 + gamma**2), in place: these tables are the fit's largest arrays
-    np.reciprocal(inv, out=inv)
-    # Lorentzian gamma/pi * inv plus the curvature term gamma/pi * (6 u**2 - 2 gamma**2) * inv**3
-    lor_scale = gamma / np.pi
-    val = u2 * 6
-    val -= 2 * g2
-    val *= inv
-    val *= inv
-    val *= inv
-    val *= lor_scale * curvature
-    val += lor_scale * inv
-    val *= 1 - gauss
+    den = u2 + gamma * gamma
+    lor = gamma / np.pi / den
+    val = (1 - gauss) * (lor + curvature * gamma / np.pi * (6 * u2 - 2 * gamma * gamma) / (den * den * den))
     # the Gaussian part is drawn over its own short reach (+-5 sd): beyond it is below 4e-6 of its peak
     sigma = fwhm[:, None] * _SIGMA_PER_FWHM
-    core_half = int(np.ceil(5 * widest * _SIGMA_PER_FWHM / step))
+    core_half = int(np.ceil(5 * (widest * _SIGMA_PER_FWHM) / step))
     core = slice(max(0, reach - core_half), reach + core_half + 1)
     if gauss <= 0 and not derivs:
-        val *= amp
-        return {"idx": idx, "val": val}
+        return {"idx": idx, "val": amp * val}
     uc, u2c, sig = u[:, core], u2[:, core], sigma
     gau = np.exp(-u2c / (2 * sig * sig)) / (sig * np.sqrt(2 * np.pi))
     if gauss > 0:
         val[:, core] += gauss * (gau + curvature * gau * (u2c - sig * sig) / sig**4)
     if not derivs:
-        val *= amp
-        return {"idx": idx, "val": val}
+        return {"idx": idx, "val": amp * val}
     # the derivatives steer the refinement (the residual itself is always exact): they are drawn
     # over +-10 half-widths of the widest line, where they hold all but a few % of their weight
-    half = int(np.ceil(_NEAR_HALF_WIDTHS * widest / 2 / step)) + 1
+    half = int(np.ceil(_NEAR_HALF_WIDTHS * (widest / 2) / step)) + 1
     dcore = slice(max(0, reach - half), reach + half + 1)
-    u, u2, inv = u[:, dcore], u2[:, dcore], inv[:, dcore]
-    inv2 = inv * inv
-    dpos = (1 - gauss) * 2 * lor_scale * u * inv2
-    dwidth = (1 - gauss) * 0.5 / np.pi * (u2 - g2) * inv2
-    dgauss = -lor_scale * inv
+    u, u2, den, lor = u[:, dcore], u2[:, dcore], den[:, dcore], lor[:, dcore]
+    dpos = (1 - gauss) * 2 * gamma / np.pi * u / (den * den)
+    dwidth = (1 - gauss) * 0.5 * (u2 - gamma * gamma) / np.pi / (den * den)
+    dgauss = -lor
     # the Gaussian core in the derivative window's coordinates
     g0 = max(core.start, dcore.start)
     g1 = min(core.stop, dcore.stop)
@@ -315,6 +301,5 @@ def _line_table(x, centre, ppm, inten, fwhm, gauss: float, reach: int, curvature
             dpos[:, in_d] += gauss * gd * ucd / (sig * sig)
             dwidth[:, in_d] += gauss * gd * (u2cd / sig**3 - 1 / sig) * _SIGMA_PER_FWHM
     w = amp * wt[:, None]
-    val *= amp
-    return {"idx": idx, "didx": idx[:, dcore], "val": val, "dpos": amp * dpos, "dwidth": w * dwidth,
+    return {"idx": idx, "didx": idx[:, dcore], "val": amp * val, "dpos": amp * dpos, "dwidth": w * dwidth,
             "dgauss": w * dgauss}
