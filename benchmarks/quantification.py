@@ -108,6 +108,12 @@ def run_case(case, systems_cache: dict) -> dict:
                 "mole_fraction": comp["mole_fraction"],
                 "mole_fraction_sd": comp["mole_fraction_sd"],
                 "upper_limit": comp["upper_limit"],
+                # per multiplet: where it was fitted against its prediction, for diagnosis
+                "sites": [
+                    {k: e.get(k) for k in ("label", "n_h", "ppm", "predicted_ppm", "predicted_sd_ppm",
+                                           "seen", "missing", "amount", "amount_sd")}
+                    for e in comp["evidence"] if "ppm" in e
+                ],
             }
         )
     record["components"] = comps
