@@ -550,8 +550,16 @@ def _sn2_routes(ctx: _Context, lg: LeavingGroup) -> list[_Route]:
         if neopentyl:
             notes.append("neopentyl-like carbon: SN2 very slow")
         weight = 0.05 if neopentyl else 1.0
-        why = f"SN2 by {name} with inversion at the {lg.alpha_class} carbon"
-        routes.append(_Route(outcome.smiles, ("SN2",), weight, f"substitution ({name}), inversion", why,
+        # inversion is a statement about a configuration: only where the substrate gives one
+        configured = ctx.mol_h.GetAtomWithIdx(lg.alpha_idx).GetChiralTag() != Chem.ChiralType.CHI_UNSPECIFIED
+        if configured:
+            why = f"SN2 by {name} with inversion at the {lg.alpha_class} carbon"
+            label = f"substitution ({name}), inversion"
+        else:
+            why = (f"SN2 by {name} at the {lg.alpha_class} carbon (no configuration given there, "
+                   "so none is implied for the product)")
+            label = f"substitution ({name})"
+        routes.append(_Route(outcome.smiles, ("SN2",), weight, label, why,
                              group=f"SN2@{lg.alpha_idx}", notes=tuple(notes)))
     return routes
 

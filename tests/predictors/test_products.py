@@ -161,6 +161,15 @@ def test_sn2_of_secondary_bromide_by_azide_inverts():
     top = products.candidates[0]
     assert top.pathways == ("SN2",) and "N=[N+]=[N-]" in top.smiles
     assert _atom_cip(top.smiles) == ["R"]
+    assert top.label.endswith("inversion")
+
+
+def test_sn2_label_names_inversion_only_for_a_configured_carbon():
+    # a racemic (unspecified) or achiral carbon has no configuration to invert (common practice)
+    for smiles in ("CC(Br)CCC", "BrCCCC"):
+        products = enumerate_products(smiles, reagent="sodium azide").candidates
+        sn2 = [c for c in products if c.pathways == ("SN2",)]
+        assert sn2 and all("inversion" not in c.label and "inversion" not in c.rationale for c in sn2), smiles
 
 
 def test_sn1_solvolysis_gives_both_configurations():
