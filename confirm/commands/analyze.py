@@ -111,6 +111,18 @@ def _run(args: argparse.Namespace) -> int:
     return 0
 
 
+def ratio_line(r) -> str:
+    """One ratio for the terminal: its parts named once, the first part's share of the two with its
+    sd in percent."""
+    pair = f"{r.numerator}:{r.denominator}"
+    head = pair if r.name == pair else f"{r.name}, {pair}"
+    note = "" if r.decided else "  (not decided by this spectrum)"
+    if r.is_bound:  # a part is only bounded: its share would be the value with that part at zero
+        return f"  {head} {r.ratio_text}, a part not detected{note}"
+    return (f"  {head} = {r.ratio_text} ({r.numerator} {100 * r.share:.1f} +- {100 * r.share_sd:.1f} % "
+            f"of the two){note}")
+
+
 def format_result(result) -> str:
     """Readable terminal summary of an AnalysisResult: verdict first, then the details."""
     from confirm.analysis import CAUTION
@@ -133,11 +145,7 @@ def format_result(result) -> str:
     if v.ratios:
         lines += ["", "Ratios:"]
         for r in v.ratios:
-            note = "" if r.decided else "  (not decided by this spectrum)"
-            lines.append(
-                f"  {r.name}: {r.numerator}:{r.denominator} = {r.ratio_text} "
-                f"(share {100 * r.share:.1f} +- {100 * r.share_sd:.1f} %){note}"
-            )
+            lines.append(ratio_line(r))
     if v.evidence:
         lines += ["", "Evidence:"] + [f"  {e}" for e in v.evidence]
     if v.unresolved:

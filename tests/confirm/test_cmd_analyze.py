@@ -75,3 +75,16 @@ def test_wrong_nucleus_exit_2(run_cli, tmp_path):
 def test_missing_file_exit_2(run_cli, tmp_path):
     result = run_cli("analyze", "--spectrum", tmp_path / "nothing", "--candidates", "C=C")
     assert result.exit_code == 2 and "Traceback" not in result.stderr
+
+
+def test_ratio_line_names_its_parts_once_and_gives_the_share_unit():
+    from confirm.commands.analyze import ratio_line
+    from predictors.core import RatioEstimate
+
+    line = ratio_line(RatioEstimate("E:Z", "E", "Z", 0.797, 0.016))
+    assert line.strip() == "E:Z = 80:20 (E 79.7 +- 1.6 % of the two)"
+    line = ratio_line(RatioEstimate("regioisomers", "more substituted", "less substituted", 0.92, 0.009))
+    assert line.strip().startswith(
+        "regioisomers, more substituted:less substituted = 92:8 (more substituted 92.0")
+    bound = ratio_line(RatioEstimate("E:Z", "E", "Z", 1.0, 0.0, decided=False, low=0.83))
+    assert bound.strip() == "E:Z >= 83:17, a part not detected  (not decided by this spectrum)"
