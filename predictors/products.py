@@ -36,7 +36,7 @@ from predictors.antiperiplanar import (
 )
 from predictors.core import PATHWAYS, Candidate
 from predictors.errors import ChemistryError, ConfirmError, InputError
-from predictors.reagents import Reagent, get_reagent
+from predictors.reagents import Reagent, get_reagent, get_solvent
 from predictors.substrate import LeavingGroup, Substrate, beta_carbons, perceive_substrate
 
 __all__ = ["ProductSet", "enumerate_products"]
@@ -850,7 +850,7 @@ def _label(route: _Route) -> str:
 
 def _resolve_solvent(reagent: Reagent, solvent: str | None) -> Reagent | None:
     if solvent is not None:
-        return get_reagent(solvent)
+        return get_solvent(solvent)
     return get_reagent(reagent.default_solvent) if reagent.default_solvent else None
 
 

@@ -26,6 +26,7 @@ __all__ = [
     "ACID_STRENGTHS",
     "Reagent",
     "get_reagent",
+    "get_solvent",
     "list_reagents",
 ]
 
@@ -182,6 +183,27 @@ def _name_index() -> dict[str, Reagent]:
                 raise InputError(f"reagents.csv: name or alias {key!r} is used twice")
             index[norm] = reagent
     return index
+
+
+def get_solvent(name: str) -> Reagent:
+    """Look up a reaction solvent by name or alias (an entry with a solvent class).
+
+    Raises
+    ------
+    InputError
+        Unknown name, or a reagent that is not a solvent; the message lists the known solvents.
+    """
+    if isinstance(name, Reagent):
+        return name
+    solvents = ", ".join(r.name for r in list_reagents() if r.solvent_class)
+    if not isinstance(name, str) or not name.strip():
+        raise InputError(f"solvent: expected a solvent name, got {name!r}; known solvents: {solvents}")
+    entry = _name_index().get(_normalise(name))
+    if entry is None:
+        raise InputError(f"solvent: unknown name {name!r}; known solvents: {solvents}")
+    if not entry.solvent_class:
+        raise InputError(f"solvent: {name!r} is a reagent, not a solvent; known solvents: {solvents}")
+    return entry
 
 
 def get_reagent(name: str) -> Reagent:

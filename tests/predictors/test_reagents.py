@@ -32,6 +32,17 @@ def test_unknown_reagent_lists_known_names():
         get_reagent("grignard")
 
 
+def test_unknown_solvent_lists_only_solvents():
+    from predictors.reagents import get_solvent
+
+    assert get_solvent("EtOH").name == "ethanol"
+    with pytest.raises(InputError, match=r"^solvent: unknown name 'lava'; known solvents: ") as err:
+        get_solvent("lava")
+    assert "DMSO" in str(err.value) and "ethoxide" not in str(err.value) and "HBr" not in str(err.value)
+    with pytest.raises(InputError, match="'ethoxide' is a reagent, not a solvent"):
+        get_solvent("ethoxide")
+
+
 def test_pka_order_follows_the_usual_table():
     # Conjugate-acid pKa order (Clayden et al. 2012, pKa appendix, from memory):
     # NH3 > iPr2NH > H2 > tBuOH > EtOH > H2O > Et3NH+ > HCN > AcOH > HN3 > H3O+ > HCl > HBr > HI.
