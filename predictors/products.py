@@ -466,7 +466,7 @@ def _e2_routes(ctx: _Context, lg: LeavingGroup, betas: tuple[int, ...]) -> list[
         orient = "Hofmann orientation"
     use_3d = _use_3d(ctx, lg, betas)
     results, reference = _periplanar_results(ctx, lg, betas) if use_3d else ({}, 0.0)
-    routes = []
+    routes, made_here = [], []
     for beta in betas:
         tags = ("E2", "E1cB") if beta in lg.activated_betas else ("E2",)
         hydrogens = _hydrogens(ctx.mol_h, beta)
@@ -475,15 +475,29 @@ def _e2_routes(ctx: _Context, lg: LeavingGroup, betas: tuple[int, ...]) -> list[
                 made = _e2_from_3d(ctx, lg, beta, h_idx, mult, results[h_idx], reference)
             else:
                 made = _e2_topological(ctx, lg, beta, h_idx, mult)
-            for outcome, weight, why, notes in made:
-                w = weight * _orientation_weight(outcome, factor)
-                rationale = (f"E2 by {ctx.reagent.name} ({ctx.reagent.bulk}): {orient} "
-                             f"(x{factor:.2g} per alkyl on C=C); {why}")
-                syn = any(n.startswith("syn") for n in notes)
-                label = "alkene" + (", syn path" if syn else "")
-                routes.append(_Route(outcome.smiles, tags, w, label, rationale, outcome.geometry,
-                                     outcome.n_subst, f"E2@{lg.alpha_idx}", notes))
+            made_here.extend((outcome, weight, why, notes, tags) for outcome, weight, why, notes in made)
+    most = max((o.n_subst or 0 for o, *_ in made_here), default=0)
+    least = min((o.n_subst or 0 for o, *_ in made_here), default=0)
+    for outcome, weight, why, notes, tags in made_here:
+        w = weight * _orientation_weight(outcome, factor)
+        rationale = (f"E2 by {ctx.reagent.name} ({ctx.reagent.bulk}): "
+                     f"{_orientation_text(orient, factor, outcome.n_subst or 0, most, least)}; {why}")
+        syn = any(n.startswith("syn") for n in notes)
+        label = "alkene" + (", syn path" if syn else "")
+        routes.append(_Route(outcome.smiles, tags, w, label, rationale, outcome.geometry,
+                             outcome.n_subst, f"E2@{lg.alpha_idx}", notes))
     return routes
+
+
+def _orientation_text(orient: str, factor: float, n_subst: int, most: int, least: int) -> str:
+    """How the orientation rule weighs this alkene, said of this alkene (under a Zaitsev rule the
+    less substituted alkene is the one it disfavours, under a Hofmann rule the more substituted)."""
+    per = f"x{factor:.2g} per alkyl on C=C, {n_subst} on this one"
+    if most == least or 1.0 <= factor < 3.0:  # nothing to choose between, or a weak preference
+        return f"{orient} ({per})"
+    more = n_subst >= most
+    side = "favours" if more == (factor >= 3.0) else "disfavours"
+    return f"{orient} {side} this {'more' if more else 'less'} substituted alkene ({per})"
 
 
 # ----------------------------------------------------------------------------- E1cB

@@ -275,3 +275,18 @@ def test_achiral_substrate_lists_a_racemic_product_once():
     alkenes = [c for c in products.candidates if "E2" in c.pathways]
     assert len(alkenes) == 1
     assert any("racemate" in n for n in alkenes[0].notes)
+
+
+def test_orientation_rationale_speaks_of_each_alkene():
+    # under a Zaitsev rule the less substituted alkene is the disfavoured one, under the Hofmann
+    # rule of a charged leaving group the more substituted one (common practice)
+    def rationale(smiles, reagent, n_subst):
+        alkenes = [c for c in enumerate_products(smiles, reagent=reagent).candidates if "E2" in c.pathways]
+        return [c.rationale for c in alkenes if c.regio == n_subst]
+
+    assert all("Zaitsev orientation disfavours this less substituted alkene" in r
+               for r in rationale("CC(Br)CC", "ethoxide", "less substituted"))
+    assert all("favours this more substituted alkene" in r
+               for r in rationale("CC(Br)CC", "ethoxide", "more substituted"))
+    assert all("Hofmann orientation favours this less substituted alkene" in r
+               for r in rationale("CC([N+](C)(C)C)CC", "hydroxide", "less substituted"))
