@@ -19,7 +19,8 @@ from predictors.errors import InputError
 from predictors.molecules import parse_molecule
 from predictors.shifts import predict_proton_shifts, prepare_model_molecule
 
-__all__ = ["predict_spin_system", "first_order_multiplicity", "MULTIPLET_NAMES"]
+__all__ = ["predict_spin_system", "first_order_multiplicity", "second_order_pairs", "MULTIPLET_NAMES",
+           "FIRST_ORDER_RATIO"]
 
 #: First-order multiplet letters by number of equally coupled neighbours.
 MULTIPLET_NAMES = {1: "d", 2: "t", 3: "q", 4: "quint", 5: "sext", 6: "sept"}
@@ -27,6 +28,10 @@ MULTIPLET_NAMES = {1: "d", 2: "t", 3: "q", 4: "quint", 5: "sext", 6: "sept"}
 _MERGE_HZ = 1.0
 #: Spin systems whose first-order pattern has more couplings than this are "m".
 _MAX_DISTINCT = 3
+#: Two coupled sites give a first-order pattern when their shift difference in Hz is at least this
+#: many times their coupling (common practice: textbooks put the limit near 10; below about 3 the
+#: lines lean strongly and extra lines appear).
+FIRST_ORDER_RATIO = 10.0
 
 
 def predict_spin_system(molecule, *, n_conformers: int = 10, seed: int = 0xC0FFEE) -> SpinSystem:
@@ -152,6 +157,24 @@ def _rotor_averaged(mol_h, groups, j_atom: np.ndarray) -> np.ndarray:
         j[:, hs] = mean[:, None]
         j[np.ix_(hs, hs)] = 0.0
     return j
+
+
+def second_order_pairs(system: SpinSystem, field_mhz: float, *, min_j_hz: float = 0.5,
+                       ratio: float = FIRST_ORDER_RATIO) -> list[tuple[int, int, float]]:
+    """Coupled site pairs whose pattern is not first order at ``field_mhz``: ``(i, k, dnu/J)`` with
+    the shift difference in Hz over the coupling below ``ratio``, most strongly coupled first.
+    Exchangeable sites are left out (their couplings rarely show)."""
+    out = []
+    n = len(system.sites)
+    for i in range(n):
+        for k in range(i + 1, n):
+            j = abs(float(system.j_hz[i, k]))
+            if j < min_j_hz or system.sites[i].exchangeable or system.sites[k].exchangeable:
+                continue
+            dnu = abs(system.sites[i].shift_ppm - system.sites[k].shift_ppm) * field_mhz
+            if dnu < ratio * j:
+                out.append((i, k, dnu / j))
+    return sorted(out, key=lambda t: (t[2], t[0], t[1]))
 
 
 def first_order_multiplicity(system: SpinSystem, site_index: int, *, min_j_hz: float = 0.5) -> str:

@@ -30,7 +30,7 @@ def register(subparsers, parents) -> None:
 
 def spin_system_to_json(system, *, field_mhz: float) -> dict:
     """The ``predict`` JSON contract (design.md) for a spin system."""
-    from predictors.prediction import first_order_multiplicity
+    from predictors.prediction import first_order_multiplicity, second_order_pairs
 
     sites = []
     for i, site in enumerate(system.sites):
@@ -43,11 +43,12 @@ def spin_system_to_json(system, *, field_mhz: float) -> dict:
             "exchangeable": site.exchangeable, "magnetically_equivalent": site.magnetically_equivalent,
             "flags": list(site.flags),
         })
-    return {"smiles": system.smiles, "field_mhz": field_mhz, "sites": sites}
+    second = [{"sites": [i, k], "delta_nu_over_j": r} for i, k, r in second_order_pairs(system, field_mhz)]
+    return {"smiles": system.smiles, "field_mhz": field_mhz, "sites": sites, "second_order": second}
 
 
 def _run(args) -> int:
-    from predictors.prediction import predict_spin_system
+    from predictors.prediction import FIRST_ORDER_RATIO, predict_spin_system, second_order_pairs
 
     field = args.field_mhz
     if not math.isfinite(field) or not 40.0 <= field <= 1200.0:
@@ -66,6 +67,11 @@ def _run(args) -> int:
     print(f"{system.smiles}  ({system.n_h} H, {field:g} MHz)")
     headers = ["site", "label", "nH", "shift ppm", "mult", "J Hz (to site)", "notes"]
     print(format_table(headers, _rows(system)))
+    pairs = second_order_pairs(system, field)
+    if pairs:
+        listed = ", ".join(f"{i}-{k} (dnu/J {r:.1f})" for i, k, r in pairs)
+        print(f"\nsecond order at {field:g} MHz: the multiplicities above are first-order names; coupled "
+              f"sites closer than {FIRST_ORDER_RATIO:g} J lean and split further: sites {listed}")
     return 0
 
 

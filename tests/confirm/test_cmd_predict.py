@@ -53,3 +53,17 @@ def test_bad_input_exits_2(run_cli, args, message):
     assert result.exit_code == 2
     assert message in result.stderr and "Traceback" not in result.stderr
     assert result.stderr.startswith("error:")
+
+
+def test_second_order_pairs_are_named_at_low_field_only(run_cli):
+    # ethyl (E)-crotonate: vinyl H about 1.05 ppm apart with 3J about 15.6 Hz, so dnu/J is about 4 at
+    # 60 MHz (second order, the AB roof a benchtop shows) and about 27 at 400 MHz (first order);
+    # first order from dnu/J >= 10 (common practice)
+    low = run_cli("predict", "CCOC(=O)/C=C/C", "--field-mhz", "60")
+    assert low.exit_code == 0 and "second order at 60 MHz" in low.stdout
+    high = run_cli("predict", "CCOC(=O)/C=C/C", "--field-mhz", "400")
+    assert high.exit_code == 0 and "second order" not in high.stdout
+    data = json.loads(run_cli("predict", "CCOC(=O)/C=C/C", "--field-mhz", "60", "--json").stdout)
+    vinyl = sorted(i for i, s in enumerate(data["sites"]) if s["label"] == "vinyl")
+    pairs = {tuple(p["sites"]): p["delta_nu_over_j"] for p in data["second_order"]}
+    assert tuple(vinyl) in pairs and 2.0 < pairs[tuple(vinyl)] < 6.0
