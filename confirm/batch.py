@@ -63,7 +63,7 @@ __all__ = [
 MANIFEST_COLUMNS = ("id", "spectrum", "substrate", "reagent", "candidates", "solvent", "temp_c", "field_mhz",
                     "spec")
 #: Names an item may not have: the batch's own files (and names some systems reserve for devices).
-RESERVED_IDS = frozenset({"summary.csv", "index.html", "con", "prn", "aux", "nul",
+RESERVED_IDS = frozenset({"summary.csv", "components.csv", "index.html", "con", "prn", "aux", "nul",
                           *(f"com{k}" for k in range(1, 10)), *(f"lpt{k}" for k in range(1, 10))})
 _DATA_SUFFIXES = (".dx", ".jdx", ".jcamp", ".jcm", ".csv", ".tsv", ".txt", ".tab", ".peaks", ".lst")
 _FID_NAMES = {"fid", "acqus", "procpar"}
@@ -153,7 +153,8 @@ def _safe_id(text: str) -> str:
 def _check_reserved(name: str, *, given: str) -> None:
     if name.casefold() in RESERVED_IDS:
         raise InputError(f"item id {given!r}: {name!r} is reserved for the batch's own files; "
-                         f"choose another id (reserved: summary.csv, index.html and device names)")
+                         "choose another id (reserved: summary.csv, components.csv, index.html and device "
+                         "names)")
 
 
 def _unique_ids(items: list[BatchItem]) -> list[BatchItem]:
@@ -656,6 +657,38 @@ def _summary_csv(outcomes: Sequence[ItemOutcome]) -> str:
     return buffer.getvalue()
 
 
+#: Columns of ``components.csv``: one row per finished item and candidate, then one per ratio.
+_COMPONENT_COLUMNS = ("id", "row", "smiles", "label", "detected", "mole_percent", "sd_percent",
+                      "upper_limit_percent", "ratio", "ratio_decided")
+
+
+def _components_csv(outcomes: Sequence[ItemOutcome], out: Path) -> str:
+    """Per finished item, each candidate's amount (mol %, sd; an upper limit when not detected) and
+    each ratio, read back from the item's ``result.json`` (the numbers a process chemist tabulates)."""
+    def pct(value) -> str:
+        return "" if value is None else f"{100.0 * float(value):.2f}"
+
+    buffer = io.StringIO()
+    writer = csv.writer(buffer, lineterminator="\n")
+    writer.writerow(_COMPONENT_COLUMNS)
+    for o in outcomes:
+        if o.status not in ("done", "skipped"):
+            continue
+        result = _read_json_object(out / o.item_id / "result.json")
+        if result is None:
+            continue
+        for comp in result.get("components", []):
+            found = bool(comp.get("detected"))
+            writer.writerow([o.item_id, "component", comp.get("smiles", ""), comp.get("label") or "",
+                             "yes" if found else "no", pct(comp.get("mole_fraction") if found else None),
+                             pct(comp.get("mole_fraction_sd") if found else None),
+                             pct(None if found else comp.get("upper_limit")), "", ""])
+        for name, ratio in (result.get("ratios") or {}).items():
+            writer.writerow([o.item_id, "ratio", "", name, "", "", "", "", ratio.get("ratio", ""),
+                             "yes" if ratio.get("decided") else "no"])
+    return buffer.getvalue()
+
+
 def _index_html(outcomes: Sequence[ItemOutcome], counts: dict) -> str:
     from confirm.qc import CAUTION
 
@@ -689,7 +722,7 @@ def _index_html(outcomes: Sequence[ItemOutcome], counts: dict) -> str:
 
 
 def write_summary(outcomes: Sequence[ItemOutcome], out_dir: str | Path) -> BatchSummary:
-    """Write ``summary.csv`` and ``index.html`` for the outcomes into ``out_dir``."""
+    """Write ``summary.csv``, ``components.csv`` and ``index.html`` for the outcomes into ``out_dir``."""
     out = Path(out_dir)
     counts = {status: sum(1 for o in outcomes if o.status == status)
               for status in ("done", "skipped", "error")}
@@ -697,6 +730,7 @@ def write_summary(outcomes: Sequence[ItemOutcome], out_dir: str | Path) -> Batch
     if interrupted:
         counts["interrupted"] = interrupted
     write_text_atomic(out / "summary.csv", _summary_csv(outcomes))
+    write_text_atomic(out / "components.csv", _components_csv(outcomes, out))
     write_text_atomic(out / "index.html", _index_html(outcomes, counts))
     return BatchSummary(outcomes=tuple(outcomes), summary_csv=out / "summary.csv",
                         index_html=out / "index.html", counts=counts)

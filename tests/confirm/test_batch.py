@@ -123,6 +123,13 @@ def test_twenty_spectra_with_one_corrupt_file_in_two_processes(twenty, tmp_path)
     assert z_fraction == pytest.approx(0.04, abs=0.005)
     index = summary.index_html.read_text()
     assert "lot07" in index and "1 error" in index and "decision aid" in index
+    # one row per finished item and candidate (and per ratio), read back from result.json
+    with open(tmp_path / "out" / "components.csv", newline="") as handle:
+        table = list(csv.DictReader(handle))
+    assert {r["id"] for r in table} == {f"lot{k:02d}" for k in range(20)} - {"lot07"}
+    z_row = next(r for r in table if r["id"] == "lot03" and r["smiles"] == Z_PENTENE)
+    assert z_row["detected"] == "yes"
+    assert float(z_row["mole_percent"]) == pytest.approx(100 * z_fraction, abs=0.01)
 
 
 def test_rerun_skips_finished_items_unless_forced(tmp_path):

@@ -121,7 +121,7 @@ def test_ids_stay_unique_after_sanitising_and_never_overwrite(tmp_path):
         i.item_id: str(i.spectrum) for i in items}
 
 
-@pytest.mark.parametrize("name", ["summary.csv", "index.html", "INDEX.HTML", "nul"])
+@pytest.mark.parametrize("name", ["summary.csv", "components.csv", "index.html", "INDEX.HTML", "nul"])
 def test_reserved_ids_are_refused(tmp_path, name):
     (tmp_path / "m.csv").write_text(f"id,spectrum\n{name},a.jdx\n")
     with pytest.raises(InputError, match="reserved"):
