@@ -44,6 +44,9 @@ def register(subparsers, parents) -> None:
                         help="how to reference the axis (default: TMS, else solvent, else as acquired)")
     parser.add_argument("--baseline", choices=("arpls", "asls", "iarpls", "none"), default="arpls",
                         help="baseline method (default arpls)")
+    parser.add_argument("--protons", type=int, default=None, metavar="N",
+                        help="proton count of the compound: the line list gives each multiplet's nH "
+                             "(integrals scaled to sum to N); without it, % of the total")
     parser.add_argument("--threshold-snr", type=float, default=8.0,
                         help="pick lines higher than this many noise standard deviations (default 8)")
     parser.set_defaults(handler=_run)
@@ -70,16 +73,28 @@ def _run(args) -> int:
                                 force_field=args.force_field, reference=args.reference,
                                 baseline=args.baseline, threshold_snr=args.threshold_snr,
                                 orientation=args.orientation)
+    if args.protons is not None and not 1 <= args.protons <= 500:
+        raise InputError(f"--protons: expected a proton count between 1 and 500, got {args.protons}")
     result = process_measurement(raw, options=options)
     if args.out:
         _write_csv(result, Path(args.out))
     if args.plot:
         _write_plot(result, Path(args.plot))
     if args.json:
-        emit_json(_to_json(result))
+        emit_json(dict(_to_json(result), line_list=_line_list(result, args.protons)))
     else:
         print(_to_text(result))
+        print(f"\nline list: {_line_list(result, args.protons)}")
     return 0
+
+
+def _line_list(result: ProcessedSpectrum, protons) -> str:
+    from confirm.line_list import journal_line
+
+    exclude = (0.0,) if "TMS" in str(result.reference) else ()
+    spectrum = result.spectrum
+    return journal_line(result.multiplets, field_mhz=spectrum.field_mhz, solvent=spectrum.solvent,
+                        protons=protons, exclude_ppm=exclude)
 
 
 def _to_json(result: ProcessedSpectrum) -> dict:
