@@ -55,6 +55,7 @@ from predictors.errors import FileFormatError, InputError
 
 __all__ = [
     "CAUTION",
+    "SPEC_TEMPLATE",
     "STATUSES",
     "Z_95",
     "QcLimits",
@@ -166,6 +167,35 @@ def _smiles_entry(value, *, name: str) -> str:
         return canonical_smiles(check_smiles(value, name=f"spec {name}"))
     except ChemistryError as exc:
         raise InputError(str(exc)) from None
+
+
+#: A commented specification to start from (``confirm qc --template``); it reads as it is, with
+#: an invented example product: replace the structures and limits with the site's own.
+SPEC_TEMPLATE = """\
+# Specification for `confirm qc` (TOML). Lines starting with # are comments.
+# Replace the example structures and limits with your own; every limit is optional.
+
+name = "Lot release, (E)-pent-2-ene"           # shown in the report and the audit record
+product = "C/C=C/CC"                           # the expected product (isomeric SMILES)
+
+# The candidates the analysis must consider: either list them ...
+candidates = ["C/C=C\\\\CC", "C=CCCC"]            # the other isomers, impurities, by-products
+starting_material = "CC(Br)CCC"                # optional: counted against max_starting_material_percent
+solvent = "CDCl3"                              # optional: the NMR solvent
+# field_mhz = 400.0                            # optional: only when the file does not record it
+
+# ... or give the reaction instead of the candidates list (then delete `candidates` above):
+# [reaction]
+# substrate = "CC(Br)CCC"
+# reagent = "ethoxide"
+# temp_c = 25.0
+
+[limits]
+min_isomeric_purity_percent = 98.0             # the product's share of its isomers, at least
+max_other_isomer_percent = 2.0                 # any other isomer, at most
+max_starting_material_percent = 1.0            # starting material left, at most
+min_snr = 100.0                                # the spectrum's signal-to-noise, at least
+"""
 
 
 def read_spec(path: str | Path) -> QcSpec:

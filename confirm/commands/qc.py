@@ -23,7 +23,7 @@ from confirm.qc import (
     run_qc,
     write_json_atomic,
 )
-from predictors.errors import FileFormatError
+from predictors.errors import FileFormatError, InputError
 
 
 def register(subparsers, parents) -> None:
@@ -32,8 +32,11 @@ def register(subparsers, parents) -> None:
         "qc", parents=parents, help="check a spectrum against a specification (PASS/FAIL/INCONCLUSIVE)",
         description="Analyse a spectrum as a specification says and decide each acceptance limit "
                     "from its 95 % interval. " + CAUTION)
-    parser.add_argument("--spec", required=True, type=Path, help="specification file (TOML)")
-    parser.add_argument("--spectrum", required=True, type=Path, help="spectrum file or FID folder")
+    parser.add_argument("--spec", type=Path, help="specification file (TOML; see --template)")
+    parser.add_argument("--spectrum", type=Path, help="spectrum file or FID folder")
+    parser.add_argument("--template", type=Path, metavar="SPEC.toml",
+                        help="write a commented specification to start from, and stop (the file must "
+                             "not exist yet)")
     parser.add_argument("--report", type=Path, metavar="OUT.html", help="write an HTML report")
     parser.add_argument("--audit", type=Path, metavar="AUDIT.json", help="write the audit record (JSON)")
     add_budget_argument(parser)
@@ -50,6 +53,12 @@ def _run(args: argparse.Namespace) -> int:
     from confirm._files import check_file_targets, check_outputs
     from confirm.budget import watch_budget
 
+    if args.template is not None:
+        return _write_template(args.template)
+    for flag, value in (("--spec", args.spec), ("--spectrum", args.spectrum)):
+        if value is None:
+            raise InputError(f"{flag}: required (or --template SPEC.toml to write a specification to "
+                             "start from)")
     outputs = [("--report", args.report), ("--audit", args.audit)]
     check_outputs(outputs, [("--spec", args.spec), *data_inputs("--spectrum", args.spectrum)])
     spec = read_spec(args.spec)
@@ -70,6 +79,18 @@ def _run(args: argparse.Namespace) -> int:
     else:
         print(_format_text(qc, result))
     return 0 if qc.status == "PASS" else 1
+
+
+def _write_template(path: Path) -> int:
+    from confirm._files import check_file_targets, write_text_atomic
+    from confirm.qc import SPEC_TEMPLATE
+
+    if path.exists() or path.is_symlink():
+        raise InputError(f"--template: {str(path)!r} exists; give a new file name (nothing was overwritten)")
+    check_file_targets([("--template", path)])
+    write_text_atomic(path, SPEC_TEMPLATE)
+    print(f"wrote {path}: edit the structures and limits, then run confirm qc --spec {path} --spectrum ...")
+    return 0
 
 
 def _format_text(qc, result) -> str:

@@ -434,3 +434,19 @@ def test_undetected_isomer_whose_upper_bound_exceeds_the_limit_never_passes(spec
     comps[1] = replace(comps[1], upper_limit=0.01)
     qc = evaluate_qc(replace(result, fit=replace(result.fit, components=tuple(comps))), spec)
     assert _status(qc, "other isomer: " + (comps[1].candidate.label or comps[1].candidate.smiles)) == "PASS"
+
+
+def test_template_is_a_readable_commented_spec_and_never_overwrites(run_cli, tmp_path):
+    from confirm.qc import read_spec
+
+    path = tmp_path / "spec.toml"
+    result = run_cli("qc", "--template", str(path))
+    assert result.exit_code == 0, result.stderr
+    text = path.read_text()
+    assert text.count("#") > 10 and "[limits]" in text and "[reaction]" in text
+    spec = read_spec(path)  # reads as written: the example values are a valid specification
+    assert spec.limits.min_isomeric_purity_percent == 98.0 and len(spec.candidates) == 2
+    again = run_cli("qc", "--template", str(path))
+    assert again.exit_code == 2 and "exists" in again.stderr and path.read_text() == text
+    missing = run_cli("qc", "--spectrum", str(path))
+    assert missing.exit_code == 2 and "--spec: required" in missing.stderr and "--template" in missing.stderr
