@@ -114,14 +114,13 @@ def _translate_column(grid, column: np.ndarray, delta_ppm: float, span=None) -> 
     return out
 
 
-def _nonzero_span(column: np.ndarray) -> tuple[int, int]:
+def _nonzero_span(column: np.ndarray) -> np.ndarray:
     """First and last index where the column is not zero ((0, -1) when it is zero everywhere)."""
-    nz = np.flatnonzero(column)
-    return (int(nz[0]), int(nz[-1])) if nz.size else (0, -1)
+    return _nonzero_spans(column[None, :])[0]
 
 
 def _nonzero_spans(columns: np.ndarray) -> np.ndarray:
-    """``_nonzero_span`` of every row, shape (n_rows, 2)."""
+    """First and last non-zero index of every row ((0, -1) for a zero row), shape (n_rows, 2)."""
     nz = columns != 0
     n = columns.shape[1]
     first = np.argmax(nz, axis=1)
