@@ -211,12 +211,24 @@ class SpinSystem:
         Symmetric signed coupling constants between sites, zero diagonal.
     j_sd_hz : ndarray or None, shape (n_sites, n_sites)
         Standard uncertainty of each coupling (None when unknown).
+    proton_j_hz : ndarray or None, shape (n_h, n_h)
+        Signed couplings between single protons, in the order of :attr:`proton_atoms` (the
+        sites' atoms, site by site); ``j_hz`` is its mean over each pair of sites. Needed to
+        simulate a site whose protons are not magnetically equivalent (the AA'BB' protons of
+        a phenyl ring) proton by proton; None for a system given site by site, which is then
+        simulated with one composite spin per site.
+    split_sites : tuple of int
+        Sites simulated proton by proton (needs ``proton_j_hz``): sites whose protons are not
+        magnetically equivalent and where that shows, e.g. the AA'BB' protons of an aromatic
+        ring. Other sites are one composite spin each.
     """
 
     smiles: str
     sites: tuple[ProtonSite, ...]
     j_hz: np.ndarray
     j_sd_hz: np.ndarray | None = None
+    proton_j_hz: np.ndarray | None = None
+    split_sites: tuple[int, ...] = ()
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "smiles", canonical_smiles(self.smiles))
@@ -238,6 +250,19 @@ class SpinSystem:
             if sd.shape != (n, n) or np.any(sd < 0):
                 raise InputError("j_sd_hz: expected non-negative values of the same shape as j_hz")
             object.__setattr__(self, "j_sd_hz", sd)
+        if self.proton_j_hz is not None:
+            pj = _frozen_array(self.proton_j_hz, name="proton_j_hz", ndim=2)
+            n_h = sum(s.n_h for s in sites)
+            if pj.shape != (n_h, n_h):
+                raise InputError(
+                    f"proton_j_hz: expected shape ({n_h}, {n_h}) for {n_h} protons, got {pj.shape}")
+            if not np.allclose(pj, pj.T, atol=1e-9) or (n_h and np.any(np.diag(pj) != 0)):
+                raise InputError("proton_j_hz: must be symmetric with a zero diagonal")
+            object.__setattr__(self, "proton_j_hz", pj)
+        split = tuple(sorted({int(k) for k in self.split_sites}))
+        if split and (self.proton_j_hz is None or split[0] < 0 or split[-1] >= n):
+            raise InputError(f"split_sites: expected site indices 0..{n - 1} and proton_j_hz, got {split}")
+        object.__setattr__(self, "split_sites", split)
         seen: set[int] = set()
         for site in sites:
             if seen & set(site.atoms):
@@ -253,6 +278,11 @@ class SpinSystem:
     def shifts_ppm(self) -> np.ndarray:
         """Site shifts as a new array, shape (n_sites,)."""
         return np.array([s.shift_ppm for s in self.sites], dtype=float)
+
+    @property
+    def proton_atoms(self) -> tuple[int, ...]:
+        """The H atoms of all sites, site by site (the order of ``proton_j_hz``)."""
+        return tuple(a for s in self.sites for a in s.atoms)
 
     @property
     def n_protons(self) -> np.ndarray:

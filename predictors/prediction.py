@@ -50,7 +50,10 @@ def predict_spin_system(molecule, *, n_conformers: int = 10, seed: int = 0xC0FFE
     -------
     SpinSystem
         Sites ordered by atom index; ``j_hz`` is the mean coupling per proton
-        pair between two sites; ``j_sd_hz`` its uncertainty.
+        pair between two sites; ``j_sd_hz`` its uncertainty; ``proton_j_hz`` the
+        couplings proton by proton (averaged over each freely rotating CH2/CH3);
+        ``split_sites`` the aromatic sites whose protons are not magnetically
+        equivalent (simulated proton by proton, ``predictors.spin.spin_units``).
 
     Raises
     ------
@@ -72,12 +75,21 @@ def predict_spin_system(molecule, *, n_conformers: int = 10, seed: int = 0xC0FFE
     conformers = embed_conformers(mol_h, n_conformers=int(n_conformers), seed=seed)
     j_atom, sd_atom = predict_couplings(model, conformers, relations, exchangeable=exchangeable)
     groups = _split_by_partners(mol_h, groups, _rotor_averaged(mol_h, groups, j_atom))
-    magnetic = check_magnetic_equivalence(groups, _rotor_averaged(mol_h, groups, j_atom), tol_hz=0.5)
+    averaged = _rotor_averaged(mol_h, groups, j_atom)
+    magnetic = check_magnetic_equivalence(groups, averaged, tol_hz=0.5)
     sites = tuple(_make_site(group, shifts, mag) for group, mag in zip(groups, magnetic, strict=True))
     j_site, sd_site = _site_matrices(groups, j_atom, sd_atom)
     if conformers.n_conformers == 0:
         sites = tuple(_add_flag(s, "no 3D conformer: vicinal couplings from generic values") for s in sites)
-    return SpinSystem(smiles=smiles, sites=sites, j_hz=j_site, j_sd_hz=sd_site)
+    order = [h for group in groups for h in group]
+    proton_j = np.round(averaged[np.ix_(order, order)], 3)
+    proton_j[np.abs(proton_j) < 0.05] = 0.0
+    np.fill_diagonal(proton_j, 0.0)
+    split = tuple(k for k, (group, mag) in enumerate(zip(groups, magnetic, strict=True))
+                  if not mag and len(group) > 1
+                  and all(mol_h.GetAtomWithIdx(h).GetNeighbors()[0].GetIsAromatic() for h in group))
+    return SpinSystem(smiles=smiles, sites=sites, j_hz=j_site, j_sd_hz=sd_site, proton_j_hz=proton_j,
+                      split_sites=split)
 
 
 def _make_site(group, shifts, magnetic: bool) -> ProtonSite:

@@ -17,7 +17,7 @@ from predictors.core import SpinSystem
 from predictors.errors import FitError
 
 __all__ = ["SATELLITE_SHARE", "CandidateModel", "build_model", "model_lines", "model_lines_with_derivatives",
-           "coupling_matrix"]
+           "coupling_matrix", "unit_couplings"]
 
 #: 13C natural abundance: each satellite is 0.55 % of its parent (references.md section 5).
 SATELLITE_SHARE = 0.0055
@@ -58,6 +58,12 @@ class CandidateModel:
     own_width: tuple | None = None
     #: a solvent, water or reference line: fitted, never reported as a component
     nuisance: bool = False
+    #: the simulated spins when a site is simulated proton by proton (AA'BB' protons of a ring):
+    #: the site of each spin, its protons and the predicted couplings between spins; None when
+    #: every site is one composite spin
+    unit_owner: np.ndarray | None = None
+    unit_n: np.ndarray | None = None
+    unit_j0: np.ndarray | None = None
 
     @property
     def n_sites(self) -> int:
@@ -83,10 +89,15 @@ def build_model(system: SpinSystem, options) -> CandidateModel:
     window = np.clip(options.shift_window_sd * sd, options.min_shift_window_ppm, options.max_shift_window_ppm)
     n_h = np.array([sum(system.sites[i].n_h for i in g) for g in groups])
     j0 = j_full[np.ix_(first, first)].copy()
-    _fold_aa_xx(j0, sites)
+    units = _model_units(system, groups)
+    if units is None:
+        _fold_aa_xx(j0, sites)
     j_sd = np.full(j0.shape, _DEFAULT_J_SD_HZ) if j_sd_full is None else j_sd_full[np.ix_(first, first)]
     pairs, lo, hi, prior = [], [], [], []
-    if options.refine_couplings and _affordable(j0, n_h, shift0=np.array([s.shift_ppm for s in sites])):
+    shift_first = np.array([s.shift_ppm for s in sites])
+    affordable = (_affordable(j0, n_h, shift0=shift_first) if units is None
+                  else _affordable(units[2], units[1], shift0=shift_first[units[0]]))
+    if options.refine_couplings and affordable:
         for a in range(len(first)):
             for b in range(a + 1, len(first)):
                 value = j0[a, b]
@@ -113,7 +124,36 @@ def build_model(system: SpinSystem, options) -> CandidateModel:
         j_sd=np.array(prior),
         jch=_one_bond_couplings(system, sites),
         labels=tuple(s.label for s in sites),
+        unit_owner=None if units is None else units[0],
+        unit_n=None if units is None else units[1],
+        unit_j0=None if units is None else units[2],
     )
+
+
+def _model_units(system: SpinSystem, groups) -> tuple | None:
+    """(owner, protons, couplings) of the spins simulated for the model's sites, or None when
+    every site is one composite spin (``predictors.spin.spin_units``: a site whose protons are
+    not magnetically equivalent is simulated proton by proton). A merged pair of sites is one
+    spin with the couplings of its first site, as its site is."""
+    from predictors.spin import spin_units
+
+    units = spin_units(system)
+    if not units.split:
+        return None
+    of_site = [np.flatnonzero(units.owner == k) for k in range(len(system.sites))]
+    owner, lead, n_h = [], [], []
+    for g, group in enumerate(groups):
+        if len(group) == 1 and of_site[group[0]].size > 1:
+            for u in of_site[group[0]]:
+                owner.append(g)
+                lead.append(int(u))
+                n_h.append(int(units.n_h[u]))
+        else:
+            owner.append(g)
+            lead.append(int(of_site[group[0]][0]))
+            n_h.append(sum(system.sites[i].n_h for i in group))
+    j = units.j_hz[np.ix_(lead, lead)].copy()
+    return np.array(owner, dtype=int), np.array(n_h, dtype=int), j
 
 
 def _merge_remote_pairs(system: SpinSystem, keep: list, j: np.ndarray) -> list:
@@ -242,6 +282,48 @@ def coupling_matrix(model: CandidateModel, j_values: np.ndarray) -> np.ndarray:
     return j
 
 
+def unit_couplings(model: CandidateModel, j_values: np.ndarray) -> np.ndarray:
+    """Couplings between the model's simulated spins with the refined couplings at ``j_values``.
+
+    A refined coupling of two sites is their mean coupling; when a site is simulated proton by
+    proton, every coupling between the two sites' spins moves by the same amount (the ortho and
+    para couplings of a ring proton keep their difference)."""
+    if model.unit_owner is None:
+        return coupling_matrix(model, j_values)
+    j = np.array(model.unit_j0, dtype=float)
+    owner = model.unit_owner
+    for (a, b), value in zip(model.j_pairs, j_values, strict=True):
+        shift = float(value) - float(model.j0[a, b])
+        if shift != 0.0:
+            block = np.ix_(owner == a, owner == b)
+            j[block] += shift
+            j[np.ix_(owner == b, owner == a)] += shift
+    return j
+
+
+def _unit_pairs(model: CandidateModel) -> tuple[list, list]:
+    """The spin pairs of each refined site pair (all of them) and the refined pair each stands for."""
+    owner = model.unit_owner
+    pairs, column = [], []
+    for k, (a, b) in enumerate(model.j_pairs):
+        for u in np.flatnonzero(owner == a):
+            for v in np.flatnonzero(owner == b):
+                pairs.append((int(u), int(v)))
+                column.append(k)
+    return pairs, column
+
+
+def _simulation_inputs(model: CandidateModel, shifts: np.ndarray, j_values: np.ndarray):
+    """Shifts, couplings and proton counts of the simulated spins."""
+    if model.unit_owner is None:
+        return np.asarray(shifts, dtype=float), coupling_matrix(model, j_values), model.n_h
+    return np.asarray(shifts, dtype=float)[model.unit_owner], unit_couplings(model, j_values), model.unit_n
+
+
+def _site_of(model: CandidateModel, spin_index: np.ndarray) -> np.ndarray:
+    return spin_index if model.unit_owner is None else model.unit_owner[spin_index]
+
+
 def model_lines(model: CandidateModel, shifts: np.ndarray, j_values: np.ndarray, field_mhz: float, *,
                 satellites: bool = True):
     """Lines of one molecule with 13C satellites: (ppm, intensity, site, is satellite) arrays.
@@ -257,14 +339,15 @@ def model_lines(model: CandidateModel, shifts: np.ndarray, j_values: np.ndarray,
         ppm = np.asarray(shifts, dtype=float)[0] + np.asarray(offsets, dtype=float) / field_mhz
         inten = np.asarray(weights, dtype=float) * (model.n_h[0] / float(np.sum(weights)))
         return _with_satellites(model, ppm, inten, np.zeros(ppm.size, int), field_mhz, satellites)
-    j = coupling_matrix(model, j_values)
+    spin_shifts, j, n_h = _simulation_inputs(model, shifts, j_values)
     try:
-        lines = simulate_arrays_reusing(shifts, j, model.n_h, field_mhz=field_mhz, memo=model.memo)
+        lines = simulate_arrays_reusing(spin_shifts, j, n_h, field_mhz=field_mhz, memo=model.memo)
     except np.linalg.LinAlgError:
         # exactly degenerate sites can stall the eigensolver: nudge them apart by < 0.01 Hz and retry
-        nudged = np.asarray(shifts) + 1e-5 * np.arange(len(shifts)) / max(field_mhz, 1.0)
-        lines = simulate_arrays_reusing(nudged, j, model.n_h, field_mhz=field_mhz, memo=model.memo)
-    ppm, inten, site = np.asarray(lines.ppm), np.asarray(lines.intensity), np.asarray(lines.site_index)
+        nudged = spin_shifts + 1e-5 * np.arange(len(spin_shifts)) / max(field_mhz, 1.0)
+        lines = simulate_arrays_reusing(nudged, j, n_h, field_mhz=field_mhz, memo=model.memo)
+    ppm, inten = np.asarray(lines.ppm), np.asarray(lines.intensity)
+    site = _site_of(model, np.asarray(lines.site_index))
     keep, inten = _strong_lines(inten, site)
     return _with_satellites(model, ppm[keep], inten, site[keep], field_mhz, satellites)
 
@@ -282,16 +365,18 @@ def model_lines_with_derivatives(model: CandidateModel, shifts: np.ndarray, j_va
     if model.pattern is not None or not model.j_pairs:
         lines = model_lines(model, shifts, j_values, field_mhz)
         return lines + (np.zeros((lines[0].size, len(model.j_pairs))),)
-    j = coupling_matrix(model, j_values)
+    spin_shifts, j, n_h = _simulation_inputs(model, shifts, j_values)
+    pairs, column = (model.j_pairs, None) if model.unit_owner is None else _unit_pairs(model)
     try:
-        out = simulate_with_derivatives(shifts, j, model.n_h, field_mhz=field_mhz, pairs=model.j_pairs,
+        out = simulate_with_derivatives(spin_shifts, j, n_h, field_mhz=field_mhz, pairs=pairs,
                                         memo=model.memo)
     except np.linalg.LinAlgError:
-        nudged = np.asarray(shifts) + 1e-5 * np.arange(len(shifts)) / max(field_mhz, 1.0)
-        out = simulate_with_derivatives(nudged, j, model.n_h, field_mhz=field_mhz, pairs=model.j_pairs,
-                                        memo=model.memo)
+        nudged = spin_shifts + 1e-5 * np.arange(len(spin_shifts)) / max(field_mhz, 1.0)
+        out = simulate_with_derivatives(nudged, j, n_h, field_mhz=field_mhz, pairs=pairs, memo=model.memo)
     lines, dfreq_dj, _ = out
-    site = np.asarray(lines.site_index)
+    if column is not None:  # a refined coupling moves all its spin pairs' couplings alike
+        dfreq_dj = np.asarray(dfreq_dj, dtype=float) @ np.eye(len(model.j_pairs))[column]
+    site = _site_of(model, np.asarray(lines.site_index))
     keep, inten = _strong_lines(np.asarray(lines.intensity), site)
     ppm, inten, site, sat = _with_satellites(model, np.asarray(lines.ppm)[keep], inten, site[keep], field_mhz,
                                              True)

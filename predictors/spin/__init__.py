@@ -37,7 +37,7 @@ Modules, one job each: ``clusters`` (how the system is cut), ``_basis``
 ``_neighbours`` (what cut neighbours do to a cluster), ``_cluster`` (one
 cluster's lines), ``_lines`` (pooling, merging, pruning), ``_run`` (one
 simulation), ``simulate`` (public entry points), ``render`` (line shapes),
-``_checks`` and ``_blas``.
+``units`` (which sites are simulated proton by proton), ``_checks`` and ``_blas``.
 """
 
 from __future__ import annotations
@@ -53,6 +53,7 @@ from predictors.spin.simulate import (
     simulate_lines,
     simulate_with_derivatives,
 )
+from predictors.spin.units import SpinUnits, spin_units
 
 __all__ = [
     "FIELD_RANGE_MHZ",
@@ -68,4 +69,6 @@ __all__ = [
     "simulate_arrays_reusing",
     "simulate_lines",
     "simulate_with_derivatives",
+    "spin_units",
+    "SpinUnits",
 ]

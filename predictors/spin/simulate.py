@@ -10,6 +10,7 @@ from predictors.core import LineList, SpinSystem
 from predictors.errors import InputError
 from predictors.spin._checks import _check_arrays, _check_field, _check_options
 from predictors.spin._run import run
+from predictors.spin.units import spin_units
 
 # Clusters kept by simulate_arrays_reusing before its memo is emptied.
 _MEMO_LIMIT = 4096
@@ -206,9 +207,10 @@ def _simulate(shifts_ppm, j_hz, n_protons, field_mhz, max_cluster_spins, cluster
 def simulate_lines(system: SpinSystem, *, field_mhz: float, **options) -> LineList:
     """Simulate the lines of a :class:`SpinSystem`.
 
-    Every site is simulated as one magnetically equivalent group, also when
-    ``magnetically_equivalent`` is False: a site carries one coupling to each
-    other site, so its protons couple identically by construction.
+    A magnetically equivalent site is simulated as one composite spin; a site
+    whose protons are not (``magnetically_equivalent`` False, with the proton
+    couplings ``proton_j_hz`` known) proton by proton, its spins at the site's
+    shift (:func:`predictors.spin.units.spin_units`). Lines are reported by site.
 
     Parameters
     ----------
@@ -231,4 +233,10 @@ def simulate_lines(system: SpinSystem, *, field_mhz: float, **options) -> LineLi
         )
     if not system.sites:
         raise InputError("system: the spin system has no proton sites")
-    return simulate_arrays(system.shifts_ppm, system.j_hz, system.n_protons, field_mhz=field_mhz, **options)
+    units = spin_units(system)
+    lines = simulate_arrays(system.shifts_ppm[units.owner], units.j_hz, units.n_h, field_mhz=field_mhz,
+                            **options)
+    if not units.split:
+        return lines
+    return LineList(ppm=lines.ppm, intensity=lines.intensity, field_mhz=lines.field_mhz,
+                    site_index=units.owner[lines.site_index], warnings=lines.warnings)
