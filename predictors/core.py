@@ -275,14 +275,14 @@ class SpinSystem:
         return sum(s.n_h for s in self.sites)
 
     @property
-    def shifts_ppm(self) -> np.ndarray:
-        """Site shifts as a new array, shape (n_sites,)."""
-        return np.array([s.shift_ppm for s in self.sites], dtype=float)
-
-    @property
     def proton_atoms(self) -> tuple[int, ...]:
         """The H atoms of all sites, site by site (the order of ``proton_j_hz``)."""
         return tuple(a for s in self.sites for a in s.atoms)
+
+    @property
+    def shifts_ppm(self) -> np.ndarray:
+        """Site shifts as a new array, shape (n_sites,)."""
+        return np.array([s.shift_ppm for s in self.sites], dtype=float)
 
     @property
     def n_protons(self) -> np.ndarray:
@@ -593,16 +593,22 @@ class RatioEstimate:
 
     @property
     def ratio_text(self) -> str:
-        """The ratio written as ``a:b`` in percent (``>= a:b``, ``<= a:b`` or a range for a bound)."""
+        """The ratio written as ``a:b`` in percent (``>= a:b``, ``<= a:b`` or a range for a bound;
+        ``not bounded`` when the bounds are 0 and 1)."""
         def pair(x: float) -> str:
             return f"{100.0 * x:.0f}:{100.0 - 100.0 * x:.0f}"
 
-        if self.low is not None and self.high is not None:
-            return f"{pair(self.low)} to {pair(self.high)}"
-        if self.low is not None:
-            return f">= {pair(self.low)}"
-        if self.high is not None:
-            return f"<= {pair(self.high)}"
+        # a bound at 0 or 1 bounds nothing ("E:Z >= 0:100" says no more than "any ratio")
+        low = self.low if self.low is not None and self.low > 5e-4 else None
+        high = self.high if self.high is not None and self.high < 1 - 5e-4 else None
+        if self.is_bound and low is None and high is None:
+            return "not bounded"
+        if low is not None and high is not None:
+            return f"{pair(low)} to {pair(high)}"
+        if low is not None:
+            return f">= {pair(low)}"
+        if high is not None:
+            return f"<= {pair(high)}"
         return pair(self.share)
 
 

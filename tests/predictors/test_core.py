@@ -144,6 +144,12 @@ def test_mixture_fit_and_component():
 def test_ratio_and_verdict():
     ratio = RatioEstimate(name="E:Z", numerator="E", denominator="Z", share=0.8, share_sd=0.02)
     assert ratio.ratio_text == "80:20"
+    # a bound at 0 (or 1) bounds nothing and is not printed as one
+    unbounded = RatioEstimate(name="E:Z", numerator="E", denominator="Z", share=1.0, share_sd=0.0,
+                              decided=False, low=0.0)
+    assert unbounded.ratio_text == "not bounded"
+    assert RatioEstimate(name="E:Z", numerator="E", denominator="Z", share=1.0, share_sd=0.0, decided=False,
+                         low=0.0, high=0.9).ratio_text == "<= 90:10"
     verdict = Verdict(summary="E alkene", confidence="high", ratios=[ratio])
     assert verdict.ratios == (ratio,)
     with pytest.raises(InputError, match="confidence"):
