@@ -37,8 +37,14 @@ def build_candidates(
     candidates: Sequence[str] | None = None,
     solvent: str | None = None,
     temp_c: float = 25.0,
+    also: Sequence[str] | None = None,
 ) -> tuple[tuple[Candidate, ...], tuple[str, ...]]:
     """Candidates from a substrate and reagent, or from a list of SMILES (exactly one of the two).
+
+    Each SMILES (or molfile path) in ``candidates`` or ``also`` may carry the user's name of the
+    compound as ``name=SMILES``. ``also`` adds compounds the user knows may be there (an impurity,
+    a product the rules do not give) to the enumerated candidates; naming an enumerated product
+    names it.
 
     Returns
     -------
@@ -49,6 +55,8 @@ def build_candidates(
     if candidates and (substrate or reagent):
         raise InputError("candidates: give either --candidates or --substrate with --reagent, not both")
     if candidates:
+        if also:
+            raise InputError("--also: adds to the products of --substrate; with --candidates list them there")
         return _user_candidates(candidates), ()
     if not substrate or not reagent:
         raise InputError(
@@ -62,29 +70,48 @@ def build_candidates(
     products = enumerate_products(load_structure(substrate), reagent=reagent, solvent=solvent, temp_c=temp_c)
     if not products.candidates:
         raise ChemistryError(f"substrate: no product could be enumerated for {substrate!r} with {reagent!r}")
-    return tuple(products.candidates), tuple(products.notes)
+    found = list(products.candidates)
+    notes = list(products.notes)
+    if also:
+        from dataclasses import replace
+
+        index = {c.smiles: i for i, c in enumerate(found)}
+        for extra in _user_candidates(also):
+            if extra.smiles in index:  # already a product: the user's name names it
+                if extra.name:
+                    found[index[extra.smiles]] = replace(found[index[extra.smiles]], name=extra.name,
+                                                         label=extra.name)
+                continue
+            found.append(replace(extra, rationale="added by the user (--also)"))
+            notes.append(f"added by the user: {extra.label}")
+    return tuple(found), tuple(notes)
 
 
 def _user_candidates(smiles_list: Sequence[str]) -> tuple[Candidate, ...]:
     from rdkit import Chem
 
-    from confirm.structures import load_structure
+    from confirm.structures import load_structure, split_name
 
-    out, seen = [], set()
+    out, seen, names = [], set(), set()
     for text in smiles_list:
-        mol = load_structure(str(text))
+        name, structure = split_name(str(text))
+        mol = load_structure(structure)
         smiles = Chem.MolToSmiles(mol, isomericSmiles=True)
         if smiles in seen:
             continue
+        if name is not None and name in names:
+            raise InputError(f"candidates: the name {name!r} is given to two different structures")
         seen.add(smiles)
+        names.add(name)
         facts = alkene_facts(smiles)
         out.append(
             Candidate(
                 smiles=smiles,
                 pathways=("user",),
-                label=smiles,
+                label=name or smiles,
                 geometry=facts.geometry,
                 rationale="given by the user",
+                name=name,
             )
         )
     if not out:
@@ -223,6 +250,9 @@ def analyze_path(
     field_mhz: float | None = None,
     force_field: bool = False,
     budget: Budget | None = None,
+    also: Sequence[str] | None = None,
+    nmr_solvent: str | None = None,
+    reference: str = "auto",
 ) -> AnalysisResult:
     """Read, process and analyse one measurement (raw FID, stored spectrum or peak list).
 
@@ -233,11 +263,20 @@ def analyze_path(
     substrate, reagent : str, optional
         Enumerate the candidates from a substrate SMILES and a reagent name ...
     candidates : sequence of str, optional
-        ... or give the candidate SMILES (or molfile paths) directly.
+        ... or give the candidate SMILES (or molfile paths) directly, each as ``name=SMILES``
+        where the user has a name for it.
     solvent : str, optional
         Reaction solvent (for the enumeration), not the NMR solvent.
     temp_c : float
         Reaction temperature.
+    also : sequence of str, optional
+        With ``substrate``: further compounds (``name=SMILES``) that may be in the sample.
+    nmr_solvent : str, optional
+        The sample's (deuterated) solvent, overriding the one the file records (referencing,
+        solvent lines).
+    reference : str
+        How the axis is referenced: ``"auto"`` (TMS, else the solvent line, else as acquired),
+        ``"tms"``, ``"solvent"`` or ``"none"``.
     field_mhz : float, optional
         Spectrometer frequency when the file does not record it (peak lists). A value that
         contradicts the file's recorded field is an error unless ``force_field`` is set.
@@ -260,13 +299,14 @@ def analyze_path(
         raise InputError(f"field_mhz: expected 40-1200 MHz (1H), got {field_mhz!r}")
     check_budget(budget, "candidates")
     cands, notes = build_candidates(
-        substrate=substrate, reagent=reagent, candidates=candidates, solvent=solvent, temp_c=temp_c
+        substrate=substrate, reagent=reagent, candidates=candidates, solvent=solvent, temp_c=temp_c, also=also
     )
     check_budget(budget, "reading")
     raw = read_measurement(path)
     _check_nucleus(raw.parameters.nucleus)
     record = InputRecord(path=str(path), sha256=raw.sha256)
-    params = {"substrate": substrate, "reagent": reagent, "reaction_solvent": solvent, "temp_c": temp_c}
+    params = {"substrate": substrate, "reagent": reagent, "reaction_solvent": solvent, "temp_c": temp_c,
+              "nmr_solvent": nmr_solvent, "reference": reference}
     if isinstance(raw, PeakList):
         from confirm.processing import resolve_field
 
@@ -289,8 +329,8 @@ def analyze_path(
 
         check_budget(budget, "processing")
         processed = process_measurement(
-            raw,
-            options=ProcessingOptions(field_mhz=field_mhz, force_field=force_field) if field_mhz else None,
+            raw, options=ProcessingOptions(field_mhz=field_mhz, force_field=force_field if field_mhz else False,
+                                           solvent=nmr_solvent, reference=reference),
         )
         import confirm.fitting  # noqa: F401
         import predictors.couplings  # noqa: F401  (the fit's 13C satellite positions)

@@ -60,8 +60,8 @@ __all__ = [
 ]
 
 #: Columns a manifest may have (``spectrum`` is required).
-MANIFEST_COLUMNS = ("id", "spectrum", "substrate", "reagent", "candidates", "solvent", "temp_c", "field_mhz",
-                    "spec")
+MANIFEST_COLUMNS = ("id", "spectrum", "substrate", "reagent", "candidates", "reaction_solvent", "nmr_solvent",
+                    "temp_c", "field_mhz", "spec")
 #: Names an item may not have: the batch's own files (and names some systems reserve for devices).
 RESERVED_IDS = frozenset({"summary.csv", "components.csv", "index.html", "con", "prn", "aux", "nul",
                           *(f"com{k}" for k in range(1, 10)), *(f"lpt{k}" for k in range(1, 10))})
@@ -87,10 +87,11 @@ class BatchItem:
     substrate: str | None = None
     reagent: str | None = None
     candidates: tuple[str, ...] = ()
-    solvent: str | None = None
+    reaction_solvent: str | None = None
     temp_c: float = 25.0
     field_mhz: float | None = None
     spec: Path | None = None
+    nmr_solvent: str | None = None
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "spectrum", Path(self.spectrum))
@@ -195,7 +196,8 @@ def _optional_float(value: str | None, *, name: str, row: int) -> float | None:
 def read_manifest(path: str | Path) -> list[BatchItem]:
     """Read a manifest CSV; relative paths are taken from the manifest's folder.
 
-    ``candidates`` holds SMILES separated by spaces or semicolons. An empty ``temp_c`` means
+    ``candidates`` holds SMILES (each optionally ``name=SMILES``) separated by spaces or
+    semicolons. An empty ``temp_c`` means
     25 C; ``0`` means 0 C.
 
     Raises
@@ -219,6 +221,9 @@ def read_manifest(path: str | Path) -> list[BatchItem]:
     if "spectrum" not in columns:
         raise InputError(f"manifest: {str(path)!r} needs a 'spectrum' column; allowed columns: "
                          f"{', '.join(MANIFEST_COLUMNS)}")
+    if "solvent" in columns:
+        raise InputError("manifest: the column 'solvent' is ambiguous and no longer accepted; name it "
+                         "'reaction_solvent' (the reaction's) or 'nmr_solvent' (the sample's)")
     unknown = sorted(set(columns) - set(MANIFEST_COLUMNS))
     if unknown:
         raise InputError(f"manifest: unknown column {unknown[0]!r}; allowed: {', '.join(MANIFEST_COLUMNS)}")
@@ -245,7 +250,8 @@ def _manifest_item(path: Path, row_number: int, raw: dict) -> BatchItem:
         item_id=row.get("id") or spectrum.stem, spectrum=spectrum,
         substrate=row.get("substrate") or None, reagent=row.get("reagent") or None,
         candidates=tuple(c for c in re.split(r"[;\s]+", row.get("candidates", "")) if c),
-        solvent=row.get("solvent") or None,
+        reaction_solvent=row.get("reaction_solvent") or None,
+        nmr_solvent=row.get("nmr_solvent") or None,
         temp_c=25.0 if temp_c is None else temp_c,
         field_mhz=_optional_float(row.get("field_mhz"), name="field_mhz", row=row_number),
         spec=(spec if spec is None or spec.is_absolute() else path.parent / spec))
@@ -343,8 +349,10 @@ def item_fingerprint(item: BatchItem, *, spectrum_sha256: str, spec: QcSpec | No
     (substrate, reagent, candidates, solvent, temperature, field), the specification's hash and
     the run's options. Two runs whose fingerprints agree do the same work."""
     work = {"spectrum_sha256": spectrum_sha256, "substrate": item.substrate, "reagent": item.reagent,
-            "candidates": list(item.candidates), "solvent": item.solvent, "temp_c": item.temp_c,
+            "candidates": list(item.candidates), "solvent": item.reaction_solvent, "temp_c": item.temp_c,
             "field_mhz": item.field_mhz, "spec_sha256": _spec_digest(item, spec), "options": options or {}}
+    if item.nmr_solvent is not None:  # only when set: earlier runs' fingerprints stay valid
+        work["nmr_solvent"] = item.nmr_solvent
     return hashlib.sha256(json.dumps(work, sort_keys=True).encode()).hexdigest()
 
 
@@ -395,12 +403,16 @@ def _analysis_kwargs(item: BatchItem) -> dict:
     if item.substrate:
         if not item.reagent:
             raise InputError(f"item {item.item_id}: substrate given without reagent")
-        return {"substrate": item.substrate, "reagent": item.reagent, "solvent": item.solvent,
-                "temp_c": item.temp_c, "field_mhz": item.field_mhz}
-    if item.candidates:
-        return {"candidates": list(item.candidates), "solvent": item.solvent, "temp_c": item.temp_c,
-                "field_mhz": item.field_mhz}
-    raise InputError(f"item {item.item_id}: no substrate/reagent, candidates or specification given")
+        out = {"substrate": item.substrate, "reagent": item.reagent, "solvent": item.reaction_solvent,
+               "temp_c": item.temp_c, "field_mhz": item.field_mhz}
+    elif item.candidates:
+        out = {"candidates": list(item.candidates), "solvent": item.reaction_solvent, "temp_c": item.temp_c,
+               "field_mhz": item.field_mhz}
+    else:
+        raise InputError(f"item {item.item_id}: no substrate/reagent, candidates or specification given")
+    if item.nmr_solvent is not None:
+        out["nmr_solvent"] = item.nmr_solvent
+    return out
 
 
 def _default_analyze(path, **kwargs):
@@ -434,6 +446,10 @@ def _analyse_item(item: BatchItem, item_dir: Path, spec: QcSpec | None, analyze:
     spec = read_spec(item.spec) if item.spec is not None else spec
     qc = None
     if spec is not None:
+        if item.nmr_solvent is not None:  # the manifest row knows this sample's solvent
+            from dataclasses import replace
+
+            spec = replace(spec, nmr_solvent=item.nmr_solvent)
         result, qc = run_qc(spec, item.spectrum, analyze=analyze)
         write_json_atomic(audit_record(result, qc), item_dir / "audit.json")
     else:
@@ -658,7 +674,7 @@ def _summary_csv(outcomes: Sequence[ItemOutcome]) -> str:
 
 
 #: Columns of ``components.csv``: one row per finished item and candidate, then one per ratio.
-_COMPONENT_COLUMNS = ("id", "row", "smiles", "label", "detected", "mole_percent", "sd_percent",
+_COMPONENT_COLUMNS = ("id", "row", "smiles", "name", "label", "detected", "mole_percent", "sd_percent",
                       "upper_limit_percent", "ratio", "ratio_decided")
 
 
@@ -679,12 +695,13 @@ def _components_csv(outcomes: Sequence[ItemOutcome], out: Path) -> str:
             continue
         for comp in result.get("components", []):
             found = bool(comp.get("detected"))
-            writer.writerow([o.item_id, "component", comp.get("smiles", ""), comp.get("label") or "",
+            writer.writerow([o.item_id, "component", comp.get("smiles", ""), comp.get("name") or "",
+                             comp.get("label") or "",
                              "yes" if found else "no", pct(comp.get("mole_fraction") if found else None),
                              pct(comp.get("mole_fraction_sd") if found else None),
                              pct(None if found else comp.get("upper_limit")), "", ""])
         for name, ratio in (result.get("ratios") or {}).items():
-            writer.writerow([o.item_id, "ratio", "", name, "", "", "", "", ratio.get("ratio", ""),
+            writer.writerow([o.item_id, "ratio", "", "", name, "", "", "", "", ratio.get("ratio", ""),
                              "yes" if ratio.get("decided") else "no"])
     return buffer.getvalue()
 

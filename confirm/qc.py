@@ -20,13 +20,14 @@ Specification file::
     product = "C/C=C/CC"                       # expected product (SMILES)
     candidates = ["C/C=C\\CC", "C=CCCC"]       # either the allowed candidates ...
     starting_material = "CC(Br)CCC"            # optional with candidates
-    solvent = "CDCl3"                          # optional
+    nmr_solvent = "CDCl3"                      # optional: the sample's solvent
     field_mhz = 400.0                          # optional
 
     [reaction]                                 # ... or the reaction (substrate + reagent)
     substrate = "CC(Br)CCC"
     reagent = "KOtBu"
     temp_c = 25.0                              # optional
+    reaction_solvent = "ethanol"               # optional
 
     [limits]                                   # every limit is optional
     min_isomeric_purity_percent = 98.0
@@ -81,9 +82,9 @@ STATUSES = ("PASS", "INCONCLUSIVE", "FAIL")
 #: Two-sided 95 % coverage factor of a normal distribution.
 Z_95 = 1.959964
 
-_TOP_KEYS = {"name", "product", "candidates", "starting_material", "solvent", "field_mhz", "reaction",
+_TOP_KEYS = {"name", "product", "candidates", "starting_material", "nmr_solvent", "field_mhz", "reaction",
              "limits"}
-_REACTION_KEYS = {"substrate", "reagent", "temp_c"}
+_REACTION_KEYS = {"substrate", "reagent", "temp_c", "reaction_solvent"}
 _LIMIT_KEYS = {"min_isomeric_purity_percent", "max_other_isomer_percent", "max_starting_material_percent",
                "min_snr"}
 _CONFIDENT = ("high", "moderate")
@@ -120,14 +121,17 @@ class QcSpec:
     substrate: str | None = None
     reagent: str | None = None
     temp_c: float = 25.0
-    solvent: str | None = None
+    reaction_solvent: str | None = None
+    nmr_solvent: str | None = None
     field_mhz: float | None = None
     sha256: str = ""
     source: str = ""
 
     def analysis_kwargs(self) -> dict:
         """Keyword arguments for ``confirm.analysis.analyze_path``."""
-        kwargs: dict = {"solvent": self.solvent, "temp_c": self.temp_c, "field_mhz": self.field_mhz}
+        kwargs: dict = {"solvent": self.reaction_solvent, "temp_c": self.temp_c, "field_mhz": self.field_mhz}
+        if self.nmr_solvent is not None:
+            kwargs["nmr_solvent"] = self.nmr_solvent
         if self.substrate is not None:
             kwargs.update(substrate=self.substrate, reagent=self.reagent)
         else:
@@ -181,7 +185,7 @@ product = "C/C=C/CC"                           # the expected product (isomeric 
 # The candidates the analysis must consider: either list them ...
 candidates = ["C/C=C\\\\CC", "C=CCCC"]            # the other isomers, impurities, by-products
 starting_material = "CC(Br)CCC"                # optional: counted against max_starting_material_percent
-solvent = "CDCl3"                              # optional: the NMR solvent
+nmr_solvent = "CDCl3"                          # optional: the sample's solvent (else as the file records)
 # field_mhz = 400.0                            # optional: only when the file does not record it
 
 # ... or give the reaction instead of the candidates list (then delete `candidates` above):
@@ -189,6 +193,7 @@ solvent = "CDCl3"                              # optional: the NMR solvent
 # substrate = "CC(Br)CCC"
 # reagent = "ethoxide"
 # temp_c = 25.0
+# reaction_solvent = "ethanol"                 # optional: the reaction's solvent (steers the products)
 
 [limits]
 min_isomeric_purity_percent = 98.0             # the product's share of its isomers, at least
@@ -242,6 +247,9 @@ def parse_spec(table: Mapping, *, sha256: str = "", source: str = "") -> QcSpec:
     source : str, keyword-only
         Where the table came from (path), for messages and the audit record.
     """
+    if "solvent" in table or (isinstance(table.get("reaction"), Mapping) and "solvent" in table["reaction"]):
+        raise InputError("spec solvent: ambiguous and no longer accepted; write nmr_solvent = \"...\" (the "
+                         "sample's, top level) or reaction_solvent = \"...\" (in [reaction])")
     _check_keys(table, _TOP_KEYS, where="top level")
     if "product" not in table:
         raise InputError("spec product: missing; give the expected product as a SMILES string")
@@ -260,9 +268,11 @@ def parse_spec(table: Mapping, *, sha256: str = "", source: str = "") -> QcSpec:
     if reaction and not all(isinstance(reaction.get(k), str) for k in ("substrate", "reagent")):
         raise InputError("spec [reaction]: substrate (SMILES) and reagent (name) are both required")
     name = table.get("name", "")
-    solvent = table.get("solvent")
-    if not isinstance(name, str) or (solvent is not None and not isinstance(solvent, str)):
-        raise InputError("spec: name and solvent must be strings")
+    nmr_solvent = table.get("nmr_solvent")
+    reaction_solvent = reaction.get("reaction_solvent") if reaction else None
+    if not isinstance(name, str) or any(v is not None and not isinstance(v, str)
+                                        for v in (nmr_solvent, reaction_solvent)):
+        raise InputError("spec: name, nmr_solvent and reaction_solvent must be strings")
     field_mhz = table.get("field_mhz")
     return QcSpec(
         product=_smiles_entry(table["product"], name="product"),
@@ -274,7 +284,8 @@ def parse_spec(table: Mapping, *, sha256: str = "", source: str = "") -> QcSpec:
         substrate=_smiles_entry(reaction["substrate"], name="reaction.substrate") if reaction else None,
         reagent=reaction.get("reagent") if reaction else None,
         temp_c=_number(reaction.get("temp_c", 25.0), name="reaction.temp_c", low=-150.0, high=400.0),
-        solvent=solvent,
+        reaction_solvent=reaction_solvent,
+        nmr_solvent=nmr_solvent,
         field_mhz=None if field_mhz is None else _number(field_mhz, name="field_mhz", low=1.0, high=2000.0),
         sha256=sha256 or hashlib.sha256(json.dumps(dict(table), sort_keys=True).encode()).hexdigest(),
         source=source,

@@ -321,7 +321,7 @@ def yield_from_result(result, standard: InternalStandard, *, sample_mass_mg: flo
 def analyze_with_standard(path, standard: InternalStandard, *, substrate: str | None = None,
                           reagent: str | None = None, candidates=None, solvent: str | None = None,
                           temp_c: float = 25.0, field_mhz: float | None = None, force_field: bool = False,
-                          budget=None):
+                          budget=None, also=None, nmr_solvent: str | None = None, reference: str = "auto"):
     """Analyse a spectrum with the internal standard fitted as one more component.
 
     Same arguments as ``confirm.analysis.analyze_path``; the standard is added to the
@@ -343,7 +343,7 @@ def analyze_with_standard(path, standard: InternalStandard, *, substrate: str | 
 
     check_budget(budget, "candidates")
     cands, notes = build_candidates(substrate=substrate, reagent=reagent, candidates=candidates,
-                                    solvent=solvent, temp_c=temp_c)
+                                    solvent=solvent, temp_c=temp_c, also=also)
     if standard.smiles in {c.smiles for c in cands}:
         raise InputError(f"--std-smiles: the internal standard {standard.smiles!r} is also one of the "
                          "candidates; a standard must be a compound the reaction cannot give")
@@ -354,14 +354,16 @@ def analyze_with_standard(path, standard: InternalStandard, *, substrate: str | 
     record = InputRecord(path=str(path), sha256=raw.sha256)
     params = {"substrate": substrate, "reagent": reagent, "reaction_solvent": solvent, "temp_c": temp_c,
               "internal_standard": standard.smiles, "standard_mass_mg": standard.mass_mg,
-              "standard_purity": standard.purity, "standard_n_h": standard.n_h}
+              "standard_purity": standard.purity, "standard_n_h": standard.n_h, "nmr_solvent": nmr_solvent,
+              "reference": reference}
     if isinstance(raw, PeakList):
         from confirm.processing import resolve_field
 
         field = resolve_field(raw.parameters.field_mhz, field_mhz, force=force_field, source=str(path))
         return analyze_peak_list(raw, cands, field_mhz=field, inputs=(record,), notes=notes,
                                  parameters=params, budget=budget)
-    options = ProcessingOptions(field_mhz=field_mhz, force_field=force_field) if field_mhz else None
+    options = ProcessingOptions(field_mhz=field_mhz, force_field=force_field if field_mhz else False,
+                                solvent=nmr_solvent, reference=reference)
     check_budget(budget, "processing")
     processed = process_measurement(raw, options=options)
     return analyze_spectrum(processed, cands, inputs=(record,), notes=notes, parameters=params, budget=budget)

@@ -612,10 +612,11 @@ def write_html_report(result, path, *, qc: QcResult | None = None,
 def _components_csv(result) -> str:
     buffer = io.StringIO()
     writer = csv.writer(buffer, lineterminator="\n")
-    writer.writerow(["smiles", "label", "pathways", "mole_fraction", "mole_fraction_sd", "detection_limit",
-                     "detected"])
+    writer.writerow(["smiles", "name", "label", "pathways", "mole_fraction", "mole_fraction_sd",
+                     "detection_limit", "detected"])
     for comp in result.fit.components:
-        writer.writerow([comp.candidate.smiles, comp.candidate.label, ";".join(comp.candidate.pathways),
+        writer.writerow([comp.candidate.smiles, comp.candidate.name or "", comp.candidate.label,
+                         ";".join(comp.candidate.pathways),
                          "" if comp.mole_fraction is None else f"{comp.mole_fraction:.6f}",
                          f"{comp.mole_fraction_sd:.6f}",
                          f"{comp.detection_limit:.6f}", int(comp.detected)])

@@ -103,7 +103,7 @@ class AnalysisResult:
                         for e, text in zip(comp.site_evidence, comp.evidence, strict=False)]
             components.append({
                 "smiles": comp.candidate.smiles,
-                "name": None,
+                "name": comp.candidate.name,
                 "label": comp.candidate.label,
                 "pathways": list(comp.candidate.pathways),
                 "mole_fraction": comp.mole_fraction,

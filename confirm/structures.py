@@ -17,7 +17,7 @@ from predictors.errors import ChemistryError, FileFormatError, InputError
 from predictors.molecules import parse_molecule
 
 __all__ = ["STRUCTURE_SUFFIXES", "check_smiles", "check_smiles_text", "check_single_molecule",
-           "load_structure"]
+           "load_structure", "split_name"]
 
 #: File suffixes read as structure files (molfile, SD file).
 STRUCTURE_SUFFIXES = (".mol", ".sdf", ".mdl", ".sd")
@@ -147,3 +147,42 @@ def load_structure(arg: str) -> Chem.Mol:
     check_single_molecule(mol)
     parse_molecule(mol, strip_salts=True)
     return mol
+
+
+#: Longest compound name accepted in ``name=SMILES`` (it heads table columns and plot legends).
+MAX_NAME_LENGTH = 60
+
+
+def split_name(arg: str) -> tuple[str | None, str]:
+    """``(name, structure)`` of a ``name=SMILES`` (or ``name=file.mol``) argument; ``(None, arg)``
+    when there is no name.
+
+    A SMILES has ``=`` signs of its own (``C=CC``): text that is itself a valid SMILES or an
+    existing structure file has no name; otherwise the name is what comes before the first ``=``.
+
+    Raises
+    ------
+    InputError
+        An empty or over-long name, or nothing after the ``=``.
+    """
+    if not isinstance(arg, str) or "=" not in arg:
+        return None, arg
+    text = arg.strip()
+    path = Path(text)
+    if path.suffix.lower() in STRUCTURE_SUFFIXES and path.exists():
+        return None, text
+    if " " not in text:
+        RDLogger.DisableLog("rdApp.*")
+        try:
+            whole = Chem.MolFromSmiles(text)
+        finally:
+            RDLogger.EnableLog("rdApp.*")
+        if whole is not None:
+            return None, text
+    name, _, structure = text.partition("=")
+    name, structure = name.strip(), structure.strip()
+    if not name or not structure:
+        raise InputError(f"structure: expected NAME=SMILES (or a SMILES alone), got {arg!r}")
+    if len(name) > MAX_NAME_LENGTH:
+        raise InputError(f"structure: the name {name[:20]!r}... is longer than {MAX_NAME_LENGTH} characters")
+    return name, structure

@@ -121,6 +121,8 @@ class Candidate:
         ``"E"``, ``"Z"`` or None.
     notes : tuple of str
         Extra remarks (ring flip needed, rearranged cation, syn path...).
+    name : str or None
+        The user's own name of the compound (``name=SMILES``); tables and plots show it.
     """
 
     smiles: str
@@ -131,6 +133,7 @@ class Candidate:
     regio: str | None = None
     geometry: str | None = None
     notes: tuple[str, ...] = ()
+    name: str | None = None
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "smiles", canonical_smiles(self.smiles))
@@ -145,6 +148,8 @@ class Candidate:
         if self.geometry is not None and self.geometry not in GEOMETRIES:
             raise InputError(f"geometry: expected one of {GEOMETRIES} or None, got {self.geometry!r}")
         object.__setattr__(self, "notes", tuple(self.notes))
+        if self.name is not None and (not isinstance(self.name, str) or not self.name.strip()):
+            raise InputError(f"name: expected a non-empty text or None, got {self.name!r}")
 
 
 @dataclass(frozen=True)

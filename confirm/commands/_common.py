@@ -11,7 +11,7 @@ from collections.abc import Sequence
 import numpy as np
 
 __all__ = ["emit_json", "format_table", "to_jsonable", "add_budget_argument", "budget_from_args",
-           "existing_paths", "data_inputs"]
+           "existing_paths", "data_inputs", "add_solvent_arguments", "refuse_plain_solvent"]
 
 #: Files that stand for the FID folder holding them (``read_measurement`` reads the folder).
 _FOLDER_FILES = ("fid", "ser", "acqus", "acqu", "procpar")
@@ -124,3 +124,32 @@ def data_inputs(label: str, path) -> list[tuple[str, object]]:
         if path.name in _FOLDER_FILES and path.is_file() and beside:
             out.append((f"{label} (its folder)", path.parent))
     return out
+
+
+#: What the retired ``--solvent`` is told: it meant the reaction's solvent in some commands and the
+#: sample's in others.
+SOLVENT_WORDS = ("--solvent is ambiguous and no longer accepted; use --reaction-solvent for the reaction's "
+                 "solvent (it steers the products) or --nmr-solvent for the sample's (it steers referencing "
+                 "and the solvent lines)")
+
+
+def add_solvent_arguments(parser, *, reaction: bool = True, nmr: bool = True) -> None:
+    """``--reaction-solvent`` and/or ``--nmr-solvent``, and the retired ``--solvent`` (refused by
+    :func:`refuse_plain_solvent` with a message naming both)."""
+    import argparse
+
+    if reaction:
+        parser.add_argument("--reaction-solvent", metavar="S", dest="reaction_solvent",
+                            help="solvent of the reaction (steers the products; default: the reagent's usual)")
+    if nmr:
+        parser.add_argument("--nmr-solvent", metavar="S", dest="nmr_solvent",
+                            help="deuterated solvent of the NMR sample, overriding the one the file records")
+    parser.add_argument("--solvent", dest="retired_solvent", default=None, help=argparse.SUPPRESS)
+
+
+def refuse_plain_solvent(args) -> None:
+    """Raise InputError when the retired ``--solvent`` was given."""
+    from predictors.errors import InputError
+
+    if getattr(args, "retired_solvent", None) is not None:
+        raise InputError(SOLVENT_WORDS)

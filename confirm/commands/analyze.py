@@ -6,11 +6,13 @@ import argparse
 
 from confirm.commands._common import (
     add_budget_argument,
+    add_solvent_arguments,
     budget_from_args,
     data_inputs,
     emit_json,
     existing_paths,
     format_table,
+    refuse_plain_solvent,
 )
 
 __all__ = ["register", "format_result"]
@@ -33,10 +35,20 @@ def register(subparsers, parents) -> None:
         "--substrate", metavar="SMILES", help="substrate SMILES (or molfile); needs --reagent"
     )
     parser.add_argument("--reagent", metavar="NAME", help="base, nucleophile or acid used")
-    parser.add_argument("--solvent", metavar="S", help="reaction solvent (not the NMR solvent)")
+    add_solvent_arguments(parser)
+    parser.add_argument("--reference", choices=("auto", "tms", "solvent", "none"), default="auto",
+                        help="how to reference the axis (default: TMS, else the NMR solvent line, else as "
+                             "acquired)")
     parser.add_argument("--temp-c", type=float, default=25.0, metavar="T", help="reaction temperature, deg C")
     parser.add_argument(
-        "--candidates", nargs="+", metavar="SMILES", help="candidate SMILES (instead of --substrate)"
+        "--candidates", nargs="+", metavar="[NAME=]SMILES",
+        help="candidate SMILES or molfiles (instead of --substrate), each optionally named: "
+        "'anethole=C/C=C/c1ccc(OC)cc1'",
+    )
+    parser.add_argument(
+        "--also", nargs="+", metavar="[NAME=]SMILES",
+        help="with --substrate: compounds you know may be there too (an impurity, a by-product); "
+        "naming an enumerated product names it",
     )
     parser.add_argument(
         "--field-mhz", type=float, metavar="F",
@@ -58,6 +70,7 @@ def _run(args: argparse.Namespace) -> int:
     from confirm.analysis import analyze_path
     from predictors.errors import InputError
 
+    refuse_plain_solvent(args)
     if args.candidates and (args.substrate or args.reagent):
         raise InputError("--candidates: give either --candidates or --substrate with --reagent, not both")
     if not args.candidates and not (args.substrate and args.reagent):
@@ -75,15 +88,22 @@ def _run(args: argparse.Namespace) -> int:
     from confirm.budget import watch_budget
     from confirm.qnmr import analyze_with_standard, standard_from_args, yield_from_args, yields_to_json
 
+    if args.also and not args.substrate:
+        raise InputError("--also: adds compounds to the products of --substrate; with --candidates list them "
+                         "there")
+    from confirm.structures import split_name
+
+    named = [split_name(v)[1] for v in [*(args.candidates or ()), *(args.also or ())]]
     inputs = [*data_inputs("--spectrum", args.spectrum), *existing_paths("--substrate", [args.substrate]),
-              *existing_paths("--candidates", args.candidates)]
+              *existing_paths("--candidates", named)]
     check_outputs([("--report", args.report)], inputs)
     check_file_targets([("--report", args.report)])
     standard = standard_from_args(args)
     budget = budget_from_args(args)
     options = {"substrate": args.substrate, "reagent": args.reagent, "candidates": args.candidates,
-               "solvent": args.solvent, "temp_c": args.temp_c, "field_mhz": args.field_mhz,
-               "force_field": args.force_field, "budget": budget}
+               "solvent": args.reaction_solvent, "temp_c": args.temp_c, "field_mhz": args.field_mhz,
+               "force_field": args.force_field, "budget": budget, "also": args.also,
+               "nmr_solvent": args.nmr_solvent, "reference": args.reference}
     with watch_budget(budget):
         if standard is None:
             result = analyze_path(args.spectrum, **options)

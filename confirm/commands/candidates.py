@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from confirm.commands._common import emit_json, format_table
+from confirm.commands._common import add_solvent_arguments, emit_json, format_table, refuse_plain_solvent
 
 __all__ = ["register"]
 
@@ -17,7 +17,7 @@ def register(subparsers, parents) -> None:
     )
     parser.add_argument("structure", metavar="SMILES_OR_MOLFILE", help="substrate SMILES or a .mol/.sdf file")
     parser.add_argument("--reagent", required=True, help="reagent name or alias, e.g. ethoxide, KOtBu, H2SO4")
-    parser.add_argument("--solvent", default=None, help="solvent name (default: the reagent's usual solvent)")
+    add_solvent_arguments(parser, nmr=False)
     parser.add_argument("--temp-c", type=float, default=25.0, dest="temp_c",
                         help="reaction temperature in C (default 25)")
     parser.set_defaults(handler=_run)
@@ -40,8 +40,9 @@ def _run(args) -> int:
     from confirm.structures import load_structure
     from predictors.products import enumerate_products
 
+    refuse_plain_solvent(args)
     mol = load_structure(args.structure)
-    products = enumerate_products(mol, reagent=args.reagent, solvent=args.solvent, temp_c=args.temp_c)
+    products = enumerate_products(mol, reagent=args.reagent, solvent=args.reaction_solvent, temp_c=args.temp_c)
     if args.json:
         emit_json({
             "substrate": products.substrate_smiles,

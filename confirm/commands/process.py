@@ -12,7 +12,13 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 
 from confirm._files import atomic_path, check_outputs
-from confirm.commands._common import data_inputs, emit_json, format_table
+from confirm.commands._common import (
+    add_solvent_arguments,
+    data_inputs,
+    emit_json,
+    format_table,
+    refuse_plain_solvent,
+)
 from predictors.errors import InputError
 
 if TYPE_CHECKING:
@@ -31,7 +37,7 @@ def register(subparsers, parents) -> None:
     parser.add_argument("--out", metavar="CSV", help="write the processed spectrum (ppm, intensity) as CSV")
     parser.add_argument("--plot", metavar="PNG", help="write a plot of the processed spectrum")
     parser.add_argument("--lb-hz", type=float, default=0.3, help="exponential line broadening (default 0.3)")
-    parser.add_argument("--solvent", help="solvent, overriding the one recorded in the file")
+    add_solvent_arguments(parser, reaction=False)
     parser.add_argument("--field-mhz", type=float,
                         help="spectrometer frequency when the file lacks it (a value that contradicts the "
                              "file's is refused unless --force-field)")
@@ -56,6 +62,7 @@ def _run(args) -> int:
     from confirm.processing import ProcessingOptions, process_measurement
     from confirm.reading import PeakList, read_measurement
 
+    refuse_plain_solvent(args)
     check_outputs([("--out", args.out), ("--plot", args.plot)], data_inputs("PATH", args.path))
     for name in ("out", "plot"):
         value = getattr(args, name)
@@ -69,7 +76,7 @@ def _run(args) -> int:
             raise InputError(f"--out/--plot: {args.path} is a peak list, not a spectrum; nothing to write")
         _print_peak_list(raw, as_json=args.json)
         return 0
-    options = ProcessingOptions(lb_hz=args.lb_hz, solvent=args.solvent, field_mhz=args.field_mhz,
+    options = ProcessingOptions(lb_hz=args.lb_hz, solvent=args.nmr_solvent, field_mhz=args.field_mhz,
                                 force_field=args.force_field, reference=args.reference,
                                 baseline=args.baseline, threshold_snr=args.threshold_snr,
                                 orientation=args.orientation)

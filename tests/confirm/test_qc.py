@@ -34,7 +34,7 @@ name = "Lot release (E)-pent-2-ene"
 product = "C/C=C/CC"
 candidates = ["C/C=C\\\\CC", "C=CCCC"]
 starting_material = "CC(Br)CCC"
-solvent = "CDCl3"
+nmr_solvent = "CDCl3"
 
 [limits]
 min_isomeric_purity_percent = 98.0
@@ -63,7 +63,23 @@ def test_spec_file_is_read_and_canonicalised(spec):
     assert len(spec.sha256) == 64
     kwargs = spec.analysis_kwargs()
     assert kwargs["candidates"] == [E_PENTENE, Z_PENTENE, PENT_1_ENE, SUBSTRATE]
-    assert kwargs["solvent"] == "CDCl3"
+    assert kwargs["nmr_solvent"] == "CDCl3" and kwargs["solvent"] is None  # the sample's, not the reaction's
+
+
+@pytest.mark.parametrize("table", [
+    {"product": "C/C=C/CC", "candidates": ["C=CCCC"], "solvent": "CDCl3"},
+    {"product": "C/C=C/CC", "reaction": {"substrate": "CC(Br)CCC", "reagent": "NaOEt", "solvent": "ethanol"}},
+])
+def test_a_plain_solvent_key_is_refused_with_the_two_new_names(table):
+    with pytest.raises(InputError, match="nmr_solvent.*reaction_solvent"):
+        parse_spec(table)
+
+
+def test_the_reaction_solvent_goes_to_the_enumeration():
+    spec = parse_spec({"product": "C/C=C/CC", "nmr_solvent": "DMSO-d6",
+                       "reaction": {"substrate": "CC(Br)CCC", "reagent": "NaOEt", "reaction_solvent": "ethanol"}})
+    kwargs = spec.analysis_kwargs()
+    assert kwargs["solvent"] == "ethanol" and kwargs["nmr_solvent"] == "DMSO-d6"
 
 
 def test_reaction_spec_gives_substrate_and_reagent():
@@ -218,7 +234,7 @@ def test_run_qc_passes_the_spec_to_the_analysis(spec, tmp_path):
 
     result, qc = run_qc(spec, tmp_path / "x.jdx", analyze=analyze)
     assert qc.status == "PASS"
-    assert seen["candidates"][0] == E_PENTENE and seen["solvent"] == "CDCl3"
+    assert seen["candidates"][0] == E_PENTENE and seen["nmr_solvent"] == "CDCl3"
 
 
 def test_limits_are_validated():
@@ -314,7 +330,7 @@ name = "Anethole lot release"
 product = "C/C=C/c1ccc(OC)cc1"
 candidates = ["C/C=C\\\\c1ccc(OC)cc1", "C=CCc1ccc(OC)cc1"]
 starting_material = "CC(Br)Cc1ccc(OC)cc1"
-solvent = "CDCl3"
+nmr_solvent = "CDCl3"
 
 [limits]
 min_isomeric_purity_percent = 97.0
