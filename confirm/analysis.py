@@ -329,7 +329,7 @@ def analyze_path(
 
         check_budget(budget, "processing")
         processed = process_measurement(
-            raw, options=ProcessingOptions(field_mhz=field_mhz, force_field=force_field if field_mhz else False,
+            raw, options=ProcessingOptions(field_mhz=field_mhz, force_field=bool(field_mhz) and force_field,
                                            solvent=nmr_solvent, reference=reference),
         )
         import confirm.fitting  # noqa: F401

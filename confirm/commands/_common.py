@@ -140,7 +140,8 @@ def add_solvent_arguments(parser, *, reaction: bool = True, nmr: bool = True) ->
 
     if reaction:
         parser.add_argument("--reaction-solvent", metavar="S", dest="reaction_solvent",
-                            help="solvent of the reaction (steers the products; default: the reagent's usual)")
+                            help="solvent of the reaction (steers the products; default: the reagent's "
+                                 "usual)")
     if nmr:
         parser.add_argument("--nmr-solvent", metavar="S", dest="nmr_solvent",
                             help="deuterated solvent of the NMR sample, overriding the one the file records")

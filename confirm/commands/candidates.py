@@ -42,7 +42,8 @@ def _run(args) -> int:
 
     refuse_plain_solvent(args)
     mol = load_structure(args.structure)
-    products = enumerate_products(mol, reagent=args.reagent, solvent=args.reaction_solvent, temp_c=args.temp_c)
+    products = enumerate_products(mol, reagent=args.reagent, solvent=args.reaction_solvent,
+                                  temp_c=args.temp_c)
     if args.json:
         emit_json({
             "substrate": products.substrate_smiles,

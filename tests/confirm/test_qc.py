@@ -77,7 +77,8 @@ def test_a_plain_solvent_key_is_refused_with_the_two_new_names(table):
 
 def test_the_reaction_solvent_goes_to_the_enumeration():
     spec = parse_spec({"product": "C/C=C/CC", "nmr_solvent": "DMSO-d6",
-                       "reaction": {"substrate": "CC(Br)CCC", "reagent": "NaOEt", "reaction_solvent": "ethanol"}})
+                       "reaction": {"substrate": "CC(Br)CCC", "reagent": "NaOEt",
+                                    "reaction_solvent": "ethanol"}})
     kwargs = spec.analysis_kwargs()
     assert kwargs["solvent"] == "ethanol" and kwargs["nmr_solvent"] == "DMSO-d6"
 

@@ -27,7 +27,8 @@ def test_the_retired_solvent_flag_names_the_two_new_ones(run_cli, args):
 
 
 def test_the_reaction_solvent_steers_the_enumeration(run_cli):
-    result = run_cli("candidates", "CC(Br)CCC", "--reagent", "ethoxide", "--reaction-solvent", "ethanol", "--json")
+    result = run_cli("candidates", "CC(Br)CCC", "--reagent", "ethoxide", "--reaction-solvent", "ethanol",
+                     "--json")
     assert result.exit_code == 0, result.stderr
     assert json.loads(result.stdout)["candidates"]
     bad = run_cli("candidates", "CC(Br)CCC", "--reagent", "ethoxide", "--reaction-solvent", "CDCl3x")
