@@ -22,9 +22,9 @@ def register(subparsers, parents) -> None:
         description="Analyse every spectrum of a manifest CSV (columns: spectrum, substrate, reagent, "
                     "candidates, id, reaction_solvent, nmr_solvent, temp_c, field_mhz, spec) or of a folder "
                     "(with --spec; data sets one folder down are found too). A bad file is reported and the "
-                    "rest go on. A rerun skips an item only when its spectrum, chemistry, specification and options are "
-                    "unchanged and its result reads back. Exit 1 when any item failed or did not pass its QC "
-                    "check.")
+                    "rest go on. A rerun skips an item only when its spectrum, chemistry, specification and "
+                    "options are unchanged and its result reads back. Exit 1 when any item failed or did not "
+                    "pass its QC check.")
     parser.add_argument("source", type=Path, metavar="MANIFEST_OR_FOLDER",
                         help="manifest CSV file or folder of spectra")
     parser.add_argument("--out", required=True, type=Path,
