@@ -29,6 +29,9 @@ Specification file::
     temp_c = 25.0                              # optional
     reaction_solvent = "ethanol"               # optional
 
+    [signoff]                                  # optional; recorded, never decides
+    analyst = "A. Chemist"                     # also lot, reviewer, comment (--lot ... override)
+
     [limits]                                   # every limit is optional
     min_isomeric_purity_percent = 98.0
     max_other_isomer_percent = 2.0
@@ -59,6 +62,7 @@ __all__ = [
     "SPEC_TEMPLATE",
     "STATUSES",
     "Z_95",
+    "SignOff",
     "QcLimits",
     "QcSpec",
     "LimitCheck",
@@ -83,7 +87,10 @@ STATUSES = ("PASS", "INCONCLUSIVE", "FAIL")
 Z_95 = 1.959964
 
 _TOP_KEYS = {"name", "product", "candidates", "starting_material", "nmr_solvent", "field_mhz", "reaction",
-             "limits"}
+             "limits", "signoff"}
+_SIGNOFF_KEYS = {"lot", "analyst", "reviewer", "comment"}
+#: Longest text of a sign-off field (a comment is a sentence or two, not a report).
+_MAX_SIGNOFF_CHARS = 500
 _REACTION_KEYS = {"substrate", "reagent", "temp_c", "reaction_solvent"}
 _LIMIT_KEYS = {"min_isomeric_purity_percent", "max_other_isomer_percent", "max_starting_material_percent",
                "min_snr"}
@@ -110,6 +117,42 @@ class QcLimits:
 
 
 @dataclass(frozen=True)
+class SignOff:
+    """Who measured which lot, who reviews it, and a comment: recorded in the audit, never used
+    in a decision. Every field is optional."""
+
+    lot: str | None = None
+    analyst: str | None = None
+    reviewer: str | None = None
+    comment: str | None = None
+
+    def __post_init__(self) -> None:
+        for name in ("lot", "analyst", "reviewer", "comment"):
+            value = getattr(self, name)
+            if value is None:
+                continue
+            if not isinstance(value, str) or not value.strip():
+                raise InputError(f"signoff {name}: expected a non-empty text, got {value!r}")
+            if len(value) > _MAX_SIGNOFF_CHARS or any(ord(ch) < 32 and ch not in "\t\n" for ch in value):
+                raise InputError(f"signoff {name}: at most {_MAX_SIGNOFF_CHARS} printable characters")
+            object.__setattr__(self, name, value.strip())
+
+    def merged(self, other: SignOff | None) -> SignOff:
+        """This record with ``other``'s fields where they are given (the command line over the spec)."""
+        if other is None:
+            return self
+        return SignOff(**{k: getattr(other, k) if getattr(other, k) is not None else getattr(self, k)
+                          for k in ("lot", "analyst", "reviewer", "comment")})
+
+    def to_json(self) -> dict:
+        return {"lot": self.lot, "analyst": self.analyst, "reviewer": self.reviewer, "comment": self.comment}
+
+    @property
+    def empty(self) -> bool:
+        return all(getattr(self, k) is None for k in ("lot", "analyst", "reviewer", "comment"))
+
+
+@dataclass(frozen=True)
 class QcSpec:
     """A parsed specification (see the module docstring for the file)."""
 
@@ -126,6 +169,7 @@ class QcSpec:
     field_mhz: float | None = None
     sha256: str = ""
     source: str = ""
+    signoff: SignOff = field(default_factory=SignOff)
 
     def analysis_kwargs(self) -> dict:
         """Keyword arguments for ``confirm.analysis.analyze_path``."""
@@ -195,6 +239,11 @@ nmr_solvent = "CDCl3"                          # optional: the sample's solvent 
 # temp_c = 25.0
 # reaction_solvent = "ethanol"                 # optional: the reaction's solvent (steers the products)
 
+# [signoff]                                    # optional, recorded in the audit and the report;
+# analyst = "A. Chemist"                       # --lot, --analyst, --reviewer, --comment on the
+# reviewer = "B. Reviewer"                     # command line give or replace these
+# comment = "release testing"
+
 [limits]
 min_isomeric_purity_percent = 98.0             # the product's share of its isomers, at least
 max_other_isomer_percent = 2.0                 # any other isomer, at most
@@ -258,6 +307,10 @@ def parse_spec(table: Mapping, *, sha256: str = "", source: str = "") -> QcSpec:
     if not isinstance(reaction, Mapping) or not isinstance(limits, Mapping):
         raise InputError("spec: [reaction] and [limits] must be tables")
     _check_keys(reaction, _REACTION_KEYS, where="[reaction]")
+    signoff = table.get("signoff", {})
+    if not isinstance(signoff, Mapping):
+        raise InputError("spec: [signoff] must be a table (lot, analyst, reviewer, comment)")
+    _check_keys(signoff, _SIGNOFF_KEYS, where="[signoff]")
     _check_keys(limits, _LIMIT_KEYS, where="[limits]")
     candidates = table.get("candidates", [])
     if not isinstance(candidates, list):
@@ -289,6 +342,7 @@ def parse_spec(table: Mapping, *, sha256: str = "", source: str = "") -> QcSpec:
         field_mhz=None if field_mhz is None else _number(field_mhz, name="field_mhz", low=1.0, high=2000.0),
         sha256=sha256 or hashlib.sha256(json.dumps(dict(table), sort_keys=True).encode()).hexdigest(),
         source=source,
+        signoff=SignOff(**dict(signoff)),
     )
 
 
@@ -331,6 +385,7 @@ class QcResult:
     summary: str
     caution: str = CAUTION
     notes: tuple[str, ...] = field(default_factory=tuple)
+    signoff: SignOff = field(default_factory=SignOff)
 
 
 def decide_interval(low: float, high: float, *, minimum: float | None = None,
@@ -567,7 +622,8 @@ def evaluate_qc(result, spec: QcSpec) -> QcResult:
         checks.append(_snr_check(result, limits.min_snr))
     statuses = {c.status for c in checks}
     status = "FAIL" if "FAIL" in statuses else "PASS" if statuses == {"PASS"} else "INCONCLUSIVE"
-    return QcResult(status=status, checks=tuple(checks), spec=spec, summary=_summary(status, checks))
+    return QcResult(status=status, checks=tuple(checks), spec=spec, summary=_summary(status, checks),
+                    signoff=spec.signoff)
 
 
 def _summary(status: str, checks) -> str:
@@ -577,7 +633,8 @@ def _summary(status: str, checks) -> str:
     return f"{status}: {', '.join(failed)}."
 
 
-def run_qc(spec: QcSpec, spectrum_path: str | Path, *, analyze: Callable | None = None, budget=None):
+def run_qc(spec: QcSpec, spectrum_path: str | Path, *, analyze: Callable | None = None, budget=None,
+           signoff: SignOff | None = None):
     """Analyse a spectrum as the specification says and evaluate it.
 
     Parameters
@@ -589,11 +646,17 @@ def run_qc(spec: QcSpec, spectrum_path: str | Path, *, analyze: Callable | None 
         ``confirm.analysis.analyze_path`` by default.
     budget : confirm.budget.Budget, keyword-only
         Time allowed for the analysis; passed on as ``budget=`` when given.
+    signoff : SignOff, keyword-only
+        Lot, analyst, reviewer and comment for the record; given fields replace the spec's.
 
     Returns
     -------
     (AnalysisResult, QcResult)
     """
+    if signoff is not None:
+        from dataclasses import replace
+
+        spec = replace(spec, signoff=spec.signoff.merged(signoff))
     if analyze is None:
         from confirm.analysis import analyze_path as analyze
     kwargs = spec.analysis_kwargs()
@@ -614,6 +677,7 @@ def qc_to_json(qc: QcResult) -> dict:
                    for c in qc.checks],
         "spec": {"name": qc.spec.name, "product": qc.spec.product, "source": qc.spec.source,
                  "sha256": qc.spec.sha256},
+        "signoff": qc.signoff.to_json(),
         "caution": qc.caution,
     }
 

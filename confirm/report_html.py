@@ -353,8 +353,13 @@ h2 { color: var(--head); border-bottom: 2px solid var(--accent); padding-bottom:
          font-size: 13px; }
 .PASS { background: var(--pass); } .FAIL { background: var(--fail); }
 .INCONCLUSIVE { background: var(--unsure); }
-.conf-high, .conf-moderate { background: var(--pass); } .conf-low { background: var(--unsure); }
-.conf-undecided { background: var(--fail); }
+.conf-high { background: #1c5d99; } .conf-moderate { background: #5b7fa6; }
+.conf-low { background: #8a8f94; } .conf-undecided { background: #4a4f54; }
+.qc-head { background: #fff; padding: 14px 18px; margin: 18px 0; border-left: 10px solid var(--unsure);
+           box-shadow: 0 1px 3px rgba(0,0,0,.08); }
+.qc-head.PASS-edge { border-left-color: var(--pass); } .qc-head.FAIL-edge { border-left-color: var(--fail); }
+.qc-head p.status { font-size: 22px; font-weight: 700; margin: 0 0 4px; }
+.signoff td { width: 25%; }
 .caution { background: #fff4e6; border: 1px solid #f5c38b; padding: 10px 14px; font-size: 13px; }
 table { border-collapse: collapse; width: 100%; margin: 8px 0; font-size: 13px; background: #fff; }
 th, td { border-bottom: 1px solid var(--line); padding: 5px 8px; text-align: left; vertical-align: top; }
@@ -407,21 +412,28 @@ def _section(title: str, body: str, *, anchor: str) -> str:
     return f'<section id="{anchor}"><h2>{_e(title)}</h2>{body}</section>'
 
 
+def _qc_headline(qc: QcResult) -> str:
+    """The QC decision in plain words, first on a QC report: status, specification, lot."""
+    words = {"PASS": "PASS: every limit is met", "FAIL": "FAIL: a limit is not met",
+             "INCONCLUSIVE": "INCONCLUSIVE: the spectrum cannot decide every limit"}[qc.status]
+    lot = f" &middot; lot {_e(qc.signoff.lot)}" if qc.signoff.lot else ""
+    return (f'<div class="qc-head {_e(qc.status)}-edge" id="qc-status"><p class="status">QC {_e(words)}</p>'
+            f"<p>{_e(qc.spec.name or 'unnamed specification')}{lot}</p><p>{_e(qc.summary)}</p></div>")
+
+
 def _verdict_block(result, qc: QcResult | None) -> str:
     verdict = result.verdict
     badge = f'<span class="badge conf-{_e(verdict.confidence)}">confidence: {_e(verdict.confidence)}</span>'
-    qc_line = ""
-    if qc is not None:
-        qc_line = (f'<p><span class="badge {_e(qc.status)}">QC {_e(qc.status)}</span> '
-                   f"{_e(qc.summary)}</p>")
+    qc_line = _qc_headline(qc) if qc is not None else ""
     unresolved = ""
     if verdict.unresolved or verdict.next_steps:
         unresolved = ("<p><strong>Not decided by this spectrum:</strong></p>"
                       + _list(verdict.unresolved, empty="-")
                       + "<p><strong>What would settle it:</strong></p>"
                       + _list(verdict.next_steps, empty="-"))
-    return (f'<div class="verdict" id="verdict"><p class="summary">{_e(verdict.summary)}</p>'
-            f"<p>{badge}</p>{qc_line}{unresolved}</div>"
+    what = "<p class=\"muted\">What the spectrum shows:</p>" if qc is not None else ""
+    return (f'{qc_line}<div class="verdict" id="verdict">{what}<p class="summary">{_e(verdict.summary)}</p>'
+            f"<p>{badge}</p>{unresolved}</div>"
             f'<p class="caution"><strong>Caution.</strong> {_e(REPORT_CAUTION)}</p>')
 
 
@@ -521,7 +533,13 @@ def _qc_section(qc: QcResult) -> str:
              "PASS only when the whole interval meets the limit, FAIL only when none of it does.</p>")
     table = _table(("check", "limit", "measured", "95 % interval", "result", "why"), rows,
                    raw_columns=range(6), num_columns=(2, 3))
-    return about + table
+    sign = qc.signoff
+    people = ('<table class="signoff"><tr><th>lot</th><th>analyst</th><th>reviewer</th><th>comment</th></tr>'
+              f"<tr><td>{_e(sign.lot or '-')}</td><td>{_e(sign.analyst or '-')}</td>"
+              f"<td>{_e(sign.reviewer or '-')}</td><td>{_e(sign.comment or '-')}</td></tr></table>"
+              '<p class="muted">Reviewed and released by: ______________________ '
+              "date: ____________ (the site's own procedure decides who signs)</p>")
+    return about + table + people
 
 
 def _yield_section(yields: Sequence[ProductYield]) -> str:

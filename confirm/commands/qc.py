@@ -17,6 +17,7 @@ from confirm.commands._common import (
 )
 from confirm.qc import (
     CAUTION,
+    SignOff,
     audit_record,
     qc_to_json,
     read_spec,
@@ -31,7 +32,15 @@ def register(subparsers, parents) -> None:
     parser = subparsers.add_parser(
         "qc", parents=parents, help="check a spectrum against a specification (PASS/FAIL/INCONCLUSIVE)",
         description="Analyse a spectrum as a specification says and decide each acceptance limit "
-                    "from its 95 % interval. " + CAUTION)
+                    "from its 95 % interval. " + CAUTION,
+        epilog="The specification (TOML): product = SMILES; either candidates = [SMILES, ...] (with an "
+               "optional starting_material) or a [reaction] table (substrate, reagent, optional temp_c and "
+               "reaction_solvent); optional nmr_solvent, field_mhz and name; a [limits] table "
+               "(min_isomeric_purity_percent, max_other_isomer_percent, max_starting_material_percent, "
+               "min_snr); an optional [signoff] table (lot, analyst, reviewer, comment). "
+               "`confirm qc --template spec.toml` writes a commented example. Example: confirm qc --spec "
+               "spec.toml --spectrum lot17.jdx --lot L-17 --analyst 'A. Chemist' --audit lot17_audit.json "
+               "--report lot17.html")
     parser.add_argument("--spec", type=Path, help="specification file (TOML; see --template)")
     parser.add_argument("--spectrum", type=Path, help="spectrum file or FID folder")
     parser.add_argument("--template", type=Path, metavar="SPEC.toml",
@@ -39,6 +48,10 @@ def register(subparsers, parents) -> None:
                              "not exist yet)")
     parser.add_argument("--report", type=Path, metavar="OUT.html", help="write an HTML report")
     parser.add_argument("--audit", type=Path, metavar="AUDIT.json", help="write the audit record (JSON)")
+    parser.add_argument("--lot", metavar="ID", help="lot or sample ID, recorded in the audit and the report")
+    parser.add_argument("--analyst", metavar="NAME", help="who measured the sample (recorded)")
+    parser.add_argument("--reviewer", metavar="NAME", help="who reviews the decision (recorded)")
+    parser.add_argument("--comment", metavar="TEXT", help="a comment for the record")
     add_budget_argument(parser)
     parser.set_defaults(handler=_run)
 
@@ -66,8 +79,9 @@ def _run(args: argparse.Namespace) -> int:
         raise FileFormatError(f"--spectrum: {str(args.spectrum)!r} does not exist")
     check_file_targets(outputs)
     budget = budget_from_args(args)
+    signoff = SignOff(lot=args.lot, analyst=args.analyst, reviewer=args.reviewer, comment=args.comment)
     with watch_budget(budget):
-        result, qc = run_qc(spec, args.spectrum, analyze=_analyze, budget=budget)
+        result, qc = run_qc(spec, args.spectrum, analyze=_analyze, budget=budget, signoff=signoff)
     if args.audit is not None:
         write_json_atomic(audit_record(result, qc), args.audit)
     if args.report is not None:
@@ -99,5 +113,10 @@ def _format_text(qc, result) -> str:
             for c in qc.checks]
     table = format_table(("check", "limit", "measured", "95 % interval", "result", "why"), rows)
     title = f"QC result: {qc.status}" + (f" ({qc.spec.name})" if qc.spec.name else "")
-    return "\n".join([title, qc.summary, "", table, "", f"Verdict: {result.verdict.summary}", "",
-                      f"Caution: {qc.caution}"])
+    sign = qc.signoff
+    who = ", ".join(f"{k} {v}" for k, v in (("lot", sign.lot), ("analyst", sign.analyst),
+                                            ("reviewer", sign.reviewer)) if v)
+    lines = [title] + ([who] if who else []) + [qc.summary, "", table, ""]
+    if sign.comment:
+        lines += [f"Comment: {sign.comment}", ""]
+    return "\n".join(lines + [f"Verdict: {result.verdict.summary}", "", f"Caution: {qc.caution}"])

@@ -279,7 +279,10 @@ def test_cli_pass_fail_and_audit(run_cli, tmp_path, fake_analysis, monkeypatch):
     out = run_cli("qc", "--spec", spec_path, "--spectrum", spectrum, "--audit", audit, "--report", report)
     assert out.exit_code == 0, out.stderr
     assert "PASS" in out.stdout and "decision aid" in out.stdout
-    assert 'class="badge PASS">QC PASS' in report.read_text()
+    # the QC decision is the report's headline, in words, before the reaction verdict
+    text = report.read_text()
+    assert 'id="qc-status"' in text and "QC PASS: every limit is met" in text
+    assert text.index('id="qc-status"') < text.index('id="verdict"')
     record = json.loads(audit.read_text())
     assert record["qc"]["status"] == "PASS" and record["user"] == "qc-user"
     fake_analysis["result"] = pentene_mixture(0.96, 0.04, 0.0, 0.0, sds=(0.004, 0.004, 0.001, 0.001))
@@ -289,6 +292,35 @@ def test_cli_pass_fail_and_audit(run_cli, tmp_path, fake_analysis, monkeypatch):
     assert data["status"] == "FAIL" and data["caution"] == CAUTION
     assert data["analysis"]["verdict"]["major"] == E_PENTENE
     assert "Traceback" not in out.stderr
+
+
+def test_lot_analyst_reviewer_and_comment_reach_the_record(run_cli, tmp_path, fake_analysis):
+    spec_path = tmp_path / "spec.toml"
+    spec_path.write_text(SPEC_TEXT + '\n[signoff]\nanalyst = "A. Chemist"\nreviewer = "Spec Reviewer"\n')
+    spectrum = tmp_path / "lot42.jdx"
+    spectrum.write_text("##TITLE=test\n")
+    fake_analysis["result"] = pentene_mixture(0.996, 0.0, 0.0, 0.0, sds=(0.002, 0.001, 0.001, 0.001))
+    audit, report = tmp_path / "audit.json", tmp_path / "lot42.html"
+    out = run_cli("qc", "--spec", spec_path, "--spectrum", spectrum, "--audit", audit, "--report", report,
+                  "--lot", "L-42", "--reviewer", "B. Reviewer", "--comment", "retest after drying")
+    assert out.exit_code == 0, out.stderr
+    assert "lot L-42, analyst A. Chemist, reviewer B. Reviewer" in out.stdout
+    assert "Comment: retest after drying" in out.stdout
+    record = json.loads(audit.read_text())
+    # the command line replaces the spec's reviewer, the spec's analyst stays
+    assert record["qc"]["signoff"] == {"lot": "L-42", "analyst": "A. Chemist", "reviewer": "B. Reviewer",
+                                       "comment": "retest after drying"}
+    assert "L-42" in report.read_text() and "B. Reviewer" in report.read_text()
+    other = tmp_path / "audit2.json"
+    assert run_cli("qc", "--spec", spec_path, "--spectrum", spectrum, "--audit", other, "--lot", "L-43",
+                   "--reviewer", "B. Reviewer", "--comment", "retest after drying").exit_code == 0
+    # the record's digest covers the sign-off: another lot is another record
+    assert json.loads(other.read_text())["record_sha256"] != record["record_sha256"]
+    bad = run_cli("qc", "--spec", spec_path, "--spectrum", spectrum, "--lot", "  ")
+    assert bad.exit_code == 2 and "signoff lot" in bad.stderr
+    spec_path.write_text(SPEC_TEXT + '\n[signoff]\nbatch = "x"\n')
+    bad = run_cli("qc", "--spec", spec_path, "--spectrum", spectrum)
+    assert bad.exit_code == 2 and "unknown key 'batch'" in bad.stderr
 
 
 def test_cli_bad_input_exits_2(run_cli, tmp_path, fake_analysis):
