@@ -457,6 +457,12 @@ def _analyse_item(item: BatchItem, item_dir: Path, spec: QcSpec | None, analyze:
     payload = result.to_json()
     if qc is not None:
         payload["qc"] = qc_to_json(qc)
+    from confirm._files import write_text_atomic
+    from confirm.result_tables import components_csv, ratios_csv
+
+    # the tables first: result.json is what marks the item finished
+    write_text_atomic(item_dir / "components.csv", components_csv(result))
+    write_text_atomic(item_dir / "ratios.csv", ratios_csv(result))
     write_json_atomic(payload, item_dir / "result.json")
     report = ""
     if write_report:

@@ -26,6 +26,7 @@ import numpy as np
 from confirm._files import atomic_path, write_text_atomic
 from confirm.qc import CAUTION, QcResult, qc_to_json, software_versions
 from confirm.qnmr import ProductYield, format_yield_rows, yields_to_json
+from confirm.result_tables import components_csv, ratios_csv
 from predictors.errors import InputError
 
 __all__ = [
@@ -627,20 +628,6 @@ def write_html_report(result, path, *, qc: QcResult | None = None,
     return write_text_atomic(path, render_html_report(result, qc=qc, nmr_yield=nmr_yield))
 
 
-def _components_csv(result) -> str:
-    buffer = io.StringIO()
-    writer = csv.writer(buffer, lineterminator="\n")
-    writer.writerow(["smiles", "name", "label", "pathways", "mole_fraction", "mole_fraction_sd",
-                     "detection_limit", "detected"])
-    for comp in result.fit.components:
-        writer.writerow([comp.candidate.smiles, comp.candidate.name or "", comp.candidate.label,
-                         ";".join(comp.candidate.pathways),
-                         "" if comp.mole_fraction is None else f"{comp.mole_fraction:.6f}",
-                         f"{comp.mole_fraction_sd:.6f}",
-                         f"{comp.detection_limit:.6f}", int(comp.detected)])
-    return buffer.getvalue()
-
-
 def _spectrum_csv(result, curves: CandidateCurves) -> str:
     fit = result.fit
     buffer = io.StringIO()
@@ -659,7 +646,7 @@ def export_result_files(result, out_dir, *, qc: QcResult | None = None,
     """Write the plots (PNG and SVG), CSV tables and the JSON result into ``out_dir``.
 
     Files: ``spectrum.png/.svg`` (whole spectrum, fit, residual),
-    ``regions.png/.svg`` (diagnostic regions), ``components.csv``,
+    ``regions.png/.svg`` (diagnostic regions), ``components.csv``, ``ratios.csv``,
     ``fitted_spectrum.csv`` (ppm, measured, fitted, residual, each component)
     and ``result.json`` (the analyze JSON plus QC and yield when given).
 
@@ -678,7 +665,8 @@ def export_result_files(result, out_dir, *, qc: QcResult | None = None,
     regions = choose_diagnostic_regions(result, curves)
     written = _save_figure(_figure_overview(result), out / "spectrum", salt="confirm-overview")
     written += _save_figure(_figure_regions(result, curves, regions), out / "regions", salt="confirm-regions")
-    written.append(write_text_atomic(out / "components.csv", _components_csv(result)))
+    written.append(write_text_atomic(out / "components.csv", components_csv(result)))
+    written.append(write_text_atomic(out / "ratios.csv", ratios_csv(result)))
     written.append(write_text_atomic(out / "fitted_spectrum.csv", _spectrum_csv(result, curves)))
     payload = result.to_json()
     if qc is not None:

@@ -127,6 +127,11 @@ def test_twenty_spectra_with_one_corrupt_file_in_two_processes(twenty, tmp_path)
     with open(tmp_path / "out" / "components.csv", newline="") as handle:
         table = list(csv.DictReader(handle))
     assert {r["id"] for r in table} == {f"lot{k:02d}" for k in range(20)} - {"lot07"}
+    # and each item's own tables beside its result.json
+    with open(tmp_path / "out" / "lot03" / "components.csv", newline="") as handle:
+        own = {r["smiles"]: r for r in csv.DictReader(handle)}
+    assert float(own[Z_PENTENE]["mole_fraction"]) == pytest.approx(z_fraction, abs=1e-6)
+    assert (tmp_path / "out" / "lot03" / "ratios.csv").read_text().startswith("ratio,numerator")
     z_row = next(r for r in table if r["id"] == "lot03" and r["smiles"] == Z_PENTENE)
     assert z_row["detected"] == "yes"
     assert float(z_row["mole_percent"]) == pytest.approx(100 * z_fraction, abs=0.01)

@@ -179,7 +179,7 @@ def test_reports_repeat_except_the_generation_time(mixture, report_text):
 def test_export_writes_plots_tables_and_json(tmp_path, mixture):
     files = export_result_files(mixture, tmp_path)
     assert set(files) == {"spectrum.png", "spectrum.svg", "regions.png", "regions.svg", "components.csv",
-                          "fitted_spectrum.csv", "result.json"}
+                          "ratios.csv", "fitted_spectrum.csv", "result.json"}
     for name in ("spectrum.png", "regions.png"):
         assert files[name].read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     for name in ("spectrum.svg", "regions.svg"):
@@ -188,6 +188,13 @@ def test_export_writes_plots_tables_and_json(tmp_path, mixture):
         rows = list(csv.DictReader(handle))
     assert [r["smiles"] for r in rows] == [c.candidate.smiles for c in mixture.fit.components]
     assert float(rows[0]["mole_fraction"]) == pytest.approx(0.80)
+    with open(files["ratios.csv"], newline="") as handle:
+        ratios = list(csv.DictReader(handle))
+    assert [r["ratio"] for r in ratios] == [r.name for r in mixture.verdict.ratios]
+    for row, ratio in zip(ratios, mixture.verdict.ratios, strict=True):
+        assert row["ratio_text"] == ratio.ratio_text and row["decided"] == str(int(ratio.decided))
+        if not ratio.is_bound:
+            assert float(row["share_percent"]) == pytest.approx(100 * ratio.share, abs=0.01)
     with open(files["fitted_spectrum.csv"], newline="") as handle:
         header = next(csv.reader(handle))
         n_rows = sum(1 for _ in handle)
