@@ -45,7 +45,8 @@ def emit_json(obj, *, stream=None) -> None:
     stream.write("\n")
 
 
-def format_table(headers: Sequence[str], rows: Sequence[Sequence[object]]) -> str:
+def format_table(headers: Sequence[str], rows: Sequence[Sequence[object]], *,
+                 width: int | None = None) -> str:
     """Render rows as a plain aligned text table.
 
     Parameters
@@ -54,13 +55,27 @@ def format_table(headers: Sequence[str], rows: Sequence[Sequence[object]]) -> st
         Column titles.
     rows : sequence of sequences
         Cell values; converted with ``str``.
+    width : int, optional
+        Widest line wanted: the last column's text wraps onto indented lines to keep within it
+        (as long as the other columns leave it 20 characters).
     """
+    import textwrap
+
     cells = [[str(h) for h in headers]] + [[str(c) for c in row] for row in rows]
     widths = [max(len(r[i]) for r in cells) for i in range(len(headers))]
+    indent = sum(widths[:-1]) + 2 * (len(widths) - 1)
+    room = None if width is None else max(20, width - indent)
+    if room is not None and widths[-1] > room:
+        widths[-1] = room
     lines = ["  ".join(c.ljust(w) for c, w in zip(cells[0], widths, strict=True)).rstrip()]
     lines.append("  ".join("-" * w for w in widths))
     for row in cells[1:]:
-        lines.append("  ".join(c.ljust(w) for c, w in zip(row, widths, strict=True)).rstrip())
+        last = textwrap.wrap(row[-1], room) if room is not None and len(row[-1]) > room else [row[-1]]
+        last = last or [""]
+        head = "  ".join(c.ljust(w) for c, w in zip(row[:-1], widths[:-1], strict=True))
+        lines.append(((head + "  ") if head else "") + last[0])
+        lines.extend(" " * indent + more for more in last[1:])
+        lines[-1 - (len(last) - 1)] = lines[-1 - (len(last) - 1)].rstrip()
     return "\n".join(lines)
 
 

@@ -82,7 +82,7 @@ def _run(args: argparse.Namespace) -> int:
                               "sha256": o.sha256} for o in summary.outcomes]})
         return code
     rows = [(o.item_id, o.status, o.qc_status or "-", o.error or o.verdict) for o in summary.outcomes]
-    print(format_table(("item", "status", "QC", "verdict or error"), rows))
+    print(format_table(("item", "status", "QC", "verdict or error"), rows, width=100))
     counts = summary.counts
     print(f"\n{len(summary.outcomes)} spectra: {counts['done']} analysed, {counts['skipped']} skipped "
           f"(finished before), {counts['error']} failed. Summary: {summary.summary_csv}; "

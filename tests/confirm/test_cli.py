@@ -57,3 +57,16 @@ def test_module_entry_point_runs():
                           check=False)
     assert proc.returncode == 0
     assert confirm.__version__ in proc.stdout
+
+
+def test_tables_wrap_their_last_column_to_the_width_asked():
+    from confirm.commands._common import format_table
+
+    verdict = ("Major alkene: (E)-pent-2-ene (96.0 +- 0.4 mol % of the detected components). E:Z = 97:3 "
+               "(E 96.9 +- 0.4 % of the two). Confidence: high.")
+    text = format_table(("item", "status", "QC", "verdict or error"), [("lot01", "done", "PASS", verdict)],
+                        width=100)
+    lines = text.splitlines()
+    assert max(len(line) for line in lines) <= 100 and len(lines) == 4
+    assert " ".join(line[21:].strip() for line in lines[2:]) == verdict  # every word kept, in order
+    assert format_table(("a", "b"), [("1", "2")]) == "a  b\n-  -\n1  2"
