@@ -14,6 +14,8 @@ def register(subparsers, parents) -> None:
         help="list elimination/substitution products with pathway tags and priors",
         description="Enumerate every elimination and substitution product of a substrate under the "
                     "given conditions, ranked by a soft prior with a one-line rationale.",
+        epilog="Example: confirm candidates 'CC(Br)Cc1ccc(OC)cc1' --reagent KOH --reaction-solvent DMSO "
+               "--temp-c 80",
     )
     parser.add_argument("structure", metavar="SMILES_OR_MOLFILE", help="substrate SMILES or a .mol/.sdf file")
     parser.add_argument("--reagent", required=True, help="reagent name or alias, e.g. ethoxide, KOtBu, H2SO4")

@@ -27,6 +27,7 @@ def register(subparsers, parents) -> None:
         help="run the whole analysis on the bundled sample spectra",
         description="Analyse the bundled sample spectra (400 MHz raw FID and 60 MHz JCAMP-DX of an invented "
         "dehydrobromination, see sample_spectra/README.md) from the substrate and reagent.",
+        epilog="Examples: confirm demo; confirm demo --json --out demo_results/",
     )
     parser.add_argument("--out", metavar="DIR", help="also write one JSON result per sample into DIR")
     add_budget_argument(parser, per="sample")

@@ -20,8 +20,13 @@ _LINE_WIDTH_HZ = 1.0
 
 def register(subparsers, parents) -> None:
     """Add the ``predict`` subcommand."""
-    parser = subparsers.add_parser("predict", parents=parents,
-                                   help="predict the 1H spectrum (shifts, couplings) of a structure")
+    parser = subparsers.add_parser(
+        "predict", parents=parents,
+        help="predict the 1H spectrum (shifts, couplings) of a structure",
+        description="Predict every proton site's shift with its uncertainty, the couplings and first-order "
+                    "multiplicities, the pairs that are second order at the chosen field, and optionally the "
+                    "exact simulated spectrum.",
+        epilog="Example: confirm predict 'C/C=C/c1ccc(OC)cc1' --field-mhz 60 --plot anethole_60mhz.png")
     parser.add_argument("smiles", help="isomeric SMILES of the structure")
     parser.add_argument("--field-mhz", type=float, default=400.0, help="1H frequency in MHz (default 400)")
     parser.add_argument("--plot", metavar="PNG", help="write the simulated spectrum to this PNG file")

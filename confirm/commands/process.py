@@ -32,7 +32,13 @@ def register(subparsers, parents) -> None:
     """Add the ``process`` subcommand."""
     parser = subparsers.add_parser(
         "process", parents=parents,
-        help="read a FID, JCAMP-DX spectrum or peak list and process it (phase, baseline, reference, peaks)")
+        help="read a FID, JCAMP-DX spectrum or peak list and process it (phase, baseline, reference, peaks)",
+        description="Read a raw FID folder, a JCAMP-DX spectrum or a peak list; process it (apodization, "
+                    "Fourier transform, phase, baseline, referencing) and list its peaks, multiplets with J, "
+                    "the signal-to-noise, the warnings that matter for quantitation and a journal-style line "
+                    "list.",
+        epilog="Examples: confirm process path/to/fid_folder --out spectrum.csv --plot spectrum.png; "
+               "confirm process crude.jdx --nmr-solvent DMSO-d6 --protons 12")
     parser.add_argument("path", metavar="PATH", help="FID directory, JCAMP-DX file or peak-list table")
     parser.add_argument("--out", metavar="CSV", help="write the processed spectrum (ppm, intensity) as CSV")
     parser.add_argument("--plot", metavar="PNG", help="write a plot of the processed spectrum")
@@ -52,7 +58,7 @@ def register(subparsers, parents) -> None:
                         help="baseline method (default arpls)")
     parser.add_argument("--protons", type=int, default=None, metavar="N",
                         help="proton count of the compound: the line list gives each multiplet's nH "
-                             "(integrals scaled to sum to N); without it, % of the total")
+                             "(integrals scaled to sum to N); without it, %% of the total")
     parser.add_argument("--threshold-snr", type=float, default=8.0,
                         help="pick lines higher than this many noise standard deviations (default 8)")
     parser.set_defaults(handler=_run)

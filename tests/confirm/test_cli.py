@@ -5,6 +5,8 @@ from __future__ import annotations
 import subprocess
 import sys
 
+import pytest
+
 import confirm
 from confirm import cli
 
@@ -70,3 +72,14 @@ def test_tables_wrap_their_last_column_to_the_width_asked():
     assert max(len(line) for line in lines) <= 100 and len(lines) == 4
     assert " ".join(line[21:].strip() for line in lines[2:]) == verdict  # every word kept, in order
     assert format_table(("a", "b"), [("1", "2")]) == "a  b\n-  -\n1  2"
+
+
+@pytest.mark.parametrize("command", ["analyze", "candidates", "predict", "process", "qc", "batch", "demo"])
+def test_every_subcommand_help_has_a_description_and_an_example(run_cli, command):
+    result = run_cli(command, "--help")
+    assert result.exit_code == 0, result.stderr
+    text = result.stdout
+    usage_end = text.index("\n\n")
+    description = text[usage_end:].strip().split("\n\n")[0]
+    assert len(description) > 40 and not description.startswith(("positional", "options"))
+    assert "Example" in text and f"confirm {command}" in text.split("Example", 1)[1]
