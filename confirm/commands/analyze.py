@@ -28,8 +28,8 @@ def register(subparsers, parents) -> None:
         "candidate products and decide the major product, E:Z and regioisomer ratios, "
         "elimination vs substitution and the starting material left.",
         epilog="Examples: confirm analyze --spectrum crude.jdx --substrate 'CC(Br)Cc1ccc(OC)cc1' "
-               "--reagent KOH --report crude.html; confirm analyze --spectrum peaks.csv --field-mhz 400 --candidates "
-               "'E=C/C=C/C(=O)OC' 'Z=C/C=C\\C(=O)OC'",
+               "--reagent KOH --report crude.html; confirm analyze --spectrum peaks.csv --field-mhz 400 "
+               "--candidates 'E=C/C=C/C(=O)OC' 'Z=C/C=C\\C(=O)OC'",
     )
     parser.add_argument(
         "--spectrum", required=True, metavar="PATH", help="raw FID folder, JCAMP-DX file or peak list"

@@ -26,8 +26,8 @@ def register(subparsers, parents) -> None:
                     "options are unchanged and its result reads back. Exit 1 when any item failed or did not "
                     "pass its QC check.",
         epilog="Examples: confirm batch plate.csv --out results/ --jobs 2; confirm batch lots/ --spec "
-               "spec.toml --out release/ (plate.csv: spectrum,candidates,nmr_solvent / a1.jdx,E=C/C=C/CC Z=C/C=C\\CC,"
-               "CDCl3)")
+               "spec.toml --out release/ (plate.csv: spectrum,candidates,nmr_solvent / "
+               "a1.jdx,E=C/C=C/CC Z=C/C=C\\CC,CDCl3)")
     parser.add_argument("source", type=Path, metavar="MANIFEST_OR_FOLDER",
                         help="manifest CSV file or folder of spectra")
     parser.add_argument("--out", required=True, type=Path,
