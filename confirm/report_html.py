@@ -124,7 +124,9 @@ def choose_diagnostic_regions(result, curves: CandidateCurves, *, max_regions: i
     substitution products lie (common practice). Each detected candidate,
     then each other candidate, contributes its most characteristic window;
     the remaining places go to the windows with the largest pairwise
-    difference. Returned from high to low ppm.
+    difference. Where E and Z isomers are both candidates, the window of the
+    vinyl multiplet whose vicinal J decides between them (about 12 vs 16 Hz)
+    comes first, whatever the scores. Returned from high to low ppm.
     """
     from scipy.ndimage import uniform_filter1d
 
@@ -149,10 +151,40 @@ def choose_diagnostic_regions(result, curves: CandidateCurves, *, max_regions: i
     unique_arr = np.array(unique)
     detected = [k for k, c in enumerate(result.fit.components) if c.detected]
     ranked = detected + [k for k in range(norm.shape[0]) if k not in detected]
-    order = [int(np.argmax(unique_arr[:, k])) for k in ranked if unique_arr[:, k].max() > 0.02]
+    order = _geometry_windows(result, kept)
+    order += [int(np.argmax(unique_arr[:, k])) for k in ranked if unique_arr[:, k].max() > 0.02]
     order += [int(i) for i in np.argsort(scores)[::-1]]
     chosen = list(dict.fromkeys(order))[:max_regions]
     return sorted((kept[i] for i in chosen), key=lambda w: -w[0])
+
+
+#: Smallest vicinal coupling (Hz) of two vinyl H that tells E from Z (cis 6-12, trans 12-18 Hz).
+_MIN_EZ_J_HZ = 6.0
+
+
+def _geometry_windows(result, kept) -> list[int]:
+    """Indexes into ``kept`` (high, low) of the windows holding the vinyl multiplet whose vicinal J
+    decides E against Z, for each candidate with a geometry whose other isomer is a candidate too."""
+    geometries = {c.geometry for c in result.candidates if c.geometry}
+    if not {"E", "Z"} <= geometries or not result.spin_systems:
+        return []
+    out = []
+    for cand, system in zip(result.candidates, result.spin_systems, strict=False):
+        if not cand.geometry:
+            continue
+        # vinyl H by label, or (systems given without labels) by shift: 4.5-8 ppm
+        vinyl = [i for i, s in enumerate(system.sites) if s.n_h == 1 and (
+            "vinyl" in s.label.lower() or (not s.label and 4.5 <= s.shift_ppm <= 8.0))]
+        pairs = [(float(system.j_hz[a, b]), a) for a in vinyl for b in vinyl if a != b]
+        best = max(pairs, default=(0.0, None))
+        if best[0] < _MIN_EZ_J_HZ:
+            continue
+        shift = system.sites[best[1]].shift_ppm
+        index = [i for i, (high, low) in enumerate(kept) if low <= shift <= high]
+        if not index:  # the nearest window
+            index = [int(np.argmin([min(abs(shift - h), abs(shift - lo)) for h, lo in kept]))]
+        out.append(index[0])
+    return list(dict.fromkeys(out))
 
 
 def _window_scores(block: np.ndarray) -> tuple[np.ndarray, float]:

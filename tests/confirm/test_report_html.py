@@ -160,6 +160,15 @@ def test_diagnostic_regions_include_each_detected_candidates_own_signals(mixture
     assert any(low < 5.42 < high for high, low in regions)
 
 
+@pytest.mark.parametrize("fractions", [(0.80, 0.15, 0.05, 0.0), (0.004, 0.002, 0.95, 0.044)])
+def test_the_vinyl_window_that_decides_e_from_z_always_comes_first(fractions):
+    # with room for one panel only, it is the pent-2-ene vinyl region (3J 15.5 vs 10.8 Hz decides
+    # E/Z), also when the terminal alkene is the major product and owns the most characteristic window
+    result = pentene_mixture(*fractions)
+    regions = choose_diagnostic_regions(result, candidate_curves(result), max_regions=1)
+    assert len(regions) == 1 and regions[0][1] < 5.42 < regions[0][0]
+
+
 def test_write_report_is_atomic_and_checks_the_folder(tmp_path, small):
     target = write_html_report(small, tmp_path / "report.html")
     assert target.read_text(encoding="utf-8").startswith("<!DOCTYPE html>")
