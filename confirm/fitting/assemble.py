@@ -178,7 +178,7 @@ def component_fits(candidates, systems, models, refined, ev: Evaluation, frac, f
             detected=detected,
             upper_limit=None if detected else float(np.clip(upper, 0.0, 1.0)),
             refined_shifts_ppm=_refined_shifts(system, model, shifts),
-            evidence=tuple(_evidence_text(e) for e in sites),
+            evidence=tuple(_evidence_text(e, detected) for e in sites),
             site_evidence=sites,
         ))
     return tuple(out)
@@ -225,15 +225,17 @@ def _site_evidence(system, model, readings, presence, shifts, jvals, total: floa
     return tuple(out)
 
 
-def _evidence_text(e: SiteEvidence) -> str:
+def _evidence_text(e: SiteEvidence, detected: bool = True) -> str:
     j_part = ""
     if e.j_hz:
         j_part = (f"; J = {', '.join(f'{v:.1f}' for v in e.j_hz)} Hz "
                   f"(predicted {', '.join(f'{v:.1f}' for v in e.j_predicted_hz)})")
     if e.missing:
         state = "missing"
-    elif e.seen:
+    elif e.seen and detected:
         state = "observed"
+    elif e.seen:  # a line stands where it belongs, but the molecule as a whole is not shown
+        state = "has a line (candidate not detected)"
     else:
         state = "not clearly seen"
     amount = (f"{100 * e.amount:.1f} +- {100 * e.amount_sd:.1f} %" if np.isfinite(e.amount_sd)

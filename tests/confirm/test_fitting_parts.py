@@ -272,3 +272,14 @@ def test_point_variance_adds_model_error_of_the_signal():
     signal = np.array([0.0, 10.0, 100.0])
     var = point_variance(0.5, signal, 0.03)
     assert var == pytest.approx([0.25, 0.25 + 0.09, 0.25 + 9.0])
+
+
+def test_a_line_of_an_undetected_candidate_is_not_called_observed():
+    from confirm.fitting.assemble import _evidence_text
+    from predictors.core import SiteEvidence
+
+    e = SiteEvidence(site=1, label="CHBr", n_h=1, ppm=4.21, predicted_ppm=4.25, predicted_sd_ppm=0.1,
+                     amount=0.02, amount_sd=0.004, seen=True, missing=False, shape_match=0.9, overlap=0.1)
+    assert " observed at 4.210 ppm" in _evidence_text(e, True)
+    text = _evidence_text(e, False)
+    assert "observed" not in text and "candidate not detected" in text
