@@ -522,16 +522,42 @@ def _inputs_section(result) -> str:
     return table + _table(("property", "value"), facts) if facts else table
 
 
+#: Key endings that carry a unit (the name is shown without them, the unit after the value).
+_UNITS = (("_hz", "Hz"), ("_ppm", "ppm"), ("_deg", "deg"), ("_mhz", "MHz"), ("_s", "s"), ("_c", "C"),
+          ("_mg", "mg"), ("_points", "points"))
+
+
 def _parameters_section(result) -> str:
+    """Processing and fit parameters, rounded, with units, each value once (no cautions: the report
+    gives its caution at the top)."""
     fit = result.fit
-    rows = [("line width (fitted)", f"{fit.line_width_hz:.3g} Hz")]
-    rows += [(f"fit quality: {k}", _fmt(v)) for k, v in fit.quality.items()]
-    rows += [(f"analysis: {k}", _fmt(v)) for k, v in result.parameters.items()]
+    rows = [("fit", "line width", f"{fit.line_width_hz:.3g} Hz")]
+    rows += [("fit", k, v) for k, v in fit.quality.items()]
+    rows += [("analysis", k, v) for k, v in result.parameters.items()]
     metadata = result.spectrum.metadata if result.spectrum is not None else {}
     for group in ("processing", "acquisition"):
-        rows += [(f"{group}: {k}", _fmt(v)) for k, v in _flatten(metadata.get(group, {}))
-                 if v is not None]
-    return _table(("parameter", "value"), rows)
+        rows += [(group, k, v) for k, v in _flatten(metadata.get(group, {})) if v is not None]
+    out, shown = [], set()
+    for group, key, value in rows:
+        name, unit = _name_and_unit(key)
+        text = value if isinstance(value, str) and key == "line width" else _fmt(value)
+        if "caution" in name or not text or text == "None":
+            continue
+        if unit and not text.endswith(unit):
+            text = f"{text} {unit}"
+        seen_key = (name.split(".")[-1].replace("fitted ", ""), text.split(" ")[0])
+        if seen_key in shown:  # the same quantity with the same value under another heading
+            continue
+        shown.add(seen_key)
+        out.append((f"{group}: {name}", text))
+    return _table(("parameter", "value"), out)
+
+
+def _name_and_unit(key: str) -> tuple[str, str]:
+    for ending, unit in _UNITS:
+        if key.endswith(ending):
+            return key[: -len(ending)].replace("_", " "), unit
+    return key.replace("_", " "), ""
 
 
 def _flatten(record, prefix: str = ""):
@@ -546,9 +572,14 @@ def _flatten(record, prefix: str = ""):
 
 
 def _fmt(value) -> str:
-    if isinstance(value, float):
-        return f"{value:.6g}"
-    if isinstance(value, (list, tuple, dict)):
+    """A value as a reader wants it: 4 significant digits, lists rounded alike."""
+    if isinstance(value, (bool, np.bool_)):
+        return "yes" if value else "no"
+    if isinstance(value, (float, np.floating)):
+        return f"{float(value):.4g}"
+    if isinstance(value, (list, tuple)):
+        return ", ".join(_fmt(v) for v in value)
+    if isinstance(value, dict):
         return json.dumps(value, default=str)
     return str(value)
 

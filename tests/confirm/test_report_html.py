@@ -230,3 +230,20 @@ def test_report_without_a_measured_spectrum(tmp_path):
                             fit=full.fit, verdict=full.verdict, inputs=full.inputs)
     text = write_html_report(result, tmp_path / "peaks.html").read_text()
     assert full.verdict.summary in text and "<svg" in text
+
+
+def test_the_parameter_table_is_rounded_with_units_and_says_each_thing_once(mixture):
+    from dataclasses import replace
+
+    from confirm.report_html import _parameters_section
+
+    metadata = dict(mixture.spectrum.metadata)
+    metadata["processing"] = {"phase_deg": [-36.48224957640548, 2.0000000001], "lb_hz": 0.3,
+                              "caution": "a decision aid"}
+    result = replace(mixture, spectrum=replace(mixture.spectrum, metadata=metadata),
+                     parameters={**mixture.parameters, "line_width_hz": mixture.fit.line_width_hz})
+    html = _parameters_section(result)
+    assert "-36.48, 2 deg" in html and "36.48224957" not in html
+    assert "caution" not in html
+    assert html.count("0.3 Hz") == 1  # the analysis and the processing both give the line broadening
+    assert html.count(">2 Hz<") == 1  # the fitted line width, once
