@@ -41,6 +41,9 @@ _PROBE_LOAD = (
     "d.setAttribute('data-svgs',String(document.querySelectorAll('svg').length));"
     "d.setAttribute('data-verdict',v?v.innerText:'');"
     "d.setAttribute('data-verdict-height',v?String(v.getBoundingClientRect().height):'0');"
+    "var q=document.getElementById('qc-status');d.setAttribute('data-qc',q?q.innerText:'');"
+    "d.setAttribute('data-qc-top',q?String(q.getBoundingClientRect().top):'-1');"
+    "d.setAttribute('data-verdict-top',v?String(v.getBoundingClientRect().top):'-1');"
     "document.body.appendChild(d);});</script>"
 )
 
@@ -81,7 +84,9 @@ def test_report_renders_without_errors_and_shows_the_verdict(report, tmp_path):
     assert json.loads(html.unescape(attrs["data-problems"])) == []
     assert _console_errors(proc.stderr) == []
     assert VERDICT in html.unescape(attrs["data-verdict"])
-    assert "QC FAIL" in html.unescape(attrs["data-verdict"])
+    # the QC decision is the headline, in words, above the reaction verdict
+    assert "QC FAIL" in html.unescape(attrs["data-qc"])
+    assert 0 <= float(attrs["data-qc-top"]) < float(attrs["data-verdict-top"])
     assert float(attrs["data-verdict-height"]) > 0
     assert int(attrs["data-svgs"]) >= 6  # two plots and four structures
 
