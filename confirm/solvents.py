@@ -37,6 +37,7 @@ __all__ = [
     "impurity_signals",
     "normalise_solvent_name",
     "known_solvents",
+    "name_line",
 ]
 
 #: Tetramethylsilane, the 1H shift origin (by definition).
@@ -248,3 +249,35 @@ def impurity_signals(solvent: str) -> tuple[ImpuritySignal, ...]:
                        n_h=int(r["n_h"]), source=r["source"])
         for r in _read_rows() if r["solvent"] == canonical and r["kind"] == "impurity"
     )
+
+
+#: How far (ppm) a measured line may sit from a tabulated solvent or impurity line and still be
+#: named after it: the tables' values move by 0.01-0.02 ppm with concentration and temperature.
+# common practice
+LINE_NAME_TOLERANCE_PPM = 0.02
+
+
+def name_line(ppm: float, solvent: str | None, *, multiplicity: str | None = None,
+              tolerance_ppm: float = LINE_NAME_TOLERANCE_PPM) -> str | None:
+    """What a measured line may be when it sits on a known solvent, water, TMS or impurity line
+    of ``solvent`` (within ``tolerance_ppm``); None otherwise, or when the solvent is unknown.
+
+    A product line can sit there too: the name is a hint ("may be"), never a removal. Where the
+    multiplicity is given, an impurity line of another multiplicity is not named (a singlet is not
+    the quartet of diethyl ether).
+    """
+    canonical = normalise_solvent_name(solvent) if solvent else None
+    if canonical is None:
+        return None
+    signals = solvent_signals(canonical)
+    options = [(signals.residual_ppm, f"residual {signals.residual_label}", signals.residual_multiplicity)]
+    if signals.water_ppm is not None:
+        options.append((signals.water_ppm, "water", "s"))
+    options += [(s.ppm, s.name, s.multiplicity) for s in impurity_signals(canonical)]
+    close = [(abs(ppm - at), name, mult) for at, name, mult in options if abs(ppm - at) <= tolerance_ppm]
+    if multiplicity and multiplicity not in ("m", "br s"):
+        close = [c for c in close if c[2] in ("m", "br s") or c[2][:1] == multiplicity[:1]
+                 or "water" in c[1] or "residual" in c[1]]
+    if not close:
+        return None
+    return min(close)[1]

@@ -103,15 +103,22 @@ def _run(args) -> int:
 
 def _line_list(result: ProcessedSpectrum, protons) -> str:
     from confirm.line_list import journal_line
+    from confirm.solvents import name_line
 
-    exclude = (0.0,) if "TMS" in str(result.reference) else ()
     spectrum = result.spectrum
+    exclude = [0.0] if "TMS" in str(result.reference) else []
+    # the solvent's own lines are no part of the compound's line list (impurities stay: "may be")
+    for m in result.multiplets:
+        name = name_line(m.ppm, spectrum.solvent, multiplicity=m.multiplicity) or ""
+        if name.startswith("residual") or name in ("water", "TMS"):
+            exclude.append(m.ppm)
     return journal_line(result.multiplets, field_mhz=spectrum.field_mhz, solvent=spectrum.solvent,
                         protons=protons, exclude_ppm=exclude)
 
 
 def _to_json(result: ProcessedSpectrum) -> dict:
     from confirm.processing import SNR_DEFINITION
+    from confirm.solvents import name_line
 
     spectrum = result.spectrum
     return {
@@ -133,7 +140,9 @@ def _to_json(result: ProcessedSpectrum) -> dict:
                   for p in result.peaks],
         "multiplets": [{"ppm": m.ppm, "integral": m.integral, "j_hz": list(m.j_hz),
                         "multiplicity": m.multiplicity, "n_lines": m.n_lines,
-                        "range_ppm": [m.start_ppm, m.stop_ppm]} for m in result.multiplets],
+                        "range_ppm": [m.start_ppm, m.stop_ppm],
+                        "may_be": name_line(m.ppm, spectrum.solvent, multiplicity=m.multiplicity)}
+                       for m in result.multiplets],
         "warnings": list(result.warnings),
     }
 
@@ -141,9 +150,13 @@ def _to_json(result: ProcessedSpectrum) -> dict:
 def _to_text(result: ProcessedSpectrum) -> str:
     spectrum = result.spectrum
     meta = spectrum.metadata
+    from confirm.solvents import name_line
+
     total = sum(max(m.integral, 0.0) for m in result.multiplets) or 1.0
     rows = [(f"{m.ppm:.3f}", m.multiplicity, ", ".join(f"{j:.1f}" for j in m.j_hz) or "-", m.n_lines,
-             f"{100.0 * m.integral / total:.2f}") for m in result.multiplets]
+             f"{100.0 * m.integral / total:.2f}",
+             name_line(m.ppm, spectrum.solvent, multiplicity=m.multiplicity) or "")
+            for m in result.multiplets]
     lines = [
         f"source:    {meta.get('source_path')} ({meta.get('format')})",
         f"field:     {spectrum.field_mhz:.2f} MHz {spectrum.nucleus}, "
@@ -153,7 +166,7 @@ def _to_text(result: ProcessedSpectrum) -> str:
         f"phase:     {result.phase_deg[0]:.1f} deg (zero order), {result.phase_deg[1]:.1f} deg (first order)",
         f"SNR:       {result.snr:.0f} (tallest non-solvent line / 2 x noise sd)",
         "",
-        format_table(["ppm", "mult", "J (Hz)", "lines", "integral %"], rows),
+        format_table(["ppm", "mult", "J (Hz)", "lines", "integral %", "may be"], rows),
     ]
     lines += [f"warning: {w}" for w in result.warnings]
     return "\n".join(lines)

@@ -110,3 +110,31 @@ def test_hdo_moves_with_temperature_in_d2o_only():
     assert hdo_shift_ppm("D2O", 308.0) == pytest.approx(4.79 - 10 / 96.9)
     assert hdo_shift_ppm("D2O", None) == pytest.approx(4.79)
     assert hdo_shift_ppm("CDCl3", 320.0) == 1.56
+
+
+@pytest.mark.parametrize("ppm, solvent, mult, expected", [
+    # Gottlieb, Kotlyar, Nudelman, J. Org. Chem. 1997, 62, 7512, Table 1 (CDCl3)
+    (7.26, "CDCl3", "s", "residual CHCl3"),
+    (1.565, "CDCl3", "s", "water"),
+    (2.17, "CDCl3", "s", "acetone"),
+    (5.30, "CDCl3", None, "dichloromethane"),
+    (3.48, "CDCl3", "q", "diethyl ether CH2"),
+    (3.48, "CDCl3", "s", "methanol"),  # a singlet is not ether's quartet, but methanol's 3.49 s
+    (4.50, "CDCl3", "s", None),
+    (2.17, None, "s", None),  # solvent unknown: nothing to name
+])
+def test_lines_on_known_solvent_and_impurity_lines_are_named(ppm, solvent, mult, expected):
+    from confirm.solvents import name_line
+
+    assert name_line(ppm, solvent, multiplicity=mult) == expected
+
+
+def test_process_names_the_solvent_lines_and_leaves_them_out_of_the_line_list(run_cli):
+    import json
+
+    from confirm.commands.demo import sample_files
+
+    data = json.loads(run_cli("process", str(sample_files()[0]), "--json").stdout)
+    named = {m["may_be"] for m in data["multiplets"] if m["may_be"]}
+    assert {"residual CHCl3", "water"} <= named
+    assert "7.26" not in data["line_list"] and "1.56 (s" not in data["line_list"]
