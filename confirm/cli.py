@@ -37,7 +37,7 @@ EXIT_BROKEN_PIPE = 141
 
 #: Order of subcommands in ``--help``; modules found in ``confirm.commands``
 #: but not named here come after, alphabetically.
-COMMAND_ORDER = ("candidates", "predict", "process", "analyze", "qc", "batch", "demo")
+COMMAND_ORDER = ("candidates", "predict", "process", "analyze", "qc", "batch", "trend", "demo")
 
 
 def _command_modules() -> list[str]:

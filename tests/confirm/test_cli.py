@@ -74,7 +74,8 @@ def test_tables_wrap_their_last_column_to_the_width_asked():
     assert format_table(("a", "b"), [("1", "2")]) == "a  b\n-  -\n1  2"
 
 
-@pytest.mark.parametrize("command", ["analyze", "candidates", "predict", "process", "qc", "batch", "demo"])
+@pytest.mark.parametrize("command", ["analyze", "candidates", "predict", "process", "qc", "batch", "trend",
+                                     "demo"])
 def test_every_subcommand_help_has_a_description_and_an_example(run_cli, command):
     result = run_cli(command, "--help")
     assert result.exit_code == 0, result.stderr
