@@ -288,14 +288,31 @@ def _figure_regions(result, curves: CandidateCurves, regions):
     return fig
 
 
+#: A panel's height is at least this many noise sd: a region with no line shows flat noise, never
+#: noise scaled up to look like signal.
+_MIN_PANEL_NOISE_SD = 25.0
+
+
+def _noise_sd(result) -> float:
+    from confirm.fitting.noise import estimate_noise_sd
+
+    if result.spectrum is None:
+        return float(result.fit.quality.get("noise_sd", 0.0) or 0.0)
+    return float(estimate_noise_sd(np.asarray(result.spectrum.intensity, dtype=float)))
+
+
 def _draw_region(ax, result, curves, high, low):
     fit = result.fit
     inside = (fit.ppm <= high) & (fit.ppm >= low)
-    top = float(np.max(fit.model[inside])) if inside.any() else 1.0
+    floor = _MIN_PANEL_NOISE_SD * _noise_sd(result)
+    top = max(float(np.max(fit.model[inside])) if inside.any() else 1.0, floor)
+    measured_top = top
     if result.spectrum is not None:
         sel = (result.spectrum.ppm <= high) & (result.spectrum.ppm >= low)
         ax.plot(result.spectrum.ppm[sel], result.spectrum.intensity[sel], color="#222222", lw=0.8,
                 label="measured")
+        if sel.any():
+            measured_top = max(top, float(np.max(result.spectrum.intensity[sel])))
     ax.plot(*_break_gaps(fit.ppm[inside], fit.model[inside]), color="#888888", lw=0.8, ls="--",
             label="fitted mixture")
     peak = max(float(np.max(curves.per_molecule[:, inside])) if inside.any() else 1.0, 1e-300)
@@ -308,6 +325,7 @@ def _draw_region(ax, result, curves, high, low):
                 label=f"{k + 1}. {_component_legend(comp)}")
         ax.plot(*_break_gaps(fit.ppm[inside], curves.fitted[k, inside]), color=colour, lw=0.6, alpha=0.7)
         ax.text(low, base + 0.15 * step, f" {k + 1}", color=colour, fontsize=7, ha="left", va="bottom")
+    ax.set_ylim(-(len(fit.components) + 0.2) * step, 1.08 * measured_top)
     ax.set_xlim(high, low)
     ax.set_yticks([])
     ax.set_xlabel("ppm")

@@ -109,9 +109,9 @@ def test_report_lists_inputs_candidates_and_versions(report_text, mixture):
     assert report_text.count("<svg") >= 2 + len(mixture.candidates)  # two plots and every structure
     for name in ("rdkit", "numpy", "matplotlib", "confirm"):
         assert f"<td>{name}</td>" in report_text
-    assert "lb_hz" in report_text and "E:Z pent-2-ene" in report_text
+    assert "analysis: lb" in report_text and "0.3 Hz" in report_text and "E:Z pent-2-ene" in report_text
     assert "<td>processing: options.phasing</td><td>entropy</td>" in report_text
-    assert "<td>acquisition: n_scans</td><td>16</td>" in report_text
+    assert "<td>acquisition: n scans</td><td>16</td>" in report_text
 
 
 @pytest.fixture(scope="module")
@@ -247,3 +247,26 @@ def test_the_parameter_table_is_rounded_with_units_and_says_each_thing_once(mixt
     assert "caution" not in html
     assert html.count("0.3 Hz") == 1  # the analysis and the processing both give the line broadening
     assert html.count(">2 Hz<") == 1  # the fitted line width, once
+
+
+def test_an_empty_region_shows_flat_noise_not_noise_scaled_to_fill_the_panel(mixture):
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    from confirm.fitting.noise import estimate_noise_sd
+    from confirm.report_html import _draw_region
+
+    noise = estimate_noise_sd(np.asarray(mixture.spectrum.intensity))
+    fig, ax = plt.subplots()
+    try:
+        _draw_region(ax, mixture, candidate_curves(mixture), 8.2, 7.4)  # no pentene line there
+        assert ax.get_ylim()[1] >= 20 * noise
+        fig2, ax2 = plt.subplots()
+        _draw_region(ax2, mixture, candidate_curves(mixture), 5.6, 5.3)  # the vinyl lines: their own scale
+        top = float(np.max(mixture.fit.model[(mixture.fit.ppm <= 5.6) & (mixture.fit.ppm >= 5.3)]))
+        assert ax2.get_ylim()[1] == pytest.approx(1.08 * top, rel=0.2)
+        plt.close(fig2)
+    finally:
+        plt.close(fig)
