@@ -423,13 +423,23 @@ figcaption { color: var(--muted); font-size: 12px; }
 .structure svg { width: 150px; height: auto; }
 ul { margin: 6px 0; padding-left: 20px; }
 .muted { color: var(--muted); }
-@page { size: A4; margin: 14mm 12mm 16mm; }
+.two-col { display: grid; grid-template-columns: 1fr 1fr; gap: 0 14px; }
+@page { size: A4; margin: 12mm 11mm 13mm; }
 @media print {
-  body { background: #fff; font-size: 10.5pt; }
+  body { background: #fff; font-size: 9pt; line-height: 1.3; }
   main { max-width: none; padding: 0; }
-  header.top { background: #fff; color: var(--ink); border-bottom: 3px solid var(--head); padding: 0 0 6px; }
-  h2 { break-after: avoid; }
-  figure, table, .verdict, .caution, tr { break-inside: avoid; }
+  header.top { background: #fff; color: var(--ink); border-bottom: 3px solid var(--head); padding: 0 0 4px; }
+  h2 { break-after: avoid; margin-top: 12px; font-size: 11.5pt; }
+  figure, .verdict, .qc-head, .caution, tr { break-inside: avoid; }
+  figure { margin: 4px 0; padding: 2px; }
+  figure svg { max-height: 92mm; }
+  .structure svg { width: 64px; }
+  #evidence ul, #warnings ul { columns: 2; column-gap: 16px; }
+  #evidence li, #warnings li { break-inside: avoid; }
+  table { font-size: 8pt; margin: 4px 0; }
+  th, td { padding: 2px 5px; }
+  #evidence li, #warnings li { font-size: 8pt; }
+  #parameters table, #software table { font-size: 7pt; }
   a { color: inherit; text-decoration: none; }
 }
 """
@@ -545,6 +555,10 @@ _UNITS = (("_hz", "Hz"), ("_ppm", "ppm"), ("_deg", "deg"), ("_mhz", "MHz"), ("_s
           ("_mg", "mg"), ("_points", "points"))
 
 
+#: Parameter values longer than this are left to the JSON result (a table cell is no paragraph).
+_MAX_PARAMETER_CHARS = 60
+
+
 def _parameters_section(result) -> str:
     """Processing and fit parameters, rounded, with units, each value once (no cautions: the report
     gives its caution at the top)."""
@@ -559,8 +573,8 @@ def _parameters_section(result) -> str:
     for group, key, value in rows:
         name, unit = _name_and_unit(key)
         text = value if isinstance(value, str) and key == "line width" else _fmt(value)
-        if "caution" in name or not text or text == "None":
-            continue
+        if "caution" in name or not text or text == "None" or len(text) > _MAX_PARAMETER_CHARS:
+            continue  # long texts (definitions, notes) are in the JSON result and among the warnings
         if unit and not text.endswith(unit):
             text = f"{text} {unit}"
         seen_key = (name.split(".")[-1].replace("fitted ", ""), text.split(" ")[0])
@@ -568,7 +582,12 @@ def _parameters_section(result) -> str:
             continue
         shown.add(seen_key)
         out.append((f"{group}: {name}", text))
-    return _table(("parameter", "value"), out)
+    note = '<p class="muted">Every parameter, in full, is in the JSON result (confirm analyze --json).</p>'
+    if len(out) <= 12:
+        return _table(("parameter", "value"), out) + note
+    half = (len(out) + 1) // 2  # two tables side by side: half the length on screen and on paper
+    return (f'<div class="two-col">{_table(("parameter", "value"), out[:half])}'
+            f'{_table(("parameter", "value"), out[half:])}</div>' + note)
 
 
 def _name_and_unit(key: str) -> tuple[str, str]:
@@ -664,7 +683,8 @@ def render_html_report(result, *, qc: QcResult | None = None,
         _section("Evidence", _evidence_section(result), anchor="evidence"),
         _section("Points to watch", _list(_warnings(result), empty="No warnings."), anchor="warnings"),
         _section("How it was processed and fitted", _parameters_section(result), anchor="parameters"),
-        _section("Software", _table(("package", "version"), sorted(versions.items())), anchor="software"),
+        _section("Software", _table([k for k, _ in sorted(versions.items())],
+                                    [[v for _, v in sorted(versions.items())]]), anchor="software"),
     ]
     generated = datetime.now(timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
     source = result.inputs[0].path if result.inputs else "peak list"

@@ -108,3 +108,25 @@ def test_screenshot_of_the_report(report, tmp_path):
     keep = os.environ.get("CONFIRM_SCREENSHOT_DIR")
     if keep:
         shutil.copy(shot, Path(keep) / "report.png")
+
+
+@pytest.mark.slow
+def test_a_five_candidate_report_prints_on_at_most_four_a4_pages(tmp_path):
+    # the real demo analysis at 400 MHz (five candidates, every section filled), printed to PDF by
+    # the browser with its own print layout (A4 portrait)
+    from confirm.analysis import analyze_path
+    from confirm.commands.demo import sample_files
+
+    result = analyze_path(sample_files()[0], substrate="CC(Br)Cc1ccc(OC)cc1", reagent="KOH", solvent="DMSO",
+                          temp_c=80.0)
+    assert len(result.fit.components) == 5
+    report = write_html_report(result, tmp_path / "demo.html")
+    pdf = tmp_path / "demo.pdf"
+    proc = _chromium(tmp_path / "profile", "--no-pdf-header-footer", f"--print-to-pdf={pdf}", report.as_uri())
+    assert proc.returncode == 0, proc.stderr[-2000:]
+    data = pdf.read_bytes()
+    assert data[:5] == b"%PDF-"
+    pages = len(re.findall(rb"/Type\s*/Page(?!s)", data))
+    assert 1 <= pages <= 4, pages
+    box = re.search(rb"/MediaBox\s*\[\s*0 0 ([\d.]+) ([\d.]+)\s*\]", data)
+    assert box and abs(float(box.group(1)) - 595) < 2 and abs(float(box.group(2)) - 842) < 2  # A4 portrait

@@ -108,7 +108,7 @@ def test_report_lists_inputs_candidates_and_versions(report_text, mixture):
     assert "not detected" in report_text  # the starting material
     assert report_text.count("<svg") >= 2 + len(mixture.candidates)  # two plots and every structure
     for name in ("rdkit", "numpy", "matplotlib", "confirm"):
-        assert f"<td>{name}</td>" in report_text
+        assert f"<th>{name}</th>" in report_text  # the software table: one column per package
     assert "analysis: lb" in report_text and "0.3 Hz" in report_text and "E:Z pent-2-ene" in report_text
     assert "<td>processing: options.phasing</td><td>entropy</td>" in report_text
     assert "<td>acquisition: n scans</td><td>16</td>" in report_text
