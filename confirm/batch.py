@@ -669,13 +669,36 @@ def _failed(task: _Task, error: str) -> ItemOutcome:
 # --- summary ---------------------------------------------------------------------------------------
 
 
-def _summary_csv(outcomes: Sequence[ItemOutcome]) -> str:
+def _summary_csv(outcomes: Sequence[ItemOutcome], out: Path | None = None) -> str:
+    """One row per item; after the fixed columns, one column per ratio (``ratio: NAME``, as printed)
+    and one per candidate (``mol %: NAME``: the amount, or ``< bound`` when not detected), read back
+    from each finished item's ``result.json`` (empty where an item has no such ratio or candidate)."""
+    results = {o.item_id: (_read_json_object(out / o.item_id / "result.json") or {})
+               if out is not None and o.status in ("done", "skipped") else {} for o in outcomes}
+    ratio_names, component_names = [], []
+    cells: dict[str, dict[str, str]] = {}
+    for o in outcomes:
+        row = cells.setdefault(o.item_id, {})
+        result = results[o.item_id]
+        for name, ratio in (result.get("ratios") or {}).items():
+            column = f"ratio: {name}"
+            ratio_names.append(column)
+            row[column] = str(ratio.get("ratio", ""))
+        for comp in result.get("components", []):
+            column = f"mol %: {comp.get('name') or comp.get('label') or comp.get('smiles', '')}"
+            component_names.append(column)
+            if comp.get("detected") and comp.get("mole_fraction") is not None:
+                row[column] = f"{100.0 * float(comp['mole_fraction']):.2f}"
+            elif comp.get("upper_limit") is not None:
+                row[column] = f"< {100.0 * float(comp['upper_limit']):.2f}"
+    extra = list(dict.fromkeys(ratio_names)) + list(dict.fromkeys(component_names))
     buffer = io.StringIO()
     writer = csv.writer(buffer, lineterminator="\n")
-    writer.writerow(_SUMMARY_COLUMNS)
+    writer.writerow([*_SUMMARY_COLUMNS, *extra])
     for o in outcomes:
         writer.writerow([o.item_id, o.spectrum, o.status, o.major, o.confidence, o.verdict, o.qc_status,
-                         o.error, o.sha256, o.report, f"{o.seconds:.2f}"])
+                         o.error, o.sha256, o.report, f"{o.seconds:.2f}",
+                         *[cells[o.item_id].get(c, "") for c in extra]])
     return buffer.getvalue()
 
 
@@ -752,7 +775,7 @@ def write_summary(outcomes: Sequence[ItemOutcome], out_dir: str | Path) -> Batch
     interrupted = sum(1 for o in outcomes if o.status == "interrupted")
     if interrupted:
         counts["interrupted"] = interrupted
-    write_text_atomic(out / "summary.csv", _summary_csv(outcomes))
+    write_text_atomic(out / "summary.csv", _summary_csv(outcomes, out))
     write_text_atomic(out / "components.csv", _components_csv(outcomes, out))
     write_text_atomic(out / "index.html", _index_html(outcomes, counts))
     return BatchSummary(outcomes=tuple(outcomes), summary_csv=out / "summary.csv",

@@ -121,6 +121,14 @@ def test_twenty_spectra_with_one_corrupt_file_in_two_processes(twenty, tmp_path)
     result = json.loads((tmp_path / "out" / "lot03" / "result.json").read_text())
     z_fraction = next(c["mole_fraction"] for c in result["components"] if c["smiles"] == Z_PENTENE)
     assert z_fraction == pytest.approx(0.04, abs=0.005)
+    # the summary also has one column per ratio and per candidate, read back from result.json
+    z_label = next(c.get("name") or c.get("label") or c["smiles"] for c in result["components"]
+                   if c["smiles"] == Z_PENTENE)
+    lot03 = next(r for r in rows if r["id"] == "lot03")
+    assert float(lot03[f"mol %: {z_label}"]) == pytest.approx(100 * z_fraction, abs=0.01)
+    assert next(r for r in rows if r["id"] == "lot07")[f"mol %: {z_label}"] == ""
+    ratio_columns = [c for c in rows[0] if c.startswith("ratio: ")]
+    assert all(lot03[c] == result["ratios"][c[len("ratio: "):]]["ratio"] for c in ratio_columns)
     index = summary.index_html.read_text()
     assert "lot07" in index and "1 error" in index and "decision aid" in index
     # one row per finished item and candidate (and per ratio), read back from result.json
