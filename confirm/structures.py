@@ -143,7 +143,9 @@ def load_structure(arg: str) -> Chem.Mol:
         finally:
             RDLogger.EnableLog("rdApp.*")
         if mol is None:
-            raise ChemistryError(f"structure: {text!r} is neither a readable file nor a valid SMILES")
+            problem = _smiles_problem(text)
+            raise ChemistryError(f"structure: {text!r} is neither a readable file nor a valid SMILES"
+                                 + (f" ({problem})" if problem else ""))
     check_single_molecule(mol)
     parse_molecule(mol, strip_salts=True)
     return mol
@@ -186,3 +188,29 @@ def split_name(arg: str) -> tuple[str | None, str]:
     if len(name) > MAX_NAME_LENGTH:
         raise InputError(f"structure: the name {name[:20]!r}... is longer than {MAX_NAME_LENGTH} characters")
     return name, structure
+
+
+def _smiles_problem(text: str) -> str:
+    """What RDKit found wrong with a SMILES, in one phrase with the character position where it
+    gives one ("extra open parentheses, around character 3"; "explicit valence for atom # 0 C, 5,
+    is greater than permitted"); empty when RDKit cannot say."""
+    import re
+
+    from rdkit import rdBase
+
+    capture = getattr(rdBase, "CaptureErrorLog", None)
+    if capture is None:
+        return ""
+    with capture() as log:
+        Chem.MolFromSmiles(text)
+    messages = log.messages
+    lines = [re.sub(r"^\[[\d:.]+\]\s*", "", line).strip() for line in messages.splitlines()]
+    reason = next((line for line in lines if line and "Failed parsing" not in line
+                   and "check for mistakes" not in line and not set(line) <= set("~^ ") and line != text), "")
+    reason = re.sub(r"^SMILES Parse Error:\s*", "", reason)
+    reason = re.sub(r"\s*(while parsing|for input):.*$", "", reason).strip()
+    reason = re.sub(r"\s+", " ", reason)
+    where = re.search(r"check for mistakes around position (\d+)", messages)
+    if reason and where:
+        reason += f", around character {where.group(1)}"
+    return reason[:1].lower() + reason[1:] if reason else ""

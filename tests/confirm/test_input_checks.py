@@ -100,3 +100,20 @@ def test_a_spec_with_a_byte_order_mark_is_read(tmp_path):
 def test_spec_smiles_are_checked_like_command_line_ones(table, message):
     with pytest.raises(InputError, match=message):
         parse_spec(table)
+
+
+@pytest.mark.parametrize("smiles, reason", [
+    ("CC(C", "extra open parentheses, around character 3"),
+    ("CC)C", "extra close parentheses, around character 3"),
+    ("C1CC", "unclosed ring"),
+    ("C(C)(C)(C)(C)C", "valence for atom # 0"),
+    ("CCX", "syntax error, around character 3"),
+])
+def test_a_bad_smiles_error_says_what_is_wrong_and_where(smiles, reason):
+    from confirm.structures import load_structure
+    from predictors.errors import ChemistryError
+
+    with pytest.raises(ChemistryError) as info:
+        load_structure(smiles)
+    message = str(info.value)
+    assert reason in message and "\n" not in message
