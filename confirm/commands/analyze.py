@@ -150,8 +150,13 @@ def format_result(result) -> str:
     """Readable terminal summary of an AnalysisResult: verdict first, then the details."""
     from confirm.analysis import CAUTION
 
+    import textwrap
+
+    def wrapped(text: str, indent: str = "") -> list[str]:  # readable at 100 columns
+        return textwrap.wrap(text, _WIDTH, initial_indent=indent, subsequent_indent=indent + "    ") or [""]
+
     v = result.verdict
-    lines = [v.summary, ""]
+    lines = [*wrapped(v.summary), ""]
     rows = []
     for c in result.fit.components:
         rows.append(
@@ -164,18 +169,18 @@ def format_result(result) -> str:
                 "yes" if c.detected else "no",
             ]
         )
-    lines.append(format_table(["component", "pathway", "mol %", "LOD %", "detected"], rows))
+    lines.append(format_table(["component", "pathway", "mol %", "LOD %", "detected"], rows, width=_WIDTH))
     if v.ratios:
         lines += ["", "Ratios:"]
         for r in v.ratios:
-            lines.append(ratio_line(r))
-    if v.evidence:
-        lines += ["", "Evidence:"] + [f"  {e}" for e in v.evidence]
-    if v.unresolved:
-        lines += ["", "Not decided:"] + [f"  {u}" for u in v.unresolved]
-    if v.next_steps:
-        lines += ["", "Would settle it:"] + [f"  {s}" for s in v.next_steps]
-    if result.warnings:
-        lines += ["", "Warnings:"] + [f"  {w}" for w in result.warnings]
-    lines += ["", CAUTION]
+            lines += wrapped(ratio_line(r).strip(), "  ")
+    for title, items in (("Evidence:", v.evidence), ("Not decided:", v.unresolved),
+                         ("Would settle it:", v.next_steps), ("Warnings:", result.warnings)):
+        if items:
+            lines += ["", title] + [line for item in items for line in wrapped(item, "  ")]
+    lines += ["", *wrapped(CAUTION)]
     return "\n".join(lines)
+
+
+#: Widest line of the terminal summary.
+_WIDTH = 100

@@ -37,6 +37,7 @@ def test_analyze_text_output_has_verdict_table_and_caution(run_cli):
     assert first.startswith(("Major", "None", "No product"))
     assert "mol %" in result.stdout
     assert "does not replace" in result.stdout
+    assert max(len(line) for line in result.stdout.splitlines()) <= 100  # readable at 100 columns
 
 
 @pytest.mark.parametrize(
