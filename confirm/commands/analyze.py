@@ -148,9 +148,9 @@ def ratio_line(r) -> str:
 
 def format_result(result) -> str:
     """Readable terminal summary of an AnalysisResult: verdict first, then the details."""
-    from confirm.analysis import CAUTION
-
     import textwrap
+
+    from confirm.analysis import CAUTION
 
     def wrapped(text: str, indent: str = "") -> list[str]:  # readable at 100 columns
         return textwrap.wrap(text, _WIDTH, initial_indent=indent, subsequent_indent=indent + "    ") or [""]
