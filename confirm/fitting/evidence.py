@@ -291,9 +291,11 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic) -> Presence
     missing = tuple(sorted(set(missing) | veto))
     crowded = all(readings[i].overlap >= _SEEN_OVERLAP for i in use)
     strong = max(detection_sigma, SEEN_SIGMA)
-    if any(i in use and readings[i].sigma > strong for i in diagnostic):
+    if any(i in use and readings[i].sigma > strong and readings[i].shape >= _MISSHAPEN_MATCH
+           for i in diagnostic):
         # a diagnostic multiplet stands 5 sd clear, on its own or with the others' share taken away
-        # (its sd then carries their model error)
+        # (its sd then carries their model error), and has its own shape: at high SNR any small
+        # line stands 5 sd clear, a multiplet of the wrong shape is no evidence of the molecule
         evidence = True
     elif crowded:
         # every multiplet shares its window with others (a crowded low-field spectrum): nothing

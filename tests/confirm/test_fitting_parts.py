@@ -283,3 +283,16 @@ def test_a_line_of_an_undetected_candidate_is_not_called_observed():
     assert " observed at 4.210 ppm" in _evidence_text(e, True)
     text = _evidence_text(e, False)
     assert "observed" not in text and "candidate not detected" in text
+
+
+def test_a_diagnostic_multiplet_of_the_wrong_shape_is_no_evidence():
+    # at high SNR a small line passes 5 sd wherever a vinyl multiplet is put; only one shaped like
+    # the predicted multiplet (shape match >= 0.8, the test that vetoes misshapen ones) shows the alkene
+    def reading(shape):
+        return SiteReading(ppm=6.1, amount=0.004, amount_sd=0.0002, envelope=0.005, shape=shape, overlap=0.3,
+                           misfit=1.0, usable=True)
+
+    others = [SiteReading(ppm=1.9, amount=0.004, amount_sd=0.002, envelope=0.05, shape=0.9, overlap=0.6,
+                          misfit=1.0, usable=True)]
+    assert decide_presence([reading(0.95)] + others, detection_sigma=3.0, diagnostic=[0]).present
+    assert not decide_presence([reading(0.59)] + others, detection_sigma=3.0, diagnostic=[0]).present
