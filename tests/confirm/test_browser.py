@@ -44,6 +44,15 @@ _PROBE_LOAD = (
     "var q=document.getElementById('qc-status');d.setAttribute('data-qc',q?q.innerText:'');"
     "d.setAttribute('data-qc-top',q?String(q.getBoundingClientRect().top):'-1');"
     "d.setAttribute('data-verdict-top',v?String(v.getBoundingClientRect().top):'-1');"
+    "var out=[];document.querySelectorAll('figure svg').forEach(function(s){var b=s.getBoundingClientRect();"
+    "var boxes=[];s.querySelectorAll('text').forEach(function(t){var r=t.getBoundingClientRect();"
+    "if(!t.textContent.trim())return;"
+    "if(r.left<b.left-1||r.right>b.right+1||r.top<b.top-1||r.bottom>b.bottom+1)out.push('outside: '+t.textContent);"
+    "boxes.push([r,t.textContent]);});"
+    "for(var i=0;i<boxes.length;i++)for(var j=i+1;j<boxes.length;j++){var p=boxes[i][0],q=boxes[j][0];"
+    "var w=Math.min(p.right,q.right)-Math.max(p.left,q.left),h=Math.min(p.bottom,q.bottom)-Math.max(p.top,q.top);"
+    "if(w>2&&h>2)out.push('overlap: '+boxes[i][1]+' / '+boxes[j][1]);}});"
+    "d.setAttribute('data-text-problems',JSON.stringify(out));"
     "document.body.appendChild(d);});</script>"
 )
 
@@ -89,6 +98,8 @@ def test_report_renders_without_errors_and_shows_the_verdict(report, tmp_path):
     assert 0 <= float(attrs["data-qc-top"]) < float(attrs["data-verdict-top"])
     assert float(attrs["data-verdict-height"]) > 0
     assert int(attrs["data-svgs"]) >= 6  # two plots and four structures
+    # no plot text runs out of its figure or over another text (legend names, labels, ticks)
+    assert json.loads(html.unescape(attrs["data-text-problems"])) == []
 
 
 @pytest.mark.slow
@@ -130,3 +141,12 @@ def test_a_five_candidate_report_prints_on_at_most_four_a4_pages(tmp_path):
     assert 1 <= pages <= 4, pages
     box = re.search(rb"/MediaBox\s*\[\s*0 0 ([\d.]+) ([\d.]+)\s*\]", data)
     assert box and abs(float(box.group(1)) - 595) < 2 and abs(float(box.group(2)) - 842) < 2  # A4 portrait
+    # and on screen no plot text runs out of its figure or over another (five legend entries)
+    probed = tmp_path / "probed.html"
+    probed.write_text(report.read_text(encoding="utf-8").replace("<head>", "<head>" + _PROBE_HEAD, 1)
+                      .replace("</body>", _PROBE_LOAD + "</body>"), encoding="utf-8")
+    proc = _chromium(tmp_path / "profile", "--virtual-time-budget=5000", "--dump-dom", probed.as_uri())
+    match = re.search(r'<div id="probe"([^>]*)>', proc.stdout)
+    assert match, proc.stdout[-500:]
+    attrs = dict(re.findall(r'([\w-]+)="([^"]*)"', match.group(1)))
+    assert json.loads(html.unescape(attrs["data-text-problems"])) == []
