@@ -108,15 +108,25 @@ def _write_template(path: Path) -> int:
 
 
 def _format_text(qc, result) -> str:
-    rows = [(c.name, c.limit_text, c.measured_text(),
-             f"{c.interval[0]:.1f} - {c.interval[1]:.1f}" if c.interval else "-", c.status, c.reason)
+    """The QC decision for the terminal, within 100 columns: the checks as a table (the limit
+    wrapping in the last column), then why each check came out as it did."""
+    import textwrap
+
+    def wrapped(text: str, indent: str = "") -> list[str]:
+        return textwrap.wrap(text, 100, initial_indent=indent, subsequent_indent=indent + "    ") or [""]
+
+    rows = [(c.name, c.status, c.measured_text(),
+             f"{c.interval[0]:.1f} - {c.interval[1]:.1f}" if c.interval else "-", c.limit_text)
             for c in qc.checks]
-    table = format_table(("check", "limit", "measured", "95 % interval", "result", "why"), rows)
+    table = format_table(("check", "result", "measured", "95 % interval", "limit"), rows, width=100)
     title = f"QC result: {qc.status}" + (f" ({qc.spec.name})" if qc.spec.name else "")
     sign = qc.signoff
     who = ", ".join(f"{k} {v}" for k, v in (("lot", sign.lot), ("analyst", sign.analyst),
                                             ("reviewer", sign.reviewer)) if v)
-    lines = [title] + ([who] if who else []) + [qc.summary, "", table, ""]
+    lines = [*wrapped(title)] + ([who] if who else []) + [*wrapped(qc.summary), "", table, "", "Why:"]
+    lines += [line for c in qc.checks for line in wrapped(f"{c.name}: {c.reason}", "  ")]
+    lines.append("")
     if sign.comment:
-        lines += [f"Comment: {sign.comment}", ""]
-    return "\n".join(lines + [f"Verdict: {result.verdict.summary}", "", f"Caution: {qc.caution}"])
+        lines += [*wrapped(f"Comment: {sign.comment}"), ""]
+    return "\n".join(lines + [*wrapped(f"Verdict: {result.verdict.summary}"), "",
+                              *wrapped(f"Caution: {qc.caution}")])

@@ -306,6 +306,7 @@ def test_lot_analyst_reviewer_and_comment_reach_the_record(run_cli, tmp_path, fa
     assert out.exit_code == 0, out.stderr
     assert "lot L-42, analyst A. Chemist, reviewer B. Reviewer" in out.stdout
     assert "Comment: retest after drying" in out.stdout
+    assert max(len(line) for line in out.stdout.splitlines()) <= 100  # readable at 100 columns
     record = json.loads(audit.read_text())
     # the command line replaces the spec's reviewer, the spec's analyst stays
     assert record["qc"]["signoff"] == {"lot": "L-42", "analyst": "A. Chemist", "reviewer": "B. Reviewer",
