@@ -11,7 +11,7 @@ from collections.abc import Sequence
 import numpy as np
 
 __all__ = ["emit_json", "format_table", "to_jsonable", "add_budget_argument", "budget_from_args",
-           "existing_paths", "data_inputs", "add_solvent_arguments", "refuse_plain_solvent"]
+           "existing_paths", "data_inputs", "add_solvent_arguments", "refuse_plain_solvent", "wrap_text"]
 
 #: Files that stand for the FID folder holding them (``read_measurement`` reads the folder).
 _FOLDER_FILES = ("fid", "ser", "acqus", "acqu", "procpar")
@@ -169,3 +169,23 @@ def refuse_plain_solvent(args) -> None:
 
     if getattr(args, "retired_solvent", None) is not None:
         raise InputError(SOLVENT_WORDS)
+
+
+#: Widest line the commands print (terminal output stays readable at this width).
+TERMINAL_WIDTH = 100
+
+
+def wrap_text(text: str, width: int = TERMINAL_WIDTH) -> str:
+    """``text`` with every line longer than ``width`` wrapped at word boundaries; continuation
+    lines keep the line's indentation plus four spaces."""
+    import textwrap
+
+    out = []
+    for line in text.splitlines():
+        if len(line) <= width:
+            out.append(line)
+            continue
+        indent = line[: len(line) - len(line.lstrip())]
+        out += textwrap.wrap(line.strip(), width, initial_indent=indent, subsequent_indent=indent + "    ",
+                             break_on_hyphens=False) or [line]
+    return "\n".join(out)

@@ -2,7 +2,13 @@
 
 from __future__ import annotations
 
-from confirm.commands._common import add_solvent_arguments, emit_json, format_table, refuse_plain_solvent
+from confirm.commands._common import (
+    add_solvent_arguments,
+    emit_json,
+    format_table,
+    refuse_plain_solvent,
+    wrap_text,
+)
 
 __all__ = ["register"]
 
@@ -59,7 +65,7 @@ def _run(args) -> int:
     print(f"substrate: {products.substrate_smiles}   reagent: {products.reagent.name}")
     print(format_table(("rank", "prior", "pathways", "label", "smiles"), rows))
     for i, c in enumerate(products.candidates):
-        print(f"  {i + 1}. {c.rationale}" + (f" ({'; '.join(c.notes)})" if c.notes else ""))
+        print(wrap_text(f"  {i + 1}. {c.rationale}" + (f" ({'; '.join(c.notes)})" if c.notes else "")))
     for note in products.notes:
-        print(f"note: {note}")
+        print(wrap_text(f"note: {note}"))
     return 0

@@ -7,7 +7,7 @@ import json
 from importlib import resources
 from pathlib import Path
 
-from confirm.commands._common import add_budget_argument, budget_from_args, emit_json, to_jsonable
+from confirm.commands._common import add_budget_argument, budget_from_args, emit_json, to_jsonable, wrap_text
 
 __all__ = ["register", "DEMO_SUBSTRATE", "DEMO_REAGENT", "DEMO_SOLVENT", "DEMO_TEMP_C", "sample_files"]
 
@@ -78,10 +78,10 @@ def _run(args: argparse.Namespace) -> int:
             }
         )
         return 0
-    print(
+    print(wrap_text(
         f"Demo: {DEMO_SUBSTRATE} + {DEMO_REAGENT} in {DEMO_SOLVENT} at {DEMO_TEMP_C:.0f} C "
         "(invented scenario; see sample_spectra/README.md for the true composition)"
-    )
+    ))
     for name, result in results.items():
         print(f"\n=== {name} ({result.spectrum.field_mhz:.0f} MHz) ===")
         print(format_result(result))

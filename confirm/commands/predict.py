@@ -8,7 +8,7 @@ from pathlib import Path
 import numpy as np
 
 from confirm._files import atomic_path, check_file_targets
-from confirm.commands._common import emit_json, format_table
+from confirm.commands._common import emit_json, format_table, wrap_text
 from predictors.errors import InputError
 
 __all__ = ["register", "spin_system_to_json"]
@@ -75,8 +75,9 @@ def _run(args) -> int:
     pairs = second_order_pairs(system, field)
     if pairs:
         listed = ", ".join(f"{i}-{k} (dnu/J {r:.1f})" for i, k, r in pairs)
-        print(f"\nsecond order at {field:g} MHz: the multiplicities above are first-order names; coupled "
-              f"sites closer than {FIRST_ORDER_RATIO:g} J lean and split further: sites {listed}")
+        print(wrap_text(f"\nsecond order at {field:g} MHz: the multiplicities above are first-order names; "
+                        f"coupled sites closer than {FIRST_ORDER_RATIO:g} J lean and split further: sites "
+                        f"{listed}"))
     return 0
 
 

@@ -18,6 +18,7 @@ from confirm.commands._common import (
     emit_json,
     format_table,
     refuse_plain_solvent,
+    wrap_text,
 )
 from predictors.errors import InputError
 
@@ -96,8 +97,8 @@ def _run(args) -> int:
     if args.json:
         emit_json(dict(_to_json(result), line_list=_line_list(result, args.protons)))
     else:
-        print(_to_text(result))
-        print(f"\nline list: {_line_list(result, args.protons)}")
+        print(wrap_text(_to_text(result)))
+        print(wrap_text(f"\nline list: {_line_list(result, args.protons)}"))
     return 0
 
 

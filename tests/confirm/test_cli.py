@@ -84,3 +84,17 @@ def test_every_subcommand_help_has_a_description_and_an_example(run_cli, command
     description = text[usage_end:].strip().split("\n\n")[0]
     assert len(description) > 40 and not description.startswith(("positional", "options"))
     assert "Example" in text and f"confirm {command}" in text.split("Example", 1)[1]
+
+
+@pytest.mark.parametrize("args", [
+    ("predict", "C/C=C/c1ccc(OC)cc1", "--field-mhz", "60"),
+    ("candidates", "CC(Br)Cc1ccc(OC)cc1", "--reagent", "KOH", "--reaction-solvent", "DMSO", "--temp-c", "80"),
+    ("process", "SAMPLE"),
+])
+def test_terminal_output_stays_within_100_columns(run_cli, args):
+    from confirm.commands.demo import sample_files
+
+    args = [str(sample_files()[0]) if a == "SAMPLE" else a for a in args]
+    result = run_cli(*args)
+    assert result.exit_code == 0, result.stderr
+    assert max(len(line) for line in result.stdout.splitlines()) <= 100
