@@ -656,13 +656,14 @@ def _figure(svg: str, caption: str) -> str:
 
 
 def render_html_report(result, *, qc: QcResult | None = None,
-                       nmr_yield: Sequence[ProductYield] | None = None) -> str:
+                       nmr_yield: Sequence[ProductYield] | None = None, regions=None) -> str:
     """The report as one HTML string (see :func:`write_html_report`)."""
     import matplotlib
 
     matplotlib.use("Agg", force=False)
     curves = candidate_curves(result)
-    regions = choose_diagnostic_regions(result, curves)
+    regions = choose_diagnostic_regions(result, curves) if not regions else sorted(
+        ((max(a, b), min(a, b)) for a, b in regions), key=lambda w: -w[0])
     overview = _svg_of(_figure_overview(result), salt="confirm-overview")
     region_svg = _svg_of(_figure_regions(result, curves, regions), salt="confirm-regions")
     versions = software_versions()
@@ -707,7 +708,7 @@ def _check_target(path: Path) -> Path:
 
 
 def write_html_report(result, path, *, qc: QcResult | None = None,
-                      nmr_yield: Sequence[ProductYield] | None = None) -> Path:
+                      nmr_yield: Sequence[ProductYield] | None = None, regions=None) -> Path:
     """Write the self-contained HTML report of ``result`` to ``path``.
 
     Parameters
@@ -719,6 +720,9 @@ def write_html_report(result, path, *, qc: QcResult | None = None,
         Adds the QC sign-off section and the QC status to the verdict.
     nmr_yield : sequence of ProductYield, keyword-only
         Adds the NMR-yield section.
+    regions : sequence of (float, float), keyword-only
+        The diagnostic panels the user wants (ppm pairs, either order) instead of those chosen
+        by what tells the candidates apart.
 
     Returns
     -------
@@ -726,7 +730,7 @@ def write_html_report(result, path, *, qc: QcResult | None = None,
         The written file.
     """
     path = _check_target(Path(path))
-    return write_text_atomic(path, render_html_report(result, qc=qc, nmr_yield=nmr_yield))
+    return write_text_atomic(path, render_html_report(result, qc=qc, nmr_yield=nmr_yield, regions=regions))
 
 
 def _spectrum_csv(result, curves: CandidateCurves) -> str:

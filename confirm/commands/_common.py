@@ -11,7 +11,8 @@ from collections.abc import Sequence
 import numpy as np
 
 __all__ = ["emit_json", "format_table", "to_jsonable", "add_budget_argument", "budget_from_args",
-           "existing_paths", "data_inputs", "add_solvent_arguments", "refuse_plain_solvent", "wrap_text"]
+           "existing_paths", "data_inputs", "add_solvent_arguments", "refuse_plain_solvent", "wrap_text",
+           "parse_regions"]
 
 #: Files that stand for the FID folder holding them (``read_measurement`` reads the folder).
 _FOLDER_FILES = ("fid", "ser", "acqus", "acqu", "procpar")
@@ -189,3 +190,37 @@ def wrap_text(text: str, width: int = TERMINAL_WIDTH) -> str:
         out += textwrap.wrap(line.strip(), width, initial_indent=indent, subsequent_indent=indent + "    ",
                              break_on_hyphens=False) or [line]
     return "\n".join(out)
+
+
+#: Most ppm regions a user may give (panels side by side, integrals in one table).
+MAX_REGIONS = 8
+
+
+def parse_regions(text: str | None, *, flag: str) -> list[tuple[float, float]]:
+    """``"6.5-5.5,2.0-1.6"`` as [(6.5, 5.5), (2.0, 1.6)] (high, low); empty for None.
+
+    Raises
+    ------
+    InputError
+        Naming the flag, the bad piece and the form expected.
+    """
+    import re
+
+    from predictors.errors import InputError
+
+    if text is None:
+        return []
+    out = []
+    for piece in (p.strip() for p in text.split(",")):
+        match = re.fullmatch(r"(-?\d+(?:\.\d+)?)\s*(?:-|:|to)\s*(-?\d+(?:\.\d+)?)", piece)
+        if not match:
+            raise InputError(f"{flag}: {piece!r} is not a ppm range; write HIGH-LOW pairs separated by "
+                             "commas, e.g. 6.5-5.5,2.0-1.6")
+        a, b = float(match.group(1)), float(match.group(2))
+        high, low = max(a, b), min(a, b)
+        if high - low < 0.01 or high > 20 or low < -5:
+            raise InputError(f"{flag}: {piece!r} must span at least 0.01 ppm within -5 to 20 ppm")
+        out.append((high, low))
+    if not out or len(out) > MAX_REGIONS:
+        raise InputError(f"{flag}: give 1 to {MAX_REGIONS} ranges, got {len(out)}")
+    return out

@@ -12,6 +12,7 @@ from confirm.commands._common import (
     emit_json,
     existing_paths,
     format_table,
+    parse_regions,
     refuse_plain_solvent,
 )
 
@@ -62,6 +63,9 @@ def register(subparsers, parents) -> None:
         "--force-field", action="store_true", help="use --field-mhz even where the file records another field"
     )
     parser.add_argument("--report", metavar="OUT.html", help="also write a self-contained HTML report")
+    parser.add_argument("--regions", metavar="HIGH-LOW,...",
+                        help="the report's diagnostic panels, in ppm (e.g. 6.5-5.5,2.0-1.6), instead of "
+                             "those chosen by what tells the candidates apart")
     add_budget_argument(parser)
     from confirm.qnmr import add_yield_arguments
 
@@ -74,6 +78,9 @@ def _run(args: argparse.Namespace) -> int:
     from predictors.errors import InputError
 
     refuse_plain_solvent(args)
+    regions = parse_regions(args.regions, flag="--regions")
+    if regions and not args.report:
+        raise InputError("--regions: chooses the report's panels; give --report OUT.html too")
     if args.candidates and (args.substrate or args.reagent):
         raise InputError("--candidates: give either --candidates or --substrate with --reagent, not both")
     if not args.candidates and not (args.substrate and args.reagent):
@@ -116,7 +123,7 @@ def _run(args: argparse.Namespace) -> int:
     if args.report:
         from confirm.report_html import write_html_report
 
-        write_html_report(result, args.report, nmr_yield=yields)
+        write_html_report(result, args.report, nmr_yield=yields, regions=regions)
     if args.json:
         payload = result.to_json()
         if yields is not None:

@@ -17,6 +17,7 @@ from confirm.commands._common import (
     data_inputs,
     emit_json,
     format_table,
+    parse_regions,
     refuse_plain_solvent,
     wrap_text,
 )
@@ -57,6 +58,9 @@ def register(subparsers, parents) -> None:
                         help="how to reference the axis (default: TMS, else solvent, else as acquired)")
     parser.add_argument("--baseline", choices=("arpls", "asls", "iarpls", "none"), default="arpls",
                         help="baseline method (default arpls)")
+    parser.add_argument("--integrate", metavar="HIGH-LOW,...",
+                        help="integrate these ppm ranges (e.g. 6.5-5.5,2.0-1.6): each as %% of their sum, "
+                             "and as nH with --protons N (the ranges then hold N protons together)")
     parser.add_argument("--protons", type=int, default=None, metavar="N",
                         help="proton count of the compound: the line list gives each multiplet's nH "
                              "(integrals scaled to sum to N); without it, %% of the total")
@@ -89,16 +93,24 @@ def _run(args) -> int:
                                 orientation=args.orientation)
     if args.protons is not None and not 1 <= args.protons <= 500:
         raise InputError(f"--protons: expected a proton count between 1 and 500, got {args.protons}")
+    ranges = parse_regions(args.integrate, flag="--integrate")
     result = process_measurement(raw, options=options)
     if args.out:
         _write_csv(result, Path(args.out))
     if args.plot:
         _write_plot(result, Path(args.plot))
+    integrals = integrate_ranges(result.spectrum, ranges, protons=args.protons) if ranges else []
     if args.json:
-        emit_json(dict(_to_json(result), line_list=_line_list(result, args.protons)))
+        emit_json(dict(_to_json(result), line_list=_line_list(result, args.protons),
+                       integrals=[{"high_ppm": h, "low_ppm": lo, "area": a, "percent": p, "n_h": n}
+                                  for h, lo, a, p, n in integrals]))
     else:
         print(wrap_text(_to_text(result)))
         print(wrap_text(f"\nline list: {_line_list(result, args.protons)}"))
+        if integrals:
+            rows = [(f"{h:.2f} - {lo:.2f}", f"{a:.4g}", f"{p:.2f}", "-" if n is None else f"{n:.2f}")
+                    for h, lo, a, p, n in integrals]
+            print("\nintegrals:\n" + format_table(("range (ppm)", "area", "% of ranges", "nH"), rows))
     return 0
 
 
@@ -231,3 +243,18 @@ def _write_plot(result: ProcessedSpectrum, path: Path) -> None:
             fig.savefig(tmp, format=path.suffix.lstrip(".").lower() or "png", dpi=120)
     finally:
         plt.close(fig)
+
+
+def integrate_ranges(spectrum, ranges, *, protons: int | None = None) -> list[tuple]:
+    """(high, low, area, % of all ranges, nH or None) of each ppm range of a processed spectrum:
+    the area is the sum of the intensities times the point spacing (the baseline already taken
+    out); with ``protons`` the ranges are scaled to hold that many protons together."""
+    import numpy as np
+
+    ppm = np.asarray(spectrum.ppm, dtype=float)
+    y = np.asarray(spectrum.intensity, dtype=float)
+    step = abs(float(ppm[0] - ppm[-1])) / max(ppm.size - 1, 1)
+    areas = [float(np.sum(y[(ppm <= high) & (ppm >= low)]) * step) for high, low in ranges]
+    total = sum(a for a in areas if a > 0) or 1.0
+    return [(high, low, a, 100.0 * a / total, None if protons is None else protons * a / total)
+            for (high, low), a in zip(ranges, areas, strict=True)]

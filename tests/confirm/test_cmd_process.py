@@ -110,3 +110,37 @@ def test_real_butyl_acrylate_json(run_cli, real_spectra):
     dd = [m for m in data["multiplets"] if abs(m["ppm"] - 6.11) < 0.02]
     assert dd and dd[0]["j_hz"] == pytest.approx([17.3, 10.4], abs=0.3)
     assert any("repetition time" in w for w in data["warnings"])
+
+
+def test_integrate_ranges_gives_areas_shares_and_proton_counts():
+    import numpy as np
+
+    from confirm.commands.process import integrate_ranges
+    from predictors.core import Spectrum
+
+    ppm = np.linspace(10.0, 0.0, 20001)
+    lorentz = lambda x0, area, w=0.002: area * (w / np.pi) / ((ppm - x0) ** 2 + w**2)  # noqa: E731
+    spectrum = Spectrum(ppm=ppm, intensity=lorentz(6.0, 1.0) + lorentz(2.0, 3.0), field_mhz=400.0)
+    (a, b) = integrate_ranges(spectrum, [(6.5, 5.5), (2.5, 1.5)], protons=4)
+    assert a[4] == pytest.approx(1.0, rel=0.02) and b[4] == pytest.approx(3.0, rel=0.02)
+    assert a[3] + b[3] == pytest.approx(100.0)
+
+
+@pytest.mark.parametrize("text", ["6.5", "6.5-6.5", "a-b", "6-5,"])
+def test_bad_ranges_exit_2_with_the_form_expected(run_cli, text):
+    from confirm.commands.demo import sample_files
+
+    result = run_cli("process", str(sample_files()[1]), "--integrate", text)
+    assert result.exit_code == 2 and "--integrate" in result.stderr and "Traceback" not in result.stderr
+
+
+def test_process_integrates_user_ranges(run_cli):
+    import json
+
+    from confirm.commands.demo import sample_files
+
+    out = run_cli("process", str(sample_files()[0]), "--integrate", "6.15-6.05,1.92-1.82", "--json")
+    assert out.exit_code == 0, out.stderr
+    integrals = json.loads(out.stdout)["integrals"]
+    assert [(i["high_ppm"], i["low_ppm"]) for i in integrals] == [(6.15, 6.05), (1.92, 1.82)]
+    assert sum(i["percent"] for i in integrals) == pytest.approx(100.0)

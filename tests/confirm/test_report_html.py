@@ -270,3 +270,22 @@ def test_an_empty_region_shows_flat_noise_not_noise_scaled_to_fill_the_panel(mix
         plt.close(fig2)
     finally:
         plt.close(fig)
+
+
+def test_the_users_regions_replace_the_chosen_panels(mixture, monkeypatch, tmp_path):
+    import confirm.report_html as report_html
+
+    def refuse(*args, **kwargs):
+        raise AssertionError("the panels were chosen although the user gave them")
+
+    monkeypatch.setattr(report_html, "choose_diagnostic_regions", refuse)
+    path = write_html_report(mixture, tmp_path / "r.html", regions=[(1.5, 2.2), (5.6, 5.2)])
+    assert path.read_text(encoding="utf-8").count("<svg") >= 2
+
+
+def test_regions_need_a_report(run_cli):
+    from confirm.commands.demo import sample_files
+
+    result = run_cli("analyze", "--spectrum", str(sample_files()[1]), "--candidates", "C/C=C/c1ccc(OC)cc1",
+                     "--regions", "6.5-6.0")
+    assert result.exit_code == 2 and "--report" in result.stderr
