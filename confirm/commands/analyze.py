@@ -63,6 +63,9 @@ def register(subparsers, parents) -> None:
         "--force-field", action="store_true", help="use --field-mhz even where the file records another field"
     )
     parser.add_argument("--report", metavar="OUT.html", help="also write a self-contained HTML report")
+    parser.add_argument("--line-list", action="store_true",
+                        help="also list the measured multiplets with the candidate sites fitted on them "
+                             "(always in the JSON as line_list)")
     parser.add_argument("--regions", metavar="HIGH-LOW,...",
                         help="the report's diagnostic panels, in ppm (e.g. 6.5-5.5,2.0-1.6), instead of "
                              "those chosen by what tells the candidates apart")
@@ -125,12 +128,19 @@ def _run(args: argparse.Namespace) -> int:
 
         write_html_report(result, args.report, nmr_yield=yields, regions=regions)
     if args.json:
-        payload = result.to_json()
+        from confirm.assigned_lines import assigned_multiplets
+
+        payload = dict(result.to_json(), line_list=assigned_multiplets(result))
         if yields is not None:
             payload["nmr_yield"] = yields_to_json(yields, standard)
         emit_json(payload)
     else:
         print(format_result(result))
+        if args.line_list:
+            from confirm.assigned_lines import assigned_multiplets, format_assigned
+
+            print("\nMeasured multiplets and the sites fitted on them:\n"
+                  + format_assigned(assigned_multiplets(result)))
         if yields is not None:
             from confirm.qnmr import format_yield_rows
 

@@ -28,6 +28,13 @@ def test_analyze_raw_fid_json(run_cli, tmp_path):
     assert data["verdict"]["major"] == ANETHOLES[0]
     assert data["inputs"][0]["sha256"]
     assert report.exists() and report.stat().st_size > 1000
+    # the measured multiplets with the sites fitted on them: the (E) isomer's vinyl dq (J 15.8, 6.6;
+    # sample_spectra/README.md) carries its vinyl H, the 1.56 ppm singlet may be water
+    lines = data["line_list"]
+    dq = next(r for r in lines if abs(r["ppm"] - 6.11) < 0.01)
+    assert dq["multiplicity"] == "dq" and dq["j_hz"][0] == pytest.approx(15.8, abs=0.3)
+    assert any(a["smiles"] == ANETHOLES[0] and a["site"] == "vinyl" for a in dq["assigned"])
+    assert any(r["may_be"] == "water" for r in lines if abs(r["ppm"] - 1.56) < 0.02)
 
 
 def test_analyze_text_output_has_verdict_table_and_caution(run_cli):
