@@ -283,8 +283,15 @@ def _figure_regions(result, curves: CandidateCurves, regions):
         empty.set_axis_off()
     handles, labels = axes[0][0].get_legend_handles_labels()
     if handles:
-        fig.legend(handles, labels, loc="lower center", ncol=min(len(labels), 3), frameon=False, fontsize=7.5)
-    fig.tight_layout(rect=(0, 0.16 if handles else 0, 1, 1))
+        # names are never cut: long ones get fewer legend columns (and the legend more rows)
+        longest = max(len(label) for label in labels)
+        ncol = min(len(labels), 3 if longest <= 40 else 2 if longest <= 62 else 1)
+        rows = -(-len(labels) // ncol)
+        fig.legend(handles, labels, loc="lower center", ncol=ncol, frameon=False, fontsize=7.5)
+        fig.set_size_inches(fig.get_size_inches()[0], 3.6 + 0.16 * rows)
+        fig.tight_layout(rect=(0, min(0.5, 0.045 * rows + 0.02), 1, 1))
+    else:
+        fig.tight_layout()
     return fig
 
 
@@ -334,8 +341,6 @@ def _draw_region(ax, result, curves, high, low):
 
 def _component_legend(comp) -> str:
     name = _label(comp.candidate)
-    if len(name) > 38:
-        name = name[:35] + "..."
     if comp.detected:
         return f"{name}: {100 * comp.mole_fraction:.1f} ± {100 * comp.mole_fraction_sd:.1f} %"
     return f"{name}: not detected (< {100 * (comp.upper_limit or comp.detection_limit):.1f} %)"

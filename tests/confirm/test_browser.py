@@ -152,3 +152,28 @@ def test_a_five_candidate_report_prints_on_at_most_four_a4_pages(tmp_path):
     assert match, proc.stdout[-500:]
     attrs = dict(re.findall(r'([\w-]+)="([^"]*)"', match.group(1)))
     assert json.loads(html.unescape(attrs["data-text-problems"])) == []
+
+
+@pytest.mark.slow
+def test_long_compound_names_are_shown_whole_and_stay_inside_the_figure(tmp_path):
+    from dataclasses import replace
+
+    names = ["(E)-pent-2-ene from the second crystallisation, lot 17",
+             "(Z)-pent-2-ene, the isomer we do not want here", "pent-1-ene",
+             "2-bromopentane (starting material) as received"]
+    result = pentene_mixture(0.80, 0.15, 0.05, 0.0)
+    candidates = tuple(replace(c, label=n, name=n) for c, n in zip(result.candidates, names, strict=True))
+    components = tuple(replace(c, candidate=k)
+                       for c, k in zip(result.fit.components, candidates, strict=True))
+    result = replace(result, candidates=candidates, fit=replace(result.fit, components=components))
+    report = write_html_report(result, tmp_path / "names.html")
+    probed = tmp_path / "probed.html"
+    probed.write_text(report.read_text(encoding="utf-8").replace("<head>", "<head>" + _PROBE_HEAD, 1)
+                      .replace("</body>", _PROBE_LOAD + "</body>"), encoding="utf-8")
+    proc = _chromium(tmp_path / "profile", "--virtual-time-budget=5000", "--dump-dom", probed.as_uri())
+    match = re.search(r'<div id="probe"([^>]*)>', proc.stdout)
+    assert match, proc.stdout[-500:]
+    attrs = dict(re.findall(r'([\w-]+)="([^"]*)"', match.group(1)))
+    assert json.loads(html.unescape(attrs["data-text-problems"])) == []
+    text = report.read_text(encoding="utf-8")
+    assert all(name in text for name in names) and "..." not in text
