@@ -90,8 +90,14 @@ def build_model(system: SpinSystem, options) -> CandidateModel:
     n_h = np.array([sum(system.sites[i].n_h for i in g) for g in groups])
     j0 = j_full[np.ix_(first, first)].copy()
     units = _model_units(system, groups)
-    if units is None:
-        _fold_aa_xx(j0, sites)
+    split = set() if units is None else {g for g in range(len(groups)) if np.sum(units[0] == g) > 1}
+    _fold_aa_xx(j0, sites, skip=split)
+    if units is not None:  # the composite spins keep their sites' (folded) couplings
+        single = {g: int(np.flatnonzero(units[0] == g)[0]) for g in range(len(groups)) if g not in split}
+        for a, ua in single.items():
+            for b, ub in single.items():
+                if a != b:
+                    units[2][ua, ub] = j0[a, b]
     j_sd = np.full(j0.shape, _DEFAULT_J_SD_HZ) if j_sd_full is None else j_sd_full[np.ix_(first, first)]
     pairs, lo, hi, prior = [], [], [], []
     shift_first = np.array([s.shift_ppm for s in sites])
@@ -258,14 +264,17 @@ def _one_bond_couplings(system: SpinSystem, sites) -> np.ndarray:
     return np.array(out)
 
 
-def _fold_aa_xx(j: np.ndarray, sites) -> None:
+def _fold_aa_xx(j: np.ndarray, sites, *, skip=frozenset()) -> None:
     """Two 2H sites that are not magnetically equivalent (AA'XX', e.g. a para-disubstituted
     ring) are simulated as A2X2 with the splitting N = J_AX + J_AX' that the AA'XX' doublets show;
-    the spin system's mean site coupling is (J_AX + J_AX') / 2, so it is doubled here."""
+    the spin system's mean site coupling is (J_AX + J_AX') / 2, so it is doubled here. Sites in
+    ``skip`` are simulated proton by proton and keep their mean couplings."""
     for a, sa in enumerate(sites):
         for b, sb in enumerate(sites):
             if (
                 a != b
+                and a not in skip
+                and b not in skip
                 and sa.n_h == 2
                 and sb.n_h == 2
                 and not sa.magnetically_equivalent

@@ -64,3 +64,18 @@ def test_coupling_derivatives_of_split_sites_match_differences(cinnamate):
         numeric = (moved - ppm) / step
         # lines are in the same order for a tiny step; compare the strong ones (ppm per Hz)
         assert np.allclose(dppm[strong, k], numeric[strong], atol=2e-5), model.j_pairs[k]
+
+
+def test_composite_ring_ch2_pairs_beside_a_split_ring_keep_their_folded_couplings():
+    # phenylcyclohexane: the aryl sites are split, the cyclohexane CH2 pairs stay composite and keep
+    # the AA'XX' fold of their couplings, in the site matrix and in the spins' matrix alike
+    system = predict_spin_system("c1ccc(cc1)C1CCCCC1")
+    model = build_model(system, FitOptions())
+    assert model.unit_owner is not None
+    spins = unit_couplings(model, model.j_values0)
+    single = {g: int(np.flatnonzero(model.unit_owner == g)[0]) for g in range(model.n_sites)
+              if np.sum(model.unit_owner == g) == 1}
+    for a, ua in single.items():
+        for b, ub in single.items():
+            if a != b:
+                assert spins[ua, ub] == pytest.approx(model.j0[a, b])
