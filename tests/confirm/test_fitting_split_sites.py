@@ -75,7 +75,14 @@ def test_composite_ring_ch2_pairs_beside_a_split_ring_keep_their_folded_coupling
     spins = unit_couplings(model, model.j_values0)
     single = {g: int(np.flatnonzero(model.unit_owner == g)[0]) for g in range(model.n_sites)
               if np.sum(model.unit_owner == g) == 1}
+    folded = 0
     for a, ua in single.items():
         for b, ub in single.items():
             if a != b:
                 assert spins[ua, ub] == pytest.approx(model.j0[a, b])
+                sa, sb = system.sites[model.groups[a][0]], system.sites[model.groups[b][0]]
+                if sa.n_h == sb.n_h == 2 and not (sa.magnetically_equivalent or sb.magnetically_equivalent):
+                    j_site = system.j_hz[model.groups[a][0], model.groups[b][0]]
+                    assert model.j0[a, b] == pytest.approx(2 * j_site)
+                    folded += abs(j_site) > 0
+    assert folded  # the molecule has such pairs
