@@ -58,6 +58,8 @@ def register(subparsers, parents) -> None:
                         help="how to reference the axis (default: TMS, else solvent, else as acquired)")
     parser.add_argument("--baseline", choices=("arpls", "asls", "iarpls", "none"), default="arpls",
                         help="baseline method (default arpls)")
+    parser.add_argument("--line-list", action="store_true",
+                        help="print only the journal-style line list (to paste into an experimental section)")
     parser.add_argument("--integrate", metavar="HIGH-LOW,...",
                         help="integrate these ppm ranges (e.g. 6.5-5.5,2.0-1.6): each as %% of their sum, "
                              "and as nH with --protons N (the ranges then hold N protons together)")
@@ -104,6 +106,8 @@ def _run(args) -> int:
         emit_json(dict(_to_json(result), line_list=_line_list(result, args.protons),
                        integrals=[{"high_ppm": h, "low_ppm": lo, "area": a, "percent": p, "n_h": n}
                                   for h, lo, a, p, n in integrals]))
+    elif args.line_list:
+        print(_line_list(result, args.protons))  # one line, as a paper wants it
     else:
         print(wrap_text(_to_text(result)))
         print(wrap_text(f"\nline list: {_line_list(result, args.protons)}"))

@@ -144,3 +144,12 @@ def test_process_integrates_user_ranges(run_cli):
     integrals = json.loads(out.stdout)["integrals"]
     assert [(i["high_ppm"], i["low_ppm"]) for i in integrals] == [(6.15, 6.05), (1.92, 1.82)]
     assert sum(i["percent"] for i in integrals) == pytest.approx(100.0)
+
+
+def test_line_list_alone_is_one_journal_line(run_cli):
+    from confirm.commands.demo import sample_files
+
+    out = run_cli("process", str(sample_files()[0]), "--line-list", "--protons", "12")
+    assert out.exit_code == 0, out.stderr
+    lines = out.stdout.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith("1H NMR (400 MHz, CDCl3) δ") and lines[0].endswith(".")
