@@ -52,7 +52,7 @@ def assigned_multiplets(result, *, threshold_snr: float = 8.0) -> list[dict]:
 
 def format_assigned(records: list[dict]) -> str:
     """The records as a terminal table (ppm, multiplicity, J, %, what is on it)."""
-    from confirm.commands._common import format_table
+    from confirm.commands._common import TERMINAL_WIDTH, format_table
 
     rows = []
     for r in records:
@@ -61,4 +61,4 @@ def format_assigned(records: list[dict]) -> str:
             what = f"may be {r['may_be']}" if r["may_be"] else "unassigned"
         rows.append((f"{r['ppm']:.3f}", r["multiplicity"], ", ".join(f"{j:.1f}" for j in r["j_hz"]) or "-",
                      f"{r['percent']:.2f}", what))
-    return format_table(("ppm", "mult", "J (Hz)", "%", "assigned"), rows, width=100)
+    return format_table(("ppm", "mult", "J (Hz)", "%", "assigned"), rows, width=TERMINAL_WIDTH)

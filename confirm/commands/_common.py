@@ -12,7 +12,7 @@ import numpy as np
 
 __all__ = ["emit_json", "format_table", "to_jsonable", "add_budget_argument", "budget_from_args",
            "existing_paths", "data_inputs", "add_solvent_arguments", "refuse_plain_solvent", "wrap_text",
-           "parse_regions"]
+           "parse_regions", "TERMINAL_WIDTH"]
 
 #: Files that stand for the FID folder holding them (``read_measurement`` reads the folder).
 _FOLDER_FILES = ("fid", "ser", "acqus", "acqu", "procpar")

@@ -5,6 +5,7 @@ from __future__ import annotations
 import argparse
 
 from confirm.commands._common import (
+    TERMINAL_WIDTH,
     add_budget_argument,
     add_solvent_arguments,
     budget_from_args,
@@ -14,6 +15,7 @@ from confirm.commands._common import (
     format_table,
     parse_regions,
     refuse_plain_solvent,
+    wrap_text,
 )
 
 __all__ = ["register", "format_result"]
@@ -165,15 +167,10 @@ def ratio_line(r) -> str:
 
 def format_result(result) -> str:
     """Readable terminal summary of an AnalysisResult: verdict first, then the details."""
-    import textwrap
-
     from confirm.analysis import CAUTION
 
-    def wrapped(text: str, indent: str = "") -> list[str]:  # readable at 100 columns
-        return textwrap.wrap(text, _WIDTH, initial_indent=indent, subsequent_indent=indent + "    ") or [""]
-
     v = result.verdict
-    lines = [*wrapped(v.summary), ""]
+    lines = [v.summary, ""]
     rows = []
     for c in result.fit.components:
         rows.append(
@@ -186,18 +183,15 @@ def format_result(result) -> str:
                 "yes" if c.detected else "no",
             ]
         )
-    lines.append(format_table(["component", "pathway", "mol %", "LOD %", "detected"], rows, width=_WIDTH))
+    lines.append(format_table(["component", "pathway", "mol %", "LOD %", "detected"], rows,
+                              width=TERMINAL_WIDTH))
     if v.ratios:
         lines += ["", "Ratios:"]
         for r in v.ratios:
-            lines += wrapped(ratio_line(r).strip(), "  ")
+            lines.append(ratio_line(r))
     for title, items in (("Evidence:", v.evidence), ("Not decided:", v.unresolved),
                          ("Would settle it:", v.next_steps), ("Warnings:", result.warnings)):
         if items:
-            lines += ["", title] + [line for item in items for line in wrapped(item, "  ")]
-    lines += ["", *wrapped(CAUTION)]
-    return "\n".join(lines)
-
-
-#: Widest line of the terminal summary.
-_WIDTH = 100
+            lines += ["", title] + [f"  {item}" for item in items]
+    lines += ["", CAUTION]
+    return wrap_text("\n".join(lines))  # long lines wrap: readable at 100 columns

@@ -11,7 +11,7 @@ import argparse
 import sys
 from pathlib import Path
 
-from confirm.commands._common import add_budget_argument, data_inputs, emit_json, format_table
+from confirm.commands._common import TERMINAL_WIDTH, add_budget_argument, data_inputs, emit_json, format_table
 from confirm.qc import CAUTION, read_spec
 
 
@@ -85,7 +85,7 @@ def _run(args: argparse.Namespace) -> int:
                               "sha256": o.sha256} for o in summary.outcomes]})
         return code
     rows = [(o.item_id, o.status, o.qc_status or "-", o.error or o.verdict) for o in summary.outcomes]
-    print(format_table(("item", "status", "QC", "verdict or error"), rows, width=100))
+    print(format_table(("item", "status", "QC", "verdict or error"), rows, width=TERMINAL_WIDTH))
     counts = summary.counts
     print(f"\n{len(summary.outcomes)} spectra: {counts['done']} analysed, {counts['skipped']} skipped "
           f"(finished before), {counts['error']} failed. Summary: {summary.summary_csv}; "

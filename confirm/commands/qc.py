@@ -9,11 +9,13 @@ import argparse
 from pathlib import Path
 
 from confirm.commands._common import (
+    TERMINAL_WIDTH,
     add_budget_argument,
     budget_from_args,
     data_inputs,
     emit_json,
     format_table,
+    wrap_text,
 )
 from confirm.qc import (
     CAUTION,
@@ -110,23 +112,19 @@ def _write_template(path: Path) -> int:
 def _format_text(qc, result) -> str:
     """The QC decision for the terminal, within 100 columns: the checks as a table (the limit
     wrapping in the last column), then why each check came out as it did."""
-    import textwrap
-
-    def wrapped(text: str, indent: str = "") -> list[str]:
-        return textwrap.wrap(text, 100, initial_indent=indent, subsequent_indent=indent + "    ") or [""]
-
     rows = [(c.name, c.status, c.measured_text(),
              f"{c.interval[0]:.1f} - {c.interval[1]:.1f}" if c.interval else "-", c.limit_text)
             for c in qc.checks]
-    table = format_table(("check", "result", "measured", "95 % interval", "limit"), rows, width=100)
+    table = format_table(("check", "result", "measured", "95 % interval", "limit"), rows,
+                         width=TERMINAL_WIDTH)
     title = f"QC result: {qc.status}" + (f" ({qc.spec.name})" if qc.spec.name else "")
     sign = qc.signoff
     who = ", ".join(f"{k} {v}" for k, v in (("lot", sign.lot), ("analyst", sign.analyst),
                                             ("reviewer", sign.reviewer)) if v)
-    lines = [*wrapped(title)] + ([who] if who else []) + [*wrapped(qc.summary), "", table, "", "Why:"]
-    lines += [line for c in qc.checks for line in wrapped(f"{c.name}: {c.reason}", "  ")]
+    lines = [title] + ([who] if who else []) + [qc.summary, "", table, "", "Why:"]
+    lines += [f"  {c.name}: {c.reason}" for c in qc.checks]
     lines.append("")
     if sign.comment:
-        lines += [*wrapped(f"Comment: {sign.comment}"), ""]
-    return "\n".join(lines + [*wrapped(f"Verdict: {result.verdict.summary}"), "",
-                              *wrapped(f"Caution: {qc.caution}")])
+        lines += [f"Comment: {sign.comment}", ""]
+    lines += [f"Verdict: {result.verdict.summary}", "", f"Caution: {qc.caution}"]
+    return wrap_text("\n".join(lines))  # long lines wrap: readable at 100 columns

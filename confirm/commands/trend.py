@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from confirm.commands._common import emit_json, format_table
+from confirm.commands._common import TERMINAL_WIDTH, emit_json, format_table
 
 __all__ = ["register"]
 
@@ -55,10 +55,10 @@ def _run(args) -> int:
           f"{counts['INCONCLUSIVE']} INCONCLUSIVE")
     table = format_table(headers, rows)
     legend = []
-    if max(len(line) for line in table.splitlines()) > 100:  # checks by number, named below
+    if max(len(line) for line in table.splitlines()) > TERMINAL_WIDTH:  # checks by number, named below
         short = headers[:3] + [f"#{k}" for k in range(1, len(headers) - 2)]
         legend = [f"#{k}: {name}" for k, name in enumerate(headers[3:], start=1)]
-        table = format_table(short, rows, width=100)
+        table = format_table(short, rows, width=TERMINAL_WIDTH)
     print(table)
     for line in legend:
         print(line)
