@@ -147,10 +147,6 @@ class SignOff:
     def to_json(self) -> dict:
         return {"lot": self.lot, "analyst": self.analyst, "reviewer": self.reviewer, "comment": self.comment}
 
-    @property
-    def empty(self) -> bool:
-        return all(getattr(self, k) is None for k in ("lot", "analyst", "reviewer", "comment"))
-
 
 @dataclass(frozen=True)
 class QcSpec:

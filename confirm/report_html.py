@@ -275,8 +275,9 @@ def _figure_regions(result, curves: CandidateCurves, regions):
 
     n = max(len(regions), 1)
     fig, axes = plt.subplots(1, n, figsize=(min(3.2 * n, 10.0), 4.4), squeeze=False)
+    noise_sd = _noise_sd(result)  # one estimate for every panel
     for ax, (high, low) in zip(axes[0], regions, strict=False):
-        _draw_region(ax, result, curves, high, low)
+        _draw_region(ax, result, curves, high, low, noise_sd=noise_sd)
     if not regions:
         empty = axes[0][0]
         empty.text(0.5, 0.5, "no diagnostic region", ha="center", va="center", transform=empty.transAxes)
@@ -308,10 +309,10 @@ def _noise_sd(result) -> float:
     return float(estimate_noise_sd(np.asarray(result.spectrum.intensity, dtype=float)))
 
 
-def _draw_region(ax, result, curves, high, low):
+def _draw_region(ax, result, curves, high, low, *, noise_sd: float | None = None):
     fit = result.fit
     inside = (fit.ppm <= high) & (fit.ppm >= low)
-    floor = _MIN_PANEL_NOISE_SD * _noise_sd(result)
+    floor = _MIN_PANEL_NOISE_SD * (_noise_sd(result) if noise_sd is None else noise_sd)
     top = max(float(np.max(fit.model[inside])) if inside.any() else 1.0, floor)
     measured_top = top
     if result.spectrum is not None:
