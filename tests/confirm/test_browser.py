@@ -81,8 +81,8 @@ def report(tmp_path_factory):
     return write_html_report(result, folder / "report.html", qc=evaluate_qc(result, spec))
 
 
-@pytest.mark.slow
-def test_report_renders_without_errors_and_shows_the_verdict(report, tmp_path):
+def _probe(report: Path, tmp_path: Path) -> tuple[dict, subprocess.CompletedProcess]:
+    """Open ``report`` with the probes in headless Chromium: the probe's attributes and the run."""
     probed = tmp_path / "probed.html"
     text = report.read_text(encoding="utf-8")
     text = text.replace("<head>", "<head>" + _PROBE_HEAD, 1).replace("</body>", _PROBE_LOAD + "</body>")
@@ -91,7 +91,12 @@ def test_report_renders_without_errors_and_shows_the_verdict(report, tmp_path):
     assert proc.returncode == 0, proc.stderr[-2000:]
     match = re.search(r'<div id="probe"([^>]*)>', proc.stdout)
     assert match, "the load probe did not run: " + proc.stdout[-500:]
-    attrs = dict(re.findall(r'([\w-]+)="([^"]*)"', match.group(1)))
+    return dict(re.findall(r'([\w-]+)="([^"]*)"', match.group(1))), proc
+
+
+@pytest.mark.slow
+def test_report_renders_without_errors_and_shows_the_verdict(report, tmp_path):
+    attrs, proc = _probe(report, tmp_path)
     assert json.loads(html.unescape(attrs["data-problems"])) == []
     assert _console_errors(proc.stderr) == []
     assert VERDICT in html.unescape(attrs["data-verdict"])
@@ -144,13 +149,7 @@ def test_a_five_candidate_report_prints_on_at_most_four_a4_pages(tmp_path):
     box = re.search(rb"/MediaBox\s*\[\s*0 0 ([\d.]+) ([\d.]+)\s*\]", data)
     assert box and abs(float(box.group(1)) - 595) < 2 and abs(float(box.group(2)) - 842) < 2  # A4 portrait
     # and on screen no plot text runs out of its figure or over another (five legend entries)
-    probed = tmp_path / "probed.html"
-    probed.write_text(report.read_text(encoding="utf-8").replace("<head>", "<head>" + _PROBE_HEAD, 1)
-                      .replace("</body>", _PROBE_LOAD + "</body>"), encoding="utf-8")
-    proc = _chromium(tmp_path / "profile", "--virtual-time-budget=5000", "--dump-dom", probed.as_uri())
-    match = re.search(r'<div id="probe"([^>]*)>', proc.stdout)
-    assert match, proc.stdout[-500:]
-    attrs = dict(re.findall(r'([\w-]+)="([^"]*)"', match.group(1)))
+    attrs, _ = _probe(report, tmp_path)
     assert json.loads(html.unescape(attrs["data-text-problems"])) == []
 
 
@@ -167,13 +166,7 @@ def test_long_compound_names_are_shown_whole_and_stay_inside_the_figure(tmp_path
                        for c, k in zip(result.fit.components, candidates, strict=True))
     result = replace(result, candidates=candidates, fit=replace(result.fit, components=components))
     report = write_html_report(result, tmp_path / "names.html")
-    probed = tmp_path / "probed.html"
-    probed.write_text(report.read_text(encoding="utf-8").replace("<head>", "<head>" + _PROBE_HEAD, 1)
-                      .replace("</body>", _PROBE_LOAD + "</body>"), encoding="utf-8")
-    proc = _chromium(tmp_path / "profile", "--virtual-time-budget=5000", "--dump-dom", probed.as_uri())
-    match = re.search(r'<div id="probe"([^>]*)>', proc.stdout)
-    assert match, proc.stdout[-500:]
-    attrs = dict(re.findall(r'([\w-]+)="([^"]*)"', match.group(1)))
+    attrs, _ = _probe(report, tmp_path)
     assert json.loads(html.unescape(attrs["data-text-problems"])) == []
     text = report.read_text(encoding="utf-8")
     assert all(name in text for name in names) and "..." not in text
