@@ -669,12 +669,16 @@ def _failed(task: _Task, error: str) -> ItemOutcome:
 # --- summary ---------------------------------------------------------------------------------------
 
 
-def _summary_csv(outcomes: Sequence[ItemOutcome], out: Path | None = None) -> str:
+def _finished_results(outcomes: Sequence[ItemOutcome], out: Path) -> dict[str, dict]:
+    """Each finished item's ``result.json``, read once for all the summary tables ({} where none)."""
+    return {o.item_id: (_read_json_object(out / o.item_id / "result.json") or {})
+            if o.status in ("done", "skipped") else {} for o in outcomes}
+
+
+def _summary_csv(outcomes: Sequence[ItemOutcome], results: dict[str, dict]) -> str:
     """One row per item; after the fixed columns, one column per ratio (``ratio: NAME``, as printed)
-    and one per candidate (``mol %: NAME``: the amount, or ``< bound`` when not detected), read back
-    from each finished item's ``result.json`` (empty where an item has no such ratio or candidate)."""
-    results = {o.item_id: (_read_json_object(out / o.item_id / "result.json") or {})
-               if out is not None and o.status in ("done", "skipped") else {} for o in outcomes}
+    and one per candidate (``mol %: NAME``: the amount, or ``< bound`` when not detected), from each
+    finished item's ``result.json`` (empty where an item has no such ratio or candidate)."""
     ratio_names, component_names = [], []
     cells: dict[str, dict[str, str]] = {}
     for o in outcomes:
@@ -707,7 +711,7 @@ _COMPONENT_COLUMNS = ("id", "row", "smiles", "name", "label", "detected", "mole_
                       "upper_limit_percent", "ratio", "ratio_decided")
 
 
-def _components_csv(outcomes: Sequence[ItemOutcome], out: Path) -> str:
+def _components_csv(outcomes: Sequence[ItemOutcome], results: dict[str, dict]) -> str:
     """Per finished item, each candidate's amount (mol %, sd; an upper limit when not detected) and
     each ratio, read back from the item's ``result.json`` (the numbers a process chemist tabulates)."""
     def pct(value) -> str:
@@ -717,10 +721,8 @@ def _components_csv(outcomes: Sequence[ItemOutcome], out: Path) -> str:
     writer = csv.writer(buffer, lineterminator="\n")
     writer.writerow(_COMPONENT_COLUMNS)
     for o in outcomes:
-        if o.status not in ("done", "skipped"):
-            continue
-        result = _read_json_object(out / o.item_id / "result.json")
-        if result is None:
+        result = results.get(o.item_id)
+        if not result:
             continue
         for comp in result.get("components", []):
             found = bool(comp.get("detected"))
@@ -775,8 +777,9 @@ def write_summary(outcomes: Sequence[ItemOutcome], out_dir: str | Path) -> Batch
     interrupted = sum(1 for o in outcomes if o.status == "interrupted")
     if interrupted:
         counts["interrupted"] = interrupted
-    write_text_atomic(out / "summary.csv", _summary_csv(outcomes, out))
-    write_text_atomic(out / "components.csv", _components_csv(outcomes, out))
+    results = _finished_results(outcomes, out)
+    write_text_atomic(out / "summary.csv", _summary_csv(outcomes, results))
+    write_text_atomic(out / "components.csv", _components_csv(outcomes, results))
     write_text_atomic(out / "index.html", _index_html(outcomes, counts))
     return BatchSummary(outcomes=tuple(outcomes), summary_csv=out / "summary.csv",
                         index_html=out / "index.html", counts=counts)
