@@ -102,15 +102,16 @@ def _run(args) -> int:
     if args.plot:
         _write_plot(result, Path(args.plot))
     integrals = integrate_ranges(result.spectrum, ranges, protons=args.protons) if ranges else []
+    names = _line_names(result)
     if args.json:
-        emit_json(dict(_to_json(result), line_list=_line_list(result, args.protons),
+        emit_json(dict(_to_json(result, names), line_list=_line_list(result, args.protons, names),
                        integrals=[{"high_ppm": h, "low_ppm": lo, "area": a, "percent": p, "n_h": n}
                                   for h, lo, a, p, n in integrals]))
     elif args.line_list:
-        print(_line_list(result, args.protons))  # one line, as a paper wants it
+        print(_line_list(result, args.protons, names))  # one line, as a paper wants it
     else:
-        print(wrap_text(_to_text(result)))
-        print(wrap_text(f"\nline list: {_line_list(result, args.protons)}"))
+        print(wrap_text(_to_text(result, names)))
+        print(wrap_text(f"\nline list: {_line_list(result, args.protons, names)}"))
         if integrals:
             rows = [(f"{h:.2f} - {lo:.2f}", f"{a:.4g}", f"{p:.2f}", "-" if n is None else f"{n:.2f}")
                     for h, lo, a, p, n in integrals]
@@ -118,24 +119,29 @@ def _run(args) -> int:
     return 0
 
 
-def _line_list(result: ProcessedSpectrum, protons) -> str:
-    from confirm.line_list import journal_line
+def _line_names(result: ProcessedSpectrum) -> list[str | None]:
+    """What each multiplet may be (a known solvent, water, TMS or impurity line), else None."""
     from confirm.solvents import name_line
+
+    solvent = result.spectrum.solvent
+    return [name_line(m.ppm, solvent, multiplicity=m.multiplicity) for m in result.multiplets]
+
+
+def _line_list(result: ProcessedSpectrum, protons, names: list[str | None]) -> str:
+    from confirm.line_list import journal_line
 
     spectrum = result.spectrum
     exclude = [0.0] if "TMS" in str(result.reference) else []
     # the solvent's own lines are no part of the compound's line list (impurities stay: "may be")
-    for m in result.multiplets:
-        name = name_line(m.ppm, spectrum.solvent, multiplicity=m.multiplicity) or ""
-        if name.startswith("residual") or name in ("water", "TMS"):
+    for m, name in zip(result.multiplets, names, strict=True):
+        if name and (name.startswith("residual") or name in ("water", "TMS")):
             exclude.append(m.ppm)
     return journal_line(result.multiplets, field_mhz=spectrum.field_mhz, solvent=spectrum.solvent,
                         protons=protons, exclude_ppm=exclude)
 
 
-def _to_json(result: ProcessedSpectrum) -> dict:
+def _to_json(result: ProcessedSpectrum, names: list[str | None]) -> dict:
     from confirm.processing import SNR_DEFINITION
-    from confirm.solvents import name_line
 
     spectrum = result.spectrum
     return {
@@ -158,22 +164,19 @@ def _to_json(result: ProcessedSpectrum) -> dict:
         "multiplets": [{"ppm": m.ppm, "integral": m.integral, "j_hz": list(m.j_hz),
                         "multiplicity": m.multiplicity, "n_lines": m.n_lines,
                         "range_ppm": [m.start_ppm, m.stop_ppm],
-                        "may_be": name_line(m.ppm, spectrum.solvent, multiplicity=m.multiplicity)}
-                       for m in result.multiplets],
+                        "may_be": name}
+                       for m, name in zip(result.multiplets, names, strict=True)],
         "warnings": list(result.warnings),
     }
 
 
-def _to_text(result: ProcessedSpectrum) -> str:
+def _to_text(result: ProcessedSpectrum, names: list[str | None]) -> str:
     spectrum = result.spectrum
     meta = spectrum.metadata
-    from confirm.solvents import name_line
-
     total = sum(max(m.integral, 0.0) for m in result.multiplets) or 1.0
     rows = [(f"{m.ppm:.3f}", m.multiplicity, ", ".join(f"{j:.1f}" for j in m.j_hz) or "-", m.n_lines,
-             f"{100.0 * m.integral / total:.2f}",
-             name_line(m.ppm, spectrum.solvent, multiplicity=m.multiplicity) or "")
-            for m in result.multiplets]
+             f"{100.0 * m.integral / total:.2f}", name or "")
+            for m, name in zip(result.multiplets, names, strict=True)]
     lines = [
         f"source:    {meta.get('source_path')} ({meta.get('format')})",
         f"field:     {spectrum.field_mhz:.2f} MHz {spectrum.nucleus}, "
