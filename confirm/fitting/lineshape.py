@@ -6,9 +6,7 @@ grid bin holds the mean of several samples; the mean is drawn as the value at th
 plus ``curvature * f''`` (see :class:`confirm.fitting.grid.Grid`), so binned data and model agree
 to fourth order in the sample spacing. Each line is drawn over +-40 half-widths (its tails
 beyond hold ~1.6 % of its area), smaller lines over +-20 or +-10 (:func:`line_reach`), 13C
-satellites over +-10, and then brought smoothly to zero over a quarter of that again (:func:`_taper`),
-so that the drawn model is a smooth function of every line's position and width. Lines that nearly
-coincide are drawn as one (``MERGE_SHARE``).
+satellites over +-10. Lines that nearly coincide are drawn as one (``MERGE_SHARE``).
 """
 
 from __future__ import annotations
@@ -18,7 +16,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import sparse
 
-__all__ = ["Drawn", "draw_lines", "line_reach", "merge_cells"]
+__all__ = ["Drawn", "draw_lines", "line_reach"]
 
 _FAR_HALF_WIDTHS = 40
 #: Line-parameter pairs whose motion (times the line's size) is below this share of the
@@ -57,8 +55,7 @@ class Drawn:
 
 def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float = 0.0,
                near=None, derivs: bool = False, width_group=None, n_width_groups: int = 0,
-               weight=None, reach=None, pos_weights=None, deriv_mask=None, value_mask=None,
-               merge_cells=None) -> Drawn:
+               weight=None, reach=None, pos_weights=None, deriv_mask=None, value_mask=None) -> Drawn:
     """Draw lines on a grid.
 
     Parameters
@@ -95,11 +92,6 @@ def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float
         The lines drawn at all (default all); the others are left out as if their area were 0.
         Lines of one group must share the flag. Either mask leaves every drawn value exactly as
         without it: how far a line is drawn depends on all the lines given, not on the masks.
-    merge_cells : ndarray of int, optional, shape (n_lines,)
-        Cell of each line on the merging lattice (default: from ``ppm`` and ``fwhm_ppm``, see
-        :data:`MERGE_SHARE`). A caller that draws the same lines again and again at slightly
-        different positions passes the cells of their first positions, so that the lines drawn as
-        one stay the same: a line crossing a cell boundary would change the model by a step.
     """
     ppm = np.asarray(ppm, dtype=float)
     inten = np.asarray(inten, dtype=float)
@@ -117,13 +109,13 @@ def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float
     dmask = np.ones(ppm.size, bool) if deriv_mask is None else np.asarray(deriv_mask, bool)
     vmask = np.ones(ppm.size, bool) if value_mask is None else np.asarray(value_mask, bool)
     ppm, inten, group, fwhm, near, reach, wgroup, wt, pos_weights, spread, masks = _merge_close(
-        ppm, inten, group, fwhm, near, reach, wgroup, wt, pos_weights, np.stack([dmask, vmask]), merge_cells)
+        ppm, inten, group, fwhm, near, reach, wgroup, wt, pos_weights, np.stack([dmask, vmask]))
     dmask, vmask = masks
     if sparse.issparse(pos_weights):
         pos_weights = pos_weights.toarray()
     curvature = grid.curvature_ppm2 + spread[:, None]
     gamma_max = float(fwhm.max()) / 2
-    span = int(np.ceil(_TAPER_END * float(reach.max()) * gamma_max / grid.dx_ppm)) + 1
+    span = int(np.ceil(float(reach.max()) * gamma_max / grid.dx_ppm)) + 1
     step = grid.dx_ppm
     x = np.concatenate([grid.x[0] - step * np.arange(span, 0, -1), grid.x,
                         grid.x[-1] + step * np.arange(1, span + 2)])
@@ -136,14 +128,13 @@ def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float
     for half_widths, wclass in sorted(set(zip(reach.tolist(), width_class.tolist(), strict=True))):
         in_class = (reach == half_widths) & (width_class == wclass)
         widest = float(fwhm[in_class].max())
-        # the table covers the taper too (see _taper)
-        points = int(np.ceil(_TAPER_END * float(half_widths) * widest / 2 / grid.dx_ppm)) + 1
+        points = int(np.ceil(float(half_widths) * widest / 2 / grid.dx_ppm)) + 1
         for with_derivs in ((True, False) if derivs else (False,)):
             sel = in_class & vmask & (dmask == with_derivs) if derivs else in_class & vmask
             if not sel.any():
                 continue
             table = _line_table(x, centre[sel], ppm[sel], inten[sel], fwhm[sel], gauss, points,
-                                curvature[sel], with_derivs, wt[sel], widest, float(half_widths))
+                                curvature[sel], with_derivs, wt[sel], widest)
             table.update(group=group[sel], wgroup=wgroup[sel], shape=np.zeros(int(sel.sum()), int),
                          lines=np.flatnonzero(sel))
             parts.append(table)
@@ -196,16 +187,10 @@ def draw_lines(grid, ppm, inten, group, n_groups: int, fwhm_ppm, *, gauss: float
 MERGE_SHARE = 0.05
 
 
-def merge_cells(ppm, fwhm) -> np.ndarray:
-    """Cell of each line on the merging lattice (``MERGE_SHARE`` of its width)."""
-    return np.floor(np.asarray(ppm, float) / (MERGE_SHARE * np.asarray(fwhm, float))).astype(np.int64)
-
-
-def _merge_close(ppm, inten, group, fwhm, near, reach, wgroup, wt, pos_weights, masks, cells=None):
-    """Lines merged on a lattice of ``MERGE_SHARE`` widths (same group, width, reach, kind and sign;
-    ``cells``: each line's cell, else from its position); returns the merged arrays and each merged
-    line's half second moment (ppm^2)."""
-    cell = merge_cells(ppm, fwhm) if cells is None else np.asarray(cells, np.int64)
+def _merge_close(ppm, inten, group, fwhm, near, reach, wgroup, wt, pos_weights, masks):
+    """Lines merged on a lattice of ``MERGE_SHARE`` widths (same group, width, reach, kind and sign);
+    returns the merged arrays and each merged line's half second moment (ppm^2)."""
+    cell = np.floor(ppm / (MERGE_SHARE * fwhm)).astype(np.int64)
     if fwhm.min() == fwhm.max():
         width_id = np.zeros(ppm.size, int)
     else:
@@ -271,30 +256,10 @@ def _empty(n_groups: int, n: int, n_width_groups: int, derivs: bool) -> Drawn:
     return Drawn(zero, zero.copy(), np.zeros((max(1, n_width_groups), n)), np.zeros(n))
 
 
-#: A line's Lorentzian part is drawn in full out to its reach and then brought to zero smoothly by
-#: this factor of it (see :func:`_taper`).
-_TAPER_END = 1.25
-
-
-def _taper(u: np.ndarray, limit: np.ndarray) -> np.ndarray:
-    """1 within ``limit`` of the line's centre, falling smoothly (cubic, zero slope at both ends)
-    to 0 at ``_TAPER_END * limit``.
-
-    A line cut off at a fixed count of grid points around the grid point next to it gains or loses a
-    point of its tail whenever it moves across a grid point (and whenever its width changes the
-    count): the model then jumps by the tail's value, a few tenths of the noise for a strong line,
-    and a refinement steered by derivatives wanders on those steps instead of converging, so that
-    the rounding of the data decided where it stopped. The tapered line is a smooth function of
-    its position and width."""
-    z = np.clip((np.abs(u) / limit - 1.0) / (_TAPER_END - 1.0), 0.0, 1.0)
-    return 1.0 - z * z * (3.0 - 2.0 * z)
-
-
 def _line_table(x, centre, ppm, inten, fwhm, gauss: float, reach: int, curvature, derivs: bool, wt,
-                widest: float, half_widths: float):
+                widest: float):
     """Table positions and values (and derivatives) of lines within +-reach points; ``widest`` is
-    the largest width of the lines' class (it sets the Gaussian and derivative spans); each line's
-    Lorentzian part is tapered from ``half_widths`` of its own half-widths (:func:`_taper`)."""
+    the largest width of the lines' class (it sets the Gaussian and derivative spans)."""
     step = float(x[1] - x[0])
     idx = centre[:, None] + np.arange(-reach, reach + 1)[None, :]
     u = x[idx] - ppm[:, None]
@@ -304,7 +269,6 @@ def _line_table(x, centre, ppm, inten, fwhm, gauss: float, reach: int, curvature
     den = u2 + gamma * gamma
     lor = gamma / np.pi / den
     val = (1 - gauss) * (lor + curvature * gamma / np.pi * (6 * u2 - 2 * gamma * gamma) / (den * den * den))
-    val *= _taper(u, half_widths * gamma)
     # the Gaussian part is drawn over its own short reach (+-5 sd): beyond it is below 4e-6 of its peak
     sigma = fwhm[:, None] * _SIGMA_PER_FWHM
     core_half = int(np.ceil(5 * (widest * _SIGMA_PER_FWHM) / step))

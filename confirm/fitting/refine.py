@@ -23,7 +23,7 @@ import numpy as np
 from scipy import sparse
 
 from confirm.fitting.linear import solve_amounts
-from confirm.fitting.lineshape import draw_lines, line_reach, merge_cells
+from confirm.fitting.lineshape import draw_lines, line_reach
 from confirm.fitting.models import model_lines, model_lines_with_derivatives
 from confirm.fitting.solver import least_squares_box
 
@@ -194,8 +194,7 @@ def line_regions(grid, ppm: np.ndarray) -> np.ndarray:
 class _Round:
     """Residual and Jacobian of the full model around one simulation of the lines."""
 
-    def __init__(self, grid, basis, models, layout: Layout, field_mhz: float, theta0: np.ndarray, priors,
-                 cell_ppm: float):
+    def __init__(self, grid, basis, models, layout: Layout, field_mhz: float, theta0: np.ndarray, priors):
         self.grid, self.basis, self.models, self.layout = grid, basis, models, layout
         self.field = field_mhz
         self.priors, self.scale = priors, 1.0
@@ -214,8 +213,6 @@ class _Round:
         amounts0 = theta0[layout.amount_slice]
         amounts0 = np.maximum(amounts0, 1e-3 * max(float(amounts0.max()), 1e-300))
         self.reach = line_reach(self.inten * amounts0[self.molecule], self.near)
-        # the lines drawn as one stay the same through the round (see draw_lines)
-        self.cells = merge_cells(self.ppm0, cell_ppm)
         # how far each line moves (ppm) per Hz of each refined coupling, (n_pairs, n_lines)
         self.moves = np.zeros((sum(layout.n_j), self.ppm0.size))
         self.pair_molecule = np.zeros(sum(layout.n_j), int)
@@ -253,7 +250,7 @@ class _Round:
             derivs=derivs, width_group=self.region, n_width_groups=lay.n_widths,
             weight=amounts[self.molecule], reach=self.reach,
             pos_weights=self.moves_sparse if derivs else None, deriv_mask=live,
-            value_mask=None if complete else live, merge_cells=self.cells,
+            value_mask=None if complete else live,
         )
         cols = self._molecule_columns(drawn.values)
         self._cache = (key, (drawn, cols, complete or live.all()))
@@ -417,7 +414,7 @@ class Refinement:
         hi[lay.shift_slice] = np.minimum(hi[lay.shift_slice], at + reach)
         jac, scale = None, self.noise
         for round_ in range(max(1, rounds)):
-            step = _Round(grid, basis, self.models, lay, field, theta, self.priors, self.width0)
+            step = _Round(grid, basis, self.models, lay, field, theta, self.priors)
             theta = step.solve_linear(theta)
             scale = step.set_scale(theta, self.noise)
             result = least_squares_box(step.residual, step.jacobian, theta, lo, hi,
@@ -428,7 +425,7 @@ class Refinement:
             if round_ >= 1 and moved < _SETTLED:
                 break
         theta, per_site, cols, model = _solve_linear_part(self.grid, self.basis, self.models, lay,
-                                                          field, theta, self.width0)
+                                                          field, theta)
         r = (self.grid.y - model) * self.grid.weight
         cost = float(np.dot(r, r))
         prior = self.priors.value(theta)
@@ -440,7 +437,7 @@ class Refinement:
         """Objective of the exact model at ``theta`` on the scale ``scale`` (amounts and baseline
         solved again), and those parameters."""
         theta, _, _, model = _solve_linear_part(self.grid, self.basis, self.models, self.layout, self.field,
-                                                np.clip(theta, self.lo, self.hi), self.width0)
+                                                np.clip(theta, self.lo, self.hi))
         r = (self.grid.y - model) * self.grid.weight
         return float(np.dot(r, r)) / scale**2 + self.priors.value(theta), theta
 
@@ -521,16 +518,13 @@ def blurred_view(refined: Refined, grid, basis, models, field_mhz: float, blur_h
 
     theta = refined.theta.copy()
     theta[refined.layout.width_slice] += blur_hz / field_mhz
-    per_site, cols = exact_columns(grid, models, refined.layout, field_mhz, theta, refined.width0_ppm)
+    per_site, cols = exact_columns(grid, models, refined.layout, field_mhz, theta)
     view = replace(refined, per_site=per_site, cols=cols)
     return resolve_linear(view, grid, basis)
 
 
-def exact_columns(grid, models, layout: Layout, field_mhz: float, theta: np.ndarray, cell_ppm: float):
-    """Per-site and per-candidate unit columns of the exact simulation at ``theta``; lines closer
-    than a small share of ``cell_ppm`` are drawn as one (a fixed width, the measured one: a lattice
-    that scaled with the refined widths would regroup lines whenever a width moved by a rounding
-    error, see :func:`~confirm.fitting.lineshape.draw_lines`)."""
+def exact_columns(grid, models, layout: Layout, field_mhz: float, theta: np.ndarray):
+    """Per-site and per-candidate unit columns of the exact simulation at ``theta``."""
     widths = theta[layout.width_slice]
     gauss = float(theta[layout.gauss_index])
     amounts = theta[layout.amount_slice]
@@ -543,8 +537,7 @@ def exact_columns(grid, models, layout: Layout, field_mhz: float, theta: np.ndar
     rows, pos = [], 0
     for k, (m, (ppm, inten, site, sat)) in enumerate(zip(models, lines, strict=True)):
         drawn = draw_lines(grid, ppm, inten, site, m.n_sites, widths[layout.width_index(grid, k, ppm)],
-                           gauss=gauss, near=sat, reach=reach[pos : pos + ppm.size],
-                           merge_cells=merge_cells(ppm, cell_ppm))
+                           gauss=gauss, near=sat, reach=reach[pos : pos + ppm.size])
         pos += ppm.size
         rows.append(drawn.values)
     per_site = np.concatenate(rows)
@@ -552,9 +545,9 @@ def exact_columns(grid, models, layout: Layout, field_mhz: float, theta: np.ndar
     return per_site, cols
 
 
-def _solve_linear_part(grid, basis, models, layout, field_mhz, theta, cell_ppm: float):
+def _solve_linear_part(grid, basis, models, layout, field_mhz, theta):
     """Amounts and baseline solved exactly for the exact model at ``theta``'s other parameters."""
-    per_site, cols = exact_columns(grid, models, layout, field_mhz, theta, cell_ppm)
+    per_site, cols = exact_columns(grid, models, layout, field_mhz, theta)
     amounts, base = solve_amounts(cols, basis, grid.y, grid.weight)
     theta = theta.copy()
     theta[layout.amount_slice] = amounts

@@ -44,7 +44,7 @@ def refit_without(refined: Refined, exclude, *, grid, basis, models, mid_view, f
     theta = refined.theta.copy()
     theta[lay.amount_slice] = 0.0
     theta[index] = fit.theta
-    per_site, cols = exact_columns(grid, models, lay, field_mhz, theta, width_ppm)
+    per_site, cols = exact_columns(grid, models, lay, field_mhz, theta)
     jac = np.zeros((fit.jacobian.shape[0], lay.size))
     jac[:, index] = fit.jacobian
     return Refined(theta=theta, layout=lay, per_site=per_site, cols=cols, model=fit.model, cost=fit.cost,

@@ -101,54 +101,6 @@ def test_position_and_width_derivatives_match_finite_differences():
 
 
 @pytest.mark.parametrize("gauss", [0.0, 0.3])
-def test_a_drawn_line_is_continuous_in_its_position_and_width(gauss):
-    """Moving a line across a grid point (where the window of points it is drawn on moves by one)
-    or widening it across the width at which its window gains a point must
-    change the drawn values by about the size of the move, not by a step: a refinement steered by
-    derivatives wanders on such steps and ends where the rounding of the data sends it."""
-    x = np.linspace(3.0, 3.2, 801)
-    grid = _grid(x)
-    step = float(x[1] - x[0])
-    fwhm, eps = 0.003, 1e-11
-    one = (np.array([2.0]), np.zeros(1, int), 1)
-
-    def drawn(ppm, width):
-        return draw_lines(grid, np.array([ppm]), *one, width, gauss=gauss).values[0]
-
-    peak = drawn(3.1, fwhm).max()
-    jump = np.abs(drawn(x[400] + eps, fwhm) - drawn(x[400] - eps, fwhm)).max()
-    assert jump < 1e-6 * peak  # a window cut off without a taper jumps by 6e-4 of the peak here
-    # the window has ceil(1.25 * 40 * (w / 2) / step) + 1 points either side: it gains one at this width
-    width = (np.floor(1.25 * 40 * (fwhm / 2) / step) + 1) * step * 2 / (1.25 * 40)
-    jump = np.abs(drawn(3.1003, width + eps) - drawn(3.1003, width - eps)).max()
-    assert jump < 1e-6 * peak
-
-
-def test_lines_drawn_as_one_stay_so_when_the_caller_fixes_their_cells():
-    """Two lines a fraction of a width apart are merged when they share a cell of the lattice; a line
-    crossing a cell boundary changes the model by a step (< 1e-4 of the height, but a step) unless
-    the caller passes the cells of their first positions."""
-    from confirm.fitting.lineshape import merge_cells
-
-    x = np.linspace(3.0, 3.2, 801)
-    grid = _grid(x)
-    fwhm, eps = 0.003, 1e-12
-    cell = 0.05 * fwhm
-    boundary = np.round(3.1 / cell) * cell  # a boundary of the lattice near 3.1 ppm
-    inten, group = np.array([1.0, 1.0]), np.zeros(2, int)
-
-    def drawn(at, cells=None):
-        ppm = np.array([at, boundary + 0.4 * cell])
-        return draw_lines(grid, ppm, inten, group, 1, fwhm, merge_cells=cells).values[0]
-
-    fixed = merge_cells(np.array([boundary + 0.2 * cell, boundary + 0.4 * cell]), fwhm)
-    free_jump = np.abs(drawn(boundary - eps) - drawn(boundary + eps)).max()
-    fixed_jump = np.abs(drawn(boundary - eps, fixed) - drawn(boundary + eps, fixed)).max()
-    assert free_jump > 100 * fixed_jump  # the step is real without fixed cells ...
-    assert fixed_jump < 1e-8 * drawn(boundary).max()  # ... and gone with them
-
-
-@pytest.mark.parametrize("gauss", [0.0, 0.3])
 def test_masks_leave_every_drawn_value_as_it_was(gauss):
     """Lines of a molecule with no amount are drawn without derivatives (``deriv_mask``) or not at all
     (``value_mask``, a residual): every value and derivative still drawn must be exactly what the
