@@ -1,0 +1,223 @@
+"""Assemble the routes of every leaving group into one ranked list of candidates."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+
+from rdkit import Chem
+
+from predictors.core import PATHWAYS, Candidate
+from predictors.errors import ChemistryError, ConfirmError, InputError
+from predictors.products._cations import _cation_routes
+from predictors.products._e1cb import _e1cb_routes
+from predictors.products._e2 import _e2_routes
+from predictors.products._records import ProductSet, _Context, _Route
+from predictors.products._shares import _pathway_shares
+from predictors.products._substitution import _sn2_routes
+from predictors.reagents import Reagent, get_reagent, get_solvent
+from predictors.substrate import LeavingGroup, Substrate, beta_carbons, perceive_substrate
+
+#: Share of the prior kept for unreacted starting material (common practice).
+_STARTING_MATERIAL_PRIOR = 0.1
+
+# ----------------------------------------------------------------------------- assembly
+
+
+def _site_routes(ctx: _Context, lg: LeavingGroup) -> tuple[list[_Route], list[str]]:
+    shares, why = _pathway_shares(ctx, lg)
+    betas = beta_carbons(ctx.substrate.mol, lg.alpha_idx, lg.lg_atom_idx)
+    notes = []
+    if not betas and lg.quality != "poor":
+        notes.append(f"no beta-H next to atom {lg.alpha_idx} ({lg.kind}): elimination impossible, "
+                     "substitution only")
+    by_path: dict[str, list[_Route]] = {}
+    if shares.get("E1cB"):
+        by_path["E1cB"] = _e1cb_routes(ctx, lg, betas)
+    if shares.get("E2") and betas:
+        by_path["E2"] = _e2_routes(ctx, lg, betas)
+    if shares.get("SN2"):
+        by_path["SN2"] = _sn2_routes(ctx, lg)
+    if shares.get("E1") or shares.get("SN1"):
+        cation = _cation_routes(ctx, lg, shares)
+        for tag in ("E1", "SN1"):
+            by_path[tag] = [r for r in cation if tag in r.pathways]
+    live = {k: v for k, v in by_path.items() if v}
+    total_share = sum(shares[k] for k in live) or 1.0
+    routes = []
+    for tag, items in live.items():
+        scale = shares[tag] / total_share / (sum(r.weight for r in items) or 1.0)
+        routes += [replace(r, weight=r.weight * scale, rationale=f"{r.rationale} [{why}]") for r in items]
+    return routes, notes
+
+
+def _label_regio(routes: list[_Route]) -> list[_Route]:
+    groups: dict[str, list[int]] = {}
+    for r in routes:
+        if r.n_subst is not None:
+            groups.setdefault(r.group, []).append(r.n_subst)
+    out = []
+    for r in routes:
+        counts = groups.get(r.group, [])
+        regio = None
+        if r.n_subst is not None and counts and max(counts) > min(counts):
+            regio = "more substituted" if r.n_subst == max(counts) else "less substituted"
+        out.append(replace(r, regio=regio))
+    return out
+
+
+def _merge(routes: list[_Route], scale: float) -> list[Candidate]:
+    by_smiles: dict[str, list[_Route]] = {}
+    for r in routes:
+        by_smiles.setdefault(r.smiles, []).append(r)
+    candidates = []
+    for smiles, items in by_smiles.items():
+        items.sort(key=lambda r: -r.weight)
+        top = items[0]
+        tags = {t for r in items for t in r.pathways}
+        pathways = tuple(t for t in PATHWAYS if t in tags)
+        notes = list(top.notes)
+        for r in items[1:]:
+            notes += [n for n in r.notes if n not in notes and not n.startswith(("syn", "H cannot"))]
+        others = sorted(tags - set(top.pathways), key=PATHWAYS.index)
+        rationale = top.rationale + (f"; also formed by {', '.join(others)}" if others else "")
+        label = _label(top)
+        prior = min(1.0, max(0.0, scale * sum(r.weight for r in items)))
+        candidates.append(Candidate(smiles, pathways, label, round(prior, 6), rationale, top.regio,
+                                    top.geometry, tuple(notes)))
+    return candidates
+
+
+def _mirror_smiles(smiles: str) -> str:
+    mol = Chem.MolFromSmiles(smiles)
+    for atom in mol.GetAtoms():
+        atom.InvertChirality()
+    return Chem.MolToSmiles(mol)
+
+
+def _merge_mirror_images(routes: list[_Route]) -> list[_Route]:
+    """An achiral substrate gives chiral products as racemates: list each mirror pair once."""
+    present = {r.smiles for r in routes}
+    out = []
+    for r in routes:
+        mirror = _mirror_smiles(r.smiles)
+        if mirror != r.smiles and mirror in present:
+            keep = min(r.smiles, mirror)
+            note = "formed as the racemate with its mirror image (same NMR spectrum)"
+            r = replace(r, smiles=keep, notes=r.notes + (note,))
+        out.append(r)
+    return out
+
+
+def _label(route: _Route) -> str:
+    if route.n_subst is None:
+        return route.label
+    geometry = f"({route.geometry})-" if route.geometry else ""
+    regio = f", {route.regio}" if route.regio else ""
+    return f"{geometry}{route.label}{regio}"
+
+
+def _resolve_solvent(reagent: Reagent, solvent: str | None) -> Reagent | None:
+    if solvent is not None:
+        return get_solvent(solvent)
+    return get_reagent(reagent.default_solvent) if reagent.default_solvent else None
+
+
+def _check_temperature(temp_c: float) -> float:
+    if isinstance(temp_c, bool) or not isinstance(temp_c, (int, float)) or not math.isfinite(temp_c) \
+            or not -100.0 <= temp_c <= 300.0:
+        raise InputError(f"temp_c: expected a temperature between -100 and 300 C, got {temp_c!r}")
+    return float(temp_c)
+
+
+def _make_context(substrate: Substrate, reagent: Reagent, solvent: Reagent | None, temp_c: float,
+                  seed: int) -> _Context:
+    stereo = Chem.FindPotentialStereo(substrate.mol)
+    unspecified = [s for s in stereo if s.specified == Chem.StereoSpecified.Unspecified]
+    return _Context(
+        substrate=substrate, mol_h=Chem.AddHs(substrate.mol), reagent=reagent, solvent=solvent,
+        temp_c=temp_c, seed=seed,
+        undefined_atoms=frozenset(s.centeredOn for s in unspecified
+                                  if s.type == Chem.StereoType.Atom_Tetrahedral),
+        undefined_bonds=any(s.type == Chem.StereoType.Bond_Double for s in unspecified),
+        any_defined=any(s.specified == Chem.StereoSpecified.Specified for s in stereo),
+    )
+
+
+def _collect_routes(ctx: _Context) -> tuple[list[_Route], list[str]]:
+    routes, notes = [], []
+    n_sites = len(ctx.substrate.leaving_groups)
+    for lg in ctx.substrate.leaving_groups:
+        try:
+            site_routes, site_notes = _site_routes(ctx, lg)
+        except ConfirmError as exc:
+            msg = f"substrate: cannot enumerate products at atom {lg.alpha_idx}: {exc}"
+            raise ChemistryError(msg) from exc
+        routes += [replace(r, weight=r.weight / n_sites) for r in site_routes]
+        notes += site_notes
+    return routes, notes
+
+
+def enumerate_products(substrate, *, reagent: str, solvent: str | None = None, temp_c: float = 25.0,
+                       seed: int = 0xC0FFEE) -> ProductSet:
+    """List every elimination and substitution product with a soft prior.
+
+    Parameters
+    ----------
+    substrate : str or rdkit.Chem.Mol
+        Isomeric SMILES or molecule; counter-ions are stripped with a note.
+    reagent : str, keyword-only
+        Reagent name or alias (see :func:`predictors.reagents.list_reagents`).
+    solvent : str or None, keyword-only
+        Solvent name; None uses the reagent's usual solvent.
+    temp_c : float, keyword-only
+        Reaction temperature (C), -100 to 300.
+    seed : int, keyword-only
+        Seed of the conformer embedding (results repeat for a given seed).
+
+    Returns
+    -------
+    ProductSet
+        Candidates sorted by prior (highest first), starting material included.
+
+    Raises
+    ------
+    InputError
+        Unknown reagent or solvent, temperature out of range.
+    ChemistryError
+        Unusable structure, no leaving group, or no path to any product.
+    """
+    reagent_obj = get_reagent(reagent)
+    solvent_obj = _resolve_solvent(reagent_obj, solvent)
+    temp = _check_temperature(temp_c)
+    base = reagent_obj.is_base or (reagent_obj.pka_conj_acid or -99.0) >= 9.0
+    perceived = perceive_substrate(substrate, acid=reagent_obj.is_acid, base=base)
+    ctx = _make_context(perceived, reagent_obj, solvent_obj, temp, seed)
+    notes = list(perceived.notes)
+    if solvent is None and solvent_obj is not None:
+        notes.append(f"solvent not given: assumed {solvent_obj.name}")
+    try:
+        routes, site_notes = _collect_routes(ctx)
+    except ChemistryError as exc:
+        if "MMFF" not in str(exc) and "embedding" not in str(exc):
+            raise
+        notes.append(f"3D analysis unavailable ({exc}); geometries listed without it")
+        ctx = replace(ctx, undefined_bonds=True, models={})
+        routes, site_notes = _collect_routes(ctx)
+    notes += site_notes
+    if not routes:
+        raise ChemistryError(f"substrate: no elimination or substitution path with reagent "
+                             f"{reagent_obj.name!r} for {perceived.smiles!r} (no beta-H and the reagent "
+                             "is not a nucleophile)")
+    total = sum(r.weight for r in routes) or 1.0
+    sm = _Route(perceived.smiles, ("starting material",), _STARTING_MATERIAL_PRIOR * total / (
+        1.0 - _STARTING_MATERIAL_PRIOR), "starting material", "unreacted starting material (incomplete "
+        "conversion is common)")
+    scale = 1.0 / (total + sm.weight)
+    routes = _label_regio(routes)
+    if _mirror_smiles(perceived.smiles) == perceived.smiles:
+        routes = _merge_mirror_images(routes)
+    candidates = _merge(routes + [sm], scale)
+    candidates.sort(key=lambda c: (-c.prior, c.smiles))
+    return ProductSet(perceived.smiles, reagent_obj, tuple(candidates), tuple(dict.fromkeys(notes)))
+

@@ -1,0 +1,76 @@
+"""Records passed between the enumerator's stages: the product set, routes, outcomes, context."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+from rdkit import Chem
+
+from predictors.core import Candidate
+from predictors.reagents import Reagent
+from predictors.substrate import Substrate
+
+GAS_CONSTANT_KCAL = 1.987204e-3  # kcal/(mol K)
+
+
+@dataclass(frozen=True, eq=False)
+class ProductSet:
+    """Candidates for one substrate under one set of conditions.
+
+    Attributes
+    ----------
+    substrate_smiles : str
+        Canonical SMILES of the substrate (counter-ions removed).
+    reagent : Reagent
+    candidates : tuple of Candidate
+        Sorted by prior, highest first; the starting material is included.
+    notes : tuple of str
+        What was assumed or could not be modelled.
+    """
+
+    substrate_smiles: str
+    reagent: Reagent
+    candidates: tuple[Candidate, ...]
+    notes: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class _Outcome:
+    smiles: str
+    geometry: str | None = None
+    n_subst: int | None = None
+    conjugated: bool = False
+
+
+@dataclass(frozen=True)
+class _Route:
+    smiles: str
+    pathways: tuple[str, ...]
+    weight: float
+    label: str
+    rationale: str
+    geometry: str | None = None
+    n_subst: int | None = None
+    group: str = ""
+    notes: tuple[str, ...] = ()
+    regio: str | None = None
+
+
+@dataclass(frozen=True, eq=False)
+class _Context:
+    substrate: Substrate
+    mol_h: Chem.Mol
+    reagent: Reagent
+    solvent: Reagent | None
+    temp_c: float
+    seed: int
+    undefined_atoms: frozenset[int]
+    undefined_bonds: bool
+    any_defined: bool
+    models: dict = field(default_factory=dict)
+
+    @property
+    def rt_kcal(self) -> float:
+        return GAS_CONSTANT_KCAL * (self.temp_c + 273.15)
+
+

@@ -1,0 +1,71 @@
+"""Soft shares of each pathway at one leaving group (references.md section 8, common practice)."""
+
+from __future__ import annotations
+
+import math
+
+from predictors.products._records import _Context
+from predictors.reagents import Reagent
+from predictors.substrate import LeavingGroup
+
+#: Elimination gains exp((T - 25 C) / this) over substitution (common practice).
+_TEMP_SCALE_C = 60.0
+
+# ----------------------------------------------------------------------------- pathway shares
+
+
+def _is_protic(ctx: _Context) -> bool:
+    return any(r is not None and r.solvent_class == "protic" for r in (ctx.solvent, ctx.reagent))
+
+
+def _base_shares(lg: LeavingGroup, reagent: Reagent, protic: bool) -> tuple[dict[str, float], str]:
+    cls, bulky = lg.alpha_class, reagent.bulk == "large"
+    if reagent.is_strong_base:
+        kind = f"{'bulky' if bulky else 'small'} strong base"
+        table = {
+            "methyl": {"SN2": 1.0},
+            "primary": {"E2": 0.85, "SN2": 0.15} if bulky else {"SN2": 0.8, "E2": 0.2},
+            "secondary": {"E2": 0.95, "SN2": 0.05} if bulky else {"E2": 0.75, "SN2": 0.25},
+            "tertiary": {"E2": 0.9, "SN1": 0.05, "E1": 0.05} if protic else {"E2": 1.0},
+        }
+        return table[cls], f"{kind} on a {cls} carbon"
+    kind = "good nucleophile, weak base" if reagent.is_nucleophile else "weak base"
+    if cls in ("methyl", "primary"):
+        shares = {"SN2": 0.95, "E2": 0.05}
+    elif cls == "secondary":
+        shares = {"SN2": 0.8, "E2": 0.2} if reagent.is_nucleophile else {"E2": 0.9, "SN2": 0.1}
+        if lg.stabilised and protic:
+            shares.update({"SN1": 0.2, "E1": 0.05})
+    else:
+        shares = {"SN1": 0.5, "E1": 0.3, "E2": 0.2} if protic else {"E2": 0.8, "E1": 0.1, "SN1": 0.1}
+    return shares, f"{kind} on a {cls} carbon"
+
+
+def _pathway_shares(ctx: _Context, lg: LeavingGroup) -> tuple[dict[str, float], str]:
+    """Soft shares of each pathway at one site (references.md section 8, common practice)."""
+    reagent, cls = ctx.reagent, lg.alpha_class
+    cation_ok = cls in ("secondary", "tertiary") or lg.stabilised
+    if lg.quality == "poor":
+        shares, why = {"E1cB": 1.0}, "poor leaving group beta to an anion-stabilising group: E1cB"
+    elif lg.quality == "charged" and reagent.is_base:
+        shares, why = {"E2": 0.95, "SN2": 0.05}, "charged leaving group with base: Hofmann elimination"
+    elif reagent.is_acid:
+        trap = reagent.counter_ion_nucleophilicity == "high"
+        if cation_ok:
+            shares = {"SN1": 0.7, "E1": 0.3} if trap else {"E1": 0.85, "SN1": 0.15}
+            why = f"acid ionises the {cls} carbon: carbocation (E1/SN1)"
+        else:
+            shares = {"SN2": 0.8, "E2": 0.2} if trap else {"E2": 0.7, "SN2": 0.3}
+            why = f"acid on a {cls} carbon: no free cation, concerted loss of the leaving group"
+    elif reagent.kind == "solvent" or (reagent.kind == "acid" and not reagent.is_acid):
+        shares = {"SN1": 0.7, "E1": 0.3} if cation_ok else {"SN2": 0.9, "E2": 0.1}
+        why = f"solvolysis of a {cls} carbon"
+    else:
+        shares, why = _base_shares(lg, reagent, _is_protic(ctx))
+    tilt = math.exp((ctx.temp_c - 25.0) / _TEMP_SCALE_C)
+    shares = {k: v * (tilt if k.startswith("E") else 1.0) for k, v in shares.items()}
+    if not math.isclose(tilt, 1.0):
+        why += f", {ctx.temp_c:g} C tilts towards elimination"
+    return shares, why
+
+
