@@ -12,6 +12,7 @@ from predictors.errors import ChemistryError, ConfirmError, InputError
 from predictors.products._cations import _cation_routes
 from predictors.products._e1cb import _e1cb_routes
 from predictors.products._e2 import _e2_routes
+from predictors.products._geometry import apply_conformer_costs
 from predictors.products._records import ProductSet, _Context, _Route
 from predictors.products._shares import _pathway_shares
 from predictors.products._substitution import _sn2_routes
@@ -31,6 +32,8 @@ def _site_routes(ctx: _Context, lg: LeavingGroup) -> tuple[list[_Route], list[st
     if not betas and lg.quality != "poor":
         notes.append(f"no beta-H next to atom {lg.alpha_idx} ({lg.kind}): elimination impossible, "
                      "substitution only")
+    shares, cost_notes = apply_conformer_costs(ctx, lg, betas, shares)
+    notes += cost_notes
     by_path: dict[str, list[_Route]] = {}
     if shares.get("E1cB"):
         by_path["E1cB"] = _e1cb_routes(ctx, lg, betas)
@@ -202,7 +205,7 @@ def enumerate_products(substrate, *, reagent: str, solvent: str | None = None, t
         if "MMFF" not in str(exc) and "embedding" not in str(exc):
             raise
         notes.append(f"3D analysis unavailable ({exc}); geometries listed without it")
-        ctx = replace(ctx, undefined_bonds=True, models={})
+        ctx = replace(ctx, undefined_bonds=True, models={}, reports=[])
         routes, site_notes = _collect_routes(ctx)
     notes += site_notes
     if not routes:
@@ -219,5 +222,6 @@ def enumerate_products(substrate, *, reagent: str, solvent: str | None = None, t
         routes = _merge_mirror_images(routes)
     candidates = _merge(routes + [sm], scale)
     candidates.sort(key=lambda c: (-c.prior, c.smiles))
-    return ProductSet(perceived.smiles, reagent_obj, tuple(candidates), tuple(dict.fromkeys(notes)))
+    return ProductSet(perceived.smiles, reagent_obj, tuple(candidates), tuple(dict.fromkeys(notes)),
+                      beta_hydrogens=tuple(ctx.reports))
 

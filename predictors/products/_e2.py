@@ -3,18 +3,10 @@
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
 
 from rdkit import Chem
 
-from predictors.antiperiplanar import (
-    MAX_STRAIN_KCAL,
-    ConformerSet,
-    embed_conformers,
-    find_periplanar,
-    is_axial,
-    local_model,
-)
+from predictors.antiperiplanar import MAX_STRAIN_KCAL
 from predictors.products._editing import (
     _alkene_outcomes,
     _geometry_weight,
@@ -25,63 +17,24 @@ from predictors.products._editing import (
     _tagged,
     _with_hydrogens,
 )
+from predictors.products._geometry import (
+    beta_hydrogens,
+    conformer_note,
+    periplanar_results,
+    site_model,
+    strain_of,
+    use_3d,
+)
 from predictors.products._records import _Context, _Route
-from predictors.substrate import LeavingGroup, beta_carbons
+from predictors.substrate import LeavingGroup
 
 #: Weight of a syn-periplanar E2 relative to anti from the same H (common practice: rare).
 _SYN_FACTOR = 0.02
-#: Weight of an E2 whose H cannot reach anti-periplanar (common practice: negligible).
-_BLOCKED_FACTOR = 1.0e-4
-#: Substrates larger than this (heavy atoms) are cut to a local model for the 3D work.
-_LOCAL_MODEL_ABOVE = 20
-_LOCAL_RADIUS = 2
+#: An H that cannot reach anti-periplanar within MAX_STRAIN_KCAL is weighted as if it cost this
+#: much: below every reachable H, listed but negligible (common practice).
+_BLOCKED_KCAL = 12.0
 
 # ----------------------------------------------------------------------------- E2
-
-
-def _use_3d(ctx: _Context, lg: LeavingGroup, betas: tuple[int, ...]) -> bool:
-    if ctx.undefined_bonds:
-        return False
-    if not ctx.undefined_atoms:
-        return True
-    if ctx.undefined_atoms != {lg.alpha_idx} or ctx.substrate.mol.GetAtomWithIdx(lg.alpha_idx).IsInRing():
-        return False
-    potential = {si.centeredOn for si in Chem.FindPotentialStereo(ctx.substrate.mol)}
-    return not (set(betas) & potential)
-
-
-@dataclass(frozen=True, eq=False)
-class _Model:
-    """Conformers of the substrate (or of a local model around one site) and the index map."""
-
-    confs: ConformerSet
-    mapping: dict
-
-    def idx(self, original: int) -> int:
-        return self.mapping[original]
-
-    def original(self, model_idx: int) -> int:
-        return next(k for k, v in self.mapping.items() if v == model_idx)
-
-
-def _model(ctx: _Context, lg: LeavingGroup) -> _Model:
-    """Embed once per site; large substrates are cut to a local model around the site."""
-    if lg.alpha_idx not in ctx.models:
-        mol_3d = Chem.Mol(ctx.mol_h)
-        # One undefined centre (the alpha carbon, see _use_3d): either mirror image gives the same
-        # answers, but every conformer must be of the same one.
-        for idx in ctx.undefined_atoms:
-            mol_3d.GetAtomWithIdx(idx).SetChiralTag(Chem.ChiralType.CHI_TETRAHEDRAL_CW)
-        Chem.AssignStereochemistry(mol_3d, cleanIt=True, force=True)
-        if ctx.substrate.mol.GetNumHeavyAtoms() > _LOCAL_MODEL_ABOVE:
-            centre = [lg.alpha_idx, *beta_carbons(ctx.substrate.mol, lg.alpha_idx, lg.lg_atom_idx)]
-            mol_3d, mapping = local_model(mol_3d, centre=centre, radius=_LOCAL_RADIUS)
-        else:
-            mapping = {i: i for i in range(mol_3d.GetNumAtoms())}
-        n_conf = 6 if mol_3d.GetNumHeavyAtoms() <= 20 else 4
-        confs = embed_conformers(mol_3d, n_conformers=n_conf, seed=ctx.seed)
-        ctx.models[lg.alpha_idx] = _Model(confs, mapping)
-    return ctx.models[lg.alpha_idx]
 
 
 def _e2_skeleton(ctx: _Context, lg: LeavingGroup, beta: int, h_idx: int) -> tuple[Chem.RWMol, int, int]:
@@ -93,41 +46,10 @@ def _e2_skeleton(ctx: _Context, lg: LeavingGroup, beta: int, h_idx: int) -> tupl
     return rw, _index(rw, lg.alpha_idx), _index(rw, beta)
 
 
-def _beta_hydrogens(ctx: _Context, beta: int) -> list[tuple[int, int]]:
-    """(H index, multiplicity): a methyl's three H are one rotor, listed once."""
-    hs = _hydrogens(ctx.mol_h, beta)
-    return [(hs[0], 3)] if len(hs) == 3 else [(h, 1) for h in hs]
-
-
-def _ring_note(ctx: _Context, lg: LeavingGroup, result, strain_kcal: float) -> tuple[str, ...]:
-    if result.lg_axial is None:
-        return ()
-    model = _model(ctx, lg)
-    at_min = is_axial(model.confs.mol, ring_atom=model.idx(lg.alpha_idx),
-                      substituent=model.idx(lg.lg_atom_idx), conf_id=model.confs.lowest_conf_id)
-    if at_min is False:
-        return (f"trans-diaxial H: the ring must flip to put the leaving group axial "
-                f"(cost {strain_kcal:.1f} kcal/mol, MMFF94)",)
-    return ("trans-diaxial H (leaving group axial in the lowest chair)",)
-
-
-def _periplanar_results(ctx: _Context, lg: LeavingGroup, betas) -> tuple[dict, float]:
-    """Anti-periplanar result for every beta-H, and the lowest energy seen (strain reference)."""
-    model = _model(ctx, lg)
-    results = {}
-    for beta in betas:
-        for h_idx, _ in _beta_hydrogens(ctx, beta):
-            results[h_idx] = find_periplanar(
-                model.confs, h_idx=model.idx(h_idx), beta_idx=model.idx(beta),
-                alpha_idx=model.idx(lg.alpha_idx), lg_idx=model.idx(lg.lg_atom_idx))
-    reference = min([model.confs.min_energy_kcal, *(r.relaxed_kcal for r in results.values())])
-    return results, reference
-
-
 def _e2_from_3d(ctx: _Context, lg: LeavingGroup, beta: int, h_idx: int, mult: int, res,
                 reference_kcal: float) -> list[tuple]:
-    model = _model(ctx, lg)
-    strain = min(res.energy_kcal - reference_kcal, 99.0)
+    model = site_model(ctx, lg)
+    strain = strain_of(res, reference_kcal)
     rw, a, b = _e2_skeleton(ctx, lg, beta, h_idx)
     anti = {(model.original(sa), model.original(sb)) for sa, sb in res.cis_pairs}
     every = {(sa, sb) for sa in _sub_tags(ctx.mol_h, lg.alpha_idx, (beta, lg.lg_atom_idx))
@@ -136,10 +58,11 @@ def _e2_from_3d(ctx: _Context, lg: LeavingGroup, beta: int, h_idx: int, mult: in
     if res.periplanar and strain <= MAX_STRAIN_KCAL:
         why = f"H anti-periplanar at {strain:.1f} kcal/mol strain"
         weight = mult * math.exp(-strain / ctx.rt_kcal)
-        notes = _ring_note(ctx, lg, res, strain)
+        notes = (conformer_note(res, strain, "anti"),)
     else:
         why = "no anti-periplanar arrangement for this H within reach"
-        weight, notes = mult * _BLOCKED_FACTOR, ("H cannot reach anti-periplanar: minor at best",)
+        weight = mult * math.exp(-_BLOCKED_KCAL / ctx.rt_kcal)
+        notes = ("H cannot reach anti-periplanar: minor at best",)
     for o in _alkene_outcomes(rw, a, b, cis_pairs=anti):
         out.append((o, weight, why, notes))
     if ctx.mol_h.GetBondBetweenAtoms(lg.alpha_idx, beta).IsInRing():
@@ -171,14 +94,14 @@ def _e2_routes(ctx: _Context, lg: LeavingGroup, betas: tuple[int, ...]) -> list[
         orient = "weak Zaitsev preference, the count of H decides"
     else:
         orient = "Hofmann orientation"
-    use_3d = _use_3d(ctx, lg, betas)
-    results, reference = _periplanar_results(ctx, lg, betas) if use_3d else ({}, 0.0)
+    in_3d = use_3d(ctx, lg, betas)
+    results, reference = periplanar_results(ctx, lg, betas, mode="anti") if in_3d else ({}, 0.0)
     routes, made_here = [], []
     for beta in betas:
         tags = ("E2", "E1cB") if beta in lg.activated_betas else ("E2",)
         hydrogens = _hydrogens(ctx.mol_h, beta)
-        for h_idx, mult in (_beta_hydrogens(ctx, beta) if use_3d else [(hydrogens[0], len(hydrogens))]):
-            if use_3d:
+        for h_idx, mult in (beta_hydrogens(ctx, beta) if in_3d else [(hydrogens[0], len(hydrogens))]):
+            if in_3d:
                 made = _e2_from_3d(ctx, lg, beta, h_idx, mult, results[h_idx], reference)
             else:
                 made = _e2_topological(ctx, lg, beta, h_idx, mult)
