@@ -207,13 +207,23 @@ def _align_hydrogen_labels(mol: Chem.Mol, cids: list[int]) -> list[int]:
 
 
 def _restore_labels(mol: Chem.Mol, conf, ref_signs: tuple[bool, ...]) -> bool:
-    """Swap H pairs back to the reference handedness; False when a true stereocentre differs."""
+    """Swap H pairs back to the reference handedness; False when a true stereocentre differs.
+
+    An atom with fewer than two H but two equivalent neighbours (the CH of an isopropyl, the
+    quaternary carbon of a tert-butyl) is no stereocentre: its neighbours may come out either
+    way round, which changes nothing that is asked later.
+    """
     centres = [a for a in mol.GetAtoms() if a.GetDegree() == 4]
+    ranks = None
     for atom, ref, now in zip(centres, ref_signs, _handedness(mol, conf), strict=True):
         if ref == now:
             continue
         hs = [n.GetIdx() for n in atom.GetNeighbors() if n.GetAtomicNum() == 1]
         if len(hs) < 2:
+            if ranks is None:
+                ranks = list(Chem.CanonicalRankAtoms(mol, breakTies=False))
+            if len({ranks[n.GetIdx()] for n in atom.GetNeighbors()}) < 4:
+                continue
             return False
         first, second = conf.GetAtomPosition(hs[0]), conf.GetAtomPosition(hs[1])
         conf.SetAtomPosition(hs[0], second)
@@ -415,7 +425,7 @@ def _rotamer(confs: ConformerSet, atoms, target_deg: float, tolerance_deg: float
         by_key.setdefault(_ring_key(confs.mol, rings, cid), cid)
     gaps = [_angle_gap(_dihedral(confs.mol, atoms, cid), target_deg) for cid in confs.conf_ids]
     nearest = confs.conf_ids[int(np.argmin(gaps))]
-    starts = list(dict.fromkeys([*list(by_key.values())[:3], nearest]))
+    starts = list(dict.fromkeys([*list(by_key.values())[:3], nearest, *order[:3]]))[:5]
     best = None
     for cid in starts:
         mol, driven = _constrained_minimum(Chem.Mol(confs.mol, confId=cid), atoms, target_deg)
@@ -423,10 +433,12 @@ def _rotamer(confs: ConformerSet, atoms, target_deg: float, tolerance_deg: float
             continue
         relaxed = Chem.Mol(mol)
         relaxed_e = _relax_in_place(relaxed)
-        if np.isfinite(relaxed_e) and _angle_gap(_dihedral(relaxed, atoms), target_deg) <= tolerance_deg:
-            candidate = (relaxed, relaxed_e, relaxed_e)  # a staggered rotamer: a minimum of its own
+        # released, a staggered rotamer stays put (a minimum of its own); an eclipsed one drifts
+        # away and its restrained energy is what the path pays
+        if np.isfinite(relaxed_e) and _angle_gap(_dihedral(relaxed, atoms), target_deg) <= TOLERANCE_DEG:
+            candidate = (relaxed, relaxed_e, relaxed_e)
         else:
-            candidate = (mol, driven, relaxed_e)  # e.g. eclipsed for syn: the restrained energy counts
+            candidate = (mol, driven, relaxed_e)
         if best is None or candidate[1] < best[1] - 1e-6:
             best = candidate
     if best is None:

@@ -20,10 +20,14 @@ section 8 (common practice); each candidate has a one-line rationale.
 Modules, one job each: ``_records`` (the records passed between stages), ``_editing`` (edits
 of a tagged copy of the substrate), ``_shares`` (pathway shares), ``_e2`` (anti E2 from 3D
 conformers), ``_e1cb``, ``_substitution`` (SN2), ``_cations`` (E1/SN1 with shifts) and
-``_assembly`` (merging, ranking, :func:`enumerate_products`).
+``_assembly`` (merging, ranking, :func:`enumerate_products`), ``_geometry`` (the 3D model of a
+site and the periplanar conformer of each beta-H), ``_ei`` (syn eliminations), ``_allylic``
+(SN2'/SN1'), ``_double`` (second eliminations and 1,4-eliminations) and ``_selftest`` (each
+reagent row's example and negative example).
 """
 
 from predictors.products._assembly import enumerate_products
-from predictors.products._records import ProductSet
+from predictors.products._records import BetaHydrogenReport, ProductSet
+from predictors.products._selftest import check_reagent_examples
 
-__all__ = ["ProductSet", "enumerate_products"]
+__all__ = ["BetaHydrogenReport", "ProductSet", "check_reagent_examples", "enumerate_products"]

@@ -12,6 +12,7 @@ from predictors.errors import ChemistryError, ConfirmError, InputError
 from predictors.products._cations import _cation_routes
 from predictors.products._e1cb import _e1cb_routes
 from predictors.products._e2 import _e2_routes
+from predictors.products._ei import _ei_routes
 from predictors.products._geometry import apply_conformer_costs
 from predictors.products._records import ProductSet, _Context, _Route
 from predictors.products._shares import _pathway_shares
@@ -21,12 +22,16 @@ from predictors.substrate import LeavingGroup, Substrate, beta_carbons, perceive
 
 #: Share of the prior kept for unreacted starting material (common practice).
 _STARTING_MATERIAL_PRIOR = 0.1
+#: Fraction of a site expected to react below the usual temperature of its syn elimination.
+_TOO_COLD_FRACTION = 0.05
 
 # ----------------------------------------------------------------------------- assembly
 
 
-def _site_routes(ctx: _Context, lg: LeavingGroup) -> tuple[list[_Route], list[str]]:
+def _site_routes(ctx: _Context, lg: LeavingGroup) -> tuple[list[_Route], list[str], float]:
+    """Routes at one leaving group, notes, and the fraction of the site expected to react."""
     shares, why = _pathway_shares(ctx, lg)
+    reacts = 1.0
     betas = beta_carbons(ctx.substrate.mol, lg.alpha_idx, lg.lg_atom_idx)
     notes = []
     if not betas and lg.quality != "poor":
@@ -34,7 +39,16 @@ def _site_routes(ctx: _Context, lg: LeavingGroup) -> tuple[list[_Route], list[st
                      "substitution only")
     shares, cost_notes = apply_conformer_costs(ctx, lg, betas, shares)
     notes += cost_notes
+    if shares.get("Ei") and ctx.temp_c < lg.min_temp_c:
+        reacts = _TOO_COLD_FRACTION
+        notes.append(f"{lg.kind} at atom {lg.alpha_idx}: the syn elimination usually needs about "
+                     f"{lg.min_temp_c:g} C or more (common practice); at {ctx.temp_c:g} C little reaction "
+                     "expected")
+    if not shares:
+        notes.append(f"atom {lg.alpha_idx}: {why}")
     by_path: dict[str, list[_Route]] = {}
+    if shares.get("Ei") and betas:
+        by_path["Ei"] = _ei_routes(ctx, lg, betas)
     if shares.get("E1cB"):
         by_path["E1cB"] = _e1cb_routes(ctx, lg, betas)
     if shares.get("E2") and betas:
@@ -49,9 +63,9 @@ def _site_routes(ctx: _Context, lg: LeavingGroup) -> tuple[list[_Route], list[st
     total_share = sum(shares[k] for k in live) or 1.0
     routes = []
     for tag, items in live.items():
-        scale = shares[tag] / total_share / (sum(r.weight for r in items) or 1.0)
+        scale = reacts * shares[tag] / total_share / (sum(r.weight for r in items) or 1.0)
         routes += [replace(r, weight=r.weight * scale, rationale=f"{r.rationale} [{why}]") for r in items]
-    return routes, notes
+    return routes, notes, (1.0 - reacts) if routes else 0.0
 
 
 def _label_regio(routes: list[_Route]) -> list[_Route]:
@@ -128,8 +142,8 @@ def _resolve_solvent(reagent: Reagent, solvent: str | None) -> Reagent | None:
 
 def _check_temperature(temp_c: float) -> float:
     if isinstance(temp_c, bool) or not isinstance(temp_c, (int, float)) or not math.isfinite(temp_c) \
-            or not -100.0 <= temp_c <= 300.0:
-        raise InputError(f"temp_c: expected a temperature between -100 and 300 C, got {temp_c!r}")
+            or not -100.0 <= temp_c <= 600.0:
+        raise InputError(f"temp_c: expected a temperature between -100 and 600 C, got {temp_c!r}")
     return float(temp_c)
 
 
@@ -147,18 +161,20 @@ def _make_context(substrate: Substrate, reagent: Reagent, solvent: Reagent | Non
     )
 
 
-def _collect_routes(ctx: _Context) -> tuple[list[_Route], list[str]]:
-    routes, notes = [], []
+def _collect_routes(ctx: _Context) -> tuple[list[_Route], list[str], float]:
+    """Routes of every site, their notes, and the weight of starting material left unreacted."""
+    routes, notes, unreacted = [], [], 0.0
     n_sites = len(ctx.substrate.leaving_groups)
     for lg in ctx.substrate.leaving_groups:
         try:
-            site_routes, site_notes = _site_routes(ctx, lg)
+            site_routes, site_notes, left = _site_routes(ctx, lg)
         except ConfirmError as exc:
             msg = f"substrate: cannot enumerate products at atom {lg.alpha_idx}: {exc}"
             raise ChemistryError(msg) from exc
         routes += [replace(r, weight=r.weight / n_sites) for r in site_routes]
         notes += site_notes
-    return routes, notes
+        unreacted += left / n_sites
+    return routes, notes, unreacted
 
 
 def enumerate_products(substrate, *, reagent: str, solvent: str | None = None, temp_c: float = 25.0,
@@ -174,7 +190,7 @@ def enumerate_products(substrate, *, reagent: str, solvent: str | None = None, t
     solvent : str or None, keyword-only
         Solvent name; None uses the reagent's usual solvent.
     temp_c : float, keyword-only
-        Reaction temperature (C), -100 to 300.
+        Reaction temperature (C), -100 to 600 (ester pyrolyses run at 300-500 C).
     seed : int, keyword-only
         Seed of the conformer embedding (results repeat for a given seed).
 
@@ -194,28 +210,36 @@ def enumerate_products(substrate, *, reagent: str, solvent: str | None = None, t
     solvent_obj = _resolve_solvent(reagent_obj, solvent)
     temp = _check_temperature(temp_c)
     base = reagent_obj.is_base or (reagent_obj.pka_conj_acid or -99.0) >= 9.0
-    perceived = perceive_substrate(substrate, acid=reagent_obj.is_acid, base=base)
+    perceived = perceive_substrate(
+        substrate, acid=reagent_obj.is_acid, base=base and reagent_obj.kind != "activator",
+        heat=reagent_obj.kind == "thermal", oxidant=reagent_obj.kind == "oxidant",
+        activator=reagent_obj.activation in ("anti", "syn", "sn2"))
     ctx = _make_context(perceived, reagent_obj, solvent_obj, temp, seed)
     notes = list(perceived.notes)
     if solvent is None and solvent_obj is not None:
         notes.append(f"solvent not given: assumed {solvent_obj.name}")
+    if reagent_obj.caution:
+        notes.append(f"caution ({reagent_obj.name}): {reagent_obj.caution}")
     try:
-        routes, site_notes = _collect_routes(ctx)
+        routes, site_notes, unreacted = _collect_routes(ctx)
     except ChemistryError as exc:
         if "MMFF" not in str(exc) and "embedding" not in str(exc):
             raise
         notes.append(f"3D analysis unavailable ({exc}); geometries listed without it")
         ctx = replace(ctx, undefined_bonds=True, models={}, reports=[])
-        routes, site_notes = _collect_routes(ctx)
+        routes, site_notes, unreacted = _collect_routes(ctx)
     notes += site_notes
     if not routes:
+        why = [n.split(": ", 1)[1] for n in site_notes if n.startswith("atom ")]
+        reason = "; ".join(dict.fromkeys(why)) if why else "no beta-H and the reagent is not a nucleophile"
         raise ChemistryError(f"substrate: no elimination or substitution path with reagent "
-                             f"{reagent_obj.name!r} for {perceived.smiles!r} (no beta-H and the reagent "
-                             "is not a nucleophile)")
+                             f"{reagent_obj.name!r} for {perceived.smiles!r} ({reason})")
     total = sum(r.weight for r in routes) or 1.0
+    sm_why = "unreacted starting material (incomplete conversion is common)"
+    if unreacted > 0.0:
+        sm_why = "unreacted starting material (the conditions are too mild for the path it needs)"
     sm = _Route(perceived.smiles, ("starting material",), _STARTING_MATERIAL_PRIOR * total / (
-        1.0 - _STARTING_MATERIAL_PRIOR), "starting material", "unreacted starting material (incomplete "
-        "conversion is common)")
+        1.0 - _STARTING_MATERIAL_PRIOR) + unreacted, "starting material", sm_why)
     scale = 1.0 / (total + sm.weight)
     routes = _label_regio(routes)
     if _mirror_smiles(perceived.smiles) == perceived.smiles:

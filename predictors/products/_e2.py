@@ -30,8 +30,8 @@ from predictors.substrate import LeavingGroup
 
 #: Weight of a syn-periplanar E2 relative to anti from the same H (common practice: rare).
 _SYN_FACTOR = 0.02
-#: An H that cannot reach anti-periplanar within MAX_STRAIN_KCAL is weighted as if it cost this
-#: much: below every reachable H, listed but negligible (common practice).
+#: An H that cannot reach anti-periplanar within MAX_STRAIN_KCAL is weighted as if it cost at least
+#: this much (its own cost when higher): below every reachable H, listed but negligible.
 _BLOCKED_KCAL = 12.0
 
 # ----------------------------------------------------------------------------- E2
@@ -61,7 +61,7 @@ def _e2_from_3d(ctx: _Context, lg: LeavingGroup, beta: int, h_idx: int, mult: in
         notes = (conformer_note(res, strain, "anti"),)
     else:
         why = "no anti-periplanar arrangement for this H within reach"
-        weight = mult * math.exp(-_BLOCKED_KCAL / ctx.rt_kcal)
+        weight = mult * math.exp(-max(strain, _BLOCKED_KCAL) / ctx.rt_kcal)
         notes = ("H cannot reach anti-periplanar: minor at best",)
     for o in _alkene_outcomes(rw, a, b, cis_pairs=anti):
         out.append((o, weight, why, notes))

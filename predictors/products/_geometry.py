@@ -34,10 +34,12 @@ from predictors.substrate import LeavingGroup, beta_carbons
 #: Substrates larger than this (heavy atoms) are cut to a local model for the 3D work.
 _LOCAL_MODEL_ABOVE = 20
 _LOCAL_RADIUS = 2
-#: Tolerance (deg) of the syn-periplanar test of Ei eliminations: their cyclic transition
-#: states tolerate H-C-C-X dihedrals up to about 30 deg (common practice; Cope and selenoxide
-#: eliminations pass through five-membered rings that are nearly planar).
-SYN_TOLERANCE_DEG = 35.0
+#: Tolerance (deg) of the syn-periplanar test of Ei eliminations, by the size of the cyclic
+#: transition state (common practice; March's Advanced Organic Chemistry, from memory): the
+#: nearly planar five-membered rings of Cope, selenoxide and sulfoxide eliminations need the H
+#: within about 30 deg of the leaving atom; the six-membered rings of ester, xanthate and
+#: sulfamate (Burgess) eliminations reach a gauche H (about 60 deg) as well.
+SYN_TOLERANCE_DEG = {5: 35.0, 6: 65.0}
 
 
 def use_3d(ctx: _Context, lg: LeavingGroup, betas: tuple[int, ...]) -> bool:
@@ -76,6 +78,9 @@ def site_model(ctx: _Context, lg: LeavingGroup) -> SiteModel:
         for idx in ctx.undefined_atoms:
             mol_3d.GetAtomWithIdx(idx).SetChiralTag(Chem.ChiralType.CHI_TETRAHEDRAL_CW)
         Chem.AssignStereochemistry(mol_3d, cleanIt=True, force=True)
+        for atom in mol_3d.GetAtoms():
+            if atom.GetAtomicNum() == 34:
+                atom.SetAtomicNum(16)  # MMFF94 has no selenium: sulfur stands in for the geometry
         betas = beta_carbons(ctx.substrate.mol, lg.alpha_idx, lg.lg_atom_idx)
         if ctx.substrate.mol.GetNumHeavyAtoms() > _LOCAL_MODEL_ABOVE:
             mol_3d, mapping = local_model(mol_3d, centre=[lg.alpha_idx, *betas], radius=_LOCAL_RADIUS)
@@ -108,7 +113,10 @@ def periplanar_results(ctx: _Context, lg: LeavingGroup, betas, *, mode: str = "a
     if key in ctx.models:
         return ctx.models[key]
     model = site_model(ctx, lg)
-    target, tolerance = (180.0, {}) if mode == "anti" else (0.0, {"tolerance_deg": SYN_TOLERANCE_DEG})
+    if mode == "anti":
+        target, tolerance = 180.0, {}
+    else:
+        target, tolerance = 0.0, {"tolerance_deg": SYN_TOLERANCE_DEG[lg.ts_ring or 5]}
     results = {}
     for beta in betas:
         for h_idx, _ in beta_hydrogens(ctx, beta):

@@ -41,11 +41,58 @@ def _base_shares(lg: LeavingGroup, reagent: Reagent, protic: bool) -> tuple[dict
     return shares, f"{kind} on a {cls} carbon"
 
 
+_HALIDES = ("iodide", "bromide", "chloride")
+#: Share of the amine's own alkylation (quaternisation) at a primary, unhindered carbon: a minor
+#: path beside elimination (issue 18; common practice: tertiary amines and DBU alkylate primary
+#: alkyl halides, the Menshutkin reaction).
+_AMINE_ALKYLATION = 0.1
+
+
+def _is_amine_base(reagent: Reagent) -> bool:
+    """An amine or amidine base whose substitution product is its own alkylated (charged) form."""
+    return reagent.kind == "base" and bool(reagent.nucleophile_smiles) and "+" in reagent.nucleophile_smiles
+
+
+def _amine_alkylation(shares: dict[str, float], lg: LeavingGroup, why: str) -> tuple[dict[str, float], str]:
+    others = {k: v for k, v in shares.items() if k != "SN2"}
+    unhindered = lg.alpha_class in ("methyl", "primary") and "neopentyl-like" not in lg.alpha_flags
+    if not unhindered:
+        return others, why
+    total = sum(others.values())
+    if total <= 0.0:
+        return {"SN2": 1.0}, why + "; the amine alkylates the carbon"
+    out = {k: v * (1.0 - _AMINE_ALKYLATION) / total for k, v in others.items()}
+    out["SN2"] = _AMINE_ALKYLATION
+    return out, why + "; the amine itself alkylates a primary unhindered carbon (minor path)"
+
+
+def _activated_shares(lg: LeavingGroup, reagent: Reagent) -> tuple[dict[str, float], str]:
+    """Shares under a reagent that activates an alcohol or pulls off a halide (common practice)."""
+    if reagent.activation == "ionise":
+        if lg.kind not in _HALIDES:
+            return {}, f"{reagent.name} pulls off halides, not a {lg.kind}"
+        why = f"{reagent.name} pulls off the halide: carbocation, 1,2-shifts possible"
+        return {"SN1": 0.6, "E1": 0.4}, why
+    if lg.kind != "hydroxyl (activated)":
+        return {}, f"{reagent.name} activates alcohols; the {lg.kind} is left alone"
+    if reagent.activation == "anti":
+        return {"E2": 1.0}, f"{reagent.name}: activated alcohol, anti E2 by the amine (no cation, no shifts)"
+    if reagent.activation == "syn":
+        return {"Ei": 1.0}, f"{reagent.name}: activated alcohol eliminates syn (Ei)"
+    return {"SN2": 1.0}, f"{reagent.name}: activated alcohol displaced with inversion (SN2)"
+
+
 def _pathway_shares(ctx: _Context, lg: LeavingGroup) -> tuple[dict[str, float], str]:
     """Soft shares of each pathway at one site (references.md section 8, common practice)."""
     reagent, cls = ctx.reagent, lg.alpha_class
     cation_ok = cls in ("secondary", "tertiary") or lg.stabilised
-    if lg.quality == "poor":
+    if lg.quality == "syn":
+        shares, why = {"Ei": 1.0}, f"{lg.description}"
+    elif reagent.kind in ("thermal", "oxidant"):
+        shares, why = {}, f"{reagent.name} alone does not remove a {lg.kind}"
+    elif reagent.kind == "activator":
+        shares, why = _activated_shares(lg, reagent)
+    elif lg.quality == "poor":
         shares, why = {"E1cB": 1.0}, "poor leaving group beta to an anion-stabilising group: E1cB"
     elif lg.quality == "charged" and reagent.is_base:
         shares, why = {"E2": 0.95, "SN2": 0.05}, "charged leaving group with base: Hofmann elimination"
@@ -62,6 +109,8 @@ def _pathway_shares(ctx: _Context, lg: LeavingGroup) -> tuple[dict[str, float], 
         why = f"solvolysis of a {cls} carbon"
     else:
         shares, why = _base_shares(lg, reagent, _is_protic(ctx))
+    if _is_amine_base(reagent) and shares.get("SN2"):
+        shares, why = _amine_alkylation(shares, lg, why)
     tilt = math.exp((ctx.temp_c - 25.0) / _TEMP_SCALE_C)
     shares = {k: v * (tilt if k.startswith("E") else 1.0) for k, v in shares.items()}
     if not math.isclose(tilt, 1.0):
