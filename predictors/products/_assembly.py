@@ -9,7 +9,9 @@ from rdkit import Chem
 
 from predictors.core import PATHWAYS, Candidate
 from predictors.errors import ChemistryError, ConfirmError, InputError
+from predictors.products._allylic import one_four_eliminations, sn2_prime_routes
 from predictors.products._cations import _cation_routes
+from predictors.products._double import add_second_eliminations
 from predictors.products._e1cb import _e1cb_routes
 from predictors.products._e2 import _e2_routes
 from predictors.products._ei import _ei_routes
@@ -34,9 +36,14 @@ def _site_routes(ctx: _Context, lg: LeavingGroup) -> tuple[list[_Route], list[st
     reacts = 1.0
     betas = beta_carbons(ctx.substrate.mol, lg.alpha_idx, lg.lg_atom_idx)
     notes = []
+    conjugate = "allylic" in lg.alpha_flags and bool(one_four_eliminations(ctx, lg))
     if not betas and lg.quality != "poor":
-        notes.append(f"no beta-H next to atom {lg.alpha_idx} ({lg.kind}): elimination impossible, "
-                     "substitution only")
+        if conjugate:
+            notes.append(f"no beta-H next to atom {lg.alpha_idx} ({lg.kind}): only 1,4-elimination to a "
+                         "diene")
+        else:
+            notes.append(f"no beta-H next to atom {lg.alpha_idx} ({lg.kind}): elimination impossible, "
+                         "substitution only")
     shares, cost_notes = apply_conformer_costs(ctx, lg, betas, shares)
     notes += cost_notes
     if shares.get("Ei") and ctx.temp_c < lg.min_temp_c:
@@ -51,14 +58,16 @@ def _site_routes(ctx: _Context, lg: LeavingGroup) -> tuple[list[_Route], list[st
         by_path["Ei"] = _ei_routes(ctx, lg, betas)
     if shares.get("E1cB"):
         by_path["E1cB"] = _e1cb_routes(ctx, lg, betas)
-    if shares.get("E2") and betas:
+    if shares.get("E2") and (betas or conjugate):
         by_path["E2"] = _e2_routes(ctx, lg, betas)
     if shares.get("SN2"):
         by_path["SN2"] = _sn2_routes(ctx, lg)
     if shares.get("E1") or shares.get("SN1"):
         cation = _cation_routes(ctx, lg, shares)
-        for tag in ("E1", "SN1"):
-            by_path[tag] = [r for r in cation if tag in r.pathways]
+        by_path["E1"] = [r for r in cation if "E1" in r.pathways]
+        by_path["SN1"] = [r for r in cation if "SN1" in r.pathways or "SN1'" in r.pathways]
+    if shares.get("SN2'"):
+        by_path["SN2'"] = sn2_prime_routes(ctx, lg)
     live = {k: v for k, v in by_path.items() if v}
     total_share = sum(shares[k] for k in live) or 1.0
     routes = []
@@ -161,8 +170,12 @@ def _make_context(substrate: Substrate, reagent: Reagent, solvent: Reagent | Non
     )
 
 
-def _collect_routes(ctx: _Context) -> tuple[list[_Route], list[str], float]:
-    """Routes of every site, their notes, and the weight of starting material left unreacted."""
+def _collect_routes(ctx: _Context, *, second: bool = True) -> tuple[list[_Route], list[str], float]:
+    """Routes of every site, their notes, and the weight of starting material left unreacted.
+
+    With ``second``, products that can eliminate again under excess strong base are followed
+    (:mod:`predictors.products._double`, one level deep).
+    """
     routes, notes, unreacted = [], [], 0.0
     n_sites = len(ctx.substrate.leaving_groups)
     for lg in ctx.substrate.leaving_groups:
@@ -174,6 +187,8 @@ def _collect_routes(ctx: _Context) -> tuple[list[_Route], list[str], float]:
         routes += [replace(r, weight=r.weight / n_sites) for r in site_routes]
         notes += site_notes
         unreacted += left / n_sites
+    if second:
+        routes = add_second_eliminations(ctx, routes)
     return routes, notes, unreacted
 
 

@@ -1,4 +1,8 @@
-"""E1 and SN1: the carbocation, its 1,2-shifts to more stable cations, their alkenes and adducts."""
+"""E1 and SN1: the carbocation, its 1,2-shifts to more stable cations, their alkenes and adducts.
+
+An allylic cation is delocalised: its other end is listed as a form of its own, weighted by its
+substitution like any cation, and a nucleophile caught there gives the transposed product (SN1').
+"""
 
 from __future__ import annotations
 
@@ -124,7 +128,37 @@ def _cation_family(rw: Chem.RWMol, site: int) -> list[tuple[Chem.RWMol, int, flo
                 nxt.append((new, donor, new_score, f"{desc} to a {_class_name(new, donor)} cation"))
         family.extend(nxt)
         frontier = nxt
+    for cat, s, _, path in list(family):
+        for new, end in _allylic_partners(cat, s):
+            key = _cation_key(new)
+            if key is None or key in seen:
+                continue
+            seen.add(key)
+            desc = f"{path}, then allylic transposition" if path else "allylic transposition"
+            family.append((new, end, _cation_score(new, end), desc))
     return family
+
+
+def _allylic_partners(rw: Chem.RWMol, site: int):
+    """The other end of an allylic cation: C(+)-C=C written as C=C-C(+) (the same delocalised cation)."""
+    for mid in rw.GetAtomWithIdx(site).GetNeighbors():
+        if mid.GetAtomicNum() != 6 or mid.GetIsAromatic():
+            continue
+        for bond in mid.GetBonds():
+            end = bond.GetOtherAtom(mid)
+            if bond.GetBondType() != Chem.BondType.DOUBLE or end.GetIdx() == site or end.GetAtomicNum() != 6:
+                continue
+            new = Chem.RWMol(rw)
+            new.GetBondBetweenAtoms(site, mid.GetIdx()).SetBondType(Chem.BondType.DOUBLE)
+            new.GetBondBetweenAtoms(mid.GetIdx(), end.GetIdx()).SetBondType(Chem.BondType.SINGLE)
+            for b in new.GetAtomWithIdx(mid.GetIdx()).GetBonds():
+                b.SetStereo(Chem.BondStereo.STEREONONE)
+            for idx, charge in ((site, 0), (end.GetIdx(), 1)):
+                atom = new.GetAtomWithIdx(idx)
+                atom.SetFormalCharge(charge)
+                atom.SetChiralTag(Chem.ChiralType.CHI_UNSPECIFIED)
+                atom.SetNoImplicit(True)
+            yield new, end.GetIdx()
 
 
 def _ionise(ctx: _Context, lg: LeavingGroup) -> tuple[Chem.RWMol, int]:
@@ -184,7 +218,8 @@ def _cation_routes(ctx: _Context, lg: LeavingGroup, shares: dict[str, float]) ->
         if shares.get("E1"):
             routes += _e1_from_cation(ctx, cat, s, share * shares["E1"], notes, label_tail, group)
         if shares.get("SN1"):
-            routes += _sn1_from_cation(ctx, cat, s, share * shares["SN1"], notes, label_tail, group)
+            tag = "SN1'" if "allylic transposition" in path else "SN1"
+            routes += _sn1_from_cation(ctx, cat, s, share * shares["SN1"], notes, label_tail, group, tag)
     return routes
 
 
@@ -198,7 +233,7 @@ def _e1_from_cation(ctx, cat, site, share, notes, label_tail, group) -> list[_Ro
                    group, notes) for o, w in items]
 
 
-def _sn1_from_cation(ctx, cat, site, share, notes, label_tail, group) -> list[_Route]:
+def _sn1_from_cation(ctx, cat, site, share, notes, label_tail, group, tag="SN1") -> list[_Route]:
     nucs = _nucleophiles(ctx, for_cation=True)
     # An added nucleophile outcompetes the solvent (common practice): solvent weight 0.25 beside it.
     weights = [0.25 if solv and any(not other for _, _, other in nucs) else 1.0 for _, _, solv in nucs]
@@ -208,9 +243,9 @@ def _sn1_from_cation(ctx, cat, site, share, notes, label_tail, group) -> list[_R
         extra = (f"solvolysis by {name}",) if solvolysis else ()
         config = "both configurations" if len(outcomes) > 1 else "configuration lost"
         for o in outcomes:
-            why = f"SN1: {name} traps the {_class_name(cat, site)} cation ({config})"
+            why = f"{tag}: {name} traps the {_class_name(cat, site)} cation ({config})"
             weight = share * nuc_weight / (sum(weights) * len(outcomes))
-            routes.append(_Route(o.smiles, ("SN1",), weight,
+            routes.append(_Route(o.smiles, (tag,), weight,
                                  f"substitution ({name}){label_tail}", why, group=group, notes=notes + extra))
     return routes
 

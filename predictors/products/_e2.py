@@ -7,6 +7,7 @@ import math
 from rdkit import Chem
 
 from predictors.antiperiplanar import MAX_STRAIN_KCAL
+from predictors.products._allylic import one_four_eliminations
 from predictors.products._editing import (
     _alkene_outcomes,
     _geometry_weight,
@@ -106,6 +107,8 @@ def _e2_routes(ctx: _Context, lg: LeavingGroup, betas: tuple[int, ...]) -> list[
             else:
                 made = _e2_topological(ctx, lg, beta, h_idx, mult)
             made_here.extend((outcome, weight, why, notes, tags) for outcome, weight, why, notes in made)
+    if lg.alpha_flags and "allylic" in lg.alpha_flags:
+        made_here.extend((o, w, why, notes, ("E2",)) for o, w, why, notes in one_four_eliminations(ctx, lg))
     most = max((o.n_subst or 0 for o, *_ in made_here), default=0)
     least = min((o.n_subst or 0 for o, *_ in made_here), default=0)
     for outcome, weight, why, notes, tags in made_here:
@@ -114,6 +117,8 @@ def _e2_routes(ctx: _Context, lg: LeavingGroup, betas: tuple[int, ...]) -> list[
                      f"{_orientation_text(orient, factor, outcome.n_subst or 0, most, least)}; {why}")
         syn = any(n.startswith("syn") for n in notes)
         label = "alkene" + (", syn path" if syn else "")
+        if any(n.startswith("1,4-elimination") for n in notes):
+            label = "conjugated diene, 1,4-elimination"
         routes.append(_Route(outcome.smiles, tags, w, label, rationale, outcome.geometry,
                              outcome.n_subst, f"E2@{lg.alpha_idx}", notes))
     return routes

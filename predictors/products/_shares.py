@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import math
 
+from predictors.products._allylic import sn2_prime_factor
 from predictors.products._records import _Context
 from predictors.reagents import Reagent
 from predictors.substrate import LeavingGroup
@@ -111,6 +112,12 @@ def _pathway_shares(ctx: _Context, lg: LeavingGroup) -> tuple[dict[str, float], 
         shares, why = _base_shares(lg, reagent, _is_protic(ctx))
     if _is_amine_base(reagent) and shares.get("SN2"):
         shares, why = _amine_alkylation(shares, lg, why)
+    if "allylic" in lg.alpha_flags and reagent.is_nucleophile and reagent.activation != "sn2":
+        base = shares.get("SN2") or (0.2 if cls == "tertiary" else 0.0)
+        prime = base * sn2_prime_factor(ctx, lg)
+        if prime > 0.0:
+            shares = {**shares, "SN2'": prime}
+            why += "; allylic: SN2' at the far end of the C=C competes"
     tilt = math.exp((ctx.temp_c - 25.0) / _TEMP_SCALE_C)
     shares = {k: v * (tilt if k.startswith("E") else 1.0) for k, v in shares.items()}
     if not math.isclose(tilt, 1.0):
