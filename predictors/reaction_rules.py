@@ -78,6 +78,8 @@ class Rule:
     ts_ring : int
         Syn (Ei) groups and activated alcohols: size of the cyclic transition
         state (5 or 6), which sets how far from syn-periplanar the H may be.
+    caution : str
+        Hazard of the group or of what it releases, printed with the candidates.
     """
 
     name: str
@@ -91,6 +93,7 @@ class Rule:
     zaitsev_multiplier: float = 1.0
     min_temp_c: float = -100.0
     ts_ring: int = 0
+    caution: str = ""
 
 
 @dataclass(frozen=True)
@@ -114,6 +117,9 @@ class CompiledRule:
 
 _EWG = "$([CX3]=[OX1]),$([CX2]#[NX1]),$([NX3+](=O)[O-]),$([SX4](=O)(=O))"
 _POOR_LG = "$([OX2H1]),$([OX2][CX4]),$([OX2]C(=O)[#6]),$([NX3;!$(N-C=O);!$(N-a);!$(N=*)])"
+
+_SELENIUM_CAUTION = ("organoselenium compounds and the areneselenenic acid released are toxic and "
+                     "malodorous: fume hood, gloves, collect selenium waste separately")
 
 #: The rule table. Order matters within a kind: the first leaving-group rule
 #: that claims an (alpha, leaving atom) pair wins.
@@ -152,10 +158,12 @@ RULES: tuple[Rule, ...] = (
          "syn", "oxidant", 0.5, 100.0, 5),
     Rule("selenoxide", "leaving group", "[CX4:1]-[$([SeX3]=O),$([Se+][O-]):2]-[#6]",
          "CCC(C)[Se](=O)c1ccccc1", "CCC(C)[Se]c1ccccc1",
-         "selenoxide: syn elimination at or below room temperature", "syn", "any", 0.8, -20.0, 5),
+         "selenoxide: syn elimination at or below room temperature", "syn", "any", 0.8, -20.0, 5,
+         caution=_SELENIUM_CAUTION),
     Rule("selenide (oxidised in situ)", "leaving group", "[CX4:1]-[SeX2:2]-[#6]",
          "CCC(C)[Se]c1ccccc1", "CCC(C)Sc1ccccc1",
-         "selenide: selenoxide with an oxidant, then syn elimination", "syn", "oxidant", 0.8, -20.0, 5),
+         "selenide: selenoxide with an oxidant, then syn elimination", "syn", "oxidant", 0.8, -20.0,
+         5, caution=_SELENIUM_CAUTION),
     Rule("sulfoxide", "leaving group", "[CX4:1]-[$([SX3]=O),$([S+][O-]):2]-[#6]",
          "CCC(C)S(=O)c1ccccc1", "CCC(C)S(=O)(=O)c1ccccc1",
          "sulfoxide: syn elimination on heating", "syn", "heat", 0.8, 100.0, 5),

@@ -54,6 +54,8 @@ class LeavingGroup:
         Syn (Ei) groups: below this the elimination is too slow to expect.
     ts_ring : int
         Size of the cyclic transition state of a syn elimination (0 when not one).
+    caution : str
+        The rule's hazard note (empty when none).
     description : str
         The rule's one-line description.
     """
@@ -71,6 +73,7 @@ class LeavingGroup:
     min_temp_c: float = -100.0
     description: str = ""
     ts_ring: int = 0
+    caution: str = ""
 
     @property
     def stabilised(self) -> bool:
@@ -183,6 +186,7 @@ def _find_leaving_groups(mol: Chem.Mol, *, conditions: frozenset[str]
                 zaitsev_multiplier=rule.zaitsev_multiplier,
                 activated_betas=_activated_betas(mol, alpha, lg_atom),
                 min_temp_c=rule.min_temp_c, description=rule.description, ts_ring=rule.ts_ring,
+                caution=rule.caution,
             ))
     return groups, notes
 

@@ -235,6 +235,7 @@ def enumerate_products(substrate, *, reagent: str, solvent: str | None = None, t
         notes.append(f"solvent not given: assumed {solvent_obj.name}")
     if reagent_obj.caution:
         notes.append(f"caution ({reagent_obj.name}): {reagent_obj.caution}")
+    notes += [f"caution ({lg.kind}): {lg.caution}" for lg in perceived.leaving_groups if lg.caution]
     try:
         routes, site_notes, unreacted = _collect_routes(ctx)
     except ChemistryError as exc:

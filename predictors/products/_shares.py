@@ -80,6 +80,8 @@ def _activated_shares(lg: LeavingGroup, reagent: Reagent) -> tuple[dict[str, flo
         return {"E2": 1.0}, f"{reagent.name}: activated alcohol, anti E2 by the amine (no cation, no shifts)"
     if reagent.activation == "syn":
         return {"Ei": 1.0}, f"{reagent.name}: activated alcohol eliminates syn (Ei)"
+    if lg.alpha_class == "tertiary":
+        return {}, f"{reagent.name} needs an SN2, which a tertiary carbon does not undergo"
     return {"SN2": 1.0}, f"{reagent.name}: activated alcohol displaced with inversion (SN2)"
 
 

@@ -189,3 +189,8 @@ def test_heat_alone_does_not_remove_a_halide_and_the_range_is_checked():
         enumerate_products("CCC(C)Br", reagent="heat", temp_c=200.0)
     with pytest.raises(InputError, match="temp_c"):
         enumerate_products("CCC(C)OC(C)=O", reagent="heat", temp_c=700.0)
+
+
+def test_selenium_substrates_carry_a_caution():
+    products = _products("CCC(C)[Se]c1ccccc1", "H2O2")
+    assert any(n.startswith("caution (selenide") and "toxic" in n for n in products.notes)
