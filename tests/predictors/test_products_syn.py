@@ -4,13 +4,13 @@ from __future__ import annotations
 
 import functools
 
-import numpy as np
 import pytest
 from rdkit import Chem
-from rdkit.Chem import AllChem, rdCIPLabeler
+from rdkit.Chem import rdCIPLabeler
 
 from predictors.errors import ChemistryError, InputError
 from predictors.products import check_reagent_examples, enumerate_products
+from tests.predictors.stereo_checks import same_face
 
 CIS_OXIDE = "C[C@H]1CCCC[C@H]1[N+](C)(C)[O-]"  # cis-2-methylcyclohexyl dimethylamine N-oxide
 TRANS_OXIDE = "C[C@@H]1CCCC[C@H]1[N+](C)(C)[O-]"
@@ -33,25 +33,8 @@ def _prior(products, smiles: str) -> float:
     return {c.smiles: c.prior for c in products.candidates}.get(_canon(smiles), 0.0)
 
 
-def _same_face(smiles: str, a: int, b: int) -> bool:
-    """Whether the heavy substituents on ring atoms ``a`` and ``b`` sit on one face (3D check)."""
-    mol = Chem.AddHs(Chem.MolFromSmiles(smiles))
-    AllChem.EmbedMolecule(mol, randomSeed=1)
-    pos = mol.GetConformer().GetPositions()
-    ring = list(mol.GetRingInfo().AtomRings()[0])
-    normal = np.linalg.svd(pos[ring] - pos[ring].mean(axis=0))[2][2]
-
-    def face(atom: int) -> float:
-        nbrs = [n for n in mol.GetAtomWithIdx(atom).GetNeighbors() if n.GetIdx() not in ring]
-        heavy = next(n.GetIdx() for n in nbrs if n.GetAtomicNum() > 1)
-        hyd = next(n.GetIdx() for n in nbrs if n.GetAtomicNum() == 1)
-        return float(np.dot(pos[heavy] - pos[hyd], normal))
-
-    return face(a) * face(b) > 0
-
-
 def test_the_ring_test_molecules_are_cis_and_trans():
-    assert _same_face(CIS_OXIDE, 1, 6) and not _same_face(TRANS_OXIDE, 1, 6)
+    assert same_face(CIS_OXIDE, 1, 6) and not same_face(TRANS_OXIDE, 1, 6)
 
 
 def test_cope_elimination_needs_a_cis_beta_hydrogen():

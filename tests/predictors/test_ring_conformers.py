@@ -11,6 +11,7 @@ from rdkit.Chem import rdCIPLabeler
 from predictors.antiperiplanar import add_ring_forms, embed_conformers, find_periplanar
 from predictors.products import enumerate_products
 from predictors.ring_forms import build_ring_forms, chair_sign, ring_form, saturated_six_rings
+from tests.predictors.stereo_checks import same_face
 
 # (1R,2S,5R)-menthyl chloride and its C1 epimer (1S,2S,5R)-neomenthyl chloride: the chlorides of
 # menthol and neomenthol, (1R,2S,5R)- and (1S,2S,5R)-2-isopropyl-5-methylcyclohexanol (common
@@ -59,6 +60,13 @@ def _ring_labels(smiles: str) -> dict[str, str]:
 def test_stereo_descriptors_of_the_menthyl_test_molecules():
     assert _ring_labels(MENTHYL) == {"C1": "R", "C2": "S", "C5": "R"}
     assert _ring_labels(NEOMENTHYL) == {"C1": "S", "C2": "S", "C5": "R"}
+
+
+def test_cis_and_trans_of_the_ring_test_molecules():
+    # trans-/cis-1-bromo-2-methylcyclohexane: C2 is atom 1, C1 atom 6; 4-tert-butylcyclohexyl
+    # tosylates: C4 atom 4, C1 atom 7 (read from RDKit 3D coordinates).
+    assert not same_face(TRANS_BROMIDE, 1, 6) and same_face(CIS_BROMIDE, 1, 6)
+    assert same_face(CIS_TOSYLATE, 4, 7) and not same_face(TRANS_TOSYLATE, 4, 7)
 
 
 def test_both_chairs_are_built_and_the_flipped_menthyl_chair_costs_a_few_kcal():
