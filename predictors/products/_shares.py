@@ -47,6 +47,15 @@ _HALIDES = ("iodide", "bromide", "chloride")
 #: path beside elimination (issue 18; common practice: tertiary amines and DBU alkylate primary
 #: alkyl halides, the Menshutkin reaction).
 _AMINE_ALKYLATION = 0.1
+#: SN2 at a carbon that carries a second halogen, relative to a plain one: geminal dihalides are
+#: poor SN2 substrates and with strong base eliminate instead (common practice).
+_GEMINAL_SN2_FACTOR = 0.1
+
+
+def _geminal_halide(ctx: _Context, lg: LeavingGroup) -> bool:
+    """The alpha carbon carries another halogen besides the leaving group (a 1,1-dihalide)."""
+    return any(n.GetAtomicNum() in (9, 17, 35, 53) and n.GetIdx() != lg.lg_atom_idx
+               for n in ctx.substrate.mol.GetAtomWithIdx(lg.alpha_idx).GetNeighbors())
 
 
 def _is_amine_base(reagent: Reagent) -> bool:
@@ -112,6 +121,9 @@ def _pathway_shares(ctx: _Context, lg: LeavingGroup) -> tuple[dict[str, float], 
         why = f"solvolysis of a {cls} carbon"
     else:
         shares, why = _base_shares(lg, reagent, _is_protic(ctx))
+    if shares.get("SN2") and _geminal_halide(ctx, lg):
+        shares = {**shares, "SN2": shares["SN2"] * _GEMINAL_SN2_FACTOR}
+        why += "; a second halogen on the same carbon slows SN2"
     if _is_amine_base(reagent) and shares.get("SN2"):
         shares, why = _amine_alkylation(shares, lg, why)
     if "allylic" in lg.alpha_flags and reagent.is_nucleophile and reagent.activation != "sn2":

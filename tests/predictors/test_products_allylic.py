@@ -94,3 +94,12 @@ def test_vinyl_bromide_geometry_from_anti_elimination_decides_how_fast_the_alkyn
 def test_no_second_elimination_without_a_strong_base():
     products = _products(DL_DIBROMOBUTANE, "sodium azide")
     assert _prior(products, "CC#CC") == 0.0 and _prior(products, "C=CC=C") == 0.0
+
+
+def test_geminal_dibromide_with_excess_amide_gives_vinyl_bromides_and_the_alkyne():
+    # 1,1-dibromobutane + NaNH2: HBr lost once to the 1-bromobut-1-enes (E over Z from the anti
+    # rotamers), again to but-1-yne; SN2 at a CHBr2 carbon is slow (common practice).
+    products = _products("CCCC(Br)Br", "NaNH2")
+    e_vinyl, z_vinyl = _prior(products, "CC/C=C/Br"), _prior(products, "CC/C=C\\Br")
+    assert e_vinyl > z_vinyl > 0.0 and _prior(products, "C#CCC") > 0.05
+    assert products.candidates[0].smiles == _canon("CC/C=C/Br")
