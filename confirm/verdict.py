@@ -19,8 +19,8 @@ from predictors.errors import InputError
 
 __all__ = ["decide", "alkene_facts", "AlkeneFacts"]
 
-_ELIMINATION = {"E2", "E1", "E1cB"}
-_SUBSTITUTION = {"SN2", "SN1"}
+_ELIMINATION = {"E2", "E1", "E1cB", "Ei"}
+_SUBSTITUTION = {"SN2", "SN1", "SN2'", "SN1'"}
 
 
 @dataclass(frozen=True)

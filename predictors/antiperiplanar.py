@@ -1,14 +1,26 @@
-"""Three-dimensional test of the anti-periplanar requirement of E2.
+"""Three-dimensional test of the periplanar requirement of eliminations (anti for E2, syn for Ei).
 
 Conformers are embedded with ETKDG and minimised with MMFF94 once per
-substrate; each beta-H is then driven to an H-C-C-LG dihedral of 180 deg (anti)
-or 0 deg (syn) by a constrained minimisation started from the conformer
-closest to that dihedral. The strain energy is the unconstrained MMFF energy of
-the constrained geometry minus the lowest conformer energy. The substituents
-that face each other in that geometry become cis in the alkene (dihedral
-below 90 deg), which fixes the alkene geometry. In cyclohexanes the anti
-geometry is only reached with both groups axial; :func:`is_axial` tells which
-chair a geometry is in, so the cost of a ring flip can be reported.
+substrate. Rings are not left to chance: :func:`add_ring_forms` builds both
+chairs of every saturated six-membered ring at the site (and its twist-boats when
+no chair within reach puts the leaving group axial), each at its best
+side-chain rotamers (:mod:`predictors.ring_forms`). For each beta-H,
+:func:`find_periplanar` then looks for the lowest-energy conformer in which the
+H-C-C-LG dihedral is 180 deg (anti) or 0 deg (syn):
+
+* bond in a six-membered ring: among the chairs and twist-boats, the lowest
+  one with the dihedral within tolerance (a trans-diaxial pair in a chair);
+  a conformer a little off is driven to the target by a restrained
+  minimisation that must keep its ring form;
+* any other bond: the staggered rotamer with that H anti (or the eclipsed one
+  with it syn), reached by a restrained minimisation from the lowest
+  conformer of every ring form present and from the conformer nearest to the
+  target, then released.
+
+The energy above the global minimum (every conformer seen), the conformer's
+form and whether the ring had to flip are reported. The substituents that
+face each other in that geometry become cis in the alkene (dihedral below
+90 deg), which fixes the alkene geometry.
 """
 
 from __future__ import annotations
@@ -21,15 +33,24 @@ from rdkit.Chem import AllChem, rdMolTransforms
 from rdkit.Chem import rdForceFieldHelpers as ff_helpers  # noqa: N813
 
 from predictors.errors import ChemistryError, InputError
+from predictors.local_model import local_model
+from predictors.ring_forms import RING_FORMS, build_ring_forms, chair_sign, ring_form, saturated_six_rings
 
 __all__ = [
-    "ConformerSet", "PeriplanarResult", "embed_conformers", "find_periplanar", "is_axial", "local_model",
+    "ConformerSet", "PeriplanarResult", "add_ring_forms", "embed_conformers", "find_periplanar", "is_axial",
+    "local_model",
 ]
 
-#: Largest strain (kcal/mol) at which a periplanar conformer still counts as
-#: reachable at room temperature (common practice: a few kcal/mol are paid
-#: routinely, e.g. a cyclohexane ring flip to an axial group; 10 is a generous bound).
-MAX_STRAIN_KCAL = 10.0
+#: Largest strain (kcal/mol) at which a periplanar conformer still counts as reachable
+#: (issue 18: a flipped menthyl chair costs about 4-6 kcal/mol and must count; the cost
+#: itself enters the prior as a Boltzmann factor, so the bound only separates "costly"
+#: from "not within reach").
+MAX_STRAIN_KCAL = 8.0
+#: Twist-boats are built when no chair within this much of the lowest conformer puts the
+#: leaving group axial: a cyclohexane twist-boat lies about 5.5 kcal/mol above the chair
+#: (Eliel and Wilen, Stereochemistry of Organic Compounds, 1994; from memory), so below
+#: this a twist-boat cannot be the cheaper way to an axial leaving group.
+TWIST_BOAT_TRIGGER_KCAL = 4.0
 #: Largest deviation (deg) from the target dihedral that still counts as periplanar.
 TOLERANCE_DEG = 20.0
 _RESTRAINT_KCAL = 500.0
@@ -47,11 +68,15 @@ class ConformerSet:
     conf_ids : tuple of int
     energies_kcal : tuple of float
         MMFF94 energy of each conformer (kcal/mol).
+    forms : tuple of str
+        How each conformer was made: ``"embedded"`` or ``"built"`` (a ring form made on
+        purpose by :func:`add_ring_forms`); empty means all embedded.
     """
 
     mol: Chem.Mol
     conf_ids: tuple[int, ...]
     energies_kcal: tuple[float, ...]
+    forms: tuple[str, ...] = ()
 
     @property
     def min_energy_kcal(self) -> float:
@@ -75,15 +100,14 @@ class PeriplanarResult:
     target_deg : float
         180 (anti) or 0 (syn).
     dihedral_deg : float
-        Dihedral reached by the constrained minimisation.
+        Dihedral in the chosen conformer.
     strain_kcal : float
         Unconstrained energy of that geometry above the lowest conformer.
     reachable : bool
-        Dihedral within :data:`TOLERANCE_DEG`, strain below :data:`MAX_STRAIN_KCAL`
-        and, when both carbons are in a six-membered ring, that ring a chair
-        (so the H and the leaving group are trans-diaxial).
+        Periplanar and strain at most :data:`MAX_STRAIN_KCAL`.
     periplanar : bool
-        Dihedral within tolerance (and chair, in a six-membered ring), whatever the strain.
+        Dihedral within tolerance, whatever the strain; for an anti target with both
+        carbons in a six-membered ring, that ring must also be a chair or a twist-boat.
     energy_kcal : float
         Unconstrained MMFF94 energy of the periplanar geometry.
     relaxed_kcal : float
@@ -95,6 +119,12 @@ class PeriplanarResult:
         each other and end up cis in the alkene.
     lg_axial : bool or None
         Six-membered ring only: whether the leaving group is axial in that geometry.
+    conformer : str
+        The conformer that makes the H periplanar: ``"chair"``, ``"flipped chair"``,
+        ``"twist-boat"``, ``"distorted ring"`` or ``"rotamer"`` (open chain or exocyclic bond).
+    ring_flip : bool
+        True when a ring holding the alpha carbon is in the other chair (or out of the
+        chair) compared with the lowest conformer.
     """
 
     h_idx: int
@@ -110,6 +140,8 @@ class PeriplanarResult:
     relaxed_kcal: float
     cis_pairs: tuple[tuple[int, int], ...]
     lg_axial: bool | None
+    conformer: str = "rotamer"
+    ring_flip: bool = False
 
 
 def embed_conformers(mol: Chem.Mol, *, n_conformers: int = 6, seed: int = 0xC0FFEE) -> ConformerSet:
@@ -175,13 +207,23 @@ def _align_hydrogen_labels(mol: Chem.Mol, cids: list[int]) -> list[int]:
 
 
 def _restore_labels(mol: Chem.Mol, conf, ref_signs: tuple[bool, ...]) -> bool:
-    """Swap H pairs back to the reference handedness; False when a true stereocentre differs."""
+    """Swap H pairs back to the reference handedness; False when a true stereocentre differs.
+
+    An atom with fewer than two H but two equivalent neighbours (the CH of an isopropyl, the
+    quaternary carbon of a tert-butyl) is no stereocentre: its neighbours may come out either
+    way round, which changes nothing that is asked later.
+    """
     centres = [a for a in mol.GetAtoms() if a.GetDegree() == 4]
+    ranks = None
     for atom, ref, now in zip(centres, ref_signs, _handedness(mol, conf), strict=True):
         if ref == now:
             continue
         hs = [n.GetIdx() for n in atom.GetNeighbors() if n.GetAtomicNum() == 1]
         if len(hs) < 2:
+            if ranks is None:
+                ranks = list(Chem.CanonicalRankAtoms(mol, breakTies=False))
+            if len({ranks[n.GetIdx()] for n in atom.GetNeighbors()}) < 4:
+                continue
             return False
         first, second = conf.GetAtomPosition(hs[0]), conf.GetAtomPosition(hs[1])
         conf.SetAtomPosition(hs[0], second)
@@ -189,112 +231,9 @@ def _restore_labels(mol: Chem.Mol, conf, ref_signs: tuple[bool, ...]) -> bool:
     return True
 
 
-def _local_atoms(mol: Chem.Mol, centre, radius: int) -> set[int]:
-    heavy = [a.GetIdx() for a in mol.GetAtoms() if a.GetAtomicNum() > 1]
-    dist = Chem.GetDistanceMatrix(mol)
-    keep = {i for i in heavy if min(dist[c][i] for c in centre) <= radius}
-    rings = [set(r) for r in mol.GetRingInfo().AtomRings()]
-    changed = True
-    while changed:
-        changed = False
-        for ring in rings:
-            if keep & ring and not ring <= keep:
-                keep |= ring
-                changed = True
-        for bond in mol.GetBonds():
-            ends = {bond.GetBeginAtomIdx(), bond.GetEndAtomIdx()}
-            if bond.GetBondType() != Chem.BondType.SINGLE and len(ends & keep) == 1:
-                keep |= ends
-                changed = True
-    return keep
-
-
-def local_model(mol: Chem.Mol, *, centre, radius: int = 3) -> tuple[Chem.Mol, dict[int, int]]:
-    """Cut a molecule down to the atoms within ``radius`` bonds of ``centre``.
-
-    Whole rings and both ends of multiple bonds are kept; each cut single bond
-    is capped by turning the first atom outside into a methyl carbon, so every
-    kept stereocentre keeps its neighbours (and its configuration). Hydrogens of
-    kept atoms keep their identity, so diastereotopic H can be followed.
-
-    Parameters
-    ----------
-    mol : rdkit.Chem.Mol
-        Molecule with explicit hydrogens.
-    centre : iterable of int
-        Atoms the model is built around (e.g. the alpha and beta carbons).
-    radius : int, keyword-only
-        Bonds from ``centre`` to keep.
-
-    Returns
-    -------
-    model : rdkit.Chem.Mol
-        Capped fragment with explicit hydrogens.
-    mapping : dict of int to int
-        Original atom index -> model atom index, for every kept heavy atom and its H.
-    """
-    centre = list(centre)
-    keep = _local_atoms(mol, centre, radius)
-    caps = {n.GetIdx() for i in keep for n in mol.GetAtomWithIdx(i).GetNeighbors()
-            if n.GetAtomicNum() > 1 and n.GetIdx() not in keep}
-    retained = set(keep) | caps
-    retained |= {n.GetIdx() for i in keep for n in mol.GetAtomWithIdx(i).GetNeighbors()
-                 if n.GetAtomicNum() == 1}
-    rw = Chem.RWMol(mol)
-    for atom in rw.GetAtoms():
-        atom.SetIntProp("_local", atom.GetIdx())
-    for idx in sorted(set(range(mol.GetNumAtoms())) - retained, reverse=True):
-        rw.RemoveAtom(idx)
-    cap_new = []
-    for atom in rw.GetAtoms():
-        if atom.GetIntProp("_local") in caps:
-            atom.SetAtomicNum(6)
-            atom.SetFormalCharge(0)
-            atom.SetIsAromatic(False)
-            atom.SetChiralTag(Chem.ChiralType.CHI_UNSPECIFIED)
-            atom.SetNoImplicit(False)
-            atom.SetNumExplicitHs(0)
-            cap_new.append(atom.GetIdx())
-    for bond in rw.GetBonds():
-        if bond.GetBeginAtom().GetIntProp("_local") in caps or bond.GetEndAtom().GetIntProp("_local") in caps:
-            bond.SetBondType(Chem.BondType.SINGLE)
-            bond.SetIsAromatic(False)
-    model = rw.GetMol()
-    Chem.SanitizeMol(model)
-    model = Chem.AddHs(model, onlyOnAtoms=tuple(cap_new))
-    mapping = {a.GetIntProp("_local"): a.GetIdx() for a in model.GetAtoms()
-               if a.HasProp("_local") and a.GetIntProp("_local") not in caps}
-    return model, mapping
-
-
 def _angle_gap(a_deg: float, b_deg: float) -> float:
     return abs((a_deg - b_deg + 180.0) % 360.0 - 180.0)
 
-
-def _starts(confs: ConformerSet, atoms, target_deg: float, ring):
-    """Start geometries, best first; in a six-membered ring the flipped lowest chair comes third."""
-    cids = _start_conformers(confs, atoms, target_deg)
-    for n, cid in enumerate(cids):
-        if n == 2 and ring is not None:
-            flipped = _flipped_chair(Chem.Mol(confs.mol, confId=confs.lowest_conf_id), ring)
-            if flipped is not None:
-                yield flipped
-        yield Chem.Mol(confs.mol, confId=cid)
-
-
-def _start_conformers(confs: ConformerSet, atoms: tuple[int, int, int, int], target_deg: float) -> list[int]:
-    """Closest conformer to the target dihedral, the lowest one, then up to three more by closeness.
-
-    The caller stops after the first two when they already give a periplanar geometry, so the
-    extra starts are only paid for hydrogens that are hard to bring anti (e.g. a ring flip).
-    """
-    gaps = [
-        _angle_gap(rdMolTransforms.GetDihedralDeg(confs.mol.GetConformer(cid), *atoms), target_deg)
-        for cid in confs.conf_ids
-    ]
-    by_gap = [confs.conf_ids[i] for i in np.argsort(gaps, kind="stable")]
-    order = [by_gap[0]] + [confs.lowest_conf_id] + by_gap[1:]
-    return list(dict.fromkeys(order))[:5]
 
 
 def _handedness(mol: Chem.Mol, conf) -> tuple[bool, ...]:
@@ -309,10 +248,12 @@ def _handedness(mol: Chem.Mol, conf) -> tuple[bool, ...]:
     return tuple(signs)
 
 
+
 def _positions_into(mol: Chem.Mol, field) -> None:
     conf = mol.GetConformer()
     for i, xyz in enumerate(np.asarray(field.Positions()).reshape(-1, 3)):
         conf.SetAtomPosition(i, xyz.tolist())
+
 
 
 def _constrained_minimum(start: Chem.Mol, atoms, target_deg: float) -> tuple[Chem.Mol, float]:
@@ -329,27 +270,6 @@ def _constrained_minimum(start: Chem.Mol, atoms, target_deg: float) -> tuple[Che
     energy = ff_helpers.MMFFGetMoleculeForceField(mol, props).CalcEnergy()
     return mol, float(energy)
 
-
-def _flipped_chair(start: Chem.Mol, ring: tuple[int, ...]) -> Chem.Mol | None:
-    """The other chair: every ring torsion driven to minus its value, then released."""
-    mol = Chem.Mol(start)
-    before = _handedness(mol, mol.GetConformer())
-    quads = [tuple(ring[(i + k) % 6] for k in range(4)) for i in range(6)]
-    props = ff_helpers.MMFFGetMoleculeProperties(mol)
-    field = ff_helpers.MMFFGetMoleculeForceField(mol, props)
-    for quad in quads:
-        flipped = -rdMolTransforms.GetDihedralDeg(mol.GetConformer(), *quad)
-        field.MMFFAddTorsionConstraint(*quad, False, flipped - 5.0, flipped + 5.0, 100.0)
-    field.Minimize(maxIts=_MAX_ITERS)
-    _positions_into(mol, field)
-    if not _restore_labels(mol, mol.GetConformer(), before):
-        return None
-    field = ff_helpers.MMFFGetMoleculeForceField(mol, props)
-    field.Minimize(maxIts=_MAX_ITERS)
-    _positions_into(mol, field)
-    if _handedness(mol, mol.GetConformer()) != before or not _is_chair(mol, ring):
-        return None
-    return mol
 
 
 def is_axial(mol: Chem.Mol, *, ring_atom: int, substituent: int, conf_id: int = -1) -> bool | None:
@@ -371,6 +291,7 @@ def is_axial(mol: Chem.Mol, *, ring_atom: int, substituent: int, conf_id: int = 
     return bool(cos > np.cos(np.radians(35.0)))
 
 
+
 def _relaxed_energy(mol: Chem.Mol, energy: float) -> float:
     if not np.isfinite(energy):
         return float("inf")
@@ -387,21 +308,6 @@ def _relaxed_energy(mol: Chem.Mol, energy: float) -> float:
     return float(field.CalcEnergy())
 
 
-def _shared_six_ring(mol: Chem.Mol, a: int, b: int) -> tuple[int, ...] | None:
-    for ring in mol.GetRingInfo().AtomRings():
-        if len(ring) == 6 and a in ring and b in ring:
-            return ring
-    return None
-
-
-def _is_chair(mol: Chem.Mol, ring: tuple[int, ...]) -> bool:
-    """Chair: ring torsions alternate in sign and none is near zero (twist and boat forms fail)."""
-    conf = mol.GetConformer()
-    quads = [tuple(ring[(i + k) % 6] for k in range(4)) for i in range(6)]
-    torsions = [rdMolTransforms.GetDihedralDeg(conf, *quad) for quad in quads]
-    alternating = all(torsions[i] * torsions[(i + 1) % 6] < 0 for i in range(6))
-    return alternating and min(abs(t) for t in torsions) > 30.0
-
 
 def _cis_pairs(mol: Chem.Mol, h_idx: int, beta: int, alpha: int, lg: int) -> tuple[tuple[int, int], ...]:
     conf = mol.GetConformer()
@@ -415,43 +321,195 @@ def _cis_pairs(mol: Chem.Mol, h_idx: int, beta: int, alpha: int, lg: int) -> tup
     )
 
 
-def find_periplanar(confs: ConformerSet, *, h_idx: int, beta_idx: int, alpha_idx: int, lg_idx: int,
-                    target_deg: float = 180.0) -> PeriplanarResult:
-    """Drive H-C(beta)-C(alpha)-LG to ``target_deg`` and report reachability and strain.
+
+def add_ring_forms(confs: ConformerSet, *, around, lg_idx: int, seed: int) -> ConformerSet:
+    """Add both chairs of every saturated six-membered ring at the site, and twist-boats if needed.
 
     Parameters
     ----------
     confs : ConformerSet
-        Conformers of the substrate (reused for every beta-H).
+        Embedded conformers; its first conformer sets the hydrogen labelling.
+    around : iterable of int
+        Atoms whose rings are enumerated (the alpha and beta carbons).
+    lg_idx : int
+        The leaving-group atom. When no chair within :data:`TWIST_BOAT_TRIGGER_KCAL` of the
+        lowest conformer puts it axial on a ring holding its carbon, the twist-boats of that
+        ring are built too.
+    seed : int
+        Seed of the constrained embeddings (results repeat).
+
+    Returns
+    -------
+    ConformerSet
+        The input conformers and the built ones (``forms`` says which is which).
+    """
+    around = list(around)
+    rings = saturated_six_rings(confs.mol, around)
+    if not rings:
+        return confs
+    mol = Chem.Mol(confs.mol)
+    ref = _handedness(mol, mol.GetConformer(confs.conf_ids[0]))
+    ids, energies = list(confs.conf_ids), list(confs.energies_kcal)
+    forms = list(confs.forms) or ["embedded"] * len(ids)
+    template = Chem.Mol(confs.mol, confId=confs.conf_ids[0])
+
+    def add(built) -> None:
+        for form_mol, energy, _ in built:
+            cid = mol.AddConformer(form_mol.GetConformer(), assignId=True)
+            if _restore_labels(mol, mol.GetConformer(cid), ref):
+                ids.append(cid)
+                energies.append(energy)
+                forms.append("built")
+            else:
+                mol.RemoveConformer(cid)
+
+    for n, ring in enumerate(rings):
+        add(build_ring_forms(template, ring, seed=seed + 101 * n))
+    alpha = next(n.GetIdx() for n in mol.GetAtomWithIdx(lg_idx).GetNeighbors() if n.GetIdx() in around)
+    for n, ring in enumerate(rings):
+        if alpha not in ring:
+            continue
+        low = min(energies)
+        axial_chair = any(
+            e - low <= TWIST_BOAT_TRIGGER_KCAL and ring_form(mol, ring, cid) == "chair"
+            and is_axial(mol, ring_atom=alpha, substituent=lg_idx, conf_id=cid)
+            for cid, e in zip(ids, energies, strict=True))
+        if not axial_chair:
+            add(build_ring_forms(template, ring, seed=seed + 101 * n + 53, chairs=False, twist_boats=True))
+    return ConformerSet(mol=mol, conf_ids=tuple(ids), energies_kcal=tuple(energies), forms=tuple(forms))
+
+
+def _shared_six_ring(mol: Chem.Mol, a: int, b: int) -> tuple[int, ...] | None:
+    for ring in saturated_six_rings(mol, [a]):
+        if b in ring:
+            return ring
+    return None
+
+
+def _dihedral(mol: Chem.Mol, atoms, conf_id: int = -1) -> float:
+    return rdMolTransforms.GetDihedralDeg(mol.GetConformer(conf_id), *atoms)
+
+
+def _in_ring(confs: ConformerSet, atoms, target_deg: float, ring, tolerance_deg: float):
+    """Lowest chair or twist-boat with the dihedral at the target (or driven there keeping its form)."""
+    best, refined = None, 0
+    for i in np.argsort(confs.energies_kcal, kind="stable"):
+        energy = confs.energies_kcal[i]
+        if best is not None and energy >= best[1]:
+            break  # sorted: nothing later can be lower
+        start = Chem.Mol(confs.mol, confId=confs.conf_ids[i])
+        form = ring_form(start, ring)
+        if form not in RING_FORMS:
+            continue
+        gap = _angle_gap(_dihedral(start, atoms), target_deg)
+        if gap <= tolerance_deg:
+            return start, energy, energy
+        if gap <= tolerance_deg + 30.0 and refined < 3:
+            refined += 1
+            mol, driven = _constrained_minimum(start, atoms, target_deg)
+            if np.isfinite(driven) and ring_form(mol, ring) == form and (best is None or driven < best[1]):
+                best = (mol, driven, _relaxed_energy(mol, driven))
+    return best
+
+
+def _ring_key(mol: Chem.Mol, rings, conf_id: int) -> tuple:
+    return tuple((ring_form(mol, ring, conf_id), chair_sign(mol, ring, conf_id)) for ring in rings)
+
+
+def _rotamer(confs: ConformerSet, atoms, target_deg: float, tolerance_deg: float):
+    """Drive the dihedral to the target from the lowest conformer of each ring form and the nearest one."""
+    rings = saturated_six_rings(confs.mol, [atoms[1], atoms[2]])
+    order = [confs.conf_ids[i] for i in np.argsort(confs.energies_kcal, kind="stable")]
+    by_key: dict = {}
+    for cid in order:
+        by_key.setdefault(_ring_key(confs.mol, rings, cid), cid)
+    gaps = [_angle_gap(_dihedral(confs.mol, atoms, cid), target_deg) for cid in confs.conf_ids]
+    nearest = confs.conf_ids[int(np.argmin(gaps))]
+    starts = list(dict.fromkeys([*list(by_key.values())[:3], nearest, *order[:3]]))[:5]
+    best = None
+    for cid in starts:
+        mol, driven = _constrained_minimum(Chem.Mol(confs.mol, confId=cid), atoms, target_deg)
+        if not np.isfinite(driven):
+            continue
+        relaxed = Chem.Mol(mol)
+        relaxed_e = _relax_in_place(relaxed)
+        # released, a staggered rotamer stays put (a minimum of its own); an eclipsed one drifts
+        # away and its restrained energy is what the path pays
+        if np.isfinite(relaxed_e) and _angle_gap(_dihedral(relaxed, atoms), target_deg) <= TOLERANCE_DEG:
+            candidate = (relaxed, relaxed_e, relaxed_e)
+        else:
+            candidate = (mol, driven, relaxed_e)
+        if best is None or candidate[1] < best[1] - 1e-6:
+            best = candidate
+    if best is None:
+        low = Chem.Mol(confs.mol, confId=confs.lowest_conf_id)
+        return low, float("inf"), float("inf")
+    return best
+
+
+def _relax_in_place(mol: Chem.Mol) -> float:
+    before = _handedness(mol, mol.GetConformer())
+    props = ff_helpers.MMFFGetMoleculeProperties(mol)
+    field = ff_helpers.MMFFGetMoleculeForceField(mol, props)
+    field.Minimize(maxIts=_MAX_ITERS)
+    _positions_into(mol, field)
+    if _handedness(mol, mol.GetConformer()) != before:
+        return float("inf")
+    return float(field.CalcEnergy())
+
+
+def _describe(confs: ConformerSet, mol: Chem.Mol, alpha_idx: int) -> tuple[str, bool]:
+    """Name of the conformer's shape and whether the ring holding the alpha carbon left its lowest chair."""
+    rings = saturated_six_rings(confs.mol, [alpha_idx])
+    if not rings:
+        return "rotamer", False
+    lowest = Chem.Mol(confs.mol, confId=confs.lowest_conf_id)
+    form, ring = ring_form(mol, rings[0]), rings[0]
+    if form == "chair":
+        flipped = chair_sign(mol, ring) != chair_sign(lowest, ring)
+        return ("flipped chair" if flipped else "chair"), flipped
+    return ("twist-boat" if form == "twist-boat" else "distorted ring"), True
+
+
+def find_periplanar(confs: ConformerSet, *, h_idx: int, beta_idx: int, alpha_idx: int, lg_idx: int,
+                    target_deg: float = 180.0, tolerance_deg: float = TOLERANCE_DEG) -> PeriplanarResult:
+    """The lowest-energy conformer with H-C(beta)-C(alpha)-LG at ``target_deg``, and its cost.
+
+    Parameters
+    ----------
+    confs : ConformerSet
+        Conformers of the substrate (reused for every beta-H), ideally with
+        :func:`add_ring_forms` applied.
     h_idx, beta_idx, alpha_idx, lg_idx : int, keyword-only
         Atom indices in ``confs.mol``.
     target_deg : float, keyword-only
         180 for anti-periplanar, 0 for syn-periplanar.
+    tolerance_deg : float, keyword-only
+        Largest deviation from the target that counts as periplanar.
     """
     atoms = (h_idx, beta_idx, alpha_idx, lg_idx)
     ring = _shared_six_ring(confs.mol, alpha_idx, beta_idx)
-    best = None
-    for n_tried, start in enumerate(_starts(confs, atoms, target_deg, ring)):
-        if n_tried >= 2 and not best[0][0]:
-            break  # a periplanar geometry was found from the first two starts
-        mol, energy = _constrained_minimum(start, atoms, target_deg)
-        dihedral = rdMolTransforms.GetDihedralDeg(mol.GetConformer(), *atoms)
-        bad = _angle_gap(dihedral, target_deg) > TOLERANCE_DEG or not np.isfinite(energy) or (
-            ring is not None and not _is_chair(mol, ring))
-        score = (bad, energy)
-        if best is None or score < best[0]:
-            best = (score, mol, energy, dihedral)
-    _, mol, energy, dihedral = best
-    strain = max(0.0, energy - confs.min_energy_kcal)
-    if not np.isfinite(strain):
-        strain = 99.0  # every start inverted a centre: not reachable
-    chair_ok = ring is None or _is_chair(mol, ring)
-    periplanar = chair_ok and _angle_gap(dihedral, target_deg) <= TOLERANCE_DEG and np.isfinite(energy)
+    found = _in_ring(confs, atoms, target_deg, ring, tolerance_deg) if ring is not None else None
+    if found is None and ring is not None and abs(target_deg) > 90.0:
+        # anti in a six-membered ring: the chairs and twist-boats were all looked at; forcing the
+        # dihedral through a distorted ring would only report a cost far beyond reach
+        low = Chem.Mol(confs.mol, confId=confs.lowest_conf_id)
+        found = (low, float("inf"), float("inf"))
+    elif found is None:
+        found = _rotamer(confs, atoms, target_deg, tolerance_deg)
+    mol, energy, relaxed = found
+    dihedral = _dihedral(mol, atoms)
+    strain = max(0.0, energy - confs.min_energy_kcal) if np.isfinite(energy) else 99.0
+    conformer, ring_flip = _describe(confs, mol, alpha_idx)
+    periplanar = bool(np.isfinite(energy) and _angle_gap(dihedral, target_deg) <= tolerance_deg)
+    if ring is not None and abs(target_deg) > 90.0:
+        periplanar = periplanar and ring_form(mol, ring) in RING_FORMS
     return PeriplanarResult(
         h_idx=h_idx, beta_idx=beta_idx, alpha_idx=alpha_idx, lg_idx=lg_idx, target_deg=float(target_deg),
         dihedral_deg=float(dihedral), strain_kcal=float(strain), energy_kcal=float(energy),
-        relaxed_kcal=_relaxed_energy(mol, energy), periplanar=periplanar,
+        relaxed_kcal=float(relaxed), periplanar=periplanar,
         reachable=periplanar and strain <= MAX_STRAIN_KCAL,
         cis_pairs=_cis_pairs(mol, h_idx, beta_idx, alpha_idx, lg_idx),
         lg_axial=is_axial(mol, ring_atom=alpha_idx, substituent=lg_idx),
+        conformer=conformer, ring_flip=ring_flip,
     )

@@ -36,8 +36,9 @@ __all__ = [
     "canonical_smiles",
 ]
 
-#: Pathway tags a candidate may carry.
-PATHWAYS = ("E2", "E1", "E1cB", "SN2", "SN1", "starting material", "user")
+#: Pathway tags a candidate may carry (Ei: thermal syn elimination through a cyclic transition
+#: state; SN2' and SN1': substitution with allylic transposition).
+PATHWAYS = ("E2", "E1", "E1cB", "Ei", "SN2", "SN1", "SN2'", "SN1'", "starting material", "user")
 #: Alkene geometry labels (None when not an alkene or not stereogenic).
 GEOMETRIES = ("E", "Z")
 #: Verdict confidence levels, most to least certain.

@@ -24,7 +24,7 @@ __all__ = [
 ]
 
 #: Elements the shift and product models know.
-SUPPORTED_ELEMENTS = frozenset({"H", "C", "N", "O", "F", "Si", "P", "S", "Cl", "Br", "I"})
+SUPPORTED_ELEMENTS = frozenset({"H", "C", "N", "O", "F", "Si", "P", "S", "Se", "Cl", "Br", "I"})
 #: Elements accepted only as separate counter-ions (stripped before modelling).
 COUNTER_ION_ELEMENTS = frozenset({"Li", "Na", "K", "Cs", "Mg", "Ca", "Zn", "B"})
 #: Largest substrate the models accept.

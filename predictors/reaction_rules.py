@@ -21,6 +21,8 @@ from rdkit import Chem
 from predictors.errors import InputError
 
 __all__ = [
+    "NEEDS",
+    "QUALITIES",
     "RULE_KINDS",
     "Rule",
     "CompiledRule",
@@ -32,6 +34,10 @@ __all__ = [
 
 #: Kinds of rule in the table.
 RULE_KINDS = ("leaving group", "alpha class", "activating group")
+#: What a leaving group needs before it leaves.
+NEEDS = ("any", "acid", "base", "heat", "oxidant", "activator")
+#: Qualities of leaving group.
+QUALITIES = ("good", "poor", "charged", "syn")
 
 
 @dataclass(frozen=True)
@@ -54,14 +60,26 @@ class Rule:
     description : str
         One line for people.
     quality : str
-        Leaving groups only: ``"good"``, ``"poor"`` (leaves only by E1cB) or
-        ``"charged"`` (neutral amine leaves; Hofmann orientation).
+        Leaving groups only: ``"good"``, ``"poor"`` (leaves only by E1cB),
+        ``"charged"`` (neutral amine leaves; Hofmann orientation) or ``"syn"``
+        (leaves by a thermal syn elimination, Ei, through a cyclic transition state).
     needs : str
-        Leaving groups only: ``"any"``, ``"acid"`` (leaves when protonated) or
-        ``"base"`` (E1cB, needs a base).
+        Leaving groups only: one of :data:`NEEDS`: ``"any"``, ``"acid"`` (leaves
+        when protonated), ``"base"`` (E1cB, needs a base), ``"heat"`` (Ei on heating),
+        ``"oxidant"`` (oxidised in situ, then Ei) or ``"activator"`` (an alcohol
+        activated by a reagent).
     zaitsev_multiplier : float
         Leaving groups only: factor on the reagent's Zaitsev factor (below 1
-        shifts towards the less substituted alkene; common practice).
+        shifts towards the less substituted alkene; common practice). For syn
+        (Ei) groups under heat alone it is the orientation factor itself.
+    min_temp_c : float
+        Syn (Ei) groups: temperature below which the elimination is too slow to
+        expect (common practice); the site then mostly stays unreacted.
+    ts_ring : int
+        Syn (Ei) groups and activated alcohols: size of the cyclic transition
+        state (5 or 6), which sets how far from syn-periplanar the H may be.
+    caution : str
+        Hazard of the group or of what it releases, printed with the candidates.
     """
 
     name: str
@@ -73,6 +91,9 @@ class Rule:
     quality: str = ""
     needs: str = "any"
     zaitsev_multiplier: float = 1.0
+    min_temp_c: float = -100.0
+    ts_ring: int = 0
+    caution: str = ""
 
 
 @dataclass(frozen=True)
@@ -97,6 +118,9 @@ class CompiledRule:
 _EWG = "$([CX3]=[OX1]),$([CX2]#[NX1]),$([NX3+](=O)[O-]),$([SX4](=O)(=O))"
 _POOR_LG = "$([OX2H1]),$([OX2][CX4]),$([OX2]C(=O)[#6]),$([NX3;!$(N-C=O);!$(N-a);!$(N=*)])"
 
+_SELENIUM_CAUTION = ("organoselenium compounds and the areneselenenic acid released are toxic and "
+                     "malodorous: fume hood, gloves, collect selenium waste separately")
+
 #: The rule table. Order matters within a kind: the first leaving-group rule
 #: that claims an (alpha, leaving atom) pair wins.
 RULES: tuple[Rule, ...] = (
@@ -119,8 +143,46 @@ RULES: tuple[Rule, ...] = (
     Rule("trialkylammonium", "leaving group", "[CX4;!H3:1]-[NX4+:2]([#6])([#6])[#6]",
          "CCC(C)[N+](C)(C)C", "C[N+](C)(C)C", "quaternary ammonium: neutral amine leaves (Hofmann)",
          "charged", "any", 0.05),
+    # Syn (Ei) eliminations: temperatures and orientations are common practice (March's Advanced
+    # Organic Chemistry, elimination chapter, and Clayden et al. 2012; from memory): Cope about
+    # 100-150 C, less substituted side favoured; sulfoxides about 100-150 C; selenoxides below room
+    # temperature; Chugaev (xanthates) 150-250 C; carboxylate esters 300-500 C, roughly statistical
+    # with a slight preference for the less substituted side.
+    Rule("amine oxide", "leaving group", "[CX4;!H3:1]-[NX4+:2]([OX1-])([#6])[#6]",
+         "CCC(C)[N+](C)(C)[O-]", "CCC(C)[N+](C)(C)C",
+         "tertiary amine N-oxide: Cope elimination (syn) on heating", "syn", "heat", 0.5, 100.0, 5),
+    Rule("tertiary amine (oxidised in situ)", "leaving group",
+         "[CX4;!H3:1]-[NX3;H0;!$(N-C=O);!$(N-a);!$(N-[!#6]);!$(N=*):2](-[CX4])-[CX4]",
+         "CCC(C)N(C)C", "CCC(C)NC",
+         "tertiary amine: N-oxide with an oxidant, then Cope elimination (syn) on heating",
+         "syn", "oxidant", 0.5, 100.0, 5),
+    Rule("selenoxide", "leaving group", "[CX4:1]-[$([SeX3]=O),$([Se+][O-]):2]-[#6]",
+         "CCC(C)[Se](=O)c1ccccc1", "CCC(C)[Se]c1ccccc1",
+         "selenoxide: syn elimination at or below room temperature", "syn", "any", 0.8, -20.0, 5,
+         caution=_SELENIUM_CAUTION),
+    Rule("selenide (oxidised in situ)", "leaving group", "[CX4:1]-[SeX2:2]-[#6]",
+         "CCC(C)[Se]c1ccccc1", "CCC(C)Sc1ccccc1",
+         "selenide: selenoxide with an oxidant, then syn elimination", "syn", "oxidant", 0.8, -20.0,
+         5, caution=_SELENIUM_CAUTION),
+    Rule("sulfoxide", "leaving group", "[CX4:1]-[$([SX3]=O),$([S+][O-]):2]-[#6]",
+         "CCC(C)S(=O)c1ccccc1", "CCC(C)S(=O)(=O)c1ccccc1",
+         "sulfoxide: syn elimination on heating", "syn", "heat", 0.8, 100.0, 5),
+    Rule("sulfide (oxidised in situ)", "leaving group", "[CX4:1]-[SX2:2]-[#6]",
+         "CCC(C)Sc1ccccc1", "CCC(C)S(=O)c1ccccc1",
+         "sulfide: sulfoxide with one equivalent of oxidant, then syn elimination on heating",
+         "syn", "oxidant", 0.8, 100.0, 5),
+    Rule("xanthate", "leaving group", "[CX4:1]-[OX2:2]C(=S)S[#6]",
+         "CCC(C)OC(=S)SC", "CCC(C)OC(=O)SC",
+         "S-alkyl xanthate: Chugaev elimination (syn) on heating", "syn", "heat", 0.8, 150.0, 6),
+    Rule("carboxylate ester (pyrolysis)", "leaving group", "[CX4:1]-[OX2:2]C(=O)[#6]",
+         "CCC(C)OC(C)=O", "CCC(C)OC(=O)OC",
+         "carboxylate ester: syn pyrolytic elimination at high temperature", "syn", "heat", 0.8, 300.0, 6),
     Rule("hydroxyl (protonated)", "leaving group", "[CX4:1]-[OX2H1:2]",
          "CC(O)CC", "CC(=O)O", "alcohol: leaves as water under strong acid", "good", "acid"),
+    Rule("hydroxyl (activated)", "leaving group", "[CX4:1]-[OX2H1:2]",
+         "CC(O)CC", "CC(=O)O",
+         "alcohol activated by a reagent (POCl3, Burgess, Martin, Mitsunobu): leaves as the activated oxygen",
+         "good", "activator", ts_ring=6),
     Rule("E1cB poor leaving group", "leaving group",
          f"[CX4:1](-[{_POOR_LG}:2])-[CX4;!H0]-[{_EWG}]",
          "CC(O)CC(C)=O", "CC(O)CCC(C)=O",
@@ -186,6 +248,8 @@ def check_rules() -> tuple[str, ...]:
         expected_maps = 2 if rule.kind == "leaving group" else 1
         if len(compiled.map_positions) != expected_maps:
             problems.append(f"{rule.name}: expected {expected_maps} mapped atom(s)")
+        if rule.kind == "leaving group" and (rule.quality not in QUALITIES or rule.needs not in NEEDS):
+            problems.append(f"{rule.name}: quality {rule.quality!r} or needs {rule.needs!r} not allowed")
         for smiles, want in ((rule.example, True), (rule.negative, False)):
             mol = Chem.MolFromSmiles(smiles)
             if mol is None:

@@ -20,6 +20,7 @@ from rdkit import Chem
 from predictors.errors import InputError
 
 __all__ = [
+    "ACTIVATIONS",
     "REAGENT_KINDS",
     "BULK_LEVELS",
     "NUCLEOPHILICITY_LEVELS",
@@ -30,7 +31,11 @@ __all__ = [
     "list_reagents",
 ]
 
-REAGENT_KINDS = ("base", "nucleophile", "acid", "solvent")
+REAGENT_KINDS = ("base", "nucleophile", "acid", "solvent", "thermal", "oxidant", "activator")
+#: What an activator does to the substrate: ``anti`` (activates an alcohol, then anti E2),
+#: ``syn`` (activates an alcohol, then syn Ei), ``sn2`` (activates an alcohol, then SN2 with
+#: inversion by the pronucleophile), ``ionise`` (pulls a halide off: E1/SN1 with shifts).
+ACTIVATIONS = ("", "anti", "syn", "sn2", "ionise")
 BULK_LEVELS = ("small", "medium", "large")
 NUCLEOPHILICITY_LEVELS = ("none", "low", "medium", "high")
 ACID_STRENGTHS = ("none", "weak", "moderate", "strong")
@@ -79,6 +84,14 @@ class Reagent:
         ``"protic"``, ``"aprotic"``, ``"nonpolar"`` or ``""`` (not a solvent).
     source : str
         Source of the qualitative columns.
+    activation : str
+        Activators only: one of :data:`ACTIVATIONS`.
+    caution : str
+        Hazard note printed with the candidates (empty when the general cautions suffice).
+    example, negative : str
+        For reagents that open a path of their own (heat, oxidants, activators, amines that
+        alkylate): a substrate on which the path must appear and one on which it must not
+        (run by :func:`predictors.products.check_reagent_examples`).
     """
 
     name: str
@@ -95,6 +108,10 @@ class Reagent:
     default_solvent: str | None
     solvent_class: str
     source: str
+    activation: str = ""
+    caution: str = ""
+    example: str = ""
+    negative: str = ""
 
     @property
     def is_strong_base(self) -> bool:
@@ -159,6 +176,11 @@ def _row_to_reagent(row: dict[str, str]) -> Reagent:
         default_solvent=row["default_solvent"].strip() or None,
         solvent_class=_check_level(row["solvent_class"], _SOLVENT_CLASSES, column="solvent_class", name=name),
         source=row["source"].strip(),
+        activation=_check_level((row.get("activation") or "").strip(), ACTIVATIONS, column="activation",
+                                name=name),
+        caution=(row.get("caution") or "").strip(),
+        example=(row.get("example") or "").strip(),
+        negative=(row.get("negative") or "").strip(),
     )
 
 

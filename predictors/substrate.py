@@ -50,6 +50,14 @@ class LeavingGroup:
     activated_betas : tuple of int
         Beta carbons carrying H next to a carbonyl, nitrile, nitro or sulfonyl
         group (E1cB gives the conjugated alkene towards them).
+    min_temp_c : float
+        Syn (Ei) groups: below this the elimination is too slow to expect.
+    ts_ring : int
+        Size of the cyclic transition state of a syn elimination (0 when not one).
+    caution : str
+        The rule's hazard note (empty when none).
+    description : str
+        The rule's one-line description.
     """
 
     kind: str
@@ -62,6 +70,10 @@ class LeavingGroup:
     alpha_flags: tuple[str, ...]
     zaitsev_multiplier: float
     activated_betas: tuple[int, ...]
+    min_temp_c: float = -100.0
+    description: str = ""
+    ts_ring: int = 0
+    caution: str = ""
 
     @property
     def stabilised(self) -> bool:
@@ -141,7 +153,16 @@ def _activated_betas(mol: Chem.Mol, alpha: int, lg_atom: int) -> tuple[int, ...]
     return tuple(b for b in beta_carbons(mol, alpha, lg_atom) if b in acidic)
 
 
-def _find_leaving_groups(mol: Chem.Mol, *, acid: bool, base: bool) -> tuple[list[LeavingGroup], list[str]]:
+def _needs_met(needs: str, conditions: frozenset[str]) -> bool:
+    if needs == "any":
+        return True
+    if needs == "heat":
+        return bool({"heat", "oxidant"} & conditions)
+    return needs in conditions
+
+
+def _find_leaving_groups(mol: Chem.Mol, *, conditions: frozenset[str]
+                         ) -> tuple[list[LeavingGroup], list[str]]:
     groups: list[LeavingGroup] = []
     notes: list[str] = []
     claimed: set[tuple[int, int]] = set()
@@ -150,7 +171,7 @@ def _find_leaving_groups(mol: Chem.Mol, *, acid: bool, base: bool) -> tuple[list
         for alpha, lg_atom in compiled.match(mol):
             if (alpha, lg_atom) in claimed or any(alpha in g.lg_atoms for g in groups):
                 continue
-            if (rule.needs == "acid" and not acid) or (rule.needs == "base" and not base):
+            if not _needs_met(rule.needs, conditions):
                 continue
             claimed.add((alpha, lg_atom))
             lg_atoms = _fragment(mol, lg_atom, alpha)
@@ -164,11 +185,14 @@ def _find_leaving_groups(mol: Chem.Mol, *, acid: bool, base: bool) -> tuple[list
                 quality=rule.quality, needs=rule.needs, alpha_class=cls, alpha_flags=flags,
                 zaitsev_multiplier=rule.zaitsev_multiplier,
                 activated_betas=_activated_betas(mol, alpha, lg_atom),
+                min_temp_c=rule.min_temp_c, description=rule.description, ts_ring=rule.ts_ring,
+                caution=rule.caution,
             ))
     return groups, notes
 
 
-def perceive_substrate(structure, *, acid: bool = False, base: bool = True) -> Substrate:
+def perceive_substrate(structure, *, acid: bool = False, base: bool = True, heat: bool = False,
+                       oxidant: bool = False, activator: bool = False) -> Substrate:
     """Check a substrate and find every leaving group on an sp3 carbon.
 
     Parameters
@@ -179,6 +203,13 @@ def perceive_substrate(structure, *, acid: bool = False, base: bool = True) -> S
         Strong or moderate acid present: alcohols leave as water.
     base : bool, keyword-only
         Base present: OH, OR, OAc, NR2 beta to an anion-stabilising group leave by E1cB.
+    heat : bool, keyword-only
+        Pyrolysis conditions: amine oxides, sulfoxides, xanthates and esters leave by Ei.
+    oxidant : bool, keyword-only
+        Oxidant present: tertiary amines, selenides and sulfides are oxidised, then leave by Ei
+        (implies ``heat``).
+    activator : bool, keyword-only
+        An alcohol-activating reagent (POCl3, Burgess, Martin, Mitsunobu) is present.
 
     Raises
     ------
@@ -191,7 +222,8 @@ def perceive_substrate(structure, *, acid: bool = False, base: bool = True) -> S
     notes = []
     if removed:
         notes.append(f"counter-ion(s) removed: {', '.join(removed)}")
-    groups, more_notes = _find_leaving_groups(mol, acid=acid, base=base)
+    flags = {"acid": acid, "base": base, "heat": heat, "oxidant": oxidant, "activator": activator}
+    groups, more_notes = _find_leaving_groups(mol, conditions=frozenset(k for k, v in flags.items() if v))
     notes.extend(more_notes)
     unreactive = [m[0] for r in rules_of_kind("alpha class") if r.rule.name == "vinylic or aryl halide"
                   for m in r.match(mol)]
@@ -201,8 +233,9 @@ def perceive_substrate(structure, *, acid: bool = False, base: bool = True) -> S
         hint = " (only vinylic/aryl halides, which do not react)" if unreactive else ""
         raise ChemistryError(
             f"substrate: no leaving group found in {Chem.MolToSmiles(mol)!r}{hint}; looked for alkyl "
-            "halides, sulfonates, trialkylammonium, alcohols under acid, and OH/OR/OAc/NR2 beta to C=O, CN, "
-            "NO2 or SO2 under base"
+            "halides, sulfonates, trialkylammonium, alcohols under acid or an activating reagent, "
+            "OH/OR/OAc/NR2 beta to C=O, CN, NO2 or SO2 under base, selenoxides, and (with heat or an "
+            "oxidant) amine oxides, sulfoxides, xanthates, esters, amines, selenides and sulfides"
         )
     if len(groups) > 1:
         names = ", ".join(f"{g.kind} on atom {g.alpha_idx}" for g in groups)

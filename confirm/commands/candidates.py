@@ -44,6 +44,29 @@ def _candidate_record(cand) -> dict:
     }
 
 
+def _beta_record(report) -> dict:
+    return {
+        "alpha_atom": report.alpha_idx,
+        "beta_atom": report.beta_idx,
+        "h_atom": report.h_idx,
+        "mode": report.mode,
+        "conformer": report.conformer,
+        "energy_above_min_kcal": report.energy_above_min_kcal,
+        "ring_flip": report.ring_flip,
+        "reachable": report.reachable,
+    }
+
+
+def _beta_line(report) -> str:
+    head = (f"  H{report.h_idx} on C{report.beta_idx} "
+            f"({report.mode} to the leaving group on C{report.alpha_idx})")
+    if not report.reachable:
+        return f"{head}: no {report.mode}-periplanar conformer within 8 kcal/mol"
+    flip = ", ring flip needed" if report.ring_flip else ""
+    cost = f"{report.energy_above_min_kcal:.1f} kcal/mol above the minimum"
+    return f"{head}: {report.conformer}, {cost}{flip}"
+
+
 def _run(args) -> int:
     from confirm.structures import load_structure
     from predictors.products import enumerate_products
@@ -58,6 +81,7 @@ def _run(args) -> int:
             "reagent": products.reagent.name,
             "candidates": [_candidate_record(c) for c in products.candidates],
             "notes": list(products.notes),
+            "beta_hydrogens": [_beta_record(r) for r in products.beta_hydrogens],
         })
         return 0
     rows = [(i + 1, f"{c.prior:.3f}", "+".join(c.pathways), c.label, c.smiles)
@@ -68,4 +92,8 @@ def _run(args) -> int:
         print(wrap_text(f"  {i + 1}. {c.rationale}" + (f" ({'; '.join(c.notes)})" if c.notes else "")))
     for note in products.notes:
         print(wrap_text(f"note: {note}"))
+    if products.beta_hydrogens:
+        print("periplanar conformers (atoms numbered as in the substrate with explicit H, MMFF94):")
+        for report in products.beta_hydrogens:
+            print(wrap_text(_beta_line(report)))
     return 0

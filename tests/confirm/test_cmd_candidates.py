@@ -101,3 +101,26 @@ def test_no_beta_hydrogen_is_substitution_only_with_a_note(run_cli):
     data = json.loads(result.stdout)
     assert {p for c in data["candidates"] for p in c["pathways"]} == {"SN2", "starting material"}
     assert any("no beta-H" in n for n in data["notes"])
+
+
+def test_periplanar_conformers_are_reported(run_cli):
+    # trans-1-bromo-2-methylcyclohexane: its one anti H needs the other chair (common practice).
+    result = run_cli("candidates", "C[C@@H]1CCCC[C@H]1Br", "--reagent", "ethoxide", "--json")
+    assert result.exit_code == 0, result.stderr
+    reports = json.loads(result.stdout)["beta_hydrogens"]
+    reachable = [r for r in reports if r["reachable"]]
+    assert [r["conformer"] for r in reachable] == ["flipped chair"] and reachable[0]["ring_flip"]
+    text = " ".join(run_cli("candidates", "C[C@@H]1CCCC[C@H]1Br", "--reagent", "ethoxide").stdout.split())
+    assert "flipped chair" in text and "ring flip needed" in text
+
+
+@pytest.mark.parametrize("args, message", [
+    (("CCC(C)Br", "--reagent", "Burgess"), "activates alcohols"),
+    (("CCC(C)(C)O", "--reagent", "Mitsunobu"), "tertiary carbon"),
+    (("CCC(C)Br", "--reagent", "heat", "--temp-c", "200"), "heat alone does not remove"),
+    (("CCC(C)OC(C)=O", "--reagent", "heat", "--temp-c", "700"), "temp_c"),
+])
+def test_new_reagents_refuse_what_they_cannot_do_in_one_line(run_cli, args, message):
+    result = run_cli("candidates", *args)
+    assert result.exit_code == 2 and message in result.stderr
+    assert len(result.stderr.strip().splitlines()) == 1 and "Traceback" not in result.stderr

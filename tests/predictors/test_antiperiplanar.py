@@ -6,7 +6,7 @@ import pytest
 from rdkit import Chem
 from rdkit.Chem import AllChem, rdMolTransforms
 
-from predictors.antiperiplanar import embed_conformers, find_periplanar, is_axial, local_model
+from predictors.antiperiplanar import add_ring_forms, embed_conformers, find_periplanar, is_axial, local_model
 from predictors.errors import InputError
 
 # trans- and cis-1-chloro-2-methylcyclohexane (atom 6 = C1 bearing Cl, 7 = Cl, 1 = C2, 5 = C6)
@@ -14,8 +14,12 @@ TRANS = "C[C@@H]1CCCC[C@H]1Cl"
 CIS = "C[C@H]1CCCC[C@H]1Cl"
 
 
-def _confs(smiles, n=6):
-    return embed_conformers(Chem.AddHs(Chem.MolFromSmiles(smiles)), n_conformers=n, seed=7)
+def _confs(smiles, n=6, *, site=None):
+    """Embedded conformers; with ``site=(alpha, beta, lg)`` the ring forms at that site are added."""
+    confs = embed_conformers(Chem.AddHs(Chem.MolFromSmiles(smiles)), n_conformers=n, seed=7)
+    if site is not None:
+        confs = add_ring_forms(confs, around=site[:2], lg_idx=site[2], seed=7)
+    return confs
 
 
 def _hs(mol, idx):
@@ -25,7 +29,7 @@ def _hs(mol, idx):
 def test_trans_isomer_is_diequatorial_and_only_c6_h_can_be_anti():
     # Common practice: trans-1,2-disubstituted cyclohexanes prefer the diequatorial chair; for E2 the
     # Cl must go axial, which puts the C2 methyl axial too, so the C2-H is equatorial (no anti H on C2).
-    confs = _confs(TRANS)
+    confs = _confs(TRANS, site=(6, 1, 7))
     mol = confs.mol
     assert is_axial(mol, ring_atom=6, substituent=7, conf_id=confs.lowest_conf_id) is False
     c2 = [find_periplanar(confs, h_idx=h, beta_idx=1, alpha_idx=6, lg_idx=7) for h in _hs(mol, 1)]
@@ -34,13 +38,14 @@ def test_trans_isomer_is_diequatorial_and_only_c6_h_can_be_anti():
     anti = [r for r in c6 if r.reachable]
     assert len(anti) == 1  # only the axial one of the two C6 hydrogens
     assert anti[0].lg_axial is True and abs(anti[0].dihedral_deg) > 160
+    assert anti[0].conformer == "flipped chair" and anti[0].ring_flip
     # Ring flip cost: positive and of the size of a chair flip with two axial groups (a few kcal/mol).
     assert 0.5 < anti[0].strain_kcal < 6.0
 
 
 def test_cis_isomer_has_chloride_axial_and_anti_hydrogens_on_both_sides():
     # A-values (from memory): CH3 1.7, Cl 0.4-0.5 kcal/mol, so cis puts Cl axial and CH3 equatorial.
-    confs = _confs(CIS)
+    confs = _confs(CIS, site=(6, 1, 7))
     mol = confs.mol
     assert is_axial(mol, ring_atom=6, substituent=7, conf_id=confs.lowest_conf_id) is True
     c2 = [find_periplanar(confs, h_idx=h, beta_idx=1, alpha_idx=6, lg_idx=7) for h in _hs(mol, 1)]

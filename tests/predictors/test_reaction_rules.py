@@ -6,7 +6,15 @@ import pytest
 from rdkit import Chem
 
 from predictors.errors import InputError
-from predictors.reaction_rules import RULE_KINDS, RULES, check_rules, compiled_rules, rules_of_kind
+from predictors.reaction_rules import (
+    NEEDS,
+    QUALITIES,
+    RULE_KINDS,
+    RULES,
+    check_rules,
+    compiled_rules,
+    rules_of_kind,
+)
 
 
 def test_rule_table_self_test_passes():
@@ -28,8 +36,10 @@ def test_leaving_group_rules_map_alpha_carbon_and_leaving_atom():
         mol = Chem.MolFromSmiles(compiled.rule.example)
         assert mol.GetAtomWithIdx(alpha).GetSymbol() == "C"
         assert mol.GetBondBetweenAtoms(alpha, leaving) is not None
-        assert compiled.rule.quality in ("good", "poor", "charged")
-        assert compiled.rule.needs in ("any", "acid", "base")
+        assert compiled.rule.quality in QUALITIES
+        assert compiled.rule.needs in NEEDS
+        if compiled.rule.quality == "syn":  # a syn group says how it eliminates
+            assert compiled.rule.ts_ring in (5, 6) and compiled.rule.min_temp_c > -100.0
 
 
 def test_self_test_catches_a_rule_that_misbehaves(monkeypatch):
@@ -57,4 +67,9 @@ def test_rule_table_covers_the_required_leaving_groups():
     # Issue 3, deliverable 1: halides, sulfonates, protonated OH, ammonium, E1cB poor groups.
     for required in ("chloride", "bromide", "iodide", "fluoride", "tosylate", "mesylate", "triflate",
                      "nosylate", "hydroxyl (protonated)", "trialkylammonium", "E1cB poor leaving group"):
+        assert required in names
+    # Issue 18, deliverables 2-3: syn (Ei) groups and activated alcohols.
+    for required in ("amine oxide", "tertiary amine (oxidised in situ)", "selenoxide",
+                     "selenide (oxidised in situ)", "sulfoxide", "sulfide (oxidised in situ)", "xanthate",
+                     "carboxylate ester (pyrolysis)", "hydroxyl (activated)"):
         assert required in names

@@ -65,3 +65,30 @@ def test_roles_follow_common_practice():
 def test_names_and_aliases_are_unique():
     keys = [k.lower() for r in list_reagents() for k in (r.name, *r.aliases)]
     assert len(keys) == len(set(keys))
+
+
+@pytest.mark.parametrize("name, kind, activation", [
+    ("heat", "thermal", ""), ("H2O2", "oxidant", ""), ("mCPBA", "oxidant", ""), ("NaIO4", "oxidant", ""),
+    ("POCl3", "activator", "anti"), ("Burgess reagent", "activator", "syn"),
+    ("Martin sulfurane", "activator", "syn"), ("Mitsunobu", "activator", "sn2"),
+    ("AgNO3", "activator", "ionise"),
+])
+def test_issue_18_reagents_are_present_with_a_source_and_a_caution(name, kind, activation):
+    # Issue 18: oxidants, heat and activating reagents; hazardous ones carry a caution (POCl3 reacts
+    # violently with water, peroxides are shock-sensitive, azodicarboxylates are toxic; common practice).
+    reagent = get_reagent(name)
+    assert (reagent.kind, reagent.activation) == (kind, activation)
+    assert reagent.source and reagent.caution and reagent.example and reagent.negative
+
+
+def test_an_unknown_activation_is_refused():
+    from predictors.reagents import _row_to_reagent
+
+    columns = ("name", "aliases", "kind", "pka_conj_acid", "pka_source", "bulk", "nucleophilicity",
+               "acid_strength", "counter_ion_nucleophilicity", "nucleophile_smiles", "zaitsev_factor",
+               "default_solvent", "solvent_class", "source")
+    row = dict.fromkeys(columns, "")
+    row.update(name="x", kind="activator", bulk="small", nucleophilicity="none", acid_strength="none",
+               counter_ion_nucleophilicity="none", zaitsev_factor="1", activation="sideways")
+    with pytest.raises(InputError, match="activation"):
+        _row_to_reagent(row)
