@@ -37,10 +37,33 @@ class BatchSummary:
         return not self.interrupted and all(o.passed for o in self.outcomes)
 
 
+#: The fields of a component in ``result.json`` that the summary tables show.
+_COMPONENT_FIELDS = ("smiles", "name", "label", "detected", "mole_fraction", "mole_fraction_sd",
+                     "upper_limit")
+
+
+def _table_fields(result: dict) -> dict:
+    """The part of one ``result.json`` the summary tables show (its ratios and its components'
+    amounts), so that many thousands of items never hold their whole results in memory at once."""
+    ratios = result.get("ratios")
+    ratios = ratios if isinstance(ratios, dict) else {}
+    components = result.get("components")
+    return {"ratios": {name: {key: ratio[key] for key in ("ratio", "decided") if key in ratio}
+                       for name, ratio in ratios.items() if isinstance(ratio, dict)},
+            "components": [{key: comp[key] for key in _COMPONENT_FIELDS if key in comp}
+                           for comp in (components if isinstance(components, list) else [])
+                           if isinstance(comp, dict)]}
+
+
 def _finished_results(outcomes: Sequence[ItemOutcome], out: Path) -> dict[str, dict]:
-    """Each finished item's ``result.json``, read once for all the summary tables ({} where none)."""
-    return {o.item_id: (read_json_object(out / o.item_id / "result.json") or {})
-            if o.status in ("done", "skipped") else {} for o in outcomes}
+    """What the summary tables show of each finished item's ``result.json``, read once for all the
+    tables ({} where none)."""
+    found = {}
+    for o in outcomes:
+        finished = o.status in ("done", "skipped")
+        result = read_json_object(out / o.item_id / "result.json") if finished else None
+        found[o.item_id] = _table_fields(result) if result else {}
+    return found
 
 
 def _summary_csv(outcomes: Sequence[ItemOutcome], results: dict[str, dict]) -> str:
