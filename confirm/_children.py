@@ -4,8 +4,8 @@
 takes one task at a time and keeps its caches between tasks; a worker that crashes is replaced
 instead of hanging the run and its task run again as often as the caller allows, then reported;
 one that runs far past its time is stopped from outside and replaced, and Ctrl-C in the parent
-stops every worker within about two seconds. Workers ignore Ctrl-C themselves (the parent decides) and end on SIGTERM by unwinding,
-so their temporary files are removed.
+stops every worker within about two seconds. Workers ignore Ctrl-C themselves (the parent
+decides) and end on SIGTERM by unwinding, so their temporary files are removed.
 """
 
 from __future__ import annotations

@@ -3,8 +3,8 @@
 The fit sweeps and refines several starting points that do not depend on each other; on a
 machine with two or more cores these run side by side. Workers are forked (POSIX), so nothing
 is imported again; elsewhere, inside another worker process, off the main thread, or with one
-core, the tasks run one after the other in this process. Results come back in task order either way, and are the
-same.
+core, the tasks run one after the other in this process. Results come back in task order either
+way, and are the same.
 
 :class:`Beside` runs one function in a forked process while this one does something else (the
 candidates' predictions run while the spectrum is processed and the fit's modules load).

@@ -148,11 +148,11 @@ def process_item(task: Task) -> ItemOutcome:
         try:
             write_text_atomic(item_dir / "outcome.json", json.dumps(asdict(outcome), indent=2) + "\n")
         except ConfirmError as exc:
-            outcome = ItemOutcome(**{**asdict(outcome), "status": "error", "error": _one_line(exc)})
+            outcome = ItemOutcome(**{**asdict(outcome), "status": "error", "error": one_line(exc)})
     return outcome
 
 
-def _one_line(exc: BaseException) -> str:
+def one_line(exc: BaseException) -> str:
     return " ".join((str(exc) or type(exc).__name__).split())
 
 
@@ -162,7 +162,7 @@ _QUOTED = re.compile(r"'((?:[^'\\]|\\.){4,})'" + r'|"((?:[^"\\]|\\.){4,})"')
 def _error_text(exc: BaseException, spectrum: Path) -> str:
     """The exception's one-line message, with any quoted text taken from the spectrum file's
     contents replaced: a file named as a spectrum may be anything, and the summary is shared."""
-    message = _one_line(exc)
+    message = one_line(exc)
     spectrum = Path(spectrum)
     try:
         if not spectrum.is_file():

@@ -8,6 +8,7 @@ machinery, not the chemistry.
 from __future__ import annotations
 
 import csv
+import functools
 import json
 import os
 import signal
@@ -242,6 +243,25 @@ def test_a_worker_that_dies_or_hangs_is_reported_and_the_rest_go_on(three, tmp_p
     assert status["lot00"][0] == "error" and "ended without a result" in status["lot00"][1]
     assert status["lot01"][0] == "error" and "time budget" in status["lot01"][1]
     assert status["lot02"][0] == "done"
+
+
+def test_an_item_whose_worker_dies_once_is_run_again(three, tmp_path):
+    nnls_analyze(three[2].spectrum, candidates=CANDIDATES)  # model spectra cached before the workers fork
+    marks = tmp_path / "marks"
+    marks.mkdir()
+    analyze = functools.partial(_dies_the_first_time, marks=str(marks))
+    summary = _run(three, tmp_path / "out", analyze=analyze, jobs=2)
+    assert [o.status for o in summary.outcomes] == ["done", "done", "done"]
+    assert (marks / "lot01").exists()  # its first attempt ended its worker
+
+
+def _dies_the_first_time(path, budget=None, *, marks: str, **kwargs):
+    """lot01: the worker process dies on the first attempt only."""
+    mark = Path(marks, Path(path).stem)
+    if mark.name == "lot01" and not mark.exists():
+        mark.touch()
+        os._exit(9)
+    return nnls_analyze(path, **kwargs)
 
 
 def _dies_or_hangs(path, budget=None, **kwargs):
