@@ -80,6 +80,9 @@ def run_item_on_worker(task: Task, stop_after_s: float) -> tuple[ItemOutcome, di
     ``stop_after_s``: a worker still on the item this long after it started is ended (like a
     crash), so that an analysis stuck where no budget check reaches cannot hold a worker forever.
     """
+    from confirm._allocator import tune_allocator
+
+    tune_allocator()  # a worker starts with a trim threshold that doubles the time of an analysis
     with _ONE_AT_A_TIME, _ended_after(stop_after_s), \
             tempfile.TemporaryDirectory(prefix="confirm-item-") as tmp:
         outcome = process_item(replace(task, out_dir=tmp))
