@@ -15,6 +15,7 @@ import io
 import json
 import os
 import signal
+import subprocess
 import sys
 import threading
 import time
@@ -28,6 +29,7 @@ from confirm.qc import read_spec
 from predictors.errors import InputError
 from tests.confirm.test_batch import CANDIDATES, SPEC_TEXT, _write_spectra, nnls_analyze
 
+PROJECT = Path(__file__).resolve().parents[2]
 _NO_DASK = "Dask is an optional extra (pip install '.[cluster]'); not installed here"
 
 
@@ -181,6 +183,60 @@ def test_an_item_that_kills_its_worker_twice_or_hangs_is_reported_and_the_rest_g
     assert status["lot02"][0] == "done"
     assert not (tmp_path / "out" / "lot00" / "result.json").exists()
     assert _half_written(tmp_path / "out") == []
+
+
+_SLOW_BATCH = """
+import os, sys, time
+from pathlib import Path
+sys.path.insert(0, {project!r})
+import confirm.commands.batch as command
+from confirm.cli import main
+from tests.confirm.test_batch import nnls_analyze
+
+def slow(path, budget=None, **kwargs):
+    Path({pids!r}, Path(path).stem).write_text(str(os.getpid()))
+    if Path(path).stem != "lot00":
+        time.sleep(120)
+    return nnls_analyze(path, **kwargs)
+
+if __name__ == "__main__":
+    command._analyze = slow
+    sys.exit(main(["batch", {manifest!r}, "--out", {out!r}, "--scheduler", "local", "--jobs", "2",
+                   "--no-reports"]))
+"""
+
+
+@pytest.mark.slow
+def test_ctrl_c_ends_the_local_cluster_at_once_and_writes_the_summary(tmp_path):
+    pytest.importorskip("distributed", reason=_NO_DASK)
+    items = _items(tmp_path / "spectra", 4)
+    rows = ["spectrum,candidates"] + [f"{i.spectrum},{' '.join(CANDIDATES)}" for i in items]
+    (tmp_path / "m.csv").write_text("\n".join(rows) + "\n")
+    pids, out = tmp_path / "pids", tmp_path / "out"
+    pids.mkdir()
+    script = tmp_path / "run.py"
+    script.write_text(_SLOW_BATCH.format(project=str(PROJECT), pids=str(pids),
+                                         manifest=str(tmp_path / "m.csv"), out=str(out)))
+    proc = subprocess.Popen([sys.executable, str(script)], stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+    deadline = time.monotonic() + 90
+    while time.monotonic() < deadline and proc.poll() is None and not (
+            (out / "lot00" / "outcome.json").exists() and len(list(pids.iterdir())) >= 3):
+        time.sleep(0.1)
+    assert (out / "lot00" / "outcome.json").exists(), proc.stderr.read1().decode() if proc.poll() else ""
+    sent = time.monotonic()
+    proc.send_signal(signal.SIGINT)
+    stdout, stderr = proc.communicate(timeout=30)
+    assert time.monotonic() - sent < 3.0
+    assert proc.returncode == 130, stderr.decode()
+    assert b"Traceback" not in stderr and b"internal error" not in stderr
+    assert stdout.decode().splitlines()[-1].startswith("Interrupted: 1 of 4 items finished")
+    with open(out / "summary.csv", newline="") as handle:
+        status = {r["id"]: r["status"] for r in csv.DictReader(handle)}
+    assert status == {"lot00": "done", "lot01": "interrupted", "lot02": "interrupted", "lot03": "interrupted"}
+    for pid_file in pids.iterdir():  # the workers that ran the items are gone
+        with pytest.raises(ProcessLookupError):
+            os.kill(int(pid_file.read_text()), 0)
+    assert not (out / LOCK_NAME).exists()
 
 
 # --- one batch at a time per --out ----------------------------------------------------------------------
