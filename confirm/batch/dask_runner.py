@@ -182,14 +182,13 @@ class DaskRunner:
 
     def describe(self) -> list[str]:
         """Lines for the terminal: the scheduler, its workers and the dashboard when one is up."""
-        info = self._client.scheduler_info()
-        threads = sum(w.get("nthreads", 0) for w in info.get("workers", {}).values())
+        nthreads = self._client.nthreads()
+        threads = sum(nthreads.values())
         where = "a local cluster" if self.local else self.scheduler
-        lines = [f"dask: {len(info.get('workers', {}))} worker(s), {threads} thread(s) on {where}"]
-        if "dashboard" in info.get("services", {}):
-            link = self._client.dashboard_link
-            lines.append(f"dask dashboard: {link}" + ("" if _has_bokeh() or not self.local
-                                                      else " (its plots need bokeh>=3.1: pip install bokeh)"))
+        lines = [f"dask: {len(nthreads)} worker(s), {threads} thread(s) on {where}"]
+        if "dashboard" in self._client.scheduler_info().get("services", {}):
+            hint = "" if _has_bokeh() or not self.local else " (its plots need bokeh>=3.1: pip install bokeh)"
+            lines.append(f"dask dashboard: {self._client.dashboard_link}{hint}")
         if not threads:
             lines.append("dask: no workers yet; items wait until one connects (dask worker ADDRESS)")
         retried = self._allowed_failures()

@@ -122,6 +122,17 @@ def test_twenty_spectra_with_one_corrupt_file_give_the_same_files_as_the_process
     assert again.counts == {"done": 0, "skipped": 19, "error": 1}  # a rerun skips the finished items
 
 
+def test_the_terminal_shows_the_workers_and_the_dashboard(cluster, tmp_path, capsys):
+    items = _items(tmp_path / "spectra", 2)
+    summary = run_batch(items, tmp_path / "out", analyze=nnls_analyze, write_reports=False, progress=True,
+                        scheduler=cluster)
+    assert summary.counts["done"] == 2
+    err = capsys.readouterr().err
+    assert f"dask: 2 worker(s), 2 thread(s) on {cluster}" in err
+    assert "dask dashboard: http://" in err and "/status" in err
+    assert "analysing: 100%" in err and "2/2" in err  # the progress bar as with the process pool
+
+
 # --- faults ---------------------------------------------------------------------------------------------
 
 
