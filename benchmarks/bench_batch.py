@@ -13,13 +13,15 @@ fresh interpreter, which prints its own peak resident memory (``ru_maxrss``) bef
 batch: items stream through, so the driver's memory does not grow with the number of items.
 
 Run: ``python -m benchmarks.bench_batch [--spectra 48] [--jobs 2] [--reports] [--memory-items 2000]``
-(``--memory-items 0`` skips part 2, which takes several minutes on 2 cores.)
+(``--memory-items 0`` skips part 2, which takes several minutes on 2 cores). The load average is
+printed after each run: on a shared machine compare the ratio, not the absolute rates.
 """
 
 from __future__ import annotations
 
 import argparse
 import csv
+import os
 import resource
 import subprocess
 import sys
@@ -107,7 +109,8 @@ def _throughput(folder: Path, n: int, jobs: int, reports: bool) -> None:
         elapsed = time.perf_counter() - start
         rates[name] = _rate(len(items), elapsed)
         failed = [o for o in summary.outcomes if o.status == "error"]
-        print(f"{name}: {summary.counts['done']} analysed, {len(failed)} failed in {elapsed:.1f} s"
+        print(f"{name}: {summary.counts['done']} analysed, {len(failed)} failed in {elapsed:.1f} s "
+              f"(load average after: {os.getloadavg()[0]:.1f} on {os.cpu_count()} cores)"
               + "".join(f"\n  {o.item_id}: {o.error}" for o in failed), flush=True)
     print(f"\nspectra: {n} ({N_POINTS} points, {FIELD_MHZ:.0f} MHz, {len(ANISYL_FAMILY)} candidates); "
           f"{jobs} workers; reports: {'yes' if reports else 'no'}")

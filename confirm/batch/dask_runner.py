@@ -153,9 +153,13 @@ class DaskRunner:
         from distributed import Client, LocalCluster
 
         if self.local:
-            with dask.config.set(_LOCAL_CONFIG):
-                self._cluster = LocalCluster(n_workers=self.local_workers, threads_per_worker=1,
-                                             processes=True, memory_limit=0, silence_logs=logging.ERROR)
+            try:
+                with dask.config.set(_LOCAL_CONFIG):
+                    self._cluster = LocalCluster(n_workers=self.local_workers, threads_per_worker=1,
+                                                 processes=True, memory_limit=0, silence_logs=logging.ERROR)
+            except (OSError, RuntimeError, TimeoutError) as exc:
+                raise InputError(f"--scheduler local: cannot start a local Dask cluster ({one_line(exc)}); "
+                                 "run without --scheduler to use worker processes instead") from None
             self._client = Client(self._cluster, set_as_default=False)
             return
         try:
@@ -222,8 +226,11 @@ class DaskRunner:
         def submit(count: int) -> None:
             for task in itertools.islice(pending, max(count, 0)):
                 sent = task if self.local else _absolute(task)
-                future = self._client.submit(run_item_on_worker, sent, overdue_s(task),
-                                             key=f"confirm-item-{uuid.uuid4().hex}", pure=False)
+                try:
+                    future = self._client.submit(run_item_on_worker, sent, overdue_s(task),
+                                                 key=f"confirm-item-{uuid.uuid4().hex}", pure=False)
+                except Exception as exc:  # the client has closed: the scheduler went away
+                    raise self._lost(exc) from None
                 running[future.key] = (future, task)
                 finished.add(future)
 
@@ -232,10 +239,13 @@ class DaskRunner:
             for future in finished:
                 _, task = running.pop(future.key)
                 outcome = self._collect(future, task, out, overdue_s(task))
-                future.release()
+                try:
+                    future.release()
+                    if time.monotonic() - counted > _RECOUNT_S:
+                        limit, counted = self._limit(), time.monotonic()
+                except Exception as exc:  # the client has closed: the scheduler went away
+                    raise self._lost(exc) from None
                 del future
-                if time.monotonic() - counted > _RECOUNT_S:
-                    limit, counted = self._limit(), time.monotonic()
                 submit(limit - len(running))
                 yield outcome
         finally:
@@ -255,6 +265,10 @@ class DaskRunner:
             for pid in self._client.run(os.getpid).values():
                 with contextlib.suppress(OSError):
                     os.kill(pid, signal.SIGKILL)
+
+    def _lost(self, exc: BaseException) -> InputError:
+        return InputError(f"--scheduler {self.scheduler!r}: lost the Dask scheduler ({one_line(exc)}); the "
+                          "finished items are kept: run the same command again for the rest")
 
     def _limit(self) -> int:
         return max(2, _IN_FLIGHT_PER_THREAD * self._threads())
@@ -331,10 +345,14 @@ def _has_bokeh() -> bool:
 def _quiet_dask_logs() -> Iterator[None]:
     """Dask's own log lines (a worker restarted, a task failed because its workers died) stay out
     of the terminal while the batch shows its progress: the batch reports each item's failure."""
-    logger = logging.getLogger("distributed")
-    level = logger.level
-    logger.setLevel(logging.CRITICAL)
+    names = ["distributed"] + [name for name in logging.root.manager.loggerDict
+                               if name.startswith("distributed.")]
+    loggers = [logging.getLogger(name) for name in names]
+    levels = [logger.level for logger in loggers]
+    for logger in loggers:
+        logger.setLevel(logging.CRITICAL)
     try:
         yield
     finally:
-        logger.setLevel(level)
+        for logger, level in zip(loggers, levels, strict=True):
+            logger.setLevel(level)
