@@ -1,11 +1,11 @@
 """Tasks on a few worker processes that Ctrl-C and overdue tasks can stop (private).
 
 ``confirm batch`` runs its items this way when it has more than one job. Each worker process
-takes one task at a time and keeps its caches between tasks; a worker that crashes is reported
-for its task and replaced instead of hanging the run, one that runs far past its time is stopped
-from outside and replaced, and Ctrl-C in the parent stops every worker within about two
-seconds. Workers ignore Ctrl-C themselves (the parent decides) and end on SIGTERM by unwinding,
-so their temporary files are removed.
+takes one task at a time and keeps its caches between tasks; a worker that crashes is replaced
+instead of hanging the run and its task run again as often as the caller allows, then reported;
+one that runs far past its time is stopped from outside and replaced, and Ctrl-C in the parent
+stops every worker within about two seconds. Workers ignore Ctrl-C themselves (the parent
+decides) and end on SIGTERM by unwinding, so their temporary files are removed.
 """
 
 from __future__ import annotations
@@ -41,7 +41,7 @@ class _Worker:
 
 
 def run_in_workers(func: Callable, tasks: Sequence, *, jobs: int, overdue_s: Callable,
-                   on_failure: Callable) -> Iterator:
+                   on_failure: Callable, retries: int = 0) -> Iterator:
     """Yield ``func(task)`` for every task, in the order they finish, from up to ``jobs`` workers.
 
     Parameters
@@ -57,6 +57,10 @@ def run_in_workers(func: Callable, tasks: Sequence, *, jobs: int, overdue_s: Cal
     on_failure : callable, keyword-only
         ``on_failure(task, why) -> result`` for a task that gave no result; ``why`` is ``"died"``
         (the worker ended) or ``"overdue"``.
+    retries : int, keyword-only
+        How many times a task whose worker ended is run again (on a fresh worker, before the
+        tasks not yet started) before ``on_failure(task, "died")``; an overdue task is never
+        run again.
 
     Leaving early (Ctrl-C in the parent, or the caller stops iterating) stops every worker.
     """
@@ -64,6 +68,7 @@ def run_in_workers(func: Callable, tasks: Sequence, *, jobs: int, overdue_s: Cal
     ctx = multiprocessing.get_context("fork" if "fork" in methods else "spawn")
     waiting = list(reversed(tasks))
     workers = [_Worker(ctx, func) for _ in range(min(jobs, len(tasks)))]
+    deaths: dict[int, int] = {}  # by id(task): the caller's sequence keeps every task alive
     try:
         while waiting or any(w.task is not None for w in workers):
             for worker in workers:
@@ -73,10 +78,14 @@ def run_in_workers(func: Callable, tasks: Sequence, *, jobs: int, overdue_s: Cal
             for conn in wait(list(busy), timeout=_POLL_S):
                 worker = busy[conn]
                 result = _receive(worker)
+                task, worker.task = worker.task, None
                 if result is _DIED:
-                    result = on_failure(worker.task, "died")
                     workers[workers.index(worker)] = _replace(ctx, func, worker)
-                worker.task = None
+                    deaths[id(task)] = deaths.get(id(task), 0) + 1
+                    if deaths[id(task)] <= retries:
+                        waiting.append(task)
+                        continue
+                    result = on_failure(task, "died")
                 yield result
             for k, worker in enumerate(workers):
                 if worker.task is not None and time.monotonic() - worker.started > overdue_s(worker.task):

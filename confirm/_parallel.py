@@ -2,9 +2,9 @@
 
 The fit sweeps and refines several starting points that do not depend on each other; on a
 machine with two or more cores these run side by side. Workers are forked (POSIX), so nothing
-is imported again; elsewhere, inside another worker process, or with one core, the tasks run
-one after the other in this process. Results come back in task order either way, and are the
-same.
+is imported again; elsewhere, inside another worker process, off the main thread, or with one
+core, the tasks run one after the other in this process. Results come back in task order either
+way, and are the same.
 
 :class:`Beside` runs one function in a forked process while this one does something else (the
 candidates' predictions run while the spectrum is processed and the fit's modules load).
@@ -19,6 +19,7 @@ from __future__ import annotations
 import itertools
 import multiprocessing
 import os
+import threading
 from collections.abc import Callable, Sequence
 
 #: Shared data of the open pools, by pool number; forked workers inherit it.
@@ -85,11 +86,14 @@ class TaskPool:
 
 
 def _fork_usable() -> bool:
-    """Two cores, fork, and not a worker already (no nested pools)."""
+    """Two cores, fork, not a worker already (no nested pools), and on the main thread: a process
+    that runs its work on another thread (a Dask worker, a threaded program) has other threads
+    that a fork could catch holding a lock."""
     return (
         usable_cores() >= 2
         and "fork" in multiprocessing.get_all_start_methods()
         and multiprocessing.parent_process() is None
+        and threading.current_thread() is threading.main_thread()
     )
 
 

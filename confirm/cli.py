@@ -85,27 +85,6 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
-def _tune_allocator() -> None:
-    """Keep large temporary arrays in the heap instead of fresh memory maps (glibc only).
-
-    The fit allocates and frees many arrays of a few MB; with glibc's default
-    thresholds each one is a new memory map, and the page faults cost about a
-    fifth of an analysis. Elsewhere (or if the call fails) nothing changes.
-    """
-    import ctypes
-    import ctypes.util
-
-    if not sys.platform.startswith("linux"):
-        return
-    try:
-        libc = ctypes.CDLL(ctypes.util.find_library("c") or "libc.so.6")
-        m_trim_threshold, m_mmap_threshold = -1, -3  # mallopt parameter numbers (malloc.h)
-        libc.mallopt(m_mmap_threshold, 256 * 1024 * 1024)
-        libc.mallopt(m_trim_threshold, 512 * 1024 * 1024)
-    except (OSError, AttributeError):
-        return
-
-
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; return the exit code instead of exiting.
 
@@ -215,7 +194,9 @@ def _one_line(exc: BaseException) -> str:
 
 def run() -> None:
     """Console-script entry point."""
-    _tune_allocator()
+    from confirm._allocator import tune_allocator
+
+    tune_allocator()
     sys.exit(main())
 
 

@@ -1,4 +1,5 @@
-"""``confirm batch``: analyse many spectra in parallel; summary CSV and HTML index.
+"""``confirm batch``: analyse many spectra in parallel (here or on a Dask cluster); summary CSV and
+HTML index.
 
 Exit code 0 when every item was analysed (and passed its QC check, when it had one), 1 when
 any item failed or did not pass, 2 for bad input, 130 after Ctrl-C (finished items are kept and
@@ -27,12 +28,19 @@ def register(subparsers, parents) -> None:
                     "pass its QC check.",
         epilog="Examples: confirm batch plate.csv --out results/ --jobs 2; confirm batch lots/ --spec "
                "spec.toml --out release/ (plate.csv: spectrum,candidates,nmr_solvent / "
-               "a1.jdx,E=C/C=C/CC Z=C/C=C\\CC,CDCl3)")
+               "a1.jdx,E=C/C=C/CC Z=C/C=C\\CC,CDCl3); confirm batch plate.csv --out results/ "
+               "--scheduler tcp://head-node:8786")
     parser.add_argument("source", type=Path, metavar="MANIFEST_OR_FOLDER",
                         help="manifest CSV file or folder of spectra")
     parser.add_argument("--out", required=True, type=Path,
                         help="output folder (not inside the input folder)")
-    parser.add_argument("--jobs", type=int, default=1, metavar="N", help="worker processes (default 1)")
+    parser.add_argument("--jobs", type=int, default=1, metavar="N",
+                        help="worker processes (default 1); with --scheduler local, the local "
+                             "cluster's workers")
+    parser.add_argument("--scheduler", metavar="ADDRESS",
+                        help="run the items on a Dask cluster: the address of a running scheduler "
+                             "(tcp://host:8786), or 'local' to start one here with --jobs workers; needs "
+                             "the optional extra: pip install \"confirm-nmr[cluster]\"")
     parser.add_argument("--force", action="store_true", help="redo items a previous run finished")
     parser.add_argument("--spec", type=Path, help="shared QC specification (TOML) for every item")
     parser.add_argument("--no-reports", action="store_true", help="skip the per-item HTML reports")
@@ -54,7 +62,10 @@ def _check_paths(args: argparse.Namespace, items) -> None:
     for item in items:
         inputs += [*data_inputs(f"spectrum of item {item.item_id}", item.spectrum),
                    (f"spec of item {item.item_id}", item.spec)]
-    outputs = [("--out summary", args.out / "summary.csv"), ("--out index", args.out / "index.html")]
+    from confirm.batch.lock import LOCK_NAME
+
+    outputs = [("--out summary", args.out / "summary.csv"), ("--out index", args.out / "index.html"),
+               ("--out lock", args.out / LOCK_NAME)]
     outputs += [(f"--out folder of item {item.item_id}", args.out / item.item_id) for item in items]
     check_outputs(outputs, inputs, folders=[("--out", args.out)])
 
@@ -67,6 +78,10 @@ def _run(args: argparse.Namespace) -> int:
     if args.jobs < 1:
         raise InputError(f"--jobs: expected a whole number >= 1, got {args.jobs}")
     Budget(max_seconds=args.max_seconds)  # a bad --max-seconds is refused before any work
+    if args.scheduler is not None:
+        from confirm.batch.dask_runner import require_dask
+
+        require_dask()  # a missing optional dependency is said before any work
     items, notes = collect_batch(args.source)
     _check_paths(args, items)
     spec = read_spec(args.spec) if args.spec is not None else None
@@ -74,7 +89,7 @@ def _run(args: argparse.Namespace) -> int:
         print(f"warning: {note}", file=sys.stderr)
     summary = run_batch(items, args.out, jobs=args.jobs, force=args.force, spec=spec, analyze=_analyze,
                         write_reports=not args.no_reports, progress=not args.json,
-                        max_seconds=args.max_seconds)
+                        max_seconds=args.max_seconds, scheduler=args.scheduler)
     code = 130 if summary.interrupted else (0 if summary.all_passed else 1)
     if args.json:
         emit_json({"counts": summary.counts, "caution": CAUTION, "summary_csv": str(summary.summary_csv),

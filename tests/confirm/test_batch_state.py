@@ -8,6 +8,7 @@ machinery, not the chemistry.
 from __future__ import annotations
 
 import csv
+import functools
 import json
 import os
 import signal
@@ -19,8 +20,7 @@ from pathlib import Path
 
 import pytest
 
-import confirm.batch as batch
-from confirm.batch import BatchItem, item_fingerprint, read_manifest, run_batch, scan_folder
+from confirm.batch import BatchItem, item_fingerprint, read_manifest, run_batch, run_item, runner, scan_folder
 from confirm.reading import write_jcamp_spectrum
 from predictors.errors import InputError
 from tests.confirm.test_batch import CANDIDATES, SPEC_TEXT, _write_spectra, mixture_spectrum, nnls_analyze
@@ -163,7 +163,7 @@ def test_item_errors_never_show_the_contents_of_the_file(tmp_path):
     secret = tmp_path / "credentials.csv"
     secret.write_text("password=hunter2-very-secret,token\nline two,of secrets\n")
     summary = _run([BatchItem(item_id="x", spectrum=secret, candidates=CANDIDATES)], tmp_path / "out",
-                   analyze=batch._default_analyze)
+                   analyze=run_item._default_analyze)
     (outcome,) = summary.outcomes
     assert outcome.status == "error" and "credentials.csv" in outcome.error
     for text in (outcome.error, summary.summary_csv.read_text(), summary.index_html.read_text()):
@@ -236,13 +236,32 @@ def test_ctrl_c_in_a_single_process_run_keeps_what_finished(three, tmp_path):
 
 
 def test_a_worker_that_dies_or_hangs_is_reported_and_the_rest_go_on(three, tmp_path, monkeypatch):
-    monkeypatch.setattr(batch, "_KILL_GRACE_S", 1.0)
+    monkeypatch.setattr(runner, "_KILL_GRACE_S", 1.0)
     nnls_analyze(three[2].spectrum, candidates=CANDIDATES)  # model spectra cached before the workers fork
     summary = _run(three, tmp_path / "out", analyze=_dies_or_hangs, jobs=2, max_seconds=1.0)
     status = {o.item_id: (o.status, o.error) for o in summary.outcomes}
     assert status["lot00"][0] == "error" and "ended without a result" in status["lot00"][1]
     assert status["lot01"][0] == "error" and "time budget" in status["lot01"][1]
     assert status["lot02"][0] == "done"
+
+
+def test_an_item_whose_worker_dies_once_is_run_again(three, tmp_path):
+    nnls_analyze(three[2].spectrum, candidates=CANDIDATES)  # model spectra cached before the workers fork
+    marks = tmp_path / "marks"
+    marks.mkdir()
+    analyze = functools.partial(_dies_the_first_time, marks=str(marks))
+    summary = _run(three, tmp_path / "out", analyze=analyze, jobs=2)
+    assert [o.status for o in summary.outcomes] == ["done", "done", "done"]
+    assert (marks / "lot01").exists()  # its first attempt ended its worker
+
+
+def _dies_the_first_time(path, budget=None, *, marks: str, **kwargs):
+    """lot01: the worker process dies on the first attempt only."""
+    mark = Path(marks, Path(path).stem)
+    if mark.name == "lot01" and not mark.exists():
+        mark.touch()
+        os._exit(9)
+    return nnls_analyze(path, **kwargs)
 
 
 def _dies_or_hangs(path, budget=None, **kwargs):

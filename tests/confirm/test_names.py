@@ -79,7 +79,7 @@ def test_also_without_substrate_exits_2(run_cli):
 
 
 def test_batch_components_table_has_a_name_column():
-    from confirm.batch import _COMPONENT_COLUMNS
+    from confirm.batch.summary import _COMPONENT_COLUMNS
 
     reader = csv.reader(io.StringIO(",".join(_COMPONENT_COLUMNS)))
     assert next(reader)[2:5] == ["smiles", "name", "label"]

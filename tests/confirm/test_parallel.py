@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import multiprocessing
 import os
+import threading
 
 import numpy as np
 import pytest
@@ -44,6 +45,27 @@ def test_workers_get_the_shared_data_by_fork_and_return_results_in_order():
     assert [value for value, _ in out] == [5 * t for t in range(12)]
     assert [value for value, _ in again] == [35, 40]
     assert os.getpid() not in {pid for _, pid in out + again}
+
+
+@pytest.mark.skipif(
+    usable_cores() < 2 or "fork" not in multiprocessing.get_all_start_methods(),
+    reason="needs two cores and fork",
+)
+def test_off_the_main_thread_the_tasks_run_here_without_forking():
+    found = {}
+
+    def work():
+        with TaskPool(max_workers=2, shared=_Unpicklable(2)) as pool:
+            found["pool"] = pool.map(_scaled, [1, 2, 3])
+        with Beside(_square_and_pid, 4) as job:
+            found["beside"] = job.result()
+
+    thread = threading.Thread(target=work)
+    thread.start()
+    thread.join()
+    assert [value for value, _ in found["pool"]] == [2, 4, 6]
+    assert {pid for _, pid in found["pool"]} == {os.getpid()}
+    assert found["beside"] == (16, os.getpid())
 
 
 def _square_and_pid(x):
