@@ -6,7 +6,6 @@ import math
 
 from rdkit import Chem
 
-from predictors.antiperiplanar import MAX_STRAIN_KCAL
 from predictors.products._allylic import one_four_eliminations
 from predictors.products._editing import (
     _alkene_outcomes,
@@ -20,8 +19,8 @@ from predictors.products._editing import (
 )
 from predictors.products._geometry import (
     beta_hydrogens,
-    conformer_note,
     periplanar_results,
+    periplanar_weight,
     site_model,
     strain_of,
     use_3d,
@@ -31,9 +30,6 @@ from predictors.substrate import LeavingGroup
 
 #: Weight of a syn-periplanar E2 relative to anti from the same H (common practice: rare).
 _SYN_FACTOR = 0.02
-#: An H that cannot reach anti-periplanar within MAX_STRAIN_KCAL is weighted as if it cost at least
-#: this much (its own cost when higher): below every reachable H, listed but negligible.
-_BLOCKED_KCAL = 12.0
 
 # ----------------------------------------------------------------------------- E2
 
@@ -56,14 +52,7 @@ def _e2_from_3d(ctx: _Context, lg: LeavingGroup, beta: int, h_idx: int, mult: in
     every = {(sa, sb) for sa in _sub_tags(ctx.mol_h, lg.alpha_idx, (beta, lg.lg_atom_idx))
              for sb in _sub_tags(ctx.mol_h, beta, (lg.alpha_idx, h_idx))}
     out = []
-    if res.periplanar and strain <= MAX_STRAIN_KCAL:
-        why = f"H anti-periplanar at {strain:.1f} kcal/mol strain"
-        weight = mult * math.exp(-strain / ctx.rt_kcal)
-        notes = (conformer_note(res, strain, "anti"),)
-    else:
-        why = "no anti-periplanar arrangement for this H within reach"
-        weight = mult * math.exp(-max(strain, _BLOCKED_KCAL) / ctx.rt_kcal)
-        notes = ("H cannot reach anti-periplanar: minor at best",)
+    weight, why, notes = periplanar_weight(ctx, res, strain, mult, "anti")
     for o in _alkene_outcomes(rw, a, b, cis_pairs=anti):
         out.append((o, weight, why, notes))
     if ctx.mol_h.GetBondBetweenAtoms(lg.alpha_idx, beta).IsInRing():

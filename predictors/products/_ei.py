@@ -16,15 +16,12 @@ and towards conjugation.
 
 from __future__ import annotations
 
-import math
-
-from predictors.antiperiplanar import MAX_STRAIN_KCAL
 from predictors.products._e2 import _e2_skeleton
 from predictors.products._editing import _alkene_outcomes, _geometry_weight, _hydrogens, _orientation_weight
 from predictors.products._geometry import (
     beta_hydrogens,
-    conformer_note,
     periplanar_results,
+    periplanar_weight,
     site_model,
     strain_of,
     use_3d,
@@ -32,24 +29,13 @@ from predictors.products._geometry import (
 from predictors.products._records import _Context, _Route
 from predictors.substrate import LeavingGroup
 
-#: An H that cannot reach syn-periplanar within MAX_STRAIN_KCAL is weighted as if it cost at least
-#: this much (its own cost when higher).
-_BLOCKED_KCAL = 12.0
-
 
 def _from_3d(ctx: _Context, lg: LeavingGroup, beta: int, h_idx: int, mult: int, res, reference: float):
     model = site_model(ctx, lg)
     strain = strain_of(res, reference)
     rw, a, b = _e2_skeleton(ctx, lg, beta, h_idx)
     cis = {(model.original(sa), model.original(sb)) for sa, sb in res.cis_pairs}
-    if res.periplanar and strain <= MAX_STRAIN_KCAL:
-        why = f"H syn-periplanar at {strain:.1f} kcal/mol strain"
-        weight = mult * math.exp(-strain / ctx.rt_kcal)
-        notes = (conformer_note(res, strain, "syn"),)
-    else:
-        why = "no syn-periplanar arrangement for this H within reach"
-        weight = mult * math.exp(-max(strain, _BLOCKED_KCAL) / ctx.rt_kcal)
-        notes = ("H cannot reach syn-periplanar: minor at best",)
+    weight, why, notes = periplanar_weight(ctx, res, strain, mult, "syn")
     return [(o, weight, why, notes) for o in _alkene_outcomes(rw, a, b, cis_pairs=cis)]
 
 

@@ -157,6 +157,24 @@ def conformer_note(result: PeriplanarResult, strain_kcal: float, mode: str) -> s
     return f"H {mode}-periplanar {where}, {strain_kcal:.1f} kcal/mol above the global minimum (MMFF94)"
 
 
+#: An H that cannot reach periplanar within MAX_STRAIN_KCAL is weighted as if it cost at least this
+#: much (its own cost when higher): below every reachable H, listed but negligible.
+BLOCKED_KCAL = 12.0
+
+
+def periplanar_weight(ctx: _Context, result: PeriplanarResult, strain_kcal: float, mult: int,
+                      mode: str) -> tuple[float, str, tuple]:
+    """Weight of one H's elimination (``mode`` "anti" or "syn"), the reason and the note: its
+    Boltzmann factor when it reaches periplanar within MAX_STRAIN_KCAL, else that of BLOCKED_KCAL."""
+    if result.periplanar and strain_kcal <= MAX_STRAIN_KCAL:
+        return (mult * math.exp(-strain_kcal / ctx.rt_kcal),
+                f"H {mode}-periplanar at {strain_kcal:.1f} kcal/mol strain",
+                (conformer_note(result, strain_kcal, mode),))
+    return (mult * math.exp(-max(strain_kcal, BLOCKED_KCAL) / ctx.rt_kcal),
+            f"no {mode}-periplanar arrangement for this H within reach",
+            (f"H cannot reach {mode}-periplanar: minor at best",))
+
+
 def path_access(ctx: _Context, lg: LeavingGroup, betas, *, mode: str) -> float:
     """Boltzmann factor of the ring change the path needs (1 when some H is periplanar without one).
 
