@@ -2,29 +2,16 @@
 
 from __future__ import annotations
 
-import functools
-
 from rdkit import Chem
 from rdkit.Chem import rdCIPLabeler
 
-from predictors.products import enumerate_products
+from tests.predictors.product_priors import canon as _canon
+from tests.predictors.product_priors import prior as _prior
+from tests.predictors.product_priors import products as _products
 
 DL_STILBENE_DIBROMIDE = "Br[C@@H](c1ccccc1)[C@@H](Br)c1ccccc1"  # (S,S): one enantiomer of the racemate
 MESO_STILBENE_DIBROMIDE = "Br[C@@H](c1ccccc1)[C@H](Br)c1ccccc1"  # (R,S)
 DL_DIBROMOBUTANE = "C[C@@H](Br)[C@H](Br)C"  # (2R,3R)-2,3-dibromobutane
-
-
-def _canon(smiles: str) -> str:
-    return Chem.MolToSmiles(Chem.MolFromSmiles(smiles))
-
-
-@functools.cache
-def _products(smiles: str, reagent: str, temp_c: float = 25.0):
-    return enumerate_products(smiles, reagent=reagent, temp_c=temp_c)
-
-
-def _prior(products, smiles: str) -> float:
-    return {c.smiles: c.prior for c in products.candidates}.get(_canon(smiles), 0.0)
 
 
 def _cip(smiles: str) -> list[str]:

@@ -2,14 +2,15 @@
 
 from __future__ import annotations
 
-import functools
-
 import pytest
 from rdkit import Chem
 from rdkit.Chem import rdCIPLabeler
 
 from predictors.errors import ChemistryError, InputError
 from predictors.products import check_reagent_examples, enumerate_products
+from tests.predictors.product_priors import canon as _canon
+from tests.predictors.product_priors import prior as _prior
+from tests.predictors.product_priors import products as _products
 from tests.predictors.stereo_checks import same_face
 
 CIS_OXIDE = "C[C@H]1CCCC[C@H]1[N+](C)(C)[O-]"  # cis-2-methylcyclohexyl dimethylamine N-oxide
@@ -18,19 +19,6 @@ MENTHOL = "CC(C)[C@@H]1CC[C@@H](C)C[C@H]1O"  # (1R,2S,5R)
 NEOMENTHOL = "CC(C)[C@@H]1CC[C@@H](C)C[C@@H]1O"  # (1S,2S,5R)
 MENTH_2_ENE = "CC(C)[C@H]1C=C[C@H](C)CC1"
 MENTH_3_ENE = "CC(C)C1=CC[C@H](C)CC1"
-
-
-def _canon(smiles: str) -> str:
-    return Chem.MolToSmiles(Chem.MolFromSmiles(smiles))
-
-
-@functools.cache
-def _products(smiles: str, reagent: str, temp_c: float = 25.0):
-    return enumerate_products(smiles, reagent=reagent, temp_c=temp_c)
-
-
-def _prior(products, smiles: str) -> float:
-    return {c.smiles: c.prior for c in products.candidates}.get(_canon(smiles), 0.0)
 
 
 def test_the_ring_test_molecules_are_cis_and_trans():

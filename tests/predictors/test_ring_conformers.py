@@ -2,8 +2,6 @@
 
 from __future__ import annotations
 
-import functools
-
 import pytest
 from rdkit import Chem
 from rdkit.Chem import rdCIPLabeler
@@ -11,6 +9,9 @@ from rdkit.Chem import rdCIPLabeler
 from predictors.antiperiplanar import add_ring_forms, embed_conformers, find_periplanar
 from predictors.products import enumerate_products
 from predictors.ring_forms import build_ring_forms, chair_sign, ring_form, saturated_six_rings
+from tests.predictors.product_priors import canon as _canon
+from tests.predictors.product_priors import prior as _prior
+from tests.predictors.product_priors import products as _products
 from tests.predictors.stereo_checks import same_face
 
 # (1R,2S,5R)-menthyl chloride and its C1 epimer (1S,2S,5R)-neomenthyl chloride: the chlorides of
@@ -24,19 +25,6 @@ TRANS_BROMIDE = "C[C@@H]1CCCC[C@H]1Br"  # trans-1-bromo-2-methylcyclohexane
 CIS_BROMIDE = "C[C@H]1CCCC[C@H]1Br"
 CIS_TOSYLATE = "CC(C)(C)[C@H]1CC[C@@H](OS(=O)(=O)c2ccc(C)cc2)CC1"  # cis-4-tert-butylcyclohexyl tosylate
 TRANS_TOSYLATE = "CC(C)(C)[C@H]1CC[C@H](OS(=O)(=O)c2ccc(C)cc2)CC1"
-
-
-def _canon(smiles: str) -> str:
-    return Chem.MolToSmiles(Chem.MolFromSmiles(smiles))
-
-
-@functools.cache
-def _products(smiles: str, reagent: str = "ethoxide"):
-    return enumerate_products(smiles, reagent=reagent)
-
-
-def _prior(products, smiles: str) -> float:
-    return {c.smiles: c.prior for c in products.candidates}.get(_canon(smiles), 0.0)
 
 
 def _ring_labels(smiles: str) -> dict[str, str]:
@@ -86,7 +74,7 @@ def test_menthyl_chloride_gives_only_the_less_substituted_alkene_by_anti_e2():
     # Menthyl chloride + ethoxide: 2-menthene only; the single trans-diaxial H appears after the ring
     # flip that puts Cl, isopropyl and methyl axial (Hughes, Ingold et al., J. Chem. Soc. 1948;
     # textbook case, from memory). The more substituted alkene stays listed, negligible.
-    products = _products(MENTHYL)
+    products = _products(MENTHYL, "ethoxide")
     alkenes = [c for c in products.candidates if "E2" in c.pathways]
     assert alkenes[0].smiles == _canon(MENTH_2_ENE)
     assert _prior(products, MENTH_3_ENE) < 1e-3 * _prior(products, MENTH_2_ENE)
@@ -99,7 +87,7 @@ def test_menthyl_chloride_gives_only_the_less_substituted_alkene_by_anti_e2():
 def test_neomenthyl_chloride_gives_both_alkenes_more_substituted_first():
     # Neomenthyl chloride: Cl axial in the stable chair, trans-diaxial H on both sides, about 3:1
     # 3-menthene : 2-menthene with ethoxide (Hughes, Ingold et al. 1948; from memory).
-    products = _products(NEOMENTHYL)
+    products = _products(NEOMENTHYL, "ethoxide")
     more, less = _prior(products, MENTH_3_ENE), _prior(products, MENTH_2_ENE)
     assert more > less > 0.02
     anti = [r for r in products.beta_hydrogens if r.reachable]
@@ -110,7 +98,7 @@ def test_trans_and_cis_1_bromo_2_methylcyclohexane():
     # trans: the C2-H is never anti to Br (trans-diaxial needs CH3 axial and then C2-H equatorial), so
     # only 3-methylcyclohexene, through the flipped chair; cis: Br axial in the stable chair with anti
     # H on both sides, 1-methylcyclohexene first (common practice, shared/references.md section 8).
-    trans, cis = _products(TRANS_BROMIDE), _products(CIS_BROMIDE)
+    trans, cis = _products(TRANS_BROMIDE, "ethoxide"), _products(CIS_BROMIDE, "ethoxide")
     assert _prior(trans, "CC1=CCCCC1") < 1e-3 * _prior(trans, "C[C@H]1C=CCCC1")
     assert [r.conformer for r in trans.beta_hydrogens if r.reachable] == ["flipped chair"]
     assert _prior(cis, "CC1=CCCCC1") > _prior(cis, "C[C@@H]1C=CCCC1") > 0.0
@@ -121,7 +109,7 @@ def test_locked_tert_butyl_tosylates_cis_fast_trans_pays_a_cost_it_cannot_afford
     # cis-4-tert-butylcyclohexyl tosylate: OTs axial in the locked chair, anti H on both sides; the
     # trans isomer has OTs equatorial and must put tert-butyl axial or twist the ring (Winstein and
     # Holness, J. Am. Chem. Soc. 1955; cis eliminates far faster; from memory).
-    cis, trans = _products(CIS_TOSYLATE), _products(TRANS_TOSYLATE)
+    cis, trans = _products(CIS_TOSYLATE, "ethoxide"), _products(TRANS_TOSYLATE, "ethoxide")
     cis_anti = [r for r in cis.beta_hydrogens if r.reachable]
     assert len(cis_anti) == 2 and all(r.energy_above_min_kcal < 0.5 and not r.ring_flip for r in cis_anti)
     trans_anti = [r for r in trans.beta_hydrogens if r.reachable]
