@@ -69,6 +69,7 @@ def item_fingerprint(item: BatchItem, *, spectrum_sha256: str, spec: QcSpec | No
 
 
 def read_json_object(path: Path) -> dict | None:
+    """The JSON object in ``path``, or None when it cannot be read or holds something else."""
     try:
         data = json.loads(path.read_text(encoding="utf-8"))
     except (OSError, ValueError):
@@ -77,7 +78,7 @@ def read_json_object(path: Path) -> dict | None:
 
 
 def finished_outcome(item: BatchItem, item_dir: Path, fingerprint: str, *, needs_audit: bool,
-              needs_report: bool) -> ItemOutcome | None:
+                     needs_report: bool) -> ItemOutcome | None:
     """The earlier outcome when the item is finished on the same work and its files read back."""
     data = read_json_object(item_dir / "outcome.json")
     if data is None or not fingerprint:

@@ -20,6 +20,7 @@ import time
 from collections.abc import Iterator
 from pathlib import Path
 
+from confirm.batch.finished import read_json_object
 from predictors.errors import InputError
 
 __all__ = ["LOCK_NAME", "hold_out_lock"]
@@ -44,7 +45,7 @@ def hold_out_lock(out_dir: str | Path) -> Iterator[Path]:
     try:
         yield path
     finally:
-        if _read(path) == mine:  # a lock taken over as stale by mistake is not ours to remove
+        if read_json_object(path) == mine:  # a lock taken over as stale by mistake is not ours to remove
             with contextlib.suppress(OSError):
                 path.unlink()
 
@@ -61,7 +62,7 @@ def _take(path: Path) -> dict:
         try:
             fd = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o644)
         except FileExistsError:
-            holder = _read(path)
+            holder = read_json_object(path)
             if not _is_stale(holder, path):
                 raise InputError(_busy_message(path, holder)) from None
             _clear_stale(path, holder)
@@ -72,15 +73,7 @@ def _take(path: Path) -> dict:
         with os.fdopen(fd, "w", encoding="utf-8") as handle:
             handle.write(json.dumps(mine) + "\n")
         return mine
-    raise InputError(_busy_message(path, _read(path)))
-
-
-def _read(path: Path) -> dict | None:
-    try:
-        data = json.loads(path.read_text(encoding="utf-8"))
-    except (OSError, ValueError):
-        return None
-    return data if isinstance(data, dict) else None
+    raise InputError(_busy_message(path, read_json_object(path)))
 
 
 def _is_stale(holder: dict | None, path: Path) -> bool:
@@ -146,7 +139,7 @@ def _clear_stale(path: Path, holder: dict | None) -> None:
     except OSError as exc:
         raise InputError(f"--out: cannot remove the stale lock file {str(path)!r} "
                          f"({exc.strerror or exc}); delete it") from None
-    if holder is not None and _read(aside) != holder:
+    if holder is not None and read_json_object(aside) != holder:
         with contextlib.suppress(OSError):
             os.link(aside, path)  # never over a lock made meanwhile
     with contextlib.suppress(OSError):
