@@ -28,6 +28,7 @@ from confirm.batch.lock import LOCK_NAME
 from confirm.qc import read_spec
 from predictors.errors import InputError
 from tests.confirm.test_batch import CANDIDATES, SPEC_TEXT, _write_spectra, nnls_analyze
+from tests.confirm.test_batch_state import SLOW_BATCH
 
 PROJECT = Path(__file__).resolve().parents[2]
 _NO_DASK = "Dask is an optional extra (pip install '.[cluster]'); not installed here"
@@ -196,27 +197,6 @@ def test_an_item_that_kills_its_worker_twice_or_hangs_is_reported_and_the_rest_g
     assert _half_written(tmp_path / "out") == []
 
 
-_SLOW_BATCH = """
-import os, sys, time
-from pathlib import Path
-sys.path.insert(0, {project!r})
-import confirm.commands.batch as command
-from confirm.cli import main
-from tests.confirm.test_batch import nnls_analyze
-
-def slow(path, budget=None, **kwargs):
-    Path({pids!r}, Path(path).stem).write_text(str(os.getpid()))
-    if Path(path).stem != "lot00":
-        time.sleep(120)
-    return nnls_analyze(path, **kwargs)
-
-if __name__ == "__main__":
-    command._analyze = slow
-    sys.exit(main(["batch", {manifest!r}, "--out", {out!r}, "--scheduler", "local", "--jobs", "2",
-                   "--no-reports"]))
-"""
-
-
 @pytest.mark.slow
 def test_ctrl_c_ends_the_local_cluster_at_once_and_writes_the_summary(tmp_path):
     pytest.importorskip("distributed", reason=_NO_DASK)
@@ -226,8 +206,9 @@ def test_ctrl_c_ends_the_local_cluster_at_once_and_writes_the_summary(tmp_path):
     pids, out = tmp_path / "pids", tmp_path / "out"
     pids.mkdir()
     script = tmp_path / "run.py"
-    script.write_text(_SLOW_BATCH.format(project=str(PROJECT), pids=str(pids),
-                                         manifest=str(tmp_path / "m.csv"), out=str(out)))
+    script.write_text(SLOW_BATCH.format(project=str(PROJECT), pids=str(pids),
+                                        manifest=str(tmp_path / "m.csv"), out=str(out),
+                                        options='"--scheduler", "local", '))
     proc = subprocess.Popen([sys.executable, str(script)], stdout=subprocess.PIPE, stderr=subprocess.PIPE)
     deadline = time.monotonic() + 90
     while time.monotonic() < deadline and proc.poll() is None and not (

@@ -276,7 +276,10 @@ def _dies_or_hangs(path, budget=None, **kwargs):
     return nnls_analyze(path, **kwargs)
 
 
-_SLOW_BATCH = textwrap.dedent("""
+#: A batch of 2 jobs (``{options}``: more options, such as a scheduler) whose items after the first
+#: sleep, each leaving its worker's pid in ``pids``: a script for a process that a test interrupts.
+#: The guard keeps worker processes that import the script (a local Dask cluster) from running it.
+SLOW_BATCH = textwrap.dedent("""
     import os, sys, time
     from pathlib import Path
     sys.path.insert(0, {project!r})
@@ -290,8 +293,9 @@ _SLOW_BATCH = textwrap.dedent("""
             time.sleep(120)
         return nnls_analyze(path, **kwargs)
 
-    command._analyze = slow
-    sys.exit(main(["batch", {manifest!r}, "--out", {out!r}, "--jobs", "2", "--no-reports"]))
+    if __name__ == "__main__":
+        command._analyze = slow
+        sys.exit(main(["batch", {manifest!r}, "--out", {out!r}, {options}"--jobs", "2", "--no-reports"]))
 """)
 
 
@@ -303,8 +307,8 @@ def test_ctrl_c_stops_the_workers_within_two_seconds_and_writes_the_summary(tmp_
     pids, out = tmp_path / "pids", tmp_path / "out"
     pids.mkdir()
     script = tmp_path / "run.py"
-    script.write_text(_SLOW_BATCH.format(project=str(PROJECT), pids=str(pids), manifest=str(manifest),
-                                         out=str(out)))
+    script.write_text(SLOW_BATCH.format(project=str(PROJECT), pids=str(pids), manifest=str(manifest),
+                                        out=str(out), options=""))
     proc = subprocess.Popen([sys.executable, str(script)], stdout=subprocess.PIPE, stderr=subprocess.PIPE)
     deadline = time.monotonic() + 60
     while time.monotonic() < deadline and proc.poll() is None and not (
