@@ -34,7 +34,15 @@ from rdkit.Chem import rdForceFieldHelpers as ff_helpers  # noqa: N813
 
 from predictors.errors import ChemistryError, InputError
 from predictors.local_model import local_model
-from predictors.ring_forms import RING_FORMS, build_ring_forms, chair_sign, ring_form, saturated_six_rings
+from predictors.ring_forms import (
+    RING_FORMS,
+    build_ring_forms,
+    chair_sign,
+    mmff_minimise,
+    positions_into,
+    ring_form,
+    saturated_six_rings,
+)
 
 __all__ = [
     "ConformerSet", "PeriplanarResult", "add_ring_forms", "embed_conformers", "find_periplanar", "is_axial",
@@ -235,7 +243,6 @@ def _angle_gap(a_deg: float, b_deg: float) -> float:
     return abs((a_deg - b_deg + 180.0) % 360.0 - 180.0)
 
 
-
 def _handedness(mol: Chem.Mol, conf) -> tuple[bool, ...]:
     """Sign of the volume spanned by three neighbours of every four-coordinate atom."""
     pos = conf.GetPositions()
@@ -248,14 +255,6 @@ def _handedness(mol: Chem.Mol, conf) -> tuple[bool, ...]:
     return tuple(signs)
 
 
-
-def _positions_into(mol: Chem.Mol, field) -> None:
-    conf = mol.GetConformer()
-    for i, xyz in enumerate(np.asarray(field.Positions()).reshape(-1, 3)):
-        conf.SetAtomPosition(i, xyz.tolist())
-
-
-
 def _constrained_minimum(start: Chem.Mol, atoms, target_deg: float) -> tuple[Chem.Mol, float]:
     """Minimise with the dihedral restrained; energy is inf when a centre was inverted on the way."""
     mol = Chem.Mol(start)
@@ -264,12 +263,11 @@ def _constrained_minimum(start: Chem.Mol, atoms, target_deg: float) -> tuple[Che
     field = ff_helpers.MMFFGetMoleculeForceField(mol, props)
     field.MMFFAddTorsionConstraint(*atoms, False, target_deg - 1.0, target_deg + 1.0, _RESTRAINT_KCAL)
     field.Minimize(maxIts=_MAX_ITERS)
-    _positions_into(mol, field)
+    positions_into(mol, field)
     if _handedness(mol, mol.GetConformer()) != before:
         return mol, float("inf")
     energy = ff_helpers.MMFFGetMoleculeForceField(mol, props).CalcEnergy()
     return mol, float(energy)
-
 
 
 def is_axial(mol: Chem.Mol, *, ring_atom: int, substituent: int, conf_id: int = -1) -> bool | None:
@@ -291,22 +289,10 @@ def is_axial(mol: Chem.Mol, *, ring_atom: int, substituent: int, conf_id: int = 
     return bool(cos > np.cos(np.radians(35.0)))
 
 
-
 def _relaxed_energy(mol: Chem.Mol, energy: float) -> float:
     if not np.isfinite(energy):
         return float("inf")
-    relaxed = Chem.Mol(mol)
-    before = _handedness(relaxed, relaxed.GetConformer())
-    props = ff_helpers.MMFFGetMoleculeProperties(relaxed)
-    field = ff_helpers.MMFFGetMoleculeForceField(relaxed, props)
-    field.Minimize(maxIts=_MAX_ITERS)
-    conf = relaxed.GetConformer()
-    for i, xyz in enumerate(np.asarray(field.Positions()).reshape(-1, 3)):
-        conf.SetAtomPosition(i, xyz.tolist())
-    if _handedness(relaxed, conf) != before:
-        return float("inf")
-    return float(field.CalcEnergy())
-
+    return _relax_in_place(Chem.Mol(mol))
 
 
 def _cis_pairs(mol: Chem.Mol, h_idx: int, beta: int, alpha: int, lg: int) -> tuple[tuple[int, int], ...]:
@@ -319,7 +305,6 @@ def _cis_pairs(mol: Chem.Mol, h_idx: int, beta: int, alpha: int, lg: int) -> tup
         (sa, sb) for sa in on_alpha for sb in on_beta
         if abs(rdMolTransforms.GetDihedralDeg(conf, sa, alpha, beta, sb)) < 90.0
     )
-
 
 
 def add_ring_forms(confs: ConformerSet, *, around, lg_idx: int, seed: int) -> ConformerSet:
@@ -448,14 +433,12 @@ def _rotamer(confs: ConformerSet, atoms, target_deg: float, tolerance_deg: float
 
 
 def _relax_in_place(mol: Chem.Mol) -> float:
+    """MMFF94 minimum of ``mol``'s conformer, in place; inf when a stereocentre inverted on the way."""
     before = _handedness(mol, mol.GetConformer())
-    props = ff_helpers.MMFFGetMoleculeProperties(mol)
-    field = ff_helpers.MMFFGetMoleculeForceField(mol, props)
-    field.Minimize(maxIts=_MAX_ITERS)
-    _positions_into(mol, field)
+    energy = mmff_minimise(mol, _MAX_ITERS)
     if _handedness(mol, mol.GetConformer()) != before:
         return float("inf")
-    return float(field.CalcEnergy())
+    return energy
 
 
 def _describe(confs: ConformerSet, mol: Chem.Mol, alpha_idx: int) -> tuple[str, bool]:

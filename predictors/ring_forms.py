@@ -22,6 +22,7 @@ from rdkit.Geometry import Point3D
 
 __all__ = [
     "RING_FORMS", "saturated_six_rings", "ring_form", "chair_sign", "build_ring_forms", "polish_side_chains",
+    "mmff_minimise", "positions_into",
 ]
 
 #: Names of the ring forms a conformer can be in (anything else is ``"other"``).
@@ -102,17 +103,23 @@ def _embed_around(mol_h: Chem.Mol, ring, points, seed: int) -> tuple[Chem.Mol, f
                                 useRandomCoords=True, enforceChirality=True, maxAttempts=20)
     if cid < 0 or not _same_configuration(mol, mol_h):
         return None
-    return mol, _minimise(mol)
+    return mol, mmff_minimise(mol)
 
 
-def _minimise(mol: Chem.Mol, max_iters: int = _MAX_ITERS) -> float:
+def mmff_minimise(mol: Chem.Mol, max_iters: int = _MAX_ITERS) -> float:
+    """Minimise ``mol``'s conformer with MMFF94 in place (at most ``max_iters`` steps); its energy."""
     props = ff_helpers.MMFFGetMoleculeProperties(mol)
     field = ff_helpers.MMFFGetMoleculeForceField(mol, props)
     field.Minimize(maxIts=max_iters)
+    positions_into(mol, field)
+    return float(field.CalcEnergy())
+
+
+def positions_into(mol: Chem.Mol, field) -> None:
+    """Copy a force field's atom positions into ``mol``'s conformer."""
     conf = mol.GetConformer()
     for i, xyz in enumerate(np.asarray(field.Positions()).reshape(-1, 3)):
         conf.SetAtomPosition(i, xyz.tolist())
-    return float(field.CalcEnergy())
 
 
 def _side_chain_torsions(mol: Chem.Mol, ring) -> list[tuple[int, int, int, int]]:
@@ -160,7 +167,7 @@ def polish_side_chains(mol: Chem.Mol, energy_kcal: float, *, ring, passes: int =
             for turn in (120.0, -120.0):
                 trial = Chem.Mol(best)
                 rdMolTransforms.SetDihedralDeg(trial.GetConformer(), *quad, start + turn)
-                energy = _minimise(trial, _POLISH_ITERS)
+                energy = mmff_minimise(trial, _POLISH_ITERS)
                 if energy < best_e - 0.05:
                     best, best_e, improved = trial, energy, True
                     break
