@@ -255,4 +255,56 @@ ENTRIES = (
         {1: 3.99, 2: (3.29, 3.13), 4: 7.32, 5: 7.42, 6: 7.37, 7: 7.42, 8: 7.32},
         M + "L-phenylalanine, D2O, literature values",
     ),
+    # ---- more aldehydes and formates
+    entry("acetaldehyde", "CC=O", "CDCl3", {0: 2.21, 1: 9.79}, M + "acetaldehyde, CDCl3, literature values"),
+    entry(
+        "isobutyraldehyde",
+        "CC(C)C=O",
+        "CDCl3",
+        {0: 1.13, 1: 2.43, 2: 1.13, 3: 9.63},
+        M + "2-methylpropanal, CDCl3, literature values",
+    ),
+    entry(
+        "ethyl_formate",
+        "CCOC=O",
+        "CDCl3",
+        {0: 1.30, 1: 4.22, 3: 8.03},
+        M + "ethyl formate, CDCl3, literature values",
+    ),
+    # ---- more methyls on N and S
+    entry(
+        "dimethylbenzylamine",
+        "CN(C)Cc1ccccc1",
+        "CDCl3",
+        {0: 2.24, 2: 2.24, 3: 3.42},
+        M + "N,N-dimethylbenzylamine, CDCl3, literature values",
+    ),
+    entry(
+        "n_methylmorpholine",
+        "CN1CCOCC1",
+        "CDCl3",
+        {0: 2.30, 2: 2.42, 3: 3.71, 5: 3.71, 6: 2.42},
+        M + "4-methylmorpholine, CDCl3, literature values",
+    ),
+    entry(
+        "n_methylacetamide",
+        "CNC(C)=O",
+        "CDCl3",
+        {0: 2.81, 3: 1.98},
+        M + "N-methylacetamide, CDCl3, literature values",
+    ),
+    entry(
+        "dimethyl_sulfide",
+        "CSC",
+        "CDCl3",
+        {0: 2.10, 2: 2.10},
+        M + "dimethyl sulfide, CDCl3, literature values",
+    ),
+    entry(
+        "methyl_phenyl_sulfone",
+        "CS(=O)(=O)c1ccccc1",
+        "CDCl3",
+        {0: 3.05, 5: 7.95, 6: 7.57, 7: 7.66, 8: 7.57, 9: 7.95},
+        M + "methyl phenyl sulfone, CDCl3, literature values",
+    ),
 )

@@ -318,4 +318,20 @@ ENTRIES = (
         {0: 3.92, 3: 7.15, 4: 7.75, 6: 7.76, 7: 7.34, 8: 7.44, 9: 7.74, 11: 7.13},
         M + "2-methoxynaphthalene, CDCl3, literature values",
     ),
+    # 3/10 H ortho to CHO, 4/9 H ortho to NO2
+    entry(
+        "nitrobenzaldehyde",
+        "O=Cc1ccc([N+](=O)[O-])cc1",
+        "CDCl3",
+        {1: 10.17, 3: 8.08, 4: 8.39, 9: 8.39, 10: 8.08},
+        M + "4-nitrobenzaldehyde, CDCl3, literature values",
+    ),
+    # 3 = H6, 4 = H5, 5 = H4, 6 = H3
+    entry(
+        "salicylaldehyde",
+        "O=Cc1ccccc1O",
+        "CDCl3",
+        {1: 9.89, 3: 7.55, 4: 7.02, 5: 7.52, 6: 6.98, 8: 11.03},
+        M + "salicylaldehyde, CDCl3, literature values",
+    ),
 )

@@ -146,4 +146,72 @@ ENTRIES = (
         {0: 4.00, 2: 7.51, 9: 3.41, 13: 3.57},
         M + "caffeine, CDCl3, literature values",
     ),
+    # ---- more five-membered rings
+    # 2 = H3, 3 = H4, 4 = H5
+    entry(
+        "methylfuran_2",
+        "Cc1ccco1",
+        "CDCl3",
+        {0: 2.28, 2: 5.93, 3: 6.23, 4: 7.25},
+        M + "2-methylfuran, CDCl3, literature values",
+    ),
+    # 5 = H3, 6 = H4, 7 = H5
+    entry(
+        "methyl_furoate",
+        "COC(=O)c1ccco1",
+        "CDCl3",
+        {0: 3.89, 5: 7.18, 6: 6.50, 7: 7.57},
+        M + "methyl furan-2-carboxylate, CDCl3, literature values",
+    ),
+    entry(
+        "acetylfuran_2",
+        "CC(=O)c1ccco1",
+        "CDCl3",
+        {0: 2.48, 4: 7.19, 5: 6.53, 6: 7.59},
+        M + "2-acetylfuran, CDCl3, literature values",
+    ),
+    entry(
+        "methylthiophene_2",
+        "Cc1cccs1",
+        "CDCl3",
+        {0: 2.49, 2: 6.77, 3: 6.90, 4: 7.05},
+        M + "2-methylthiophene, CDCl3, literature values",
+    ),
+    entry(
+        "thiophenecarbaldehyde",
+        "O=Cc1cccs1",
+        "CDCl3",
+        {1: 9.95, 3: 7.80, 4: 7.22, 5: 7.77},
+        M + "thiophene-2-carbaldehyde, CDCl3, literature values",
+    ),
+    entry(
+        "methylpyrrole_1",
+        "Cn1cccc1",
+        "CDCl3",
+        {0: 3.62, 2: 6.58, 3: 6.12, 4: 6.12, 5: 6.58},
+        M + "1-methylpyrrole, CDCl3, literature values",
+    ),
+    # 2 = H5, 3 = H4, 4 = H3
+    entry(
+        "methylpyrazole_1",
+        "Cn1cccn1",
+        "CDCl3",
+        {0: 3.89, 2: 7.33, 3: 6.22, 4: 7.48},
+        M + "1-methylpyrazole, CDCl3, literature values",
+    ),
+    entry(
+        "imidazole",
+        "c1c[nH]cn1",
+        "CDCl3",
+        {0: 7.13, 1: 7.13, 3: 7.70},
+        M + "imidazole, CDCl3, literature values",
+    ),
+    # 0 = H5, 1 = H6, 2 = H7, 5 = H2, 6 = H3, 8 = H4
+    entry(
+        "benzofuran",
+        "c1ccc2occc2c1",
+        "CDCl3",
+        {0: 7.22, 1: 7.29, 2: 7.50, 5: 7.62, 6: 6.77, 8: 7.60},
+        M + "benzofuran, CDCl3, literature values",
+    ),
 )
