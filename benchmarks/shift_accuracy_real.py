@@ -102,7 +102,8 @@ def compare_entry(item: ShiftEntry, *, table: dict[str, SdRow] | None = None) ->
     estimates = calibrated_estimates(model, predict_proton_shifts(model, pseudo_atoms=pseudo), table=table)
     classes = environment_classes(mol_h)
     half = half_of(item.smiles)
-    ranks = list(Chem.CanonicalRankAtoms(Chem.MolFromSmiles(item.smiles), breakTies=False))
+    heavy = Chem.MolFromSmiles(item.smiles)
+    ranks = list(Chem.CanonicalRankAtoms(heavy, breakTies=False, includeChirality=False))
     seen = set()
     out = []
     for atom_idx, observed in sorted(item.assignments.items()):

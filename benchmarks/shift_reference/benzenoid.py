@@ -334,4 +334,28 @@ ENTRIES = (
         {1: 9.89, 3: 7.55, 4: 7.02, 5: 7.52, 6: 6.98, 8: 11.03},
         M + "salicylaldehyde, CDCl3, literature values",
     ),
+    # 2 = H3, 3 = H4, 5 = H5, 6 = H6, 7 = H7, 8 = H8, 10 = H1
+    entry(
+        "methylnaphthalene_2",
+        "Cc1ccc2ccccc2c1",
+        "CDCl3",
+        {0: 2.52, 2: 7.32, 3: 7.76, 5: 7.80, 6: 7.43, 7: 7.45, 8: 7.77, 10: 7.60},
+        M + "2-methylnaphthalene, CDCl3, literature values",
+    ),
+    # 2 = H2, 3 = H3, 4 = H4, 6 = H5, 7 = H6, 8 = H7, 9 = H8 (peri to Br)
+    entry(
+        "bromonaphthalene_1",
+        "Brc1cccc2ccccc12",
+        "CDCl3",
+        {2: 7.78, 3: 7.30, 4: 7.77, 6: 7.82, 7: 7.51, 8: 7.58, 9: 8.26},
+        M + "1-bromonaphthalene, CDCl3, literature values",
+    ),
+    # 2 = H2, 3 = H3, 4 = H4, 6 = H5, 7 = H6, 8 = H7, 9 = H8 (peri to OH)
+    entry(
+        "naphthol_1",
+        "Oc1cccc2ccccc12",
+        "CDCl3",
+        {2: 6.80, 3: 7.30, 4: 7.43, 6: 7.80, 7: 7.48, 8: 7.50, 9: 8.17},
+        M + "1-naphthol, CDCl3, literature values",
+    ),
 )

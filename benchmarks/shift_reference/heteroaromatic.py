@@ -214,4 +214,20 @@ ENTRIES = (
         {0: 7.22, 1: 7.29, 2: 7.50, 5: 7.62, 6: 6.77, 8: 7.60},
         M + "benzofuran, CDCl3, literature values",
     ),
+    # 0 = H6, 1 = H7, 2 = H8, 4 = H1, 6 = H3, 7 = H4, 9 = H5
+    entry(
+        "isoquinoline",
+        "c1ccc2cnccc2c1",
+        "CDCl3",
+        {0: 7.69, 1: 7.60, 2: 7.95, 4: 9.26, 6: 8.52, 7: 7.64, 9: 7.80},
+        M + "isoquinoline, CDCl3, literature values",
+    ),
+    # 2 = H2, 3 = H3, 5 = H4, 6 = H5, 7 = H6, 8 = H7
+    entry(
+        "methylindole_1",
+        "Cn1ccc2ccccc21",
+        "CDCl3",
+        {0: 3.78, 2: 7.03, 3: 6.48, 5: 7.63, 6: 7.10, 7: 7.21, 8: 7.31},
+        M + "1-methylindole, CDCl3, literature values",
+    ),
 )
