@@ -4,7 +4,8 @@
 (:mod:`predictors.equivalence`), shifts (:mod:`predictors.shifts`) and
 couplings (:mod:`predictors.couplings`). Atom indices refer to
 ``Chem.AddHs(Chem.MolFromSmiles(system.smiles))`` where ``system.smiles`` is
-RDKit's canonical isomeric SMILES.
+RDKit's canonical isomeric SMILES. Each site's shift sd is the calibrated sd of its environment
+class (:func:`predictors.shift_uncertainty.calibrated_estimates`).
 """
 
 from __future__ import annotations
@@ -17,6 +18,7 @@ from predictors.couplings import embed_conformers, predict_couplings
 from predictors.equivalence import check_magnetic_equivalence, find_equivalent_protons, map_alkene_relations
 from predictors.errors import InputError
 from predictors.molecules import parse_molecule
+from predictors.shift_uncertainty import calibrated_estimates
 from predictors.shifts import predict_proton_shifts, prepare_model_molecule
 
 __all__ = ["predict_spin_system", "first_order_multiplicity", "second_order_pairs", "MULTIPLET_NAMES",
@@ -70,7 +72,8 @@ def predict_spin_system(molecule, *, n_conformers: int = 10, seed: int = 0xC0FFE
     model, pseudo = prepare_model_molecule(mol_h)
     groups = find_equivalent_protons(mol_h, map_alkene_relations(mol_h))
     relations = map_alkene_relations(model)
-    shifts = predict_proton_shifts(model, pseudo_atoms=pseudo, relations=relations)
+    raw = predict_proton_shifts(model, pseudo_atoms=pseudo, relations=relations)
+    shifts = calibrated_estimates(model, raw)
     exchangeable = frozenset(h for h, est in shifts.items() if est.exchangeable)
     conformers = embed_conformers(mol_h, n_conformers=int(n_conformers), seed=seed)
     j_atom, sd_atom = predict_couplings(model, conformers, relations, exchangeable=exchangeable)

@@ -1,0 +1,59 @@
+"""Smoke test of the real-data shift benchmark and checks of its reference set
+(benchmarks/shift_accuracy_real.py, benchmarks/shift_reference)."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+from rdkit import Chem
+
+from benchmarks.shift_accuracy_real import main
+from benchmarks.shift_reference import reference_entries
+from benchmarks.shift_reference.nmredata import nmredata_entries
+from benchmarks.shift_split import half_of
+
+
+def test_reference_set_is_large_checked_and_sourced():
+    entries, _ = reference_entries()
+    assert len(entries) >= 70
+    assert len({e.key for e in entries}) == len(entries)
+    for item in entries:
+        item.check()
+        assert item.source and item.solvent
+    halves = {half_of(e.smiles) for e in entries}
+    assert halves == {"fitting", "held-out"}
+    solvents = {e.solvent for e in entries}
+    assert {"CDCl3", "DMSO-d6", "D2O"} <= solvents
+
+
+def test_nmredata_entries_name_the_assigned_atoms(real_spectra: Path):
+    entries, skipped = nmredata_entries(real_spectra)
+    assert not skipped and len(entries) == 3
+    anilide = next(e for e in entries if e.key == "nmredata:propananilide")
+    mol = Chem.MolFromSmiles(anilide.smiles)
+    # CH3 1.26, CH2 2.42, N-H 7.41 (depositors' assignment)
+    by_shift = {v[0]: mol.GetAtomWithIdx(a) for a, v in anilide.assignments.items()}
+    assert by_shift[1.263].GetTotalNumHs() == 3
+    assert by_shift[2.422].GetTotalNumHs() == 2
+    assert by_shift[7.41].GetSymbol() == "N"
+    panthenol = next(e for e in entries if e.key == "nmredata:panthenol")
+    assert sum(len(v) == 2 for v in panthenol.assignments.values()) == 2  # two resolved CH2
+
+
+def test_nmredata_entries_skip_with_a_reason_without_the_folder(tmp_path):
+    entries, skipped = nmredata_entries(tmp_path)
+    assert not entries and len(skipped) == 3 and all("absent" in s for s in skipped)
+
+
+def test_benchmark_prints_the_held_out_figures(tmp_path, capsys):
+    out = tmp_path / "figures.json"
+    assert main(["--half", "held-out", "--json", str(out)]) == 0
+    text = capsys.readouterr().out
+    assert "HELD-OUT half" in text and "FITTING half" not in text
+    assert "per environment class" in text and "10 largest held-out errors" in text
+    payload = json.loads(out.read_text())
+    held_out = payload["figures"]["held-out"]
+    assert {"aromatic", "vinyl", "sp3"} <= set(held_out["by_type"])
+    assert 0 < held_out["pooled"]["coverage_2sd_pct"] <= 100
+    assert all(c["half"] in ("fitting", "held-out") for c in payload["comparisons"])
