@@ -132,25 +132,20 @@ def compare_all(entries, *, table: dict[str, SdRow] | None = None) -> list[Compa
 def class_sd(errors: np.ndarray) -> tuple[float, str]:
     """sd that makes +-1.96 sd cover about 95 % of ``|errors|``, and how it was found.
 
-    The larger of the empirical 95th percentile / 1.96 and the normal-theory 95 % prediction
-    interval of one more error, ``rms * t(0.975, n - 1) * sqrt(1 + 1/n) / 1.96`` (which guards
-    small classes, whose percentile is itself uncertain), never below FLOOR_SD_PPM.
+    The empirical 95th percentile of ``|errors|`` / 1.96, never below FLOOR_SD_PPM. (A normal-theory
+    prediction bound, tried as a guard for small classes, is driven by one outlier in a class of
+    heavy-tailed errors and over-covers: most held-out classes then came out at 100 %, above the
+    90-98 % the uncertainty is meant to give.)
     """
-    sd, p95, interval = _sd_95(errors / 1.96)
+    sd, p95 = _sd_95(errors / 1.96)
     return sd, (f"calibrated on {errors.size} fitting-half comparisons of benchmarks/shift_reference: "
-                f"max(p95 |error| {1.96 * p95:.3f}, 95 % prediction interval {1.96 * interval:.3f}) / 1.96, "
-                f"floor {FLOOR_SD_PPM}")
+                f"p95 |error| {1.96 * p95:.3f} / 1.96, floor {FLOOR_SD_PPM}")
 
 
-def _sd_95(values: np.ndarray) -> tuple[float, float, float]:
-    """max(FLOOR_SD_PPM, 95th percentile, normal 95 % prediction bound) of non-negative ``values``."""
-    from scipy.stats import t
-
-    n = values.size
+def _sd_95(values: np.ndarray) -> tuple[float, float]:
+    """(max(FLOOR_SD_PPM, 95th percentile), 95th percentile) of non-negative ``values``."""
     p95 = float(np.percentile(values, 95))
-    rms = float(np.sqrt(np.mean(values**2)))
-    interval = rms * float(t.ppf(0.975, n - 1)) * float(np.sqrt(1 + 1 / n))
-    return max(FLOOR_SD_PPM, p95, interval), p95, interval
+    return max(FLOOR_SD_PPM, p95), p95
 
 
 def build_table(comparisons: list[Comparison]) -> str:
@@ -181,10 +176,9 @@ def build_table(comparisons: list[Comparison]) -> str:
         needed = np.array([np.sqrt(max(0.0, (abs(c.error_ppm) / 1.96) ** 2 - sds[c.env_class] ** 2)
                                    / getattr(c, attr)) for c in cases])
         if needed.size >= MIN_N:
-            sd, p95, interval = _sd_95(needed)
+            sd, p95 = _sd_95(needed)
             source = (f"calibrated on {needed.size} fitting-half comparisons with this fallback: extra sd "
-                      f"each needs to lie within 1.96 sd, max(p95 {p95:.3f}, 95 % prediction bound "
-                      f"{interval:.3f})")
+                      f"each needs to lie within 1.96 sd, p95 {p95:.3f}")
         else:
             sd, why = DEFAULT_FALLBACK[row]
             source = f"uncalibrated: fewer than {MIN_N} fitting-half comparisons; {why}"
