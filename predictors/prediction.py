@@ -16,6 +16,7 @@ from predictors.core import ProtonSite, SpinSystem
 from predictors.couplings import embed_conformers, predict_couplings
 from predictors.equivalence import check_magnetic_equivalence, find_equivalent_protons, map_alkene_relations
 from predictors.errors import InputError
+from predictors.hetero_couplings import predict_x_couplings, site_x_couplings
 from predictors.molecules import parse_molecule
 from predictors.shifts import predict_proton_shifts, prepare_model_molecule
 
@@ -53,7 +54,8 @@ def predict_spin_system(molecule, *, n_conformers: int = 10, seed: int = 0xC0FFE
         pair between two sites; ``j_sd_hz`` its uncertainty; ``proton_j_hz`` the
         couplings proton by proton (averaged over each freely rotating CH2/CH3);
         ``split_sites`` the aromatic sites whose protons are not magnetically
-        equivalent (simulated proton by proton, ``predictors.spin.spin_units``).
+        equivalent (simulated proton by proton, ``predictors.spin.spin_units``); ``x_couplings``
+        the couplings of each site to 19F and 31P (``predictors.hetero_couplings``).
 
     Raises
     ------
@@ -88,8 +90,9 @@ def predict_spin_system(molecule, *, n_conformers: int = 10, seed: int = 0xC0FFE
     split = tuple(k for k, (group, mag) in enumerate(zip(groups, magnetic, strict=True))
                   if not mag and len(group) > 1
                   and all(mol_h.GetAtomWithIdx(h).GetNeighbors()[0].GetIsAromatic() for h in group))
+    x_couplings = site_x_couplings(groups, predict_x_couplings(mol_h, conformers, exchangeable=exchangeable))
     return SpinSystem(smiles=smiles, sites=sites, j_hz=j_site, j_sd_hz=sd_site, proton_j_hz=proton_j,
-                      split_sites=split)
+                      split_sites=split, x_couplings=x_couplings)
 
 
 def _make_site(group, shifts, magnetic: bool) -> ProtonSite:
