@@ -3,7 +3,9 @@
 A :class:`CandidateModel` holds one candidate's non-exchangeable sites with their predicted
 shifts, the window each may move in, the couplings that are refined with their bounds, and the
 one-bond 13C-1H couplings that place the 13C satellites. :func:`model_lines` simulates the
-molecule (exact spin simulation of ``predictors.spin``) and adds the satellites.
+molecule (exact spin simulation of ``predictors.spin``), splits the lines of sites coupled to 19F
+or 31P first order by those couplings (held at their predicted values; ``predictors.spin.split_by_x``)
+and adds the satellites.
 """
 
 from __future__ import annotations
@@ -17,7 +19,7 @@ from predictors.core import SpinSystem
 from predictors.errors import FitError
 
 __all__ = ["SATELLITE_SHARE", "CandidateModel", "build_model", "model_lines", "model_lines_with_derivatives",
-           "coupling_matrix", "unit_couplings"]
+           "coupling_matrix", "unit_couplings", "x_half_width_hz"]
 
 #: 13C natural abundance: each satellite is 0.55 % of its parent (references.md section 5).
 SATELLITE_SHARE = 0.0055
@@ -64,6 +66,8 @@ class CandidateModel:
     unit_owner: np.ndarray | None = None
     unit_n: np.ndarray | None = None
     unit_j0: np.ndarray | None = None
+    #: per model site, its couplings to 19F / 31P as (nucleus, n_equivalent, j_hz) (fixed in the fit)
+    x_couplings: tuple = ()
 
     @property
     def n_sites(self) -> int:
@@ -133,6 +137,7 @@ def build_model(system: SpinSystem, options) -> CandidateModel:
         unit_owner=None if units is None else units[0],
         unit_n=None if units is None else units[1],
         unit_j0=None if units is None else units[2],
+        x_couplings=tuple(system.x_couplings[g[0]] for g in groups) if any(system.x_couplings) else (),
     )
 
 
@@ -358,7 +363,8 @@ def model_lines(model: CandidateModel, shifts: np.ndarray, j_values: np.ndarray,
     ppm, inten = np.asarray(lines.ppm), np.asarray(lines.intensity)
     site = _site_of(model, np.asarray(lines.site_index))
     keep, inten = _strong_lines(inten, site)
-    return _with_satellites(model, ppm[keep], inten, site[keep], field_mhz, satellites)
+    ppm, inten, site, _ = _split_by_x(model, ppm[keep], inten, site[keep], field_mhz)
+    return _with_satellites(model, ppm, inten, site, field_mhz, satellites)
 
 
 def model_lines_with_derivatives(model: CandidateModel, shifts: np.ndarray, j_values: np.ndarray,
@@ -387,10 +393,27 @@ def model_lines_with_derivatives(model: CandidateModel, shifts: np.ndarray, j_va
         dfreq_dj = np.asarray(dfreq_dj, dtype=float) @ np.eye(len(model.j_pairs))[column]
     site = _site_of(model, np.asarray(lines.site_index))
     keep, inten = _strong_lines(np.asarray(lines.intensity), site)
-    ppm, inten, site, sat = _with_satellites(model, np.asarray(lines.ppm)[keep], inten, site[keep], field_mhz,
-                                             True)
-    dppm = np.asarray(dfreq_dj, dtype=float)[keep] / field_mhz
+    ppm, inten, site, parent = _split_by_x(model, np.asarray(lines.ppm)[keep], inten, site[keep], field_mhz)
+    ppm, inten, site, sat = _with_satellites(model, ppm, inten, site, field_mhz, True)
+    dppm = (np.asarray(dfreq_dj, dtype=float)[keep] / field_mhz)[parent]
     return ppm, inten, site, sat, np.concatenate([dppm] * (ppm.size // max(dppm.shape[0], 1)))
+
+
+def x_half_width_hz(model: CandidateModel) -> np.ndarray:
+    """Half the width (Hz) of each model site's 19F / 31P pattern, shape (n_sites,)."""
+    if not model.x_couplings:
+        return np.zeros(model.n_sites)
+    return np.array([sum(n * abs(j) for _, n, j in site) / 2.0 for site in model.x_couplings], dtype=float)
+
+
+def _split_by_x(model: CandidateModel, ppm, inten, site, field_mhz: float):
+    """Lines split first order by the sites' 19F / 31P couplings, and each one's parent line."""
+    if not model.x_couplings:
+        return ppm, inten, site, np.arange(np.asarray(ppm).size)
+    from predictors.spin import split_by_x
+
+    freq, inten, site, parent = split_by_x(np.asarray(ppm) * field_mhz, inten, site, model.x_couplings)
+    return freq / field_mhz, inten, site, parent
 
 
 #: Lines below this share of the molecule's tallest line are not drawn; their intensity goes to

@@ -10,6 +10,7 @@ from predictors.core import LineList, SpinSystem
 from predictors.errors import InputError
 from predictors.spin._checks import _check_arrays, _check_field, _check_options
 from predictors.spin._run import run
+from predictors.spin.hetero import split_lines_by_x
 from predictors.spin.units import spin_units
 
 # Clusters kept by simulate_arrays_reusing before its memo is emptied.
@@ -211,6 +212,8 @@ def simulate_lines(system: SpinSystem, *, field_mhz: float, **options) -> LineLi
     whose protons are not (``magnetically_equivalent`` False, with the proton
     couplings ``proton_j_hz`` known) proton by proton, its spins at the site's
     shift (:func:`predictors.spin.units.spin_units`). Lines are reported by site.
+    The lines of a site with couplings to 19F or 31P (``system.x_couplings``) are then
+    split first order by them (:func:`predictors.spin.hetero.split_by_x`).
 
     Parameters
     ----------
@@ -236,7 +239,7 @@ def simulate_lines(system: SpinSystem, *, field_mhz: float, **options) -> LineLi
     units = spin_units(system)
     lines = simulate_arrays(system.shifts_ppm[units.owner], units.j_hz, units.n_h, field_mhz=field_mhz,
                             **options)
-    if not units.split:
-        return lines
-    return LineList(ppm=lines.ppm, intensity=lines.intensity, field_mhz=lines.field_mhz,
-                    site_index=units.owner[lines.site_index], warnings=lines.warnings)
+    if units.split:
+        lines = LineList(ppm=lines.ppm, intensity=lines.intensity, field_mhz=lines.field_mhz,
+                         site_index=units.owner[lines.site_index], warnings=lines.warnings)
+    return split_lines_by_x(lines, system)
