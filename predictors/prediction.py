@@ -197,7 +197,8 @@ def first_order_multiplicity(system: SpinSystem, site_index: int, *, min_j_hz: f
 
     Couplings within ``1 Hz`` of each other merge into one (``t`` not ``dd``);
     more than three distinct couplings, or patterns beyond a septet, give ``"m"``.
-    Exchangeable sites are ``"br s"``.
+    Couplings to 19F and 31P (``system.x_couplings``) count like proton partners (a CH2CF3 is
+    ``"q"``). Exchangeable sites are ``"br s"``.
 
     Parameters
     ----------
@@ -214,12 +215,14 @@ def first_order_multiplicity(system: SpinSystem, site_index: int, *, min_j_hz: f
         return "br s"
     here = system.sites[site_index]
     coupled = [k for k in range(n) if k != site_index and abs(system.j_hz[site_index, k]) >= min_j_hz]
-    if not coupled:
+    hetero = [(abs(float(j)), int(count)) for _, count, j in system.x_couplings[site_index]
+              if abs(j) >= min_j_hz]
+    if not coupled and not hetero:
         return "s"
     if here.n_h > 1 and any(system.sites[k].n_h > 1 and not (
             here.magnetically_equivalent and system.sites[k].magnetically_equivalent) for k in coupled):
         return "m"  # AA'XX'-type: not first order
-    partners = [(abs(float(system.j_hz[site_index, k])), system.sites[k].n_h) for k in coupled]
+    partners = [(abs(float(system.j_hz[site_index, k])), system.sites[k].n_h) for k in coupled] + hetero
     clusters: list[list[float]] = []
     for j, count in sorted(partners, reverse=True):
         if clusters and abs(np.mean(clusters[-1][1:]) - j) < _MERGE_HZ:

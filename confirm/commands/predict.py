@@ -47,6 +47,8 @@ def spin_system_to_json(system, *, field_mhz: float) -> dict:
             "multiplicity": first_order_multiplicity(system, i), "couplings": couplings,
             "exchangeable": site.exchangeable, "magnetically_equivalent": site.magnetically_equivalent,
             "flags": list(site.flags),
+            "x_couplings": [{"nucleus": nucleus, "n_equivalent": count, "j_hz": j}
+                            for nucleus, count, j in system.x_couplings[i]],
         })
     second = [{"sites": [i, k], "delta_nu_over_j": r} for i, k, r in second_order_pairs(system, field_mhz)]
     return {"smiles": system.smiles, "field_mhz": field_mhz, "sites": sites, "second_order": second}
@@ -88,10 +90,18 @@ def _rows(system) -> list[list[str]]:
     for i, site in enumerate(system.sites):
         j = [f"{abs(system.j_hz[i, k]):.1f}({k})" for k in np.argsort(-np.abs(system.j_hz[i]))
              if k != i and abs(system.j_hz[i, k]) >= 0.5]
+        j += [f"{abs(value):.1f}({_x_partner(nucleus, count)})"
+              for nucleus, count, value in system.x_couplings[i] if abs(value) >= 0.5]
         notes = "exchangeable" if site.exchangeable else ("; ".join(site.flags) if site.flags else "")
         rows.append([str(i), site.label, str(site.n_h), f"{site.shift_ppm:.2f} +- {site.shift_sd_ppm:.2f}",
                      first_order_multiplicity(system, i), ", ".join(j), notes])
     return rows
+
+
+def _x_partner(nucleus: str, count: int) -> str:
+    """``"F"``, ``"3F"``, ``"P"``: the X nuclei a coupling goes to, for the couplings column."""
+    symbol = nucleus.lstrip("0123456789")
+    return symbol if count == 1 else f"{count}{symbol}"
 
 
 def _write_plot(system, path: Path, *, field_mhz: float) -> None:
