@@ -169,8 +169,8 @@ def _model_units(system: SpinSystem, groups) -> tuple | None:
 
 def _merge_remote_pairs(system: SpinSystem, keep: list, j: np.ndarray) -> list:
     """Groups of kept sites: the two protons of a CH2 that the prediction gives the same shift and
-    the same couplings to every other site form one 2H site, unless their carbon is bonded to a
-    stereocentre.
+    the same couplings to every other site (and to 19F / 31P) form one 2H site, unless their carbon
+    is bonded to a stereocentre.
 
     Such a pair is magnetically equivalent as predicted, so one composite site simulates it exactly
     (and far faster in a long chain); next to a stereocentre the two protons usually differ in
@@ -204,7 +204,8 @@ def _merge_remote_pairs(system: SpinSystem, keep: list, j: np.ndarray) -> list:
             if (same_carbon
                     and not any(nb.GetIdx() in centres for nb in carbon[i].GetNeighbors())
                     and system.sites[i].shift_ppm == system.sites[k].shift_ppm
-                    and np.allclose(j[i, others], j[k, others], atol=1e-9)):
+                    and np.allclose(j[i, others], j[k, others], atol=1e-9)
+                    and system.x_couplings[i] == system.x_couplings[k]):
                 group.append(k)
         used.update(group)
         groups.append(tuple(group))
