@@ -12,7 +12,7 @@ group, e.g. the three F of a CF3 next to a CH2: ``("19F", 3, 8.8)``).
   conformers of :func:`predictors.couplings.embed_conformers` across ring bonds and averaged over
   the three staggered rotamers across acyclic bonds (as the 1H-1H couplings are); a CF2 or CF3
   carbon scales the H-C-C-F relation down; 3J(P,O,C,H) by the kind of carbon (acyclic) or a
-  Karplus relation (ring);
+  Karplus relation (ring); 3J(P,N,C,H) of P-NMe2 groups;
 * across C=C: 3J(H,F) cis and trans; beside a CF3 on an sp2 carbon;
 * aromatic ortho, meta and para couplings to a ring F or a P on the ring (by the kind of P);
 * a few 4J: benzylic H to an ortho F, alkyl H two carbons from F, the CH3 of P-O-CH2-CH3.
@@ -260,6 +260,8 @@ def _phosphorus(mol, path, heavy, p_class: str, conformers) -> float | None:
         bond = mol.GetBondBetweenAtoms(a.GetIdx(), b.GetIdx())
         if b.GetSymbol() == "O":
             return _poch(path, a, bond, conformers)
+        if b.GetSymbol() == "N":
+            return _c("hp_pnch")
         if b.GetSymbol() == "C" and _is_sp3(b) and p_class != "phosphate":
             mean = _c(f"hp_pcch_{_chain_class(p_class)}")
             if not conformers.n_conformers:

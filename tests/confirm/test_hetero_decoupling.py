@@ -55,6 +55,27 @@ def test_fit_model_splits_the_ch2_by_its_cf3(ester_system):
     assert decoupled_model_lines(ester_system).size == 1
 
 
+@pytest.mark.parametrize("smiles", ["Fc1ccccc1", "COP(C)(=O)OC"])
+def test_fit_model_lines_equal_the_simulation_at_60_mhz(smiles):
+    # the fit's model and the rendered prediction treat the X couplings alike (one F / one P:
+    # simulated state by state)
+    from predictors.spin import render_lines, simulate_lines
+
+    system = predict_spin_system(smiles)
+    model = build_model(system, FitOptions())
+    ppm_lines, inten, _, _ = model_lines(model, model.shift0, model.j_values0, 60.0, satellites=False)
+    grid = np.linspace(system.shifts_ppm.max() + 0.6, system.shifts_ppm.min() - 0.6, 20001)
+    width = 0.8 / 60.0
+
+    def draw(centres, weights):
+        return np.sum(weights[:, None] * (width / 2 / np.pi) / ((grid[None, :] - centres[:, None]) ** 2
+                                                                + (width / 2) ** 2), axis=0)
+
+    ours = draw(ppm_lines, inten)
+    reference = render_lines(simulate_lines(system, field_mhz=60.0), grid, line_width_hz=0.8)
+    assert np.max(np.abs(ours - reference)) < 0.01 * reference.max()
+
+
 def decoupled_model_lines(system):
     model = build_model(without_x_couplings(system, "19F"), FitOptions())
     ch2 = next(k for k, g in enumerate(model.groups) if system.x_couplings[g[0]])

@@ -141,6 +141,12 @@ def test_diethyl_ethylphosphonate_ethyl_on_p():
     assert abs(j - 20.0) <= TOL_HZ
 
 
+def test_hexamethylphosphoramide_n_methyls():
+    # hexamethylphosphoramide N(CH3)2: d, 3J(P,N,C,H) 9.5 Hz (from memory)
+    (count, j), = _couplings("CN(C)P(=O)(N(C)C)N(C)C", "[CH3]NP", "31P")
+    assert count == 1 and abs(j - 9.5) <= TOL_HZ
+
+
 def test_phosphorus_classes():
     cases = {"CP(C)(C)=O": "phosphine_oxide", "COP(C)(=O)OC": "phosphonate", "CP(C)C": "phosphine",
              "C[P+](C)(C)C": "phosphonium", "COP(=O)(OC)OC": "phosphate", "COP(C)(=O)C": "phosphinate",

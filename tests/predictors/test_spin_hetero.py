@@ -105,3 +105,61 @@ def test_site_areas_are_kept_and_other_sites_untouched():
     lines = simulate_lines(system, field_mhz=FIELD)
     assert np.bincount(lines.site_index, weights=lines.intensity) == pytest.approx([2.0, 3.0])
     assert np.sum(lines.site_index == 1) == 1
+
+
+def _with_fluorine_as_a_far_spin(system, field_mhz: float):
+    """Shifts, couplings and spin counts of ``system`` with its one F as one more spin 500 ppm away:
+    the full Hamiltonian, whose 1H lines the X-state simulation must reproduce (the weak-coupling
+    error J^2 / delta nu is under 0.01 Hz)."""
+    from predictors.spin import spin_units
+
+    units = spin_units(system)
+    n = units.owner.size
+    j = np.zeros((n + 1, n + 1))
+    j[:n, :n] = units.j_hz
+    for u, site in enumerate(units.owner):
+        for _, _, value in system.x_couplings[site]:
+            j[u, n] = j[n, u] = value
+    shifts = np.append(system.shifts_ppm[units.owner], 500.0)
+    return shifts, j, np.append(units.n_h, 1), units.owner
+
+
+@pytest.mark.parametrize("smiles", ["Fc1ccccc1", "CC(F)CC"])
+@pytest.mark.parametrize("field_mhz", [60.0, 400.0])
+def test_one_fluorine_matches_the_full_hamiltonian(smiles, field_mhz):
+    from predictors.prediction import predict_spin_system
+    from predictors.spin import plan_x, render_lines, split_lines_by_x
+
+    system = predict_spin_system(smiles)
+    assert plan_x(system.x_couplings, system.smiles).n_states == 2  # simulated state by state
+    shifts, j, n_h, owner = _with_fluorine_as_a_far_spin(system, field_mhz)
+    full = simulate_arrays(shifts, j, n_h, field_mhz=field_mhz)
+    protons = full.site_index < owner.size
+    ppm = np.linspace(system.shifts_ppm.max() + 0.6, system.shifts_ppm.min() - 0.6, 30001)
+    reference = render_lines(type(full)(ppm=full.ppm[protons], intensity=full.intensity[protons],
+                                        field_mhz=field_mhz, site_index=owner[full.site_index[protons]]),
+                             ppm, line_width_hz=0.7)
+    ours = render_lines(simulate_lines(system, field_mhz=field_mhz), ppm, line_width_hz=0.7)
+    assert np.max(np.abs(ours - reference)) < 0.01 * reference.max()
+    if smiles == "Fc1ccccc1" and field_mhz == 60.0:
+        # splitting the finished lines by their main site's J instead misses the mixed lines of the
+        # strongly coupled ring protons: far from the full Hamiltonian (why states are simulated)
+        proton_only = simulate_lines(without_x_couplings(system, "19F"), field_mhz=field_mhz)
+        first_order = render_lines(split_lines_by_x(proton_only, system.x_couplings), ppm, line_width_hz=0.7)
+        assert np.max(np.abs(first_order - reference)) > 0.1 * reference.max()
+
+
+def test_plan_falls_back_to_first_order_when_fluorines_differ():
+    from predictors.prediction import predict_spin_system
+    from predictors.spin import plan_x
+
+    # 1,3-difluorobenzene: H4/H6 couple to two different F (9 and 0.2 Hz): split first order
+    system = predict_spin_system("Fc1cccc(F)c1")
+    plan = plan_x(system.x_couplings, system.smiles)
+    assert plan.n_states == 1 and plan.first_order == system.x_couplings
+    # a CF3 and one P: 4 x 2 states, nothing left first order
+    both = plan_x(((("19F", 3, 9.0), ("31P", 1, 17.0)),), "O=P(O)(O)CC(F)(F)F")
+    assert both.n_states == 8 and not any(both.first_order)
+    assert both.weights.sum() == pytest.approx(1.0)
+    assert sorted(np.round(both.offsets_hz[:, 0], 6)) == sorted(
+        np.round([m * 9.0 + p * 17.0 for m in (-1.5, -0.5, 0.5, 1.5) for p in (-0.5, 0.5)], 6))
