@@ -30,6 +30,9 @@ def register(subparsers, parents) -> None:
     parser.add_argument("smiles", help="isomeric SMILES of the structure")
     parser.add_argument("--field-mhz", type=float, default=400.0, help="1H frequency in MHz (default 400)")
     parser.add_argument("--plot", metavar="PNG", help="write the simulated spectrum to this PNG file")
+    parser.add_argument("--decoupled", nargs="+", metavar="NUCLEUS",
+                        help="predict a 19F- and/or 31P-decoupled spectrum: leave out the couplings to "
+                             "these nuclei (19F, 31P)")
     parser.set_defaults(handler=_run)
 
 
@@ -64,14 +67,20 @@ def _run(args) -> int:
         raise InputError(f"--plot: expected a .png file name, got {args.plot!r}")
     check_file_targets([("--plot", args.plot)])
     from confirm.structures import check_smiles
+    from predictors.hetero_couplings import check_nuclei, without_x_couplings
 
-    system = predict_spin_system(check_smiles(args.smiles, name="smiles"))
+    try:
+        decoupled = check_nuclei(args.decoupled or ())
+    except InputError as exc:
+        raise InputError(f"--decoupled: {exc}".replace("decoupled nucleus: ", "")) from None
+    system = without_x_couplings(predict_spin_system(check_smiles(args.smiles, name="smiles")), decoupled)
     if args.plot is not None:
         _write_plot(system, Path(args.plot), field_mhz=field)
     if args.json:
-        emit_json(spin_system_to_json(system, field_mhz=field))
+        emit_json(dict(spin_system_to_json(system, field_mhz=field), decoupled_nuclei=list(decoupled)))
         return 0
-    print(f"{system.smiles}  ({system.n_h} H, {field:g} MHz)")
+    heading = f"{system.smiles}  ({system.n_h} H, {field:g} MHz"
+    print(heading + (f", {' and '.join(decoupled)} decoupled)" if decoupled else ")"))
     headers = ["site", "label", "nH", "shift ppm", "mult", "J Hz (to site)", "notes"]
     print(format_table(headers, _rows(system)))
     pairs = second_order_pairs(system, field)

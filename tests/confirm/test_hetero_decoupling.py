@@ -188,6 +188,19 @@ def test_predict_json_lists_x_couplings(run_cli):
     assert abs(coupling["j_hz"] - 8.6) <= 2.0
 
 
+def test_predict_decoupled_option(run_cli):
+    result = run_cli("predict", "OCC(F)(F)F", "--decoupled", "19F", "--json")
+    assert result.exit_code == 0, result.stderr
+    data = json.loads(result.stdout)
+    assert data["decoupled_nuclei"] == ["19F"]
+    ch2 = next(s for s in data["sites"] if s["label"] == "CH2")
+    assert ch2["x_couplings"] == [] and ch2["multiplicity"] == "s"
+    text = run_cli("predict", "OCC(F)(F)F", "--decoupled", "19F")
+    assert "19F decoupled" in text.stdout.splitlines()[0]
+    bad = run_cli("predict", "OCC(F)(F)F", "--decoupled", "2H")
+    assert bad.exit_code == 2 and "--decoupled" in bad.stderr and "Traceback" not in bad.stderr
+
+
 # ------------------------------------------------------------------------------ real fluoroarene
 @pytest.mark.real_data
 def test_bromofluoronitroaniline_h_next_to_f_carries_its_coupling(real_spectra):
