@@ -151,7 +151,7 @@ def predict_x_couplings(mol_h: Chem.Mol, conformers: ConformerSet, *,
     for h in mol_h.GetAtoms():
         if h.GetAtomicNum() != 1 or h.GetIdx() in skip or h.GetDegree() != 1:
             continue
-        if h.GetNeighbors()[0].GetSymbol() not in ("C",):
+        if h.GetNeighbors()[0].GetSymbol() != "C":
             continue
         for x in xs:
             if not 2 <= dist[h.GetIdx(), x.GetIdx()] <= 5:
