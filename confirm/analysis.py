@@ -149,6 +149,7 @@ def analyze_spectrum(
     options: FitOptions | None = None,
     parameters: dict | None = None,
     budget: Budget | None = None,
+    decoupled: Sequence[str] = (),
 ) -> AnalysisResult:
     """Analyse an already processed spectrum (a ``ProcessedSpectrum`` or a bare ``Spectrum``).
 
@@ -168,7 +169,13 @@ def analyze_spectrum(
     budget : confirm.budget.Budget, optional
         Time allowed; checked before the predictions, the fit and the verdict (and inside the fit
         when it takes a budget). None: no limit.
+    decoupled : sequence of str
+        Heteronuclei (``"19F"``, ``"31P"``) decoupled during acquisition, besides those the
+        spectrum's acquisition record names: their splittings of the 1H lines are left out.
     """
+    from predictors.hetero_couplings import check_nuclei
+
+    asked = check_nuclei(decoupled)
     candidates = tuple(candidates)
     if not candidates:
         raise InputError("candidates: at least one candidate is needed")
@@ -189,7 +196,7 @@ def analyze_spectrum(
     if systems is None:
         check_budget(budget, "predictions")
         systems = predict_systems(candidates)
-    systems = tuple(systems)
+    systems, decoupling = _decouple(systems, asked, spectrum)
     check_budget(budget, "fit")
     fit = fit_mixture(spectrum, systems, candidates, noise_sd=noise_sd, options=options,
                       **_budget_keyword(fit_mixture, budget))
@@ -203,6 +210,7 @@ def analyze_spectrum(
         "caution": CAUTION,
     }
     params.update(parameters or {})
+    params.update(decoupling)
     return AnalysisResult(
         spectrum=spectrum,
         candidates=candidates,
@@ -213,6 +221,37 @@ def analyze_spectrum(
         warnings=tuple(dict.fromkeys(list(notes) + warnings + list(fit.warnings))),
         parameters=params,
     )
+
+
+def _decouple(systems, asked: tuple[str, ...], spectrum: Spectrum) -> tuple[tuple[SpinSystem, ...], dict]:
+    """Spin systems without the couplings to decoupled heteronuclei, and what to record of it.
+
+    The nuclei are those the user named (``asked``) and those the file's acquisition record names.
+    The record (``decoupled_nuclei``, ``decoupled_source``) is empty when no nucleus is decoupled.
+    """
+    from predictors.hetero_couplings import check_nuclei, without_x_couplings
+
+    acquisition = spectrum.metadata.get("acquisition") or {}
+    from_file = check_nuclei(tuple(acquisition.get("decoupled_nuclei") or ()))
+    nuclei = tuple(n for n in ("19F", "31P") if n in asked or n in from_file)
+    if not nuclei:
+        return tuple(systems), {}
+    source = {n: ("the file and the user" if n in asked and n in from_file
+                  else "the user" if n in asked else "the file") for n in nuclei}
+    return (tuple(without_x_couplings(s, nuclei) for s in systems),
+            {"decoupled_nuclei": list(nuclei), "decoupled_source": source})
+
+
+def decoupling_note(parameters) -> str | None:
+    """One line for the analyst on the heteronuclear decoupling the analysis assumed (None: none)."""
+    nuclei = list(parameters.get("decoupled_nuclei") or ())
+    if not nuclei:
+        return None
+    source = parameters.get("decoupled_source") or {}
+    parts = [f"{n} (from {source.get(n, 'the user')})" for n in nuclei]
+    return ("heteronuclear decoupling: " + ", ".join(parts)
+            + "; the predicted 1H spectra leave out the couplings to "
+            + " and ".join(nuclei))
 
 
 def _budget_keyword(func, budget: Budget | None) -> dict:
@@ -253,6 +292,7 @@ def analyze_path(
     also: Sequence[str] | None = None,
     nmr_solvent: str | None = None,
     reference: str = "auto",
+    decoupled: Sequence[str] = (),
 ) -> AnalysisResult:
     """Read, process and analyse one measurement (raw FID, stored spectrum or peak list).
 
@@ -285,6 +325,9 @@ def analyze_path(
     budget : confirm.budget.Budget, optional
         Time allowed, checked between the stages (candidates, reading, processing, predictions,
         fit, verdict). None: no limit.
+    decoupled : sequence of str
+        Heteronuclei (``"19F"``, ``"31P"``) decoupled during acquisition (added to those the file
+        records): their splittings are left out of the predicted spectra.
 
     Raises
     ------
@@ -294,7 +337,9 @@ def analyze_path(
         When the budget runs out.
     """
     from confirm.reading import PeakList, read_measurement
+    from predictors.hetero_couplings import check_nuclei
 
+    decoupled = check_nuclei(decoupled)
     if field_mhz is not None and not (np.isfinite(field_mhz) and 40 <= field_mhz <= 1200):
         raise InputError(f"field_mhz: expected 40-1200 MHz (1H), got {field_mhz!r}")
     check_budget(budget, "candidates")
@@ -319,6 +364,7 @@ def analyze_path(
             notes=notes,
             parameters=params,
             budget=budget,
+            decoupled=decoupled,
         )
     from confirm._parallel import Beside
 
@@ -338,7 +384,8 @@ def analyze_path(
         check_budget(budget, "predictions")
         systems = predictions.result()
     return analyze_spectrum(
-        processed, cands, systems=systems, inputs=(record,), notes=notes, parameters=params, budget=budget
+        processed, cands, systems=systems, inputs=(record,), notes=notes, parameters=params, budget=budget,
+        decoupled=decoupled,
     )
 
 
@@ -351,6 +398,7 @@ def analyze_peak_list(
     notes: Sequence[str] = (),
     parameters: dict | None = None,
     budget: Budget | None = None,
+    decoupled: Sequence[str] = (),
 ) -> AnalysisResult:
     """Analyse a peak list by assignment and per-site integration.
 
@@ -382,7 +430,8 @@ def analyze_peak_list(
         ],
     )
     return analyze_spectrum(
-        rendered, candidates, inputs=inputs, notes=notes, options=options, parameters=params, budget=budget
+        rendered, candidates, inputs=inputs, notes=notes, options=options, parameters=params, budget=budget,
+        decoupled=decoupled,
     )
 
 

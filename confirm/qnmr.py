@@ -321,7 +321,8 @@ def yield_from_result(result, standard: InternalStandard, *, sample_mass_mg: flo
 def analyze_with_standard(path, standard: InternalStandard, *, substrate: str | None = None,
                           reagent: str | None = None, candidates=None, solvent: str | None = None,
                           temp_c: float = 25.0, field_mhz: float | None = None, force_field: bool = False,
-                          budget=None, also=None, nmr_solvent: str | None = None, reference: str = "auto"):
+                          budget=None, also=None, nmr_solvent: str | None = None, reference: str = "auto",
+                          decoupled=()):
     """Analyse a spectrum with the internal standard fitted as one more component.
 
     Same arguments as ``confirm.analysis.analyze_path``; the standard is added to the
@@ -361,12 +362,13 @@ def analyze_with_standard(path, standard: InternalStandard, *, substrate: str | 
 
         field = resolve_field(raw.parameters.field_mhz, field_mhz, force=force_field, source=str(path))
         return analyze_peak_list(raw, cands, field_mhz=field, inputs=(record,), notes=notes,
-                                 parameters=params, budget=budget)
+                                 parameters=params, budget=budget, decoupled=decoupled)
     options = ProcessingOptions(field_mhz=field_mhz, force_field=force_field if field_mhz else False,
                                 solvent=nmr_solvent, reference=reference)
     check_budget(budget, "processing")
     processed = process_measurement(raw, options=options)
-    return analyze_spectrum(processed, cands, inputs=(record,), notes=notes, parameters=params, budget=budget)
+    return analyze_spectrum(processed, cands, inputs=(record,), notes=notes, parameters=params, budget=budget,
+                            decoupled=decoupled)
 
 
 def yields_to_json(yields: Sequence[ProductYield], standard: InternalStandard | None = None) -> dict:

@@ -205,7 +205,8 @@ def _site_windows(result, pad_ppm: float) -> list[tuple[float, float]]:
     for system, comp in zip(result.spin_systems, result.fit.components, strict=True):
         refined = _refined_system(system, comp)
         for k, site in enumerate(refined.sites):
-            half = float(np.sum(np.abs(refined.j_hz[k]) * refined.n_protons)) / field_mhz / 2 + pad_ppm
+            x_hz = sum(n * abs(j) for _, n, j in system.x_couplings[k])
+            half = float(np.sum(np.abs(refined.j_hz[k]) * refined.n_protons) + x_hz) / field_mhz / 2 + pad_ppm
             spans.append((site.shift_ppm - half, site.shift_ppm + half))
     return _merge_spans(spans)
 

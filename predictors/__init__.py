@@ -33,6 +33,7 @@ _LAZY = {
     "perceive_substrate": "predictors.substrate",
     "predict_spin_system": "predictors.prediction",
     "first_order_multiplicity": "predictors.prediction",
+    "without_x_couplings": "predictors.hetero_couplings",
     "simulate_arrays": "predictors.spin",
     "simulate_lines": "predictors.spin",
     "render_lines": "predictors.spin",

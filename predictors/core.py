@@ -22,6 +22,7 @@ from predictors.errors import InputError
 __all__ = [
     "PATHWAYS",
     "GEOMETRIES",
+    "X_NUCLEI",
     "CONFIDENCE_LEVELS",
     "Candidate",
     "ProtonSite",
@@ -203,6 +204,46 @@ class ProtonSite:
         return len(self.atoms)
 
 
+#: Heteronuclei a SpinSystem may carry couplings to (spin 1/2, 100 % natural abundance).
+X_NUCLEI = ("19F", "31P")
+#: Largest heteronuclear coupling accepted (Hz); 1J(P,H) of H on P reaches about 700 Hz.
+_MAX_X_J_HZ = 1000.0
+
+
+def _check_x_couplings(values, n_sites: int) -> tuple:
+    """Per-site tuples of ``(nucleus, n_equivalent, j_hz)``, checked; ``()`` gives empty sites."""
+    try:
+        per_site = tuple(values) if values is not None else ()
+    except TypeError:
+        raise InputError(f"x_couplings: expected one sequence per site, got {values!r}") from None
+    if not per_site:
+        return ((),) * n_sites
+    if len(per_site) != n_sites:
+        raise InputError(f"x_couplings: expected {n_sites} entries (one per site), got {len(per_site)}")
+    out = []
+    for k, site in enumerate(per_site):
+        entries = []
+        try:
+            items = tuple(site)
+        except TypeError:
+            raise InputError(
+                f"x_couplings[{k}]: expected a sequence of (nucleus, n, j_hz), got {site!r}") from None
+        for item in items:
+            try:
+                nucleus, count, j = item
+            except (TypeError, ValueError):
+                raise InputError(f"x_couplings[{k}]: expected (nucleus, n, j_hz), got {item!r}") from None
+            if nucleus not in X_NUCLEI:
+                raise InputError(
+                    f"x_couplings[{k}]: nucleus must be one of {', '.join(X_NUCLEI)}, got {nucleus!r}")
+            if isinstance(count, bool) or not isinstance(count, (int, np.integer)) or not 1 <= count <= 12:
+                raise InputError(f"x_couplings[{k}]: n_equivalent must be an integer 1-12, got {count!r}")
+            _check_finite(j, name=f"x_couplings[{k}] j_hz", low=-_MAX_X_J_HZ, high=_MAX_X_J_HZ)
+            entries.append((str(nucleus), int(count), float(j)))
+        out.append(tuple(entries))
+    return tuple(out)
+
+
 @dataclass(frozen=True, eq=False)
 class SpinSystem:
     """The protons of one molecule with their signed couplings.
@@ -227,6 +268,13 @@ class SpinSystem:
         Sites simulated proton by proton (needs ``proton_j_hz``): sites whose protons are not
         magnetically equivalent and where that shows, e.g. the AA'BB' protons of an aromatic
         ring. Other sites are one composite spin each.
+    x_couplings : tuple of tuple of (str, int, float)
+        Per site, the couplings of its protons to heteronuclei (19F, 31P) as
+        ``(nucleus, n_equivalent, j_hz)``: ``n_equivalent`` X nuclei each coupled ``j_hz`` to every
+        proton of the site (the three F of a CF3 next to a CH2: ``("19F", 3, 8.8)``). The X nuclei
+        are far off resonance: each splits the site's lines first order (binomial patterns for
+        equivalent nuclei). Empty (the default) when there are none; a decoupled acquisition
+        drops them (``predictors.hetero_couplings.without_x_couplings``).
     """
 
     smiles: str
@@ -235,6 +283,7 @@ class SpinSystem:
     j_sd_hz: np.ndarray | None = None
     proton_j_hz: np.ndarray | None = None
     split_sites: tuple[int, ...] = ()
+    x_couplings: tuple = ()
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "smiles", canonical_smiles(self.smiles))
@@ -269,6 +318,7 @@ class SpinSystem:
         if split and (self.proton_j_hz is None or split[0] < 0 or split[-1] >= n):
             raise InputError(f"split_sites: expected site indices 0..{n - 1} and proton_j_hz, got {split}")
         object.__setattr__(self, "split_sites", split)
+        object.__setattr__(self, "x_couplings", _check_x_couplings(self.x_couplings, n))
         seen: set[int] = set()
         for site in sites:
             if seen & set(site.atoms):

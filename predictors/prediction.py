@@ -17,6 +17,7 @@ from predictors.core import ProtonSite, SpinSystem
 from predictors.couplings import embed_conformers, predict_couplings
 from predictors.equivalence import check_magnetic_equivalence, find_equivalent_protons, map_alkene_relations
 from predictors.errors import InputError
+from predictors.hetero_couplings import predict_x_couplings, site_x_couplings
 from predictors.molecules import parse_molecule
 from predictors.shift_uncertainty import calibrated_estimates
 from predictors.shifts import predict_proton_shifts, prepare_model_molecule
@@ -55,7 +56,8 @@ def predict_spin_system(molecule, *, n_conformers: int = 10, seed: int = 0xC0FFE
         pair between two sites; ``j_sd_hz`` its uncertainty; ``proton_j_hz`` the
         couplings proton by proton (averaged over each freely rotating CH2/CH3);
         ``split_sites`` the aromatic sites whose protons are not magnetically
-        equivalent (simulated proton by proton, ``predictors.spin.spin_units``).
+        equivalent (simulated proton by proton, ``predictors.spin.spin_units``); ``x_couplings``
+        the couplings of each site to 19F and 31P (``predictors.hetero_couplings``).
 
     Raises
     ------
@@ -91,8 +93,9 @@ def predict_spin_system(molecule, *, n_conformers: int = 10, seed: int = 0xC0FFE
     split = tuple(k for k, (group, mag) in enumerate(zip(groups, magnetic, strict=True))
                   if not mag and len(group) > 1
                   and all(mol_h.GetAtomWithIdx(h).GetNeighbors()[0].GetIsAromatic() for h in group))
+    x_couplings = site_x_couplings(groups, predict_x_couplings(mol_h, conformers, exchangeable=exchangeable))
     return SpinSystem(smiles=smiles, sites=sites, j_hz=j_site, j_sd_hz=sd_site, proton_j_hz=proton_j,
-                      split_sites=split)
+                      split_sites=split, x_couplings=x_couplings)
 
 
 def _make_site(group, shifts, magnetic: bool) -> ProtonSite:
@@ -197,7 +200,8 @@ def first_order_multiplicity(system: SpinSystem, site_index: int, *, min_j_hz: f
 
     Couplings within ``1 Hz`` of each other merge into one (``t`` not ``dd``);
     more than three distinct couplings, or patterns beyond a septet, give ``"m"``.
-    Exchangeable sites are ``"br s"``.
+    Couplings to 19F and 31P (``system.x_couplings``) count like proton partners (a CH2CF3 is
+    ``"q"``). Exchangeable sites are ``"br s"``.
 
     Parameters
     ----------
@@ -214,12 +218,14 @@ def first_order_multiplicity(system: SpinSystem, site_index: int, *, min_j_hz: f
         return "br s"
     here = system.sites[site_index]
     coupled = [k for k in range(n) if k != site_index and abs(system.j_hz[site_index, k]) >= min_j_hz]
-    if not coupled:
+    hetero = [(abs(float(j)), int(count)) for _, count, j in system.x_couplings[site_index]
+              if abs(j) >= min_j_hz]
+    if not coupled and not hetero:
         return "s"
     if here.n_h > 1 and any(system.sites[k].n_h > 1 and not (
             here.magnetically_equivalent and system.sites[k].magnetically_equivalent) for k in coupled):
         return "m"  # AA'XX'-type: not first order
-    partners = [(abs(float(system.j_hz[site_index, k])), system.sites[k].n_h) for k in coupled]
+    partners = [(abs(float(system.j_hz[site_index, k])), system.sites[k].n_h) for k in coupled] + hetero
     clusters: list[list[float]] = []
     for j, count in sorted(partners, reverse=True):
         if clusters and abs(np.mean(clusters[-1][1:]) - j) < _MERGE_HZ:

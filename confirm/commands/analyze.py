@@ -64,6 +64,11 @@ def register(subparsers, parents) -> None:
     parser.add_argument(
         "--force-field", action="store_true", help="use --field-mhz even where the file records another field"
     )
+    parser.add_argument(
+        "--decoupled", nargs="+", metavar="NUCLEUS",
+        help="heteronuclei decoupled during the 1H acquisition (19F, 31P): their splittings of the 1H "
+             "lines are left out of the predicted spectra (a decoupling the file records is used anyway)",
+    )
     parser.add_argument("--report", metavar="OUT.html", help="also write a self-contained HTML report")
     parser.add_argument("--line-list", action="store_true",
                         help="also list the measured multiplets with the candidate sites fitted on them "
@@ -113,12 +118,18 @@ def _run(args: argparse.Namespace) -> int:
               *existing_paths("--candidates", named)]
     check_outputs([("--report", args.report)], inputs)
     check_file_targets([("--report", args.report)])
+    from predictors.hetero_couplings import check_nuclei
+
+    try:
+        decoupled = check_nuclei(args.decoupled or ())
+    except InputError as exc:
+        raise InputError(f"--decoupled: {exc}".replace("decoupled nucleus: ", "")) from None
     standard = standard_from_args(args)
     budget = budget_from_args(args)
     options = {"substrate": args.substrate, "reagent": args.reagent, "candidates": args.candidates,
                "solvent": args.reaction_solvent, "temp_c": args.temp_c, "field_mhz": args.field_mhz,
                "force_field": args.force_field, "budget": budget, "also": args.also,
-               "nmr_solvent": args.nmr_solvent, "reference": args.reference}
+               "nmr_solvent": args.nmr_solvent, "reference": args.reference, "decoupled": decoupled}
     with watch_budget(budget):
         if standard is None:
             result = analyze_path(args.spectrum, **options)
@@ -167,10 +178,13 @@ def ratio_line(r) -> str:
 
 def format_result(result) -> str:
     """Readable terminal summary of an AnalysisResult: verdict first, then the details."""
-    from confirm.analysis import CAUTION
+    from confirm.analysis import CAUTION, decoupling_note
 
     v = result.verdict
     lines = [v.summary, ""]
+    note = decoupling_note(result.parameters)
+    if note:
+        lines += [note[0].upper() + note[1:], ""]
     rows = []
     for c in result.fit.components:
         rows.append(

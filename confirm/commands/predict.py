@@ -30,6 +30,9 @@ def register(subparsers, parents) -> None:
     parser.add_argument("smiles", help="isomeric SMILES of the structure")
     parser.add_argument("--field-mhz", type=float, default=400.0, help="1H frequency in MHz (default 400)")
     parser.add_argument("--plot", metavar="PNG", help="write the simulated spectrum to this PNG file")
+    parser.add_argument("--decoupled", nargs="+", metavar="NUCLEUS",
+                        help="predict a 19F- and/or 31P-decoupled spectrum: leave out the couplings to "
+                             "these nuclei (19F, 31P)")
     parser.set_defaults(handler=_run)
 
 
@@ -47,6 +50,8 @@ def spin_system_to_json(system, *, field_mhz: float) -> dict:
             "multiplicity": first_order_multiplicity(system, i), "couplings": couplings,
             "exchangeable": site.exchangeable, "magnetically_equivalent": site.magnetically_equivalent,
             "flags": list(site.flags),
+            "x_couplings": [{"nucleus": nucleus, "n_equivalent": count, "j_hz": j}
+                            for nucleus, count, j in system.x_couplings[i]],
         })
     second = [{"sites": [i, k], "delta_nu_over_j": r} for i, k, r in second_order_pairs(system, field_mhz)]
     return {"smiles": system.smiles, "field_mhz": field_mhz, "sites": sites, "second_order": second}
@@ -62,14 +67,20 @@ def _run(args) -> int:
         raise InputError(f"--plot: expected a .png file name, got {args.plot!r}")
     check_file_targets([("--plot", args.plot)])
     from confirm.structures import check_smiles
+    from predictors.hetero_couplings import check_nuclei, without_x_couplings
 
-    system = predict_spin_system(check_smiles(args.smiles, name="smiles"))
+    try:
+        decoupled = check_nuclei(args.decoupled or ())
+    except InputError as exc:
+        raise InputError(f"--decoupled: {exc}".replace("decoupled nucleus: ", "")) from None
+    system = without_x_couplings(predict_spin_system(check_smiles(args.smiles, name="smiles")), decoupled)
     if args.plot is not None:
         _write_plot(system, Path(args.plot), field_mhz=field)
     if args.json:
-        emit_json(spin_system_to_json(system, field_mhz=field))
+        emit_json(dict(spin_system_to_json(system, field_mhz=field), decoupled_nuclei=list(decoupled)))
         return 0
-    print(f"{system.smiles}  ({system.n_h} H, {field:g} MHz)")
+    heading = f"{system.smiles}  ({system.n_h} H, {field:g} MHz"
+    print(heading + (f", {' and '.join(decoupled)} decoupled)" if decoupled else ")"))
     headers = ["site", "label", "nH", "shift ppm", "mult", "J Hz (to site)", "notes"]
     print(format_table(headers, _rows(system)))
     pairs = second_order_pairs(system, field)
@@ -88,10 +99,18 @@ def _rows(system) -> list[list[str]]:
     for i, site in enumerate(system.sites):
         j = [f"{abs(system.j_hz[i, k]):.1f}({k})" for k in np.argsort(-np.abs(system.j_hz[i]))
              if k != i and abs(system.j_hz[i, k]) >= 0.5]
+        j += [f"{abs(value):.1f}({_x_partner(nucleus, count)})"
+              for nucleus, count, value in system.x_couplings[i] if abs(value) >= 0.5]
         notes = "exchangeable" if site.exchangeable else ("; ".join(site.flags) if site.flags else "")
         rows.append([str(i), site.label, str(site.n_h), f"{site.shift_ppm:.2f} +- {site.shift_sd_ppm:.2f}",
                      first_order_multiplicity(system, i), ", ".join(j), notes])
     return rows
+
+
+def _x_partner(nucleus: str, count: int) -> str:
+    """``"F"``, ``"3F"``, ``"P"``: the X nuclei a coupling goes to, for the couplings column."""
+    symbol = nucleus.lstrip("0123456789")
+    return symbol if count == 1 else f"{count}{symbol}"
 
 
 def _write_plot(system, path: Path, *, field_mhz: float) -> None:

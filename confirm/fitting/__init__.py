@@ -359,7 +359,7 @@ def _without_rejected(refined, views, view_grid, view_basis, n_candidates, grid,
     ev = evaluate(views[best], models, view_grid, view_basis, **settings)
     rejected = [k for k in range(n_candidates) if not ev.detected[k]
                 and ev.presence[k].amount > SEEN_SIGMA * ev.presence[k].amount_sd]
-    if not rejected:
+    if not rejected or len(rejected) == len(models):  # nothing would be left to refit
         return refined, views
     again = refit_without(refined[best], rejected, grid=grid, basis=basis, models=models, mid_view=mid_view,
                           field_mhz=field, width_ppm=lw / field, noise_sd=noise, options=options,

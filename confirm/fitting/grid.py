@@ -12,6 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from confirm.fitting.models import x_half_width_hz
 from predictors.core import Spectrum
 from predictors.errors import FitError
 
@@ -90,7 +91,8 @@ def fit_intervals(models, field_mhz: float, lw_hz: float) -> list:
     at low field, where they stay close to their parent)."""
     intervals = []
     for m in models:
-        spread = np.abs(m.j0).sum(axis=1) / field_mhz / 2 + 20 * lw_hz / field_mhz + 0.03
+        spread = ((np.abs(m.j0).sum(axis=1) / 2 + x_half_width_hz(m)) / field_mhz + 20 * lw_hz / field_mhz
+                  + 0.03)
         sat = _SATELLITE_REACH_HZ / 2 / field_mhz
         for s, w, half in zip(m.shift0, m.window, spread, strict=True):
             intervals.append((s - w - half, s + w + half))

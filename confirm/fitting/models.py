@@ -3,7 +3,9 @@
 A :class:`CandidateModel` holds one candidate's non-exchangeable sites with their predicted
 shifts, the window each may move in, the couplings that are refined with their bounds, and the
 one-bond 13C-1H couplings that place the 13C satellites. :func:`model_lines` simulates the
-molecule (exact spin simulation of ``predictors.spin``) and adds the satellites.
+molecule (exact spin simulation of ``predictors.spin``; couplings to 19F or 31P, held at their
+predicted values, by one simulation per X spin state or first-order splits, ``predictors.spin.plan_x``)
+and adds the satellites.
 """
 
 from __future__ import annotations
@@ -17,7 +19,7 @@ from predictors.core import SpinSystem
 from predictors.errors import FitError
 
 __all__ = ["SATELLITE_SHARE", "CandidateModel", "build_model", "model_lines", "model_lines_with_derivatives",
-           "coupling_matrix", "unit_couplings"]
+           "coupling_matrix", "unit_couplings", "x_half_width_hz"]
 
 #: 13C natural abundance: each satellite is 0.55 % of its parent (references.md section 5).
 SATELLITE_SHARE = 0.0055
@@ -64,6 +66,11 @@ class CandidateModel:
     unit_owner: np.ndarray | None = None
     unit_n: np.ndarray | None = None
     unit_j0: np.ndarray | None = None
+    #: per model site, its couplings to 19F / 31P as (nucleus, n_equivalent, j_hz) (fixed in the fit)
+    x_couplings: tuple = ()
+    #: how they are applied (``predictors.spin.plan_x``): X spin states simulated one by one, the
+    #: rest split first order; None without X couplings
+    x_plan: object | None = None
 
     @property
     def n_sites(self) -> int:
@@ -117,6 +124,7 @@ def build_model(system: SpinSystem, options) -> CandidateModel:
                 lo.append(low)
                 hi.append(high)
                 prior.append(sd_ab)
+    model_x = tuple(system.x_couplings[g[0]] for g in groups) if any(system.x_couplings) else ()
     return CandidateModel(
         groups=tuple(tuple(g) for g in groups),
         shift0=_spread_equal_shifts(np.array([s.shift_ppm for s in sites])),
@@ -133,7 +141,17 @@ def build_model(system: SpinSystem, options) -> CandidateModel:
         unit_owner=None if units is None else units[0],
         unit_n=None if units is None else units[1],
         unit_j0=None if units is None else units[2],
+        x_couplings=model_x,
+        x_plan=_x_plan(model_x, system.smiles),
     )
+
+
+def _x_plan(model_x: tuple, smiles: str):
+    if not model_x:
+        return None
+    from predictors.spin import plan_x
+
+    return plan_x(model_x, smiles)
 
 
 def _model_units(system: SpinSystem, groups) -> tuple | None:
@@ -164,8 +182,8 @@ def _model_units(system: SpinSystem, groups) -> tuple | None:
 
 def _merge_remote_pairs(system: SpinSystem, keep: list, j: np.ndarray) -> list:
     """Groups of kept sites: the two protons of a CH2 that the prediction gives the same shift and
-    the same couplings to every other site form one 2H site, unless their carbon is bonded to a
-    stereocentre.
+    the same couplings to every other site (and to 19F / 31P) form one 2H site, unless their carbon
+    is bonded to a stereocentre.
 
     Such a pair is magnetically equivalent as predicted, so one composite site simulates it exactly
     (and far faster in a long chain); next to a stereocentre the two protons usually differ in
@@ -199,7 +217,8 @@ def _merge_remote_pairs(system: SpinSystem, keep: list, j: np.ndarray) -> list:
             if (same_carbon
                     and not any(nb.GetIdx() in centres for nb in carbon[i].GetNeighbors())
                     and system.sites[i].shift_ppm == system.sites[k].shift_ppm
-                    and np.allclose(j[i, others], j[k, others], atol=1e-9)):
+                    and np.allclose(j[i, others], j[k, others], atol=1e-9)
+                    and system.x_couplings[i] == system.x_couplings[k]):
                 group.append(k)
         used.update(group)
         groups.append(tuple(group))
@@ -341,24 +360,56 @@ def model_lines(model: CandidateModel, shifts: np.ndarray, j_values: np.ndarray,
     parents keep their full intensity). Clusters of the spin system already simulated with the same
     inputs are reused from ``model.memo``.
     """
-    from predictors.spin import simulate_arrays_reusing
-
     if model.pattern is not None:
         offsets, weights = model.pattern
         ppm = np.asarray(shifts, dtype=float)[0] + np.asarray(offsets, dtype=float) / field_mhz
         inten = np.asarray(weights, dtype=float) * (model.n_h[0] / float(np.sum(weights)))
         return _with_satellites(model, ppm, inten, np.zeros(ppm.size, int), field_mhz, satellites)
     spin_shifts, j, n_h = _simulation_inputs(model, shifts, j_values)
-    try:
-        lines = simulate_arrays_reusing(spin_shifts, j, n_h, field_mhz=field_mhz, memo=model.memo)
-    except np.linalg.LinAlgError:
-        # exactly degenerate sites can stall the eigensolver: nudge them apart by < 0.01 Hz and retry
-        nudged = spin_shifts + 1e-5 * np.arange(len(spin_shifts)) / max(field_mhz, 1.0)
-        lines = simulate_arrays_reusing(nudged, j, n_h, field_mhz=field_mhz, memo=model.memo)
-    ppm, inten = np.asarray(lines.ppm), np.asarray(lines.intensity)
-    site = _site_of(model, np.asarray(lines.site_index))
+    freq, inten, spin, _ = _simulate_states(model, spin_shifts, j, n_h, field_mhz)
+    site = _site_of(model, spin)
     keep, inten = _strong_lines(inten, site)
-    return _with_satellites(model, ppm[keep], inten, site[keep], field_mhz, satellites)
+    ppm, inten, site, _ = _split_by_x(model, freq[keep] / field_mhz, inten, site[keep], field_mhz)
+    return _with_satellites(model, ppm, inten, site, field_mhz, satellites)
+
+
+def _simulate_states(model: CandidateModel, spin_shifts, j, n_h, field_mhz: float, pairs=None):
+    """Lines (Hz) of the simulated spins, once per X spin state of ``model.x_plan`` (weighted and
+    pooled): ``freq_hz, intensity, spin index, dfreq_dj`` (None without ``pairs``). Clusters already
+    simulated with the same inputs are reused from ``model.memo``."""
+    from predictors.spin import pool_state_lines, simulate_arrays_reusing, simulate_with_derivatives
+
+    plan = model.x_plan
+    states = [(1.0, None)] if plan is None else list(zip(plan.weights, plan.offsets_hz, strict=True))
+    freq, inten, spin, deriv = [], [], [], []
+    for weight, offsets in states:
+        shifted = np.asarray(spin_shifts, dtype=float)
+        if offsets is not None and np.any(offsets):
+            spin_offsets = offsets if model.unit_owner is None else offsets[model.unit_owner]
+            shifted = shifted + spin_offsets / field_mhz
+        for attempt in range(2):
+            try:
+                if pairs is None:
+                    lines = simulate_arrays_reusing(shifted, j, n_h, field_mhz=field_mhz, memo=model.memo)
+                    dj = None
+                else:
+                    lines, dj, _ = simulate_with_derivatives(shifted, j, n_h, field_mhz=field_mhz,
+                                                             pairs=pairs, memo=model.memo)
+                break
+            except np.linalg.LinAlgError:
+                if attempt:
+                    raise
+                # exactly degenerate sites can stall the eigensolver: nudge them apart by < 0.01 Hz
+                shifted = shifted + 1e-5 * np.arange(len(shifted)) / max(field_mhz, 1.0)
+        freq.append(np.asarray(lines.ppm) * field_mhz)
+        inten.append(np.asarray(lines.intensity) * weight)
+        spin.append(np.asarray(lines.site_index))
+        if dj is not None:
+            deriv.append(np.asarray(dj, dtype=float))
+    if len(states) == 1:
+        return freq[0], inten[0], spin[0], (deriv[0] if deriv else None)
+    return pool_state_lines(np.concatenate(freq), np.concatenate(inten), np.concatenate(spin),
+                            np.concatenate(deriv) if deriv else None)
 
 
 def model_lines_with_derivatives(model: CandidateModel, shifts: np.ndarray, j_values: np.ndarray,
@@ -369,28 +420,38 @@ def model_lines_with_derivatives(model: CandidateModel, shifts: np.ndarray, j_va
     The derivatives are exact first-order perturbation theory of the spin simulation
     (``predictors.spin.simulate_with_derivatives``): within a refinement round the couplings move
     lines as the shifts do, which stays accurate over changes of a line width and more."""
-    from predictors.spin import simulate_with_derivatives
-
     if model.pattern is not None or not model.j_pairs:
         lines = model_lines(model, shifts, j_values, field_mhz)
         return lines + (np.zeros((lines[0].size, len(model.j_pairs))),)
     spin_shifts, j, n_h = _simulation_inputs(model, shifts, j_values)
     pairs, column = (model.j_pairs, None) if model.unit_owner is None else _unit_pairs(model)
-    try:
-        out = simulate_with_derivatives(spin_shifts, j, n_h, field_mhz=field_mhz, pairs=pairs,
-                                        memo=model.memo)
-    except np.linalg.LinAlgError:
-        nudged = spin_shifts + 1e-5 * np.arange(len(spin_shifts)) / max(field_mhz, 1.0)
-        out = simulate_with_derivatives(nudged, j, n_h, field_mhz=field_mhz, pairs=pairs, memo=model.memo)
-    lines, dfreq_dj, _ = out
+    freq, inten, spin, dfreq_dj = _simulate_states(model, spin_shifts, j, n_h, field_mhz, pairs=pairs)
     if column is not None:  # a refined coupling moves all its spin pairs' couplings alike
         dfreq_dj = np.asarray(dfreq_dj, dtype=float) @ np.eye(len(model.j_pairs))[column]
-    site = _site_of(model, np.asarray(lines.site_index))
-    keep, inten = _strong_lines(np.asarray(lines.intensity), site)
-    ppm, inten, site, sat = _with_satellites(model, np.asarray(lines.ppm)[keep], inten, site[keep], field_mhz,
-                                             True)
-    dppm = np.asarray(dfreq_dj, dtype=float)[keep] / field_mhz
+    site = _site_of(model, spin)
+    keep, inten = _strong_lines(inten, site)
+    ppm, inten, site, parent = _split_by_x(model, freq[keep] / field_mhz, inten, site[keep], field_mhz)
+    ppm, inten, site, sat = _with_satellites(model, ppm, inten, site, field_mhz, True)
+    dppm = (np.asarray(dfreq_dj, dtype=float)[keep] / field_mhz)[parent]
     return ppm, inten, site, sat, np.concatenate([dppm] * (ppm.size // max(dppm.shape[0], 1)))
+
+
+def x_half_width_hz(model: CandidateModel) -> np.ndarray:
+    """Half the width (Hz) of each model site's 19F / 31P pattern, shape (n_sites,)."""
+    if not model.x_couplings:
+        return np.zeros(model.n_sites)
+    return np.array([sum(n * abs(j) for _, n, j in site) / 2.0 for site in model.x_couplings], dtype=float)
+
+
+def _split_by_x(model: CandidateModel, ppm, inten, site, field_mhz: float):
+    """Lines split first order by the 19F / 31P couplings not simulated state by state, and each
+    one's parent line."""
+    if model.x_plan is None or not any(model.x_plan.first_order):
+        return ppm, inten, site, np.arange(np.asarray(ppm).size)
+    from predictors.spin import split_by_x
+
+    freq, inten, site, parent = split_by_x(np.asarray(ppm) * field_mhz, inten, site, model.x_plan.first_order)
+    return freq / field_mhz, inten, site, parent
 
 
 #: Lines below this share of the molecule's tallest line are not drawn; their intensity goes to

@@ -14,6 +14,7 @@ from pathlib import Path
 import numpy as np
 
 from confirm.reading.checks import check_fid_magnitude, check_field, check_spectral_width
+from confirm.reading.decoupling import decoupled_nuclei
 from confirm.reading.labels import clean_label, nucleus_label, solvent_label
 from confirm.reading.parameters import first_line, number, read_parameter_file, text_value
 from confirm.reading.records import AcquisitionParameters, RawFid, RawSpectrum
@@ -168,6 +169,10 @@ def _acqus_parameters(acqus: dict, procs: dict, n_complex: int, folder: Path) ->
         temperature_k=temperature or None,
         pulse_program=clean_label(text_value(acqus, "PULPROG")),
         n_dimensions=1,
+        decoupled_nuclei=decoupled_nuclei(
+            channels=(text_value(acqus, "NUC2"), text_value(acqus, "NUC3")),
+            pulse_program=clean_label(text_value(acqus, "PULPROG")),
+            titles=(text_value(acqus, "TITLE"),)),
     )
 
 

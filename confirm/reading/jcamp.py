@@ -18,6 +18,7 @@ from pathlib import Path
 import numpy as np
 
 from confirm.reading.checks import check_axis_units, check_fid_magnitude, check_field, check_spectral_width
+from confirm.reading.decoupling import decoupled_nuclei
 from confirm.reading.fid_directory import group_delay
 from confirm.reading.jcamp_blocks import JcampBlock, JcampTable, split_blocks
 from confirm.reading.jcamp_decode import MAX_POINTS, decode_ordinates, decode_pairs
@@ -224,6 +225,11 @@ def _parameters(block: JcampBlock) -> AcquisitionParameters:
         temperature_k=temp_k if temp_k is not None and temp_k > 0 else None,
         pulse_program=clean_label(block.text(".PULSESEQUENCE") or block.text("$PULPROG")),
         n_dimensions=1,
+        decoupled_nuclei=decoupled_nuclei(
+            channels=(block.text("$NUC2"), block.text("$NUC3")),
+            pulse_program=clean_label(block.text(".PULSESEQUENCE") or block.text("$PULPROG")),
+            decoupler_labels=(block.text(".DECOUPLER"), block.text("$DECOUPLER")),
+            titles=(block.text("TITLE"),)),
     )
 
 

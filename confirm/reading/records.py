@@ -34,6 +34,9 @@ class AcquisitionParameters:
     temperature_k : float or None
     pulse_program : str or None
     n_dimensions : int or None
+    decoupled_nuclei : tuple of str
+        Heteronuclei (``"19F"``, ``"31P"``) the file says were decoupled during acquisition
+        (:func:`confirm.reading.decoupling.decoupled_nuclei`); empty when none or unknown.
     """
 
     field_mhz: float | None = None
@@ -48,6 +51,7 @@ class AcquisitionParameters:
     temperature_k: float | None = None
     pulse_program: str | None = None
     n_dimensions: int | None = None
+    decoupled_nuclei: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True, eq=False)

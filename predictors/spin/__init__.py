@@ -37,7 +37,8 @@ Modules, one job each: ``clusters`` (how the system is cut), ``_basis``
 ``_neighbours`` (what cut neighbours do to a cluster), ``_cluster`` (one
 cluster's lines), ``_lines`` (pooling, merging, pruning), ``_run`` (one
 simulation), ``simulate`` (public entry points), ``render`` (line shapes),
-``units`` (which sites are simulated proton by proton), ``_checks`` and ``_blas``.
+``units`` (which sites are simulated proton by proton), ``hetero`` (couplings to 19F and 31P:
+one simulation per X spin state, or first-order splits), ``_checks`` and ``_blas``.
 """
 
 from __future__ import annotations
@@ -45,6 +46,7 @@ from __future__ import annotations
 from predictors.spin._blas import one_blas_thread
 from predictors.spin._checks import FIELD_RANGE_MHZ
 from predictors.spin.clusters import ClusterPlan, plan_clusters
+from predictors.spin.hetero import XPlan, plan_x, pool_state_lines, split_by_x, split_lines_by_x, x_patterns
 from predictors.spin.render import LINE_SHAPES, model_spectrum, render_lines, render_sites
 from predictors.spin.simulate import (
     LineDerivatives,
@@ -71,4 +73,10 @@ __all__ = [
     "simulate_with_derivatives",
     "spin_units",
     "SpinUnits",
+    "split_by_x",
+    "XPlan",
+    "plan_x",
+    "pool_state_lines",
+    "split_lines_by_x",
+    "x_patterns",
 ]

@@ -10,6 +10,7 @@ from predictors.core import LineList, SpinSystem
 from predictors.errors import InputError
 from predictors.spin._checks import _check_arrays, _check_field, _check_options
 from predictors.spin._run import run
+from predictors.spin.hetero import plan_x, pool_state_lines, split_lines_by_x
 from predictors.spin.units import spin_units
 
 # Clusters kept by simulate_arrays_reusing before its memo is emptied.
@@ -211,6 +212,9 @@ def simulate_lines(system: SpinSystem, *, field_mhz: float, **options) -> LineLi
     whose protons are not (``magnetically_equivalent`` False, with the proton
     couplings ``proton_j_hz`` known) proton by proton, its spins at the site's
     shift (:func:`predictors.spin.units.spin_units`). Lines are reported by site.
+    Couplings to 19F or 31P (``system.x_couplings``) enter by simulating the protons once per
+    spin state of the X group where every site couples to the same group (exact), and as
+    first-order splittings of the finished lines otherwise (:mod:`predictors.spin.hetero`).
 
     Parameters
     ----------
@@ -234,9 +238,25 @@ def simulate_lines(system: SpinSystem, *, field_mhz: float, **options) -> LineLi
     if not system.sites:
         raise InputError("system: the spin system has no proton sites")
     units = spin_units(system)
-    lines = simulate_arrays(system.shifts_ppm[units.owner], units.j_hz, units.n_h, field_mhz=field_mhz,
-                            **options)
-    if not units.split:
-        return lines
-    return LineList(ppm=lines.ppm, intensity=lines.intensity, field_mhz=lines.field_mhz,
-                    site_index=units.owner[lines.site_index], warnings=lines.warnings)
+    plan = plan_x(system.x_couplings, system.smiles)
+    field = _check_field(field_mhz)
+    parts = []
+    for weight, offsets in zip(plan.weights, plan.offsets_hz, strict=True):
+        shifts = system.shifts_ppm + offsets / field
+        lines = simulate_arrays(shifts[units.owner], units.j_hz, units.n_h, field_mhz=field, **options)
+        parts.append((lines, weight))
+    if len(parts) == 1:
+        lines = parts[0][0]
+        site = units.owner[lines.site_index]
+        lines = LineList(ppm=lines.ppm, intensity=lines.intensity, field_mhz=field, site_index=site,
+                         warnings=lines.warnings)
+    else:
+        freq = np.concatenate([p.ppm * field for p, _ in parts])
+        inten = np.concatenate([p.intensity * w for p, w in parts])
+        site = np.concatenate([units.owner[p.site_index] for p, _ in parts])
+        freq, inten, site, _ = pool_state_lines(freq, inten, site)
+        order = np.argsort(-freq, kind="stable")
+        warnings = tuple(dict.fromkeys(w for p, _ in parts for w in p.warnings))
+        lines = LineList(ppm=freq[order] / field, intensity=inten[order], field_mhz=field,
+                         site_index=site[order], warnings=warnings)
+    return split_lines_by_x(lines, plan.first_order)
