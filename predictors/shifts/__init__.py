@@ -1,0 +1,80 @@
+"""1H chemical shifts from additive increment tables, each with a standard uncertainty.
+
+* vinyl H: Pascual-Meier-Simon additivity (``data/alkene_increments.csv``);
+* benzene H: substituent increments of Beeby et al. (``data/benzene_increments.csv``),
+  heteroaromatic H from base values of the parent ring;
+* sp3 H: Shoolery's rule as extended by Schaller et al. for CH2XY, otherwise the
+  alpha/beta/gamma increments of Beauchamp & Marquez (``data/sp3_increments.csv``), with alpha
+  increments by carbon type (from monosubstituted alkanes) and sub-additive sums on crowded
+  carbons;
+* aldehyde, alkyne and exchangeable (OH, NH, SH) H from tabulated values.
+
+Every estimate carries ``sd_ppm``; a substituent the tables do not know is
+replaced by the nearest class, flagged, and its uncertainty widened.
+"""
+
+from __future__ import annotations
+
+from rdkit import Chem
+
+from predictors.equivalence import AlkeneRelation, map_alkene_relations
+from predictors.shifts.benzenoid import _aromatic_shift
+from predictors.shifts.exchangeable import _aldehyde_shift, _alkyne_shift, _exchangeable_shift
+from predictors.shifts.sp3 import _sp3_shift
+from predictors.shifts.substituents import _double_partner, classify_substituent, prepare_model_molecule
+from predictors.shifts.tables import ShiftEstimate, _unknown_shift, load_increment_table
+from predictors.shifts.vinyl import _vinyl_shift
+
+__all__ = [
+    "ShiftEstimate",
+    "load_increment_table",
+    "prepare_model_molecule",
+    "classify_substituent",
+    "predict_proton_shifts",
+]
+
+
+def predict_proton_shifts(model: Chem.Mol, *, pseudo_atoms: frozenset = frozenset(),
+                          relations: dict[int, AlkeneRelation] | None = None) -> dict[int, ShiftEstimate]:
+    """Shift estimate for every H atom of a molecule with explicit hydrogens.
+
+    Parameters
+    ----------
+    model : rdkit.Chem.Mol
+        Output of :func:`prepare_model_molecule`.
+    pseudo_atoms : frozenset of int, keyword-only
+        Atoms of de-aromatised pyranone-type rings (ring-current term).
+    relations : dict, keyword-only
+        Cis/trans relations from :func:`~predictors.equivalence.map_alkene_relations`.
+
+    Returns
+    -------
+    dict of int to ShiftEstimate
+        Keyed by H atom index.
+    """
+    relations = map_alkene_relations(model) if relations is None else relations
+    out = {}
+    for atom in model.GetAtoms():
+        if atom.GetAtomicNum() == 1:
+            out[atom.GetIdx()] = _predict_one(model, atom, relations, pseudo_atoms)
+    return out
+
+
+def _predict_one(mol, h_atom, relations, pseudo_atoms) -> ShiftEstimate:
+    parent = h_atom.GetNeighbors()[0]
+    symbol = parent.GetSymbol()
+    if symbol in ("O", "N", "S"):
+        return _exchangeable_shift(mol, parent)
+    if symbol != "C":
+        return _unknown_shift(f"H on {symbol}: no model, generic value used")
+    if parent.GetIsAromatic():
+        return _aromatic_shift(mol, parent)
+    if _double_partner(parent) is not None:
+        return _aldehyde_shift(mol, parent)
+    if parent.GetIdx() in relations:
+        return _vinyl_shift(mol, h_atom, parent, relations[parent.GetIdx()], pseudo_atoms)
+    if any(b.GetBondType() == Chem.BondType.TRIPLE for b in parent.GetBonds()):
+        return _alkyne_shift(mol, parent)
+    if any(b.GetBondType() == Chem.BondType.DOUBLE for b in parent.GetBonds()):
+        return _unknown_shift("H on C=N or cumulated C: generic value used", label="vinyl")
+    return _sp3_shift(mol, parent)
