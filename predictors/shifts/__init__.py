@@ -20,6 +20,7 @@ from rdkit import Chem
 from predictors.equivalence import AlkeneRelation, map_alkene_relations
 from predictors.shifts.benzenoid import _aromatic_shift
 from predictors.shifts.exchangeable import _aldehyde_shift, _alkyne_shift, _exchangeable_shift
+from predictors.shifts.heteroaromatic import assign_ring_positions
 from predictors.shifts.sp3 import _sp3_shift
 from predictors.shifts.substituents import _double_partner, classify_substituent, prepare_model_molecule
 from predictors.shifts.tables import ShiftEstimate, _unknown_shift, load_increment_table
@@ -53,14 +54,15 @@ def predict_proton_shifts(model: Chem.Mol, *, pseudo_atoms: frozenset = frozense
         Keyed by H atom index.
     """
     relations = map_alkene_relations(model) if relations is None else relations
+    positions = assign_ring_positions(model)
     out = {}
     for atom in model.GetAtoms():
         if atom.GetAtomicNum() == 1:
-            out[atom.GetIdx()] = _predict_one(model, atom, relations, pseudo_atoms)
+            out[atom.GetIdx()] = _predict_one(model, atom, relations, pseudo_atoms, positions)
     return out
 
 
-def _predict_one(mol, h_atom, relations, pseudo_atoms) -> ShiftEstimate:
+def _predict_one(mol, h_atom, relations, pseudo_atoms, positions) -> ShiftEstimate:
     parent = h_atom.GetNeighbors()[0]
     symbol = parent.GetSymbol()
     if symbol in ("O", "N", "S"):
@@ -68,7 +70,7 @@ def _predict_one(mol, h_atom, relations, pseudo_atoms) -> ShiftEstimate:
     if symbol != "C":
         return _unknown_shift(f"H on {symbol}: no model, generic value used")
     if parent.GetIsAromatic():
-        return _aromatic_shift(mol, parent)
+        return _aromatic_shift(mol, parent, positions)
     if _double_partner(parent) is not None:
         return _aldehyde_shift(mol, parent)
     if parent.GetIdx() in relations:

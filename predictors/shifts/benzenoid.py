@@ -1,23 +1,43 @@
-"""Aromatic protons: benzene increments of Beeby et al. (``data/benzene_increments.csv``),
-heteroaromatic H from base values of the parent ring."""
+"""Aromatic protons: benzene increments of Beeby et al. (``data/benzene_increments.csv``) on the
+base value of the ring: benzene, or the tabulated position of a heteroaromatic or fused ring
+(:mod:`predictors.shifts.heteroaromatic`, :mod:`predictors.shifts.fused`)."""
 
 from __future__ import annotations
 
+from predictors.shifts.fused import peri_effect
+from predictors.shifts.heteroaromatic import RingPosition, n_substituent_effect, ring_base_shift
 from predictors.shifts.substituents import _double_partner, _has_triple_n, _is_carbonyl, classify_substituent
 from predictors.shifts.tables import ShiftEstimate, _benzene_table, _with_sd
 
 
-def _aromatic_shift(mol, parent) -> ShiftEstimate:
-    ring = _smallest_aromatic_ring(mol, parent.GetIdx())
-    hetero = [i for i in ring if mol.GetAtomWithIdx(i).GetSymbol() != "C"]
+def _aromatic_shift(mol, parent, positions: dict[int, RingPosition] | None = None) -> ShiftEstimate:
+    """Aromatic CH: base value of its ring (benzene, or a tabulated heteroaromatic / fused ring
+    position) plus the benzene increments of the substituents on the same ring, the N-substituent
+    increment of azoles and the peri effect across a ring fusion."""
+    idx = parent.GetIdx()
+    ring = _smallest_aromatic_ring(mol, idx)
+    where = (positions or {}).get(idx)
+    base = ring_base_shift(where) if where is not None else None
     flags: list[str] = []
+    if base is not None:
+        kind = "heteroaromatic" if where.hetero else "fused aromatic"
+        form = f" ({where.form})" if where.form else ""
+        flags.append(f"{kind} base {where.ring}{form} H{where.position} with benzene increments")
+        method = "hetero_aryl" if where.hetero else "aryl"
+        # the substituent of a pyrrole-type N is in the NR base values and the n_substituent rows
+        carriers = frozenset({where.pyrrole_n}) - {None}
+        shift = base + _ring_increments(mol, ring, idx, flags, skip=where.system, skip_carriers=carriers)
+        n_shift, n_flag = n_substituent_effect(mol, where, ring, idx, classify_substituent)
+        peri, peri_flags = peri_effect(mol, where, idx, classify_substituent)
+        flags += ([n_flag] if n_flag else []) + peri_flags
+        return _with_sd(shift + n_shift + peri, "aryl", method, flags)
+    hetero = [i for i in ring if mol.GetAtomWithIdx(i).GetSymbol() != "C"]
     if len(ring) == 6 and not hetero:
         base, method = _benzene_table()[("base", "benzene")][0], "aryl"
     else:
-        base, flag = _hetero_base(mol, ring, hetero, parent.GetIdx())
-        method = "hetero_aryl"
-        flags.append(flag)
-    shift = base + _ring_increments(mol, ring, parent.GetIdx(), flags)
+        base, method = _benzene_table()[("hetero", "other")][0], "hetero_aryl"
+        flags.append("heteroaromatic ring without base value: generic value used")
+    shift = base + _ring_increments(mol, ring, idx, flags)
     return _with_sd(shift, "aryl", method, flags)
 
 
@@ -33,21 +53,27 @@ def _ring_distance(ring, a: int, b: int) -> int:
     return min(d, len(ring) - d)
 
 
-def _ring_increments(mol, ring, h_parent: int, flags: list[str]) -> float:
+def _ring_increments(mol, ring, h_parent: int, flags: list[str], *, skip=frozenset(),
+                     skip_carriers=frozenset()) -> float:
+    """Benzene increments of the substituents on ``ring`` (ortho/meta/para by ring distance);
+    atoms in ``skip`` (the rest of a tabulated ring system) are not substituents, and ring atoms
+    in ``skip_carriers`` carry none."""
     total = 0.0
     table = _benzene_table()
     for r in ring:
-        if r == h_parent:
+        if r == h_parent or r in skip_carriers:
             continue
         pos = _ring_distance(ring, r, h_parent)
         if pos > 3:
             continue
         atom = mol.GetAtomWithIdx(r)
         for nbr in atom.GetNeighbors():
-            if nbr.GetIdx() in ring or nbr.GetAtomicNum() == 1:
+            if nbr.GetIdx() in ring or nbr.GetIdx() in skip or nbr.GetAtomicNum() == 1:
                 continue
             key, fallback = classify_substituent(mol, nbr.GetIdx(), r)
             group = _benzene_group(nbr, key)
+            if key == "NR2" and nbr.GetIsAromatic():
+                group, fallback = "aryl", False  # azol-1-yl: taken as aryl (common practice)
             if fallback or ("scs", group) not in table:
                 flags.append(f"aromatic increment for {key} (atom {nbr.GetIdx()}) taken from alkyl")
                 group = "alkyl"
@@ -71,19 +97,3 @@ def _benzene_group(nbr, key: str) -> str:
     if key == "OAr":
         return "OAr"
     return key
-
-
-def _hetero_base(mol, ring, hetero, h_parent: int) -> tuple[float, str]:
-    table = _benzene_table()
-    symbols = sorted(mol.GetAtomWithIdx(i).GetSymbol() for i in hetero)
-    dist = min(_ring_distance(ring, h, h_parent) for h in hetero) if hetero else 0
-    name = None
-    if len(ring) == 6 and symbols == ["N"]:
-        name = f"pyridine_{dist + 1}"
-    elif len(ring) == 5 and len(symbols) == 1:
-        parent_name = {"O": "furan", "S": "thiophene", "N": "pyrrole"}.get(symbols[0])
-        if parent_name:
-            name = f"{parent_name}_{dist + 1}"
-    if name and ("hetero", name) in table:
-        return table[("hetero", name)][0], f"heteroaromatic base {name} with benzene increments"
-    return table[("hetero", "other")][0], "heteroaromatic ring without base value: generic value used"
