@@ -25,7 +25,20 @@ def _sp3_shift(mol, parent) -> ShiftEstimate:
     base_group = label if label in ("CH3", "CH2", "CH") else "CH3"
     shift = _sp3_value("base", base_group, "shift_ppm")
     shift += _bm_increments(mol, parent, base_group, flags)
+    shift += _ring_correction(mol, parent, label, flags)
     return _with_sd(shift, label, "bm", flags)
+
+
+def _ring_correction(mol, parent, label: str, flags: list[str]) -> float:
+    """Shift of a CH2 or CH in a five- to seven-membered ring relative to the open-chain increments
+    (``correction`` rows ``ring_CH2`` / ``ring_CH`` of ``data/sp3_increments.csv``)."""
+    if label not in ("CH2", "CH"):
+        return 0.0
+    sizes = [len(r) for r in mol.GetRingInfo().AtomRings() if parent.GetIdx() in r]
+    if not sizes or not 5 <= min(sizes) <= 7:
+        return 0.0
+    flags.append(f"ring {label}: ring correction added")
+    return _sp3_value("correction", f"ring_{label}", "alpha_ppm")
 
 
 def _shoolery_group(key: str) -> str:
@@ -47,10 +60,16 @@ def _bm_increments(mol, start, carbon_type: str, flags: list[str]) -> float:
     rows, from monosubstituted alkanes), and so do the beta increments of methyl groups
     (``beta_CH3`` rows), where the table has them; otherwise the Beauchamp-Marquez value is
     used. The sum is then made sub-additive by :func:`_saturate`.
+
+    On a carbon that carries an oxygen (alcohols, ethers, sugars), a further oxygen on a beta
+    carbon does not add the Beauchamp-Marquez beta increment: polyols and sugar ring CH come
+    0.2-0.5 ppm above what plain additivity gives, so such an oxygen adds the calibrated
+    ``polyol_beta_O`` value instead (``correction`` rows of ``data/sp3_increments.csv``).
     """
     columns = ("alpha_ppm", "beta_ppm", "gamma_ppm")
     alphas: list[float] = []
-    distant = 0.0
+    distant = polyol = 0.0
+    oxygenated = any(n.GetSymbol() == "O" for n in start.GetNeighbors())
     frontier = [start]
     seen = {start.GetIdx()}
     for depth in range(3):
@@ -62,6 +81,9 @@ def _bm_increments(mol, start, carbon_type: str, flags: list[str]) -> float:
                 if _is_sp3_carbon(nbr):
                     next_frontier.append(nbr)
                     continue
+                if depth == 1 and oxygenated and nbr.GetSymbol() == "O":
+                    polyol += _sp3_value("correction", "polyol_beta_O", "beta_ppm")
+                    continue
                 term = _bm_term(mol, nbr, atom, columns[depth], carbon_type, flags)
                 if depth == 0:
                     alphas.append(term)
@@ -69,7 +91,9 @@ def _bm_increments(mol, start, carbon_type: str, flags: list[str]) -> float:
                     distant += term
         seen.update(a.GetIdx() for a in next_frontier)
         frontier = next_frontier
-    return _saturate(alphas, distant)
+    if polyol:
+        flags.append("polyol: beta O on an O-bearing carbon (non-additive value)")
+    return _saturate(alphas, distant) + polyol
 
 
 def _saturate(alphas: list[float], distant: float) -> float:
@@ -93,6 +117,8 @@ def _saturate(alphas: list[float], distant: float) -> float:
 def _bm_term(mol, nbr, atom, column: str, carbon_type: str, flags: list[str]) -> float:
     key, fallback = classify_substituent(mol, nbr.GetIdx(), atom.GetIdx())
     group = {"COAr": "COR", "COCl": "COR"}.get(key, key)
+    if key == "NR2" and nbr.GetIsAromatic():
+        group, fallback = "N_azole", False
     if group == "C=C" and not fallback and _conjugated_alkene(mol, nbr, atom):
         group = "C=C_conj"
     if ("bm", group) not in _sp3_table() or fallback:
