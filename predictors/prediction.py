@@ -73,7 +73,8 @@ def predict_spin_system(molecule, *, n_conformers: int = 10, seed: int = 0xC0FFE
     shifts = predict_proton_shifts(model, pseudo_atoms=pseudo, relations=relations)
     exchangeable = frozenset(h for h, est in shifts.items() if est.exchangeable)
     conformers = embed_conformers(mol_h, n_conformers=int(n_conformers), seed=seed)
-    j_atom, sd_atom = predict_couplings(model, conformers, relations, exchangeable=exchangeable)
+    j_atom, sd_atom = predict_couplings(model, conformers, relations, exchangeable=exchangeable,
+                                        pseudo_atoms=pseudo)
     groups = _split_by_partners(mol_h, groups, _rotor_averaged(mol_h, groups, j_atom))
     averaged = _rotor_averaged(mol_h, groups, j_atom)
     magnetic = check_magnetic_equivalence(groups, averaged, tol_hz=0.5)
