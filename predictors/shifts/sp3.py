@@ -31,14 +31,16 @@ def _sp3_shift(mol, parent) -> ShiftEstimate:
 
 def _ring_correction(mol, parent, label: str, flags: list[str]) -> float:
     """Shift of a CH2 or CH in a five- to seven-membered ring relative to the open-chain increments
-    (``correction`` rows ``ring_CH2`` / ``ring_CH`` of ``data/sp3_increments.csv``)."""
+    (``correction`` rows ``ring5_CH2`` ... ``ring6_CH`` of ``data/sp3_increments.csv``; ``ring6``
+    covers six- and seven-membered rings)."""
     if label not in ("CH2", "CH"):
         return 0.0
     sizes = [len(r) for r in mol.GetRingInfo().AtomRings() if parent.GetIdx() in r]
     if not sizes or not 5 <= min(sizes) <= 7:
         return 0.0
-    flags.append(f"ring {label}: ring correction added")
-    return _sp3_value("correction", f"ring_{label}", "alpha_ppm")
+    ring = "ring5" if min(sizes) == 5 else "ring6"
+    flags.append(f"{ring} {label}: ring correction added")
+    return _sp3_value("correction", f"{ring}_{label}", "alpha_ppm")
 
 
 def _shoolery_group(key: str) -> str:
