@@ -17,7 +17,7 @@ from predictors.couplings import embed_conformers, predict_couplings
 from predictors.equivalence import check_magnetic_equivalence, find_equivalent_protons, map_alkene_relations
 from predictors.errors import InputError
 from predictors.molecules import parse_molecule
-from predictors.shifts import predict_proton_shifts, prepare_model_molecule
+from predictors.shifts import predict_proton_shifts, prepare_model_molecule, split_diastereotopic
 
 __all__ = ["predict_spin_system", "first_order_multiplicity", "second_order_pairs", "MULTIPLET_NAMES",
            "FIRST_ORDER_RATIO"]
@@ -71,6 +71,7 @@ def predict_spin_system(molecule, *, n_conformers: int = 10, seed: int = 0xC0FFE
     groups = find_equivalent_protons(mol_h, map_alkene_relations(mol_h))
     relations = map_alkene_relations(model)
     shifts = predict_proton_shifts(model, pseudo_atoms=pseudo, relations=relations)
+    shifts = split_diastereotopic(mol_h, shifts, groups)
     exchangeable = frozenset(h for h, est in shifts.items() if est.exchangeable)
     conformers = embed_conformers(mol_h, n_conformers=int(n_conformers), seed=seed)
     j_atom, sd_atom = predict_couplings(model, conformers, relations, exchangeable=exchangeable,
