@@ -34,7 +34,8 @@ _MAX_DISTINCT = 3
 FIRST_ORDER_RATIO = 10.0
 
 
-def predict_spin_system(molecule, *, n_conformers: int = 10, seed: int = 0xC0FFEE) -> SpinSystem:
+def predict_spin_system(molecule, *, n_conformers: int = 10, seed: int = 0xC0FFEE,
+                        solvent: str | None = None) -> SpinSystem:
     """Predict shifts and couplings for every proton site of a molecule.
 
     Parameters
@@ -45,6 +46,9 @@ def predict_spin_system(molecule, *, n_conformers: int = 10, seed: int = 0xC0FFE
         Conformers embedded for averaging vicinal and allylic couplings (1-50).
     seed : int, keyword-only
         Random seed of the conformer embedding.
+    solvent : str, keyword-only
+        NMR solvent of the sample (``"CDCl3"``, ``"DMSO-d6"``, ``"D2O"``, ``"CD3OD"``); sets the
+        shifts of exchangeable H only. None: CDCl3 values.
 
     Returns
     -------
@@ -70,7 +74,7 @@ def predict_spin_system(molecule, *, n_conformers: int = 10, seed: int = 0xC0FFE
     model, pseudo = prepare_model_molecule(mol_h)
     groups = find_equivalent_protons(mol_h, map_alkene_relations(mol_h))
     relations = map_alkene_relations(model)
-    shifts = predict_proton_shifts(model, pseudo_atoms=pseudo, relations=relations)
+    shifts = predict_proton_shifts(model, pseudo_atoms=pseudo, relations=relations, solvent=solvent)
     shifts = split_diastereotopic(mol_h, shifts, groups)
     exchangeable = frozenset(h for h, est in shifts.items() if est.exchangeable)
     conformers = embed_conformers(mol_h, n_conformers=int(n_conformers), seed=seed)

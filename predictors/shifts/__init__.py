@@ -39,7 +39,8 @@ __all__ = [
 
 
 def predict_proton_shifts(model: Chem.Mol, *, pseudo_atoms: frozenset = frozenset(),
-                          relations: dict[int, AlkeneRelation] | None = None) -> dict[int, ShiftEstimate]:
+                          relations: dict[int, AlkeneRelation] | None = None,
+                          solvent: str | None = None) -> dict[int, ShiftEstimate]:
     """Shift estimate for every H atom of a molecule with explicit hydrogens.
 
     Parameters
@@ -50,6 +51,9 @@ def predict_proton_shifts(model: Chem.Mol, *, pseudo_atoms: frozenset = frozense
         Atoms of de-aromatised pyranone-type rings (ring-current term).
     relations : dict, keyword-only
         Cis/trans relations from :func:`~predictors.equivalence.map_alkene_relations`.
+    solvent : str, keyword-only
+        NMR solvent (``"CDCl3"``, ``"DMSO-d6"``, ``"D2O"``, ``"CD3OD"``; None: CDCl3 values). Only
+        exchangeable H (OH, NH, SH) depend on it.
 
     Returns
     -------
@@ -61,15 +65,15 @@ def predict_proton_shifts(model: Chem.Mol, *, pseudo_atoms: frozenset = frozense
     out = {}
     for atom in model.GetAtoms():
         if atom.GetAtomicNum() == 1:
-            out[atom.GetIdx()] = _predict_one(model, atom, relations, pseudo_atoms, positions)
+            out[atom.GetIdx()] = _predict_one(model, atom, relations, pseudo_atoms, positions, solvent)
     return out
 
 
-def _predict_one(mol, h_atom, relations, pseudo_atoms, positions) -> ShiftEstimate:
+def _predict_one(mol, h_atom, relations, pseudo_atoms, positions, solvent=None) -> ShiftEstimate:
     parent = h_atom.GetNeighbors()[0]
     symbol = parent.GetSymbol()
     if symbol in ("O", "N", "S"):
-        return _exchangeable_shift(mol, parent)
+        return _exchangeable_shift(mol, parent, solvent)
     if symbol != "C":
         return _unknown_shift(f"H on {symbol}: no model, generic value used")
     if parent.GetIsAromatic():

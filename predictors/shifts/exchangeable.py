@@ -1,31 +1,77 @@
-"""Exchangeable (OH, NH, SH), aldehyde and alkyne protons: tabulated values."""
+"""Exchangeable (OH, NH, SH), aldehyde and alkyne protons: tabulated values.
+
+Exchangeable protons depend on the NMR solvent: the ``special`` rows of
+``data/sp3_increments.csv`` hold CDCl3 values (also used when the solvent is not known), rows
+``DMSO-d6:<group>`` the values in DMSO-d6 (hydrogen-bonded to the solvent: alcohol OH 4.3-5.5,
+amide NH 7.5-10 ppm), and in D2O or CD3OD the proton exchanges with the solvent deuterium and
+its intensity goes into the HDO line (``exchanged:<solvent>`` rows), flagged ``"exchanged"``.
+"""
 
 from __future__ import annotations
 
 from rdkit import Chem
 
 from predictors.shifts.substituents import _double_partner, _is_carbonyl, _is_unsaturated_carbon
-from predictors.shifts.tables import ShiftEstimate, _special, _unknown_shift
+from predictors.shifts.tables import ShiftEstimate, _has_special, _special, _unknown_shift
+
+#: Lower-case spellings of the NMR solvents with their own rows.
+_SOLVENT_NAMES = {
+    "cdcl3": "CDCl3", "chloroform-d": "CDCl3", "chloroform": "CDCl3",
+    "dmso-d6": "DMSO-d6", "dmso": "DMSO-d6", "(cd3)2so": "DMSO-d6", "dmso-d": "DMSO-d6",
+    "d2o": "D2O", "deuterium oxide": "D2O", "water-d2": "D2O",
+    "cd3od": "CD3OD", "methanol-d4": "CD3OD", "meod": "CD3OD", "methanol-d": "CD3OD",
+}
+_EXCHANGING = ("D2O", "CD3OD")
 
 
-def _exchangeable_shift(mol, parent) -> ShiftEstimate:
+def nmr_solvent_key(solvent: str | None) -> tuple[str | None, tuple[str, ...]]:
+    """Canonical name of an NMR solvent with its own exchangeable-H rows, or None (CDCl3 values).
+
+    Returns
+    -------
+    key : str or None
+        ``"CDCl3"``, ``"DMSO-d6"``, ``"D2O"``, ``"CD3OD"`` or None (not given or not known).
+    flags : tuple of str
+        A note when a named solvent is not known.
+    """
+    if solvent is None or not str(solvent).strip():
+        return None, ()
+    key = _SOLVENT_NAMES.get(str(solvent).strip().lower())
+    if key is None:
+        return None, (f"NMR solvent {solvent!r} not tabulated: CDCl3 values for exchangeable H",)
+    return key, ()
+
+
+def _exchangeable_shift(mol, parent, solvent: str | None = None) -> ShiftEstimate:
+    group, label, flags = _exchangeable_group(parent)
+    key, notes = nmr_solvent_key(solvent)
+    flags += notes
+    if key in _EXCHANGING:
+        note = f"exchanged: OH/NH/SH exchange with {key} and appear in the HDO line"
+        return _special(f"exchanged:{key}", label, exchangeable=True, flags=flags + (note,))
+    if key == "DMSO-d6" and _has_special(f"DMSO-d6:{group}"):
+        return _special(f"DMSO-d6:{group}", label, exchangeable=True, flags=flags)
+    return _special(group, label, exchangeable=True, flags=flags)
+
+
+def _exchangeable_group(parent) -> tuple[str, str, tuple[str, ...]]:
     heavy = [n for n in parent.GetNeighbors() if n.GetAtomicNum() > 1]
     if parent.GetSymbol() == "S":
-        return _special("SH", "SH", exchangeable=True)
+        return "SH", "SH", ()
     if parent.GetSymbol() == "O":
         if not heavy:
-            return _special("OH_alcohol", "OH", exchangeable=True, flags=("water",))
+            return "OH_alcohol", "OH", ("water",)
         x = heavy[0]
         group = ("OH_acid" if _is_carbonyl(x) else "OH_phenol" if x.GetIsAromatic()
                  else "OH_enol" if _is_unsaturated_carbon(x) else "OH_alcohol")
-        return _special(group, "OH", exchangeable=True)
+        return group, "OH", ()
     if parent.GetIsAromatic():
-        return _special("NH_aromatic", "NH", exchangeable=True)
+        return "NH_aromatic", "NH", ()
     if any(_is_carbonyl(n) for n in heavy):
-        return _special("NH_amide", "NH", exchangeable=True)
+        return "NH_amide", "NH", ()
     if any(n.GetIsAromatic() for n in heavy):
-        return _special("NH_aryl", "NH", exchangeable=True)
-    return _special("NH_amine", "NH", exchangeable=True)
+        return "NH_aryl", "NH", ()
+    return "NH_amine", "NH", ()
 
 
 def _aldehyde_shift(mol, parent) -> ShiftEstimate:

@@ -85,6 +85,10 @@ def _unknown_shift(flag: str, *, label: str = "other") -> ShiftEstimate:
                          _sp3_value("special", "unknown", "sd_ppm"), label, False, (flag,))
 
 
+def _has_special(group: str) -> bool:
+    return ("special", group) in _sp3_table()
+
+
 def _special(group: str, label: str, *, exchangeable: bool = False, flags=()) -> ShiftEstimate:
     return ShiftEstimate(_sp3_value("special", group, "shift_ppm"), _sp3_value("special", group, "sd_ppm"),
                          label, exchangeable, tuple(flags))
