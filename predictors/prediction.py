@@ -14,10 +14,21 @@ from rdkit import Chem
 
 from predictors.core import ProtonSite, SpinSystem
 from predictors.couplings import embed_conformers, predict_couplings
-from predictors.equivalence import check_magnetic_equivalence, find_equivalent_protons, map_alkene_relations
+from predictors.equivalence import (
+    amide_rotamer_branches,
+    check_magnetic_equivalence,
+    find_equivalent_protons,
+    map_alkene_relations,
+    split_amide_rotamers,
+)
 from predictors.errors import InputError
 from predictors.molecules import parse_molecule
-from predictors.shifts import predict_proton_shifts, prepare_model_molecule, split_diastereotopic
+from predictors.shifts import (
+    predict_proton_shifts,
+    prepare_model_molecule,
+    split_amide_rotamer_shifts,
+    split_diastereotopic,
+)
 
 __all__ = ["predict_spin_system", "first_order_multiplicity", "second_order_pairs", "MULTIPLET_NAMES",
            "FIRST_ORDER_RATIO"]
@@ -73,9 +84,12 @@ def predict_spin_system(molecule, *, n_conformers: int = 10, seed: int = 0xC0FFE
     mol_h = Chem.AddHs(Chem.MolFromSmiles(smiles))
     model, pseudo = prepare_model_molecule(mol_h)
     groups = find_equivalent_protons(mol_h, map_alkene_relations(mol_h))
+    amide_branches = amide_rotamer_branches(mol_h)
+    groups = split_amide_rotamers(mol_h, groups, amide_branches)
     relations = map_alkene_relations(model)
     shifts = predict_proton_shifts(model, pseudo_atoms=pseudo, relations=relations, solvent=solvent)
     shifts = split_diastereotopic(mol_h, shifts, groups)
+    shifts = split_amide_rotamer_shifts(mol_h, shifts, amide_branches)
     exchangeable = frozenset(h for h, est in shifts.items() if est.exchangeable)
     conformers = embed_conformers(mol_h, n_conformers=int(n_conformers), seed=seed)
     j_atom, sd_atom = predict_couplings(model, conformers, relations, exchangeable=exchangeable,

@@ -19,7 +19,12 @@ from rdkit import Chem
 
 from predictors.equivalence import AlkeneRelation, map_alkene_relations
 from predictors.shifts.benzenoid import _aromatic_shift
-from predictors.shifts.diastereotopic import DIASTEREOTOPIC_FLAG, split_diastereotopic
+from predictors.shifts.diastereotopic import (
+    AMIDE_ROTAMER_FLAG,
+    DIASTEREOTOPIC_FLAG,
+    split_amide_rotamer_shifts,
+    split_diastereotopic,
+)
 from predictors.shifts.exchangeable import _aldehyde_shift, _alkyne_shift, _exchangeable_shift
 from predictors.shifts.heteroaromatic import assign_ring_positions
 from predictors.shifts.sp3 import _sp3_shift
@@ -35,6 +40,8 @@ __all__ = [
     "predict_proton_shifts",
     "split_diastereotopic",
     "DIASTEREOTOPIC_FLAG",
+    "split_amide_rotamer_shifts",
+    "AMIDE_ROTAMER_FLAG",
 ]
 
 

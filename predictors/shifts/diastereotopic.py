@@ -1,4 +1,6 @@
-"""Shift difference between the two diastereotopic protons of an sp3 CH2.
+"""Shift differences between protons the increment tables cannot tell apart: the two
+diastereotopic protons of an sp3 CH2, and the two N-substituents of a tertiary amide (slow
+rotation about the C-N bond).
 
 :func:`predictors.equivalence.find_equivalent_protons` puts the two H of a CH2 next to a
 stereocentre (or on a ring whose faces differ) into two sites; the increment tables give both
@@ -24,11 +26,19 @@ from rdkit import Chem
 
 from predictors.shifts.tables import ShiftEstimate
 
-__all__ = ["split_diastereotopic", "DIASTEREOTOPIC_FLAG", "diastereotopic_delta"]
+__all__ = ["split_diastereotopic", "DIASTEREOTOPIC_FLAG", "diastereotopic_delta",
+           "split_amide_rotamer_shifts", "AMIDE_ROTAMER_FLAG"]
 
 #: Flag carried by each proton of a split CH2.
 DIASTEREOTOPIC_FLAG = "diastereotopic CH2: shift difference from a rule of thumb (common practice)"
 _NEAR, _FAR, _PI_EXTRA, _RING = 0.10, 0.05, 0.10, 0.25
+#: Flag carried by the H of the two N-substituents of a tertiary amide.
+AMIDE_ROTAMER_FLAG = ("amide rotamers: the N-substituents cis and trans to O differ; "
+                      "which is downfield not predicted")
+#: Shift difference of the N-CH (alpha) and further H of the two amide N-substituents: N,N-dimethylacetamide
+#: 3.02/2.94 and DMF 2.96/2.88 ppm (Gottlieb, Kotlyar, Nudelman, J. Org. Chem. 1997, 62, 7512, Table 1; from
+#: memory); further along the chain about 0.05 ppm (common practice).
+_AMIDE_ALPHA, _AMIDE_FAR = 0.08, 0.05
 
 
 def diastereotopic_delta(mol: Chem.Mol, carbon: int) -> float:
@@ -83,4 +93,32 @@ def split_diastereotopic(mol: Chem.Mol, shifts: dict[int, ShiftEstimate],
             est = shifts[h]
             out[h] = replace(est, shift_ppm=est.shift_ppm + sign * delta,
                              flags=est.flags + (DIASTEREOTOPIC_FLAG,))
+    return out
+
+
+def split_amide_rotamer_shifts(mol: Chem.Mol, shifts: dict[int, ShiftEstimate],
+                               branches) -> dict[int, ShiftEstimate]:
+    """Copy of ``shifts`` with the two N-substituents of each tertiary amide pulled apart.
+
+    Parameters
+    ----------
+    mol : rdkit.Chem.Mol
+        Molecule with explicit hydrogens.
+    shifts : dict of int to ShiftEstimate
+    branches : sequence of (frozenset, frozenset)
+        H atoms of the two branches (:func:`predictors.equivalence.amide_rotamer_branches`); the
+        first branch is put downfield by half the difference, the second upfield.
+    """
+    out = dict(shifts)
+    for first, second in branches:
+        for hs, sign in ((first, 0.5), (second, -0.5)):
+            for h in hs:
+                if h not in shifts or shifts[h].exchangeable:
+                    continue
+                carbon = mol.GetAtomWithIdx(h).GetNeighbors()[0]
+                alpha = any(n.GetSymbol() == "N" for n in carbon.GetNeighbors())
+                delta = _AMIDE_ALPHA if alpha else _AMIDE_FAR
+                est = out[h]
+                out[h] = replace(est, shift_ppm=est.shift_ppm + sign * delta,
+                                 flags=est.flags + (AMIDE_ROTAMER_FLAG,))
     return out
