@@ -34,11 +34,20 @@ def _aromatic_shift(mol, parent, positions: dict[int, RingPosition] | None = Non
     hetero = [i for i in ring if mol.GetAtomWithIdx(i).GetSymbol() != "C"]
     if len(ring) == 6 and not hetero:
         base, method = _benzene_table()[("base", "benzene")][0], "aryl"
+        if _in_fused_aromatic_system(mol, ring):
+            flags.append("fused aromatic system not tabulated: benzene base, the fused ring as substituents")
     else:
         base, method = _benzene_table()[("hetero", "other")][0], "hetero_aryl"
         flags.append("heteroaromatic ring without base value: generic value used")
     shift = base + _ring_increments(mol, ring, idx, flags)
     return _with_sd(shift, "aryl", method, flags)
+
+
+def _in_fused_aromatic_system(mol, ring) -> bool:
+    """True when an atom of ``ring`` also belongs to another aromatic ring."""
+    others = [r for r in mol.GetRingInfo().AtomRings() if set(r) != set(ring)
+              and all(mol.GetAtomWithIdx(a).GetIsAromatic() for a in r)]
+    return any(set(r) & set(ring) for r in others)
 
 
 def _smallest_aromatic_ring(mol, idx: int) -> tuple[int, ...]:

@@ -67,11 +67,20 @@ def _exchangeable_group(parent) -> tuple[str, str, tuple[str, ...]]:
         return group, "OH", ()
     if parent.GetIsAromatic():
         return "NH_aromatic", "NH", ()
+    if _is_pyridone_nh(parent, heavy):
+        return "NH_pyridone", "NH", ()
     if any(_is_carbonyl(n) for n in heavy):
         return "NH_amide", "NH", ()
     if any(n.GetIsAromatic() for n in heavy):
         return "NH_aryl", "NH", ()
     return "NH_amine", "NH", ()
+
+
+def _is_pyridone_nh(parent, heavy) -> bool:
+    """Ring NH between a ring C=O and a ring C=C (2-pyridone, 2-quinolone, de-aromatised)."""
+    ring = [n for n in heavy if parent.IsInRing() and n.IsInRing()]
+    return (any(_is_carbonyl(n) for n in ring)
+            and any(not _is_carbonyl(n) and _is_unsaturated_carbon(n) for n in ring))
 
 
 def _aldehyde_shift(mol, parent) -> ShiftEstimate:
