@@ -24,6 +24,7 @@ from predictors.equivalence import (
 from predictors.errors import InputError
 from predictors.molecules import parse_molecule
 from predictors.shifts import (
+    orient_ring_protons,
     predict_proton_shifts,
     prepare_model_molecule,
     split_amide_rotamer_shifts,
@@ -87,11 +88,12 @@ def predict_spin_system(molecule, *, n_conformers: int = 10, seed: int = 0xC0FFE
     amide_branches = amide_rotamer_branches(mol_h)
     groups = split_amide_rotamers(mol_h, groups, amide_branches)
     relations = map_alkene_relations(model)
+    conformers = embed_conformers(mol_h, n_conformers=int(n_conformers), seed=seed)
     shifts = predict_proton_shifts(model, pseudo_atoms=pseudo, relations=relations, solvent=solvent)
+    shifts = orient_ring_protons(mol_h, shifts, conformers)
     shifts = split_diastereotopic(mol_h, shifts, groups)
     shifts = split_amide_rotamer_shifts(mol_h, shifts, amide_branches)
     exchangeable = frozenset(h for h, est in shifts.items() if est.exchangeable)
-    conformers = embed_conformers(mol_h, n_conformers=int(n_conformers), seed=seed)
     j_atom, sd_atom = predict_couplings(model, conformers, relations, exchangeable=exchangeable,
                                         pseudo_atoms=pseudo)
     groups = _split_by_partners(mol_h, groups, _rotor_averaged(mol_h, groups, j_atom))

@@ -27,6 +27,7 @@ from predictors.shifts.diastereotopic import (
 )
 from predictors.shifts.exchangeable import _aldehyde_shift, _alkyne_shift, _exchangeable_shift
 from predictors.shifts.heteroaromatic import assign_ring_positions
+from predictors.shifts.orientation import orient_ring_protons
 from predictors.shifts.sp3 import _sp3_shift
 from predictors.shifts.substituents import _double_partner, classify_substituent, prepare_model_molecule
 from predictors.shifts.tables import ShiftEstimate, _unknown_shift, load_increment_table
@@ -42,6 +43,7 @@ __all__ = [
     "DIASTEREOTOPIC_FLAG",
     "split_amide_rotamer_shifts",
     "AMIDE_ROTAMER_FLAG",
+    "orient_ring_protons",
 ]
 
 

@@ -26,6 +26,9 @@ def _sp3_shift(mol, parent) -> ShiftEstimate:
     shift = _sp3_value("base", base_group, "shift_ppm")
     shift += _bm_increments(mol, parent, base_group, flags)
     shift += _ring_correction(mol, parent, label, flags)
+    if label == "CH" and sum(1 for n in heavy if n.GetSymbol() == "O") >= 2:
+        shift += _sp3_value("correction", "acetal_CH", "alpha_ppm")
+        flags.append("acetal CH: correction for two O on the carbon")
     return _with_sd(shift, label, "bm", flags)
 
 
