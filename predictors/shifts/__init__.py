@@ -1,13 +1,24 @@
 """1H chemical shifts from additive increment tables, each with a standard uncertainty.
 
-* vinyl H: Pascual-Meier-Simon additivity (``data/alkene_increments.csv``);
-* benzene H: substituent increments of Beeby et al. (``data/benzene_increments.csv``),
-  heteroaromatic H from base values of the parent ring;
-* sp3 H: Shoolery's rule as extended by Schaller et al. for CH2XY, otherwise the
-  alpha/beta/gamma increments of Beauchamp & Marquez (``data/sp3_increments.csv``), with alpha
-  increments by carbon type (from monosubstituted alkanes) and sub-additive sums on crowded
-  carbons;
-* aldehyde, alkyne and exchangeable (OH, NH, SH) H from tabulated values.
+One module per job:
+
+* :mod:`~predictors.shifts.vinyl`: Pascual-Meier-Simon additivity (``data/alkene_increments.csv``);
+* :mod:`~predictors.shifts.benzenoid`: aromatic CH, substituent increments of Beeby et al.
+  (``data/benzene_increments.csv``) on the base value of the ring;
+* :mod:`~predictors.shifts.heteroaromatic`: which tabulated ring system and position an aromatic
+  CH is in (``data/aromatic_rings.csv``), N-substituent increments of azoles;
+* :mod:`~predictors.shifts.fused`: the peri effect across a ring fusion
+  (``data/ring_increments.csv``);
+* :mod:`~predictors.shifts.sp3`: Shoolery's rule as extended by Schaller et al. for CH2XY,
+  otherwise the alpha/beta/gamma increments of Beauchamp & Marquez (``data/sp3_increments.csv``)
+  with carbon-type alpha increments, sub-additive sums, and ring, polyol and acetal corrections;
+* :mod:`~predictors.shifts.orientation`: equatorial vs axial ring CH-O from the conformers;
+* :mod:`~predictors.shifts.diastereotopic`: the two H of a diastereotopic CH2 and the two
+  N-substituents of a tertiary amide pulled apart;
+* :mod:`~predictors.shifts.exchangeable`: aldehyde, alkyne and exchangeable (OH, NH, SH) H
+  from tabulated values, the latter by NMR solvent;
+* :mod:`~predictors.shifts.substituents` and :mod:`~predictors.shifts.tables`: the substituent
+  classes and table access shared by all.
 
 Every estimate carries ``sd_ppm``; a substituent the tables do not know is
 replaced by the nearest class, flagged, and its uncertainty widened.
