@@ -24,7 +24,6 @@ from predictors.equivalence import (
 from predictors.errors import InputError
 from predictors.molecules import parse_molecule
 from predictors.shifts import (
-    orient_ring_protons,
     predict_proton_shifts,
     prepare_model_molecule,
     split_amide_rotamer_shifts,
@@ -90,7 +89,6 @@ def predict_spin_system(molecule, *, n_conformers: int = 10, seed: int = 0xC0FFE
     relations = map_alkene_relations(model)
     conformers = embed_conformers(mol_h, n_conformers=int(n_conformers), seed=seed)
     shifts = predict_proton_shifts(model, pseudo_atoms=pseudo, relations=relations, solvent=solvent)
-    shifts = orient_ring_protons(mol_h, shifts, conformers)
     shifts = split_diastereotopic(mol_h, shifts, groups)
     shifts = split_amide_rotamer_shifts(mol_h, shifts, amide_branches)
     exchangeable = frozenset(h for h, est in shifts.items() if est.exchangeable)

@@ -12,7 +12,6 @@ One module per job:
 * :mod:`~predictors.shifts.sp3`: Shoolery's rule as extended by Schaller et al. for CH2XY,
   otherwise the alpha/beta/gamma increments of Beauchamp & Marquez (``data/sp3_increments.csv``)
   with carbon-type alpha increments, sub-additive sums, and ring, polyol and acetal corrections;
-* :mod:`~predictors.shifts.orientation`: equatorial vs axial ring CH-O from the conformers;
 * :mod:`~predictors.shifts.diastereotopic`: the two H of a diastereotopic CH2 and the two
   N-substituents of a tertiary amide pulled apart;
 * :mod:`~predictors.shifts.exchangeable`: aldehyde, alkyne and exchangeable (OH, NH, SH) H
@@ -38,7 +37,6 @@ from predictors.shifts.diastereotopic import (
 )
 from predictors.shifts.exchangeable import _aldehyde_shift, _alkyne_shift, _exchangeable_shift
 from predictors.shifts.heteroaromatic import assign_ring_positions
-from predictors.shifts.orientation import orient_ring_protons
 from predictors.shifts.sp3 import _sp3_shift
 from predictors.shifts.substituents import _double_partner, classify_substituent, prepare_model_molecule
 from predictors.shifts.tables import ShiftEstimate, _unknown_shift, load_increment_table
@@ -54,7 +52,6 @@ __all__ = [
     "DIASTEREOTOPIC_FLAG",
     "split_amide_rotamer_shifts",
     "AMIDE_ROTAMER_FLAG",
-    "orient_ring_protons",
 ]
 
 

@@ -2,10 +2,9 @@
 acetals) used to calibrate and test the ring, polyol and acetal corrections of the sp3 model.
 
 Each entry is a SMILES with atom-map numbers on the carbons whose protons are compared, and
-``{map: shift_ppm}`` (mean of the protons on that carbon). :func:`predicted_vs_observed` (no
-conformers) gives the axial-H value of a six-membered ring CH-O; the equatorial anomeric H of the
-alpha-glucopyranosides (``EQUATORIAL``) are left out of the fit and tested through
-``predict_spin_system`` (conformers) instead. ``role`` holds the compound's half of the
+``{map: shift_ppm}`` (mean of the protons on that carbon). The model does not tell axial from
+equatorial ring CH-O (the anomeric H of alpha- and beta-glucopyranosides, about 0.5 ppm apart):
+both anomers are in the fit, which lands between them. ``role`` holds the compound's half of the
 shift-reference split (``benchmarks.shift_split.half_of``): the ``correction`` constants of
 ``predictors/data/sp3_increments.csv`` were fitted on the ``"fitting"`` entries only (least
 squares, the six constants together); the ``"held-out"`` entries test them. Values marked
@@ -19,9 +18,6 @@ from tests.predictors.sp3_reference import Sp3Reference
 CDCL3 = "literature value, CDCl3 (from memory)"
 GOTTLIEB = "Gottlieb, Kotlyar, Nudelman, J. Org. Chem. 1997, 62, 7512, Table 1, CDCl3 (from memory)"
 D2O = "literature value, D2O (from memory)"
-
-#: Carbons whose H is equatorial in the chair (left out of the axial-H fit).
-EQUATORIAL = frozenset({"methyl alpha-D-glucopyranoside C1", "alpha-D-glucopyranose C1"})
 
 #: role field of Sp3Reference holds the half ("fitting" / "held-out").
 POLAR_SP3 = (
