@@ -8,6 +8,7 @@ candidate's spin system, fits the mixture and decides the verdict. The result is
 
 from __future__ import annotations
 
+import functools
 import inspect
 from collections.abc import Sequence
 from typing import TYPE_CHECKING
@@ -120,23 +121,24 @@ def _user_candidates(smiles_list: Sequence[str]) -> tuple[Candidate, ...]:
 
 
 def predict_systems(
-    candidates: Sequence[Candidate], *, n_conformers: int = 6, n_workers: int = 2
+    candidates: Sequence[Candidate], *, n_conformers: int = 6, n_workers: int = 2, solvent: str | None = None
 ) -> tuple[SpinSystem, ...]:
     """Predicted spin system of every candidate (same order), on up to ``n_workers`` forked
-    processes (the result does not depend on it)."""
+    processes (the result does not depend on it); ``solvent`` is the NMR solvent (shifts of
+    exchangeable H)."""
     import predictors.prediction  # noqa: F401  (imported once here, before the workers fork)
     from confirm._parallel import TaskPool
 
     with TaskPool(max_workers=n_workers) as pool:
-        return tuple(pool.map(_predict_task, [(c.smiles, n_conformers) for c in candidates]))
+        return tuple(pool.map(_predict_task, [(c.smiles, n_conformers, solvent) for c in candidates]))
 
 
 def _predict_task(_shared, task) -> SpinSystem:
     """One candidate's spin system (a task for ``TaskPool.map``)."""
     from predictors.prediction import predict_spin_system
 
-    smiles, n_conformers = task
-    return predict_spin_system(smiles, n_conformers=n_conformers)
+    smiles, n_conformers, solvent = task
+    return predict_spin_system(smiles, n_conformers=n_conformers, solvent=solvent)
 
 
 def analyze_spectrum(
@@ -195,8 +197,8 @@ def analyze_spectrum(
 
     if systems is None:
         check_budget(budget, "predictions")
-        systems = predict_systems(candidates)
-    systems, decoupling = _decouple(systems, asked, spectrum)
+        systems = predict_systems(candidates, solvent=spectrum.solvent)
+    systems, decoupling = _decouple(tuple(systems), asked, spectrum)
     check_budget(budget, "fit")
     fit = fit_mixture(spectrum, systems, candidates, noise_sd=noise_sd, options=options,
                       **_budget_keyword(fit_mixture, budget))
@@ -370,7 +372,8 @@ def analyze_path(
 
     # the predictions run in a forked process while this one processes the spectrum and loads the
     # fit's modules (SciPy's optimizers: about a second of start-up between them)
-    with Beside(predict_systems, cands) as predictions:
+    sample_solvent = nmr_solvent or getattr(raw.parameters, "solvent", None)
+    with Beside(functools.partial(predict_systems, solvent=sample_solvent), cands) as predictions:
         from confirm.processing import ProcessingOptions, process_measurement
 
         check_budget(budget, "processing")

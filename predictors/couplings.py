@@ -223,7 +223,7 @@ def garbisch_allylic(phi_deg) -> np.ndarray:
 
 # -------------------------------------------------------------------------------- driver
 def predict_couplings(model: Chem.Mol, conformers: ConformerSet, relations: dict[int, AlkeneRelation],
-                      *, exchangeable=frozenset()) -> tuple[np.ndarray, np.ndarray]:
+                      *, exchangeable=frozenset(), pseudo_atoms=frozenset()) -> tuple[np.ndarray, np.ndarray]:
     """Coupling constants between every pair of H atoms.
 
     Parameters
@@ -236,6 +236,10 @@ def predict_couplings(model: Chem.Mol, conformers: ConformerSet, relations: dict
         Cis/trans relations (:func:`~predictors.equivalence.map_alkene_relations`).
     exchangeable : set of int, keyword-only
         H atoms in fast exchange (OH, NH, SH): no resolved couplings.
+    pseudo_atoms : set of int, keyword-only
+        Atoms of de-aromatised 2-pyridone / 2-pyranone / coumarin-type rings
+        (:func:`~predictors.shifts.prepare_model_molecule`): their ring 3J come from the
+        ``pseudo_*`` rows of ``data/couplings.csv``, not from open-chain alkene rules.
 
     Returns
     -------
@@ -252,16 +256,20 @@ def predict_couplings(model: Chem.Mol, conformers: ConformerSet, relations: dict
             if not 2 <= dist[h1, h2] <= 5:
                 continue
             path = list(Chem.GetShortestPath(model, h1, h2))
-            value, err = _pair_coupling(model, path, conformers, relations)
+            value, err = _pair_coupling(model, path, conformers, relations, pseudo_atoms)
             j[h1, h2] = j[h2, h1] = value
             sd[h1, h2] = sd[h2, h1] = err
     return j, sd
 
 
-def _pair_coupling(mol, path, conformers, relations) -> tuple[float, float]:
+def _pair_coupling(mol, path, conformers, relations, pseudo_atoms=frozenset()) -> tuple[float, float]:
     heavy = [mol.GetAtomWithIdx(i) for i in path[1:-1]]
     if len(heavy) == 1:
         return _geminal(mol, path, heavy[0], relations)
+    if len(heavy) == 2 and all(x.GetIdx() in pseudo_atoms for x in heavy):
+        pseudo = _pseudo_ring_vicinal(mol, heavy, pseudo_atoms)
+        if pseudo is not None:
+            return pseudo
     if len(heavy) == 2:
         return _vicinal(mol, path, heavy, conformers, relations)
     if len(heavy) == 3:
@@ -327,6 +335,28 @@ def _vicinal(mol, path, heavy, conformers, relations) -> tuple[float, float]:
     if a.GetIdx() in relations and b.GetIdx() in relations:
         return _c("diene_single"), _sd("diene_single")
     return 0.0, 0.0
+
+
+def _pseudo_ring_vicinal(mol, heavy, pseudo_atoms) -> tuple[float, float] | None:
+    """3J(H,H) across a ring bond of a de-aromatised pyridone/pyranone-type ring, or None.
+
+    In 2-pyridone the Kekule C3=C4 couples like a ring cis double bond (9.3 Hz), the formal
+    single bond C4-C5 gives 6.7 Hz (not the 10.5 Hz of an open s-trans diene), and the C5=C6
+    bond next to the ring N 6.6 Hz (5.1 Hz next to the ring O of 2-pyranone).
+    """
+    a, b = heavy
+    if a.GetSymbol() != "C" or b.GetSymbol() != "C":
+        return None
+    ring = _shared_ring(mol, a.GetIdx(), b.GetIdx())
+    if ring is None or len(ring) != 6 or not all(i in pseudo_atoms for i in ring):
+        return None
+    bond = mol.GetBondBetweenAtoms(a.GetIdx(), b.GetIdx())
+    if bond.GetBondType() != Chem.BondType.DOUBLE:
+        return _c("pseudo_single"), _sd("pseudo_single")
+    hetero = {n.GetSymbol() for x in heavy for n in x.GetNeighbors()
+              if n.GetIdx() in ring and n.GetSymbol() != "C"}
+    name = "pseudo_cis_O" if "O" in hetero else "pseudo_cis_N" if hetero else "pseudo_cis"
+    return _c(name), _sd(name)
 
 
 def _aromatic_ortho(mol, a, b) -> tuple[float, float]:

@@ -27,6 +27,8 @@ __all__ = [
     "map_alkene_relations",
     "find_equivalent_protons",
     "check_magnetic_equivalence",
+    "amide_rotamer_branches",
+    "split_amide_rotamers",
 ]
 
 _DOUBLE = Chem.BondType.DOUBLE
@@ -250,3 +252,72 @@ def check_magnetic_equivalence(groups, j_hz_by_atom: np.ndarray, *, tol_hz: floa
         block = j[np.ix_(members, outside)]
         flags.append(bool(np.all(np.ptp(block, axis=0) <= tol_hz)))
     return tuple(flags)
+
+
+def amide_rotamer_branches(mol_h: Chem.Mol) -> tuple[tuple[frozenset, frozenset], ...]:
+    """The two N-substituent branches of every tertiary amide whose substituents are alike.
+
+    Rotation about the amide C-N bond is slow on the NMR time scale at room temperature, so the
+    two N-alkyl groups of N,N-dimethylacetamide (3.02 and 2.94 ppm, Gottlieb, Kotlyar, Nudelman,
+    J. Org. Chem. 1997, 62, 7512, Table 1; from memory) are two sites although they are
+    topologically equivalent. Only acyclic branches count (a ring through N is already fixed).
+
+    Returns
+    -------
+    tuple of (frozenset, frozenset)
+        Per amide N, the H atoms of its two substituent branches.
+    """
+    out = []
+    for atom in mol_h.GetAtoms():
+        if atom.GetSymbol() != "N" or atom.GetIsAromatic() or atom.GetDegree() != 3:
+            continue
+        heavy = [n for n in atom.GetNeighbors() if n.GetAtomicNum() > 1]
+        acyl = [n for n in heavy if n.GetSymbol() == "C" and any(
+            b.GetBondType() == _DOUBLE and b.GetOtherAtom(n).GetSymbol() in ("O", "S") for b in n.GetBonds())]
+        if len(heavy) != 3 or len(acyl) != 1:
+            continue
+        subs = [n for n in heavy if n.GetIdx() != acyl[0].GetIdx()]
+        if any(mol_h.GetBondBetweenAtoms(atom.GetIdx(), n.GetIdx()).IsInRing() for n in subs):
+            continue
+        branches = [_branch(mol_h, n.GetIdx(), atom.GetIdx()) for n in subs]
+        if branches[0] & branches[1]:
+            continue
+        hs = [frozenset(i for i in b if mol_h.GetAtomWithIdx(i).GetAtomicNum() == 1) for b in branches]
+        out.append((hs[0], hs[1]))
+    return tuple(out)
+
+
+def _branch(mol_h, start: int, block: int) -> set[int]:
+    seen, stack = {start}, [start]
+    while stack:
+        for nbr in mol_h.GetAtomWithIdx(stack.pop()).GetNeighbors():
+            if nbr.GetIdx() != block and nbr.GetIdx() not in seen:
+                seen.add(nbr.GetIdx())
+                stack.append(nbr.GetIdx())
+    return seen
+
+
+def split_amide_rotamers(mol_h: Chem.Mol, groups, branches) -> tuple:
+    """``groups`` with every group that spans both branches of an amide N split in two.
+
+    Parameters
+    ----------
+    mol_h : rdkit.Chem.Mol
+    groups : sequence of tuple of int
+        From :func:`find_equivalent_protons`.
+    branches : sequence of (frozenset, frozenset)
+        From :func:`amide_rotamer_branches`.
+    """
+    out = [tuple(g) for g in groups]
+    for first, second in branches:
+        split = []
+        for group in out:
+            a = tuple(h for h in group if h in first)
+            b = tuple(h for h in group if h in second)
+            if a and b:
+                rest = tuple(h for h in group if h not in first and h not in second)
+                split += [p for p in (a, b, rest) if p]
+            else:
+                split.append(group)
+        out = split
+    return tuple(sorted(out, key=lambda g: (_parent(mol_h, g[0]), g[0])))

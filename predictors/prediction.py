@@ -15,15 +15,27 @@ from rdkit import Chem
 
 from predictors.core import ProtonSite, SpinSystem
 from predictors.couplings import embed_conformers, predict_couplings
-from predictors.equivalence import check_magnetic_equivalence, find_equivalent_protons, map_alkene_relations
+from predictors.equivalence import (
+    amide_rotamer_branches,
+    check_magnetic_equivalence,
+    find_equivalent_protons,
+    map_alkene_relations,
+    split_amide_rotamers,
+)
 from predictors.errors import InputError
 from predictors.hetero_couplings import predict_x_couplings, site_x_couplings
 from predictors.molecules import parse_molecule
 from predictors.shift_uncertainty import calibrated_estimates
-from predictors.shifts import predict_proton_shifts, prepare_model_molecule
+from predictors.shifts import (
+    ShiftEstimate,
+    predict_proton_shifts,
+    prepare_model_molecule,
+    split_amide_rotamer_shifts,
+    split_diastereotopic,
+)
 
-__all__ = ["predict_spin_system", "first_order_multiplicity", "second_order_pairs", "MULTIPLET_NAMES",
-           "FIRST_ORDER_RATIO"]
+__all__ = ["predict_spin_system", "proton_shift_estimates", "first_order_multiplicity", "second_order_pairs",
+           "MULTIPLET_NAMES", "FIRST_ORDER_RATIO"]
 
 #: First-order multiplet letters by number of equally coupled neighbours.
 MULTIPLET_NAMES = {1: "d", 2: "t", 3: "q", 4: "quint", 5: "sext", 6: "sept"}
@@ -37,7 +49,8 @@ _MAX_DISTINCT = 3
 FIRST_ORDER_RATIO = 10.0
 
 
-def predict_spin_system(molecule, *, n_conformers: int = 10, seed: int = 0xC0FFEE) -> SpinSystem:
+def predict_spin_system(molecule, *, n_conformers: int = 10, seed: int = 0xC0FFEE,
+                        solvent: str | None = None) -> SpinSystem:
     """Predict shifts and couplings for every proton site of a molecule.
 
     Parameters
@@ -48,6 +61,9 @@ def predict_spin_system(molecule, *, n_conformers: int = 10, seed: int = 0xC0FFE
         Conformers embedded for averaging vicinal and allylic couplings (1-50).
     seed : int, keyword-only
         Random seed of the conformer embedding.
+    solvent : str, keyword-only
+        NMR solvent of the sample (``"CDCl3"``, ``"DMSO-d6"``, ``"D2O"``, ``"CD3OD"``); sets the
+        shifts of exchangeable H only. None: CDCl3 values.
 
     Returns
     -------
@@ -73,12 +89,14 @@ def predict_spin_system(molecule, *, n_conformers: int = 10, seed: int = 0xC0FFE
     mol_h = Chem.AddHs(Chem.MolFromSmiles(smiles))
     model, pseudo = prepare_model_molecule(mol_h)
     groups = find_equivalent_protons(mol_h, map_alkene_relations(mol_h))
+    amide_branches = amide_rotamer_branches(mol_h)
+    groups = split_amide_rotamers(mol_h, groups, amide_branches)
     relations = map_alkene_relations(model)
-    raw = predict_proton_shifts(model, pseudo_atoms=pseudo, relations=relations)
-    shifts = calibrated_estimates(model, raw)
-    exchangeable = frozenset(h for h, est in shifts.items() if est.exchangeable)
     conformers = embed_conformers(mol_h, n_conformers=int(n_conformers), seed=seed)
-    j_atom, sd_atom = predict_couplings(model, conformers, relations, exchangeable=exchangeable)
+    shifts = _shift_estimates(mol_h, model, pseudo, relations, groups, amide_branches, solvent=solvent)
+    exchangeable = frozenset(h for h, est in shifts.items() if est.exchangeable)
+    j_atom, sd_atom = predict_couplings(model, conformers, relations, exchangeable=exchangeable,
+                                        pseudo_atoms=pseudo)
     groups = _split_by_partners(mol_h, groups, _rotor_averaged(mol_h, groups, j_atom))
     averaged = _rotor_averaged(mol_h, groups, j_atom)
     magnetic = check_magnetic_equivalence(groups, averaged, tol_hz=0.5)
@@ -96,6 +114,35 @@ def predict_spin_system(molecule, *, n_conformers: int = 10, seed: int = 0xC0FFE
     x_couplings = site_x_couplings(groups, predict_x_couplings(mol_h, conformers, exchangeable=exchangeable))
     return SpinSystem(smiles=smiles, sites=sites, j_hz=j_site, j_sd_hz=sd_site, proton_j_hz=proton_j,
                       split_sites=split, x_couplings=x_couplings)
+
+
+def proton_shift_estimates(mol_h: Chem.Mol, *, solvent: str | None = None,
+                           table=None) -> dict[int, ShiftEstimate]:
+    """Shift and calibrated sd of every H of ``mol_h``, exactly as :func:`predict_spin_system` uses them.
+
+    Parameters
+    ----------
+    mol_h : rdkit.Chem.Mol
+        Molecule with explicit H; the keys of the result are its atom indices.
+    solvent : str, keyword-only, optional
+        NMR solvent (exchangeable H only); None: CDCl3 values.
+    table : dict, keyword-only, optional
+        Class sds (:func:`predictors.shift_uncertainty.load_sd_table`); the benchmark that builds
+        the packaged table passes a provisional one.
+    """
+    model, pseudo = prepare_model_molecule(mol_h)
+    groups = find_equivalent_protons(mol_h, map_alkene_relations(mol_h))
+    amide_branches = amide_rotamer_branches(mol_h)
+    groups = split_amide_rotamers(mol_h, groups, amide_branches)
+    return _shift_estimates(mol_h, model, pseudo, map_alkene_relations(model), groups, amide_branches,
+                            solvent=solvent, table=table)
+
+
+def _shift_estimates(mol_h, model, pseudo, relations, groups, amide_branches, *, solvent, table=None):
+    shifts = predict_proton_shifts(model, pseudo_atoms=pseudo, relations=relations, solvent=solvent)
+    shifts = split_diastereotopic(mol_h, shifts, groups)
+    shifts = split_amide_rotamer_shifts(mol_h, shifts, amide_branches)
+    return calibrated_estimates(model, shifts, table=table)
 
 
 def _make_site(group, shifts, magnetic: bool) -> ProtonSite:

@@ -215,11 +215,25 @@ def test_equivalent_sites_share_the_group_derivatives():
 # identities on whole molecules (every cluster treatment)
 
 
-def _hexanol():
+def _hexanol(*, merge_diastereotopic: bool = False):
     from predictors.prediction import predict_spin_system
+    from predictors.shifts import DIASTEREOTOPIC_FLAG
 
     system = predict_spin_system("CCCCC(C)O", n_conformers=4)
-    return np.asarray(system.shifts_ppm), np.asarray(system.j_hz), np.asarray(system.n_protons)
+    shifts = np.asarray(system.shifts_ppm, dtype=float)
+    if merge_diastereotopic:
+        # the two sites of each diastereotopic CH2 back at their common mean shift
+        from rdkit import Chem
+
+        mol_h = Chem.AddHs(Chem.MolFromSmiles(system.smiles))
+        carbon_sites = {}
+        for k, site in enumerate(system.sites):
+            if DIASTEREOTOPIC_FLAG in site.flags:
+                carbon = mol_h.GetAtomWithIdx(site.atoms[0]).GetNeighbors()[0].GetIdx()
+                carbon_sites.setdefault(carbon, []).append(k)
+        for ks in carbon_sites.values():
+            shifts[ks] = shifts[ks].mean()
+    return shifts, np.asarray(system.j_hz), np.asarray(system.n_protons)
 
 
 @pytest.mark.parametrize("field", [80.0, 400.0])
@@ -261,8 +275,10 @@ def _match(base_hz, base_int, other):
 def test_split_lines_of_a_whole_molecule_follow_finite_differences():
     # 2-hexanol at 80 MHz: the large cluster is split first order by the cut methyl. Lines are
     # matched by position; the derivatives leave out the change of the split with the
-    # cluster's own couplings (first order in the cut), so they agree to ~1e-3 Hz/Hz on average
-    shifts, j, n = _hexanol()
+    # cluster's own couplings (first order in the cut), so they agree to ~1e-3 Hz/Hz on average.
+    # The diastereotopic CH2 protons are put back at one shift: 0.1 ppm (8 Hz) apart with 2J -13 Hz
+    # they are so strongly coupled that the neglected term reaches 0.14 Hz/Hz on single lines
+    shifts, j, n = _hexanol(merge_diastereotopic=True)
     field = 80.0
     pairs = [p for p in _pairs_of(j) if p in {(0, 1), (5, 7), (7, 8)}]
     res = simulate_with_derivatives(shifts, j, n, field_mhz=field, pairs=pairs)
