@@ -57,3 +57,29 @@ def test_benchmark_prints_the_held_out_figures(tmp_path, capsys):
     assert {"aromatic", "vinyl", "sp3"} <= set(held_out["by_type"])
     assert 0 < held_out["pooled"]["coverage_2sd_pct"] <= 100
     assert all(c["half"] in ("fitting", "held-out") for c in payload["comparisons"])
+
+
+def test_parent_rings_count_in_neither_half():
+    from benchmarks.shift_accuracy_real import benchmark_half
+
+    # the parents' shifts are the base values of predictors/data/aromatic_rings.csv
+    for parent in ("c1ccncc1", "c1ccc2ccccc2c1", "c1cscn1", "c1ccc2[nH]ccc2c1"):
+        assert benchmark_half(parent) == "defining"
+    for substituted in ("Cc1ccncc1", "OC(=O)c1cccc2ccccc12", "CCOC(=O)C=C"):
+        assert benchmark_half(substituted) == half_of(substituted)
+
+
+def test_proton_shift_estimates_match_the_spin_system_sites():
+    from predictors.prediction import predict_spin_system, proton_shift_estimates
+
+    # a chiral alcohol: its CH2 protons are diastereotopic (split) and its OH depends on the solvent
+    smiles = "C[C@@H](O)Cc1ccccc1"
+    system = predict_spin_system(smiles, solvent="DMSO-d6")
+    mol_h = Chem.AddHs(Chem.MolFromSmiles(system.smiles))
+    estimates = proton_shift_estimates(mol_h, solvent="DMSO-d6")
+    for site in system.sites:
+        values = [estimates[h].shift_ppm for h in site.atoms]
+        assert abs(site.shift_ppm - sum(values) / len(values)) < 1e-3
+        assert abs(site.shift_sd_ppm - max(estimates[h].sd_ppm for h in site.atoms)) < 1e-9
+    ch2 = [site for site in system.sites if site.label == "CH2"]
+    assert len(ch2) == 2 and abs(ch2[0].shift_ppm - ch2[1].shift_ppm) > 0.01
