@@ -131,23 +131,28 @@ def _plain(mapped: str) -> tuple[str, dict[int, int]]:
 
 
 def sp3_entries() -> list[ShiftEntry]:
-    """The ``test`` and ``calibration`` entries of ``tests/predictors/sp3_reference.py``."""
+    """The ``test`` and ``calibration`` entries of ``tests/predictors/sp3_reference.py`` and the
+    ring and polar compounds of ``tests/predictors/polar_reference.py`` (D2O where their source
+    says so)."""
+    from tests.predictors.polar_reference import POLAR_SP3
     from tests.predictors.sp3_reference import REFERENCE_SP3
 
     out = []
-    for ref in REFERENCE_SP3:
-        if ref.role == "defining":
-            continue
-        smiles, where = _plain(ref.mapped_smiles)
-        out.append(
-            entry(
-                f"sp3:{ref.name}",
-                smiles,
-                "CDCl3",
-                {where[m]: v for m, v in ref.shifts.items()},
-                f"{ref.source} (tests/predictors/sp3_reference.py)",
+    for prefix, module, refs in (("sp3", "sp3_reference", REFERENCE_SP3),
+                                 ("polar", "polar_reference", POLAR_SP3)):
+        for ref in refs:
+            if ref.role == "defining":
+                continue
+            smiles, where = _plain(ref.mapped_smiles)
+            out.append(
+                entry(
+                    f"{prefix}:{ref.name}",
+                    smiles,
+                    "D2O" if "D2O" in ref.source else "CDCl3",
+                    {where[m]: v for m, v in ref.shifts.items()},
+                    f"{ref.source} (tests/predictors/{module}.py)",
+                )
             )
-        )
     return out
 
 
