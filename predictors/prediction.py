@@ -10,6 +10,8 @@ class (:func:`predictors.shift_uncertainty.calibrated_estimates`).
 
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 from rdkit import Chem
 
@@ -156,12 +158,12 @@ def _make_site(group, shifts, magnetic: bool) -> ProtonSite:
         exchangeable=estimates[0].exchangeable,
         magnetically_equivalent=bool(magnetic),
         flags=flags,
+        search_sd_ppm=float(max(e.sd_ppm if e.search_sd_ppm is None else e.search_sd_ppm for e in estimates)),
     )
 
 
 def _add_flag(site: ProtonSite, flag: str) -> ProtonSite:
-    return ProtonSite(site.atoms, site.shift_ppm, site.shift_sd_ppm, site.label, site.exchangeable,
-                      site.magnetically_equivalent, site.flags + (flag,))
+    return dataclasses.replace(site, flags=site.flags + (flag,))
 
 
 def _site_matrices(groups, j_atom, sd_atom) -> tuple[np.ndarray, np.ndarray]:

@@ -26,6 +26,7 @@ from predictors.shift_uncertainty import (
     environment_classes,
     load_sd_table,
 )
+from predictors.shifts import load_increment_table
 
 
 def _class_of(smiles: str, smarts: str) -> str:
@@ -102,7 +103,8 @@ def test_a_fallback_widens_the_sd_in_quadrature():
         n = max(sum("taken from" in f for f in site.flags), 1)
         assert site.shift_sd_ppm >= math.hypot(vinyl, table[FALLBACK_INCREMENT].sd_ppm * math.sqrt(n)) - 1e-9
     # a ring the heteroaromatic tables do not know takes the generic value and its wider sd
-    generic = next(s for s in predict_spin_system("c1cnccn1", n_conformers=1).sites)
+    # (1,3,5-triazine: no base value in data/aromatic_rings.csv)
+    generic = next(s for s in predict_spin_system("c1ncncn1", n_conformers=1).sites)
     assert any("generic" in f for f in generic.flags)
     assert generic.shift_sd_ppm == pytest.approx(
         math.hypot(table["heteroaryl 6-ring"].sd_ppm, table[FALLBACK_GENERIC].sd_ppm))
@@ -125,3 +127,22 @@ def test_write_table_reproduces_the_committed_table(real_spectra: Path):
     assert text == TABLE_PATH.read_text(encoding="utf-8"), (
         "predictors/data/shift_sd.csv is stale: rebuild it with "
         "python -m benchmarks.shift_accuracy_real --write-table")
+
+
+def test_the_fit_searches_with_the_method_sd_and_reports_the_calibrated_one():
+    from predictors.core import ProtonSite
+    from predictors.errors import InputError
+
+    table = load_sd_table()
+    system = predict_spin_system("CCC=C", n_conformers=1)
+    vinyl = [s for s in system.sites if s.label == "vinyl"]
+    # reported: the calibrated class sd; searched: the vinyl method sd of data/sp3_increments.csv
+    method = next(float(r["sd_ppm"]) for r in load_increment_table("sp3_increments")
+                  if r["table"] == "method_sd" and r["group"] == "vinyl")
+    for site in vinyl:
+        assert site.shift_sd_ppm == pytest.approx(table["vinyl"].sd_ppm)
+        assert site.search_sd_ppm == pytest.approx(method)
+        assert site.fit_sd_ppm == pytest.approx(method)
+    assert ProtonSite((1,), 5.0, 0.2).fit_sd_ppm == 0.2
+    with pytest.raises(InputError, match="search_sd_ppm"):
+        ProtonSite((1,), 5.0, 0.2, search_sd_ppm=0.0)

@@ -228,7 +228,10 @@ def test_exchangeable_h_by_solvent():
           for solvent in (None, "CDCl3", "DMSO-d6", "D2O")}
     assert oh[None].shift_ppm == oh["CDCl3"].shift_ppm
     assert oh["DMSO-d6"].shift_ppm == pytest.approx(4.63, abs=0.3)
-    assert oh["DMSO-d6"].shift_sd_ppm < oh["CDCl3"].shift_sd_ppm
+    # the solvent's own range is narrower in DMSO-d6 (the fit's search sd); the reported sd is the
+    # calibrated one of the exchangeable class, pooled over solvents (data/shift_sd.csv)
+    assert oh["DMSO-d6"].search_sd_ppm < oh["CDCl3"].search_sd_ppm
+    assert oh["DMSO-d6"].shift_sd_ppm >= oh["DMSO-d6"].search_sd_ppm
     assert oh["D2O"].exchangeable and any(f.startswith("exchanged") for f in oh["D2O"].flags)
     amide = predict_spin_system("CC(=O)NC", n_conformers=1, solvent="DMSO-d6")
     nh = next(s for s in amide.sites if s.label == "NH")
