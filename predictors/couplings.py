@@ -69,13 +69,19 @@ class ConformerSet:
 
 
 @functools.cache
-def _constants() -> dict[str, tuple[float, float]]:
+def coupling_constants(table: str = "couplings") -> dict[str, tuple[float, float]]:
+    """``name -> (value, sd_hz)`` of a packaged coupling table (``predictors/data/<table>.csv``,
+    columns name, value, sd_hz; an empty cell is NaN)."""
     out = {}
-    for row in load_increment_table("couplings"):
+    for row in load_increment_table(table):
         value = float(row["value"]) if row["value"] else math.nan
         sd = float(row["sd_hz"]) if row["sd_hz"] else math.nan
         out[row["name"]] = (value, sd)
     return out
+
+
+def _constants() -> dict[str, tuple[float, float]]:
+    return coupling_constants("couplings")
 
 
 def _c(name: str) -> float:

@@ -23,17 +23,14 @@ left out. Not modelled: 1J(P,H) of H on P, vinyl and allylic couplings to P, 4J(
 
 from __future__ import annotations
 
-import functools
-import math
 from collections.abc import Iterable, Sequence
 
 import numpy as np
 from rdkit import Chem
 
 from predictors.core import X_NUCLEI
-from predictors.couplings import ConformerSet, _dihedral_deg
+from predictors.couplings import ConformerSet, _dihedral_deg, coupling_constants
 from predictors.errors import InputError
-from predictors.shifts import load_increment_table
 
 __all__ = ["X_NUCLEI", "predict_x_couplings", "site_x_couplings", "phosphorus_class", "without_x_couplings",
            "check_nuclei"]
@@ -46,18 +43,8 @@ _GROUP_TOL_HZ = 0.25
 _TURNS = (0.0, 120.0, 240.0)
 
 
-@functools.cache
-def _constants() -> dict[str, tuple[float, float]]:
-    out = {}
-    for row in load_increment_table("hetero_couplings"):
-        value = float(row["value"]) if row["value"] else math.nan
-        sd = float(row["sd_hz"]) if row["sd_hz"] else math.nan
-        out[row["name"]] = (value, sd)
-    return out
-
-
 def _c(name: str) -> float:
-    return _constants()[name][0]
+    return coupling_constants("hetero_couplings")[name][0]
 
 
 # ------------------------------------------------------------------------------ classes
