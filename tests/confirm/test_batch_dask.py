@@ -15,7 +15,6 @@ import io
 import json
 import os
 import signal
-import subprocess
 import sys
 import threading
 import time
@@ -28,7 +27,7 @@ from confirm.batch.lock import LOCK_NAME
 from confirm.qc import read_spec
 from predictors.errors import InputError
 from tests.confirm.test_batch import CANDIDATES, SPEC_TEXT, _write_spectra, nnls_analyze
-from tests.confirm.test_batch_state import SLOW_BATCH
+from tests.confirm.test_batch_state import interrupt_slow_batch
 
 PROJECT = Path(__file__).resolve().parents[2]
 _NO_DASK = "Dask is an optional extra (pip install '.[cluster]'); not installed here"
@@ -202,23 +201,9 @@ def test_ctrl_c_ends_the_local_cluster_at_once_and_writes_the_summary(tmp_path):
     pytest.importorskip("distributed", reason=_NO_DASK)
     items = _items(tmp_path / "spectra", 4)
     rows = ["spectrum,candidates"] + [f"{i.spectrum},{' '.join(CANDIDATES)}" for i in items]
-    (tmp_path / "m.csv").write_text("\n".join(rows) + "\n")
-    pids, out = tmp_path / "pids", tmp_path / "out"
-    pids.mkdir()
-    script = tmp_path / "run.py"
-    script.write_text(SLOW_BATCH.format(project=str(PROJECT), pids=str(pids),
-                                        manifest=str(tmp_path / "m.csv"), out=str(out),
-                                        options='"--scheduler", "local", '))
-    proc = subprocess.Popen([sys.executable, str(script)], stdout=subprocess.PIPE, stderr=subprocess.PIPE)
-    deadline = time.monotonic() + 90
-    while time.monotonic() < deadline and proc.poll() is None and not (
-            (out / "lot00" / "outcome.json").exists() and len(list(pids.iterdir())) >= 3):
-        time.sleep(0.1)
-    assert (out / "lot00" / "outcome.json").exists(), proc.stderr.read1().decode() if proc.poll() else ""
-    sent = time.monotonic()
-    proc.send_signal(signal.SIGINT)
-    stdout, stderr = proc.communicate(timeout=30)
-    assert time.monotonic() - sent < 3.0
+    seconds, proc, stdout, stderr, out, pids = interrupt_slow_batch(
+        tmp_path, rows, options='"--scheduler", "local", ', start_within_s=90.0)
+    assert seconds < 3.0
     assert proc.returncode == 130, stderr.decode()
     assert b"Traceback" not in stderr and b"internal error" not in stderr
     assert stdout.decode().splitlines()[-1].startswith("Interrupted: 1 of 4 items finished")

@@ -299,18 +299,22 @@ SLOW_BATCH = textwrap.dedent("""
 """)
 
 
-def test_ctrl_c_stops_the_workers_within_two_seconds_and_writes_the_summary(tmp_path):
-    _write_spectra(tmp_path / "spectra", 4)
-    rows = ["spectrum,candidates"] + [f"spectra/lot{k:02d}.jdx,{' '.join(CANDIDATES)}" for k in range(4)]
+def interrupt_slow_batch(tmp_path: Path, rows: list[str], *, options: str = "", start_within_s: float = 60.0):
+    """Run :data:`SLOW_BATCH` on the manifest ``rows`` in a subprocess and send it SIGINT once its
+    first item has finished and three items have started.
+
+    Returns (seconds from SIGINT to exit, the process (ended), stdout, stderr, --out folder, pids
+    folder).
+    """
     manifest = tmp_path / "m.csv"
     manifest.write_text("\n".join(rows) + "\n")
     pids, out = tmp_path / "pids", tmp_path / "out"
     pids.mkdir()
     script = tmp_path / "run.py"
     script.write_text(SLOW_BATCH.format(project=str(PROJECT), pids=str(pids), manifest=str(manifest),
-                                        out=str(out), options=""))
+                                        out=str(out), options=options))
     proc = subprocess.Popen([sys.executable, str(script)], stdout=subprocess.PIPE, stderr=subprocess.PIPE)
-    deadline = time.monotonic() + 60
+    deadline = time.monotonic() + start_within_s
     while time.monotonic() < deadline and proc.poll() is None and not (
             (out / "lot00" / "outcome.json").exists() and len(list(pids.iterdir())) >= 3):
         time.sleep(0.1)
@@ -318,7 +322,14 @@ def test_ctrl_c_stops_the_workers_within_two_seconds_and_writes_the_summary(tmp_
     sent = time.monotonic()
     proc.send_signal(signal.SIGINT)
     stdout, stderr = proc.communicate(timeout=30)
-    assert time.monotonic() - sent < 2.0 + 1.0  # two seconds for the workers, one for the interpreter
+    return time.monotonic() - sent, proc, stdout, stderr, out, pids
+
+
+def test_ctrl_c_stops_the_workers_within_two_seconds_and_writes_the_summary(tmp_path):
+    _write_spectra(tmp_path / "spectra", 4)
+    rows = ["spectrum,candidates"] + [f"spectra/lot{k:02d}.jdx,{' '.join(CANDIDATES)}" for k in range(4)]
+    seconds, proc, stdout, stderr, out, pids = interrupt_slow_batch(tmp_path, rows)
+    assert seconds < 2.0 + 1.0  # two seconds for the workers, one for the interpreter
     assert proc.returncode == 130, stderr.decode()
     assert b"Traceback" not in stderr and b"internal error" not in stderr
     assert stdout.decode().splitlines()[-1].startswith("Interrupted: 1 of 4 items finished")
