@@ -468,7 +468,8 @@ class SiteEvidence:
     seen : bool
         The multiplet stands clear of its uncertainty on its own.
     missing : bool
-        It should stand out at the candidate's amount but is not in the data.
+        It should stand out at the candidate's amount but is not in the data (or is too weak, of the
+        wrong shape, or outside its predicted range).
     shape_match : float
         Normalised match of the predicted multiplet with the data left for it (1 = same shape).
     overlap : float
@@ -477,6 +478,9 @@ class SiteEvidence:
         Refined couplings of 4 Hz and more, largest first.
     j_predicted_hz : tuple of float
         The same couplings as predicted.
+    outside_range : bool
+        A diagnostic vinyl multiplet the data pull to the edge of its shift window (3 sd from the
+        prediction): counted as missing.
     """
 
     site: int
@@ -493,6 +497,7 @@ class SiteEvidence:
     overlap: float
     j_hz: tuple[float, ...] = ()
     j_predicted_hz: tuple[float, ...] = ()
+    outside_range: bool = False
 
     def to_json(self) -> dict:
         """Plain-type dictionary (the ``evidence`` entries of the analyze JSON)."""
@@ -505,6 +510,7 @@ class SiteEvidence:
             "amount": num(self.amount), "amount_sd": num(self.amount_sd), "seen": self.seen,
             "missing": self.missing, "shape_match": num(self.shape_match), "overlap": num(self.overlap),
             "j_hz": list(self.j_hz), "j_predicted_hz": list(self.j_predicted_hz),
+            "outside_range": self.outside_range,
         }
 
 

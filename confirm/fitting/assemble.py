@@ -57,9 +57,30 @@ def fit_weights(objectives: np.ndarray) -> np.ndarray:
     return w / w.sum()
 
 
-def diagnostic_sites(model) -> list:
-    """Sites that identify the molecule: its vinyl H when it has any, else every site."""
+#: Two predicted multiplets are told apart when their shifts differ by more than this many sd of
+#: the difference (sqrt(sd1**2 + sd2**2), the errors taken as independent): about 95 % of the time
+#: the two lines then fall in the order and places predicted.
+_APART_SD = 2.0
+
+
+def diagnostic_sites(model, others=()) -> list:
+    """Sites that identify the molecule among the other candidates (``others``: their models).
+
+    A site is specific when its predicted shift stands apart from every multiplet of every other
+    candidate (:data:`_APART_SD`): the line that tells them apart (the CH(OH) of an alcohol beside
+    alkenes that share its aryl H, the vinyl H of one geometric isomer). Of the specific sites, the
+    vinyl H when there are any; without a specific site, the vinyl H, else every site.
+    """
     vinyl = [s for s, lab in enumerate(model.labels) if "vinyl" in lab.lower() or "olefin" in lab.lower()]
+    shifts = [np.asarray(o.shift0, dtype=float) for o in others if not o.nuisance]
+    sds = [np.asarray(o.sd, dtype=float) for o in others if not o.nuisance]
+    specific = []
+    for s in range(model.n_sites):
+        if all(np.all(np.abs(model.shift0[s] - x) > _APART_SD * np.hypot(model.sd[s], sd))
+               for x, sd in zip(shifts, sds, strict=True)):
+            specific.append(s)
+    if specific:
+        return [s for s in specific if s in vinyl] or specific
     return vinyl or list(range(model.n_sites))
 
 
@@ -77,19 +98,18 @@ def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: floa
     var = point_variance(noise_sd, signal, model_error) * _local_misfit(grid, refined.model, noise_sd, lw_ppm)
     offsets = np.cumsum([0] + [m.n_sites for m in models])[:-1]
     n_sites = [m.n_sites for m in models]
-    everyone = np.ones(len(models), bool)
-    amounts_all, base_all, _ = weighted_fit(refined.cols, basis, grid, var, everyone)
     shifts = refined.layout.shifts(refined.theta)
     moves = [np.stack([m.shift0 - m.window - s, m.shift0 + m.window - s], axis=1)
              for m, s in zip(models, shifts, strict=False)]
-    readings = read_sites(grid, refined.per_site, refined.cols, amounts_all, base_all, basis, offsets,
-                          n_sites, lw_ppm, noise_sd=noise_sd, model_error=model_error, moves=moves)
-    presence = tuple(
-        decide_presence(r, detection_sigma=detection_sigma, diagnostic=diagnostic_sites(m))
-        for r, m in zip(readings, models, strict=True)
-    )
+    diagnostic = [diagnostic_sites(m, [o for o in models if o is not m]) for m in models]
+    edges = [_at_window_edge(m, move) for m, move in zip(models, moves, strict=True)]
     # solvent, water and TMS lines stay in the model whatever their size; they are no components
     nuisance = np.array([m.nuisance for m in models])
+    amounts_all, base_all, _ = weighted_fit(refined.cols, basis, grid, var, np.ones(len(models), bool))
+    readings = read_sites(grid, refined.per_site, refined.cols, amounts_all, base_all, basis, offsets,
+                          n_sites, lw_ppm, noise_sd=noise_sd, model_error=model_error, moves=moves)
+    presence = tuple(decide_presence(r, detection_sigma=detection_sigma, diagnostic=d, at_edge=e)
+                     for r, d, e in zip(readings, diagnostic, edges, strict=True))
     detected = np.array([p.present for p in presence]) & ~nuisance
     amounts, base, cov_sub = weighted_fit(refined.cols, basis, grid, var, detected | nuisance)
     used = np.flatnonzero(detected | nuisance)
@@ -107,6 +127,24 @@ def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: floa
     model = amounts @ refined.cols + basis @ base
     amounts = np.where(nuisance, 0.0, amounts)  # the components' amounts; the model keeps the rest
     return Evaluation(amounts, cov, base, detected, presence, readings, var, model)
+
+
+#: A site counts as at the edge of its shift window within this share of the window.
+_EDGE_SHARE = 0.02
+
+
+def _at_window_edge(model, move: np.ndarray) -> tuple:
+    """Vinyl sites whose refined shift sits at the edge of their shift window (``move``: per site
+    the lowest and highest move that keeps it inside).
+
+    Only vinyl H: they identify an alkene among its isomers, and a decoy alkene reaching for another
+    compound's line ends at its window's edge. An sp3 multiplet at its edge is more often a minor
+    component's site pulled onto a large neighbour's misfit (the second proton of a diastereotopic
+    CH2 beside a strong CH3 singlet) than a missing one."""
+    tol = _EDGE_SHARE * model.window
+    vinyl = np.array(["vinyl" in lab.lower() or "olefin" in lab.lower() for lab in model.labels], bool)
+    edge = (move[:, 0] > -tol) | (move[:, 1] < tol)
+    return tuple(int(s) for s in np.flatnonzero(edge & vinyl))
 
 
 #: Half-width (line widths) of the window over which the local misfit of a point is averaged.
@@ -221,6 +259,7 @@ def _site_evidence(system, model, readings, presence, shifts, jvals, total: floa
             overlap=float(r.overlap),
             j_hz=_quoted_couplings(model, j_fit, s),
             j_predicted_hz=_quoted_couplings(model, model.j0, s),
+            outside_range=s in presence.outside,
         ))
     return tuple(out)
 
@@ -230,7 +269,9 @@ def _evidence_text(e: SiteEvidence, detected: bool = True) -> str:
     if e.j_hz:
         j_part = (f"; J = {', '.join(f'{v:.1f}' for v in e.j_hz)} Hz "
                   f"(predicted {', '.join(f'{v:.1f}' for v in e.j_predicted_hz)})")
-    if e.missing:
+    if e.outside_range:
+        state = "missing (the data pull it to the edge of its predicted range)"
+    elif e.missing:
         state = "missing"
     elif e.seen and detected:
         state = "observed"

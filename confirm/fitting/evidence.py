@@ -12,9 +12,12 @@ on its own, against the data with every other contribution taken away:
 - its shape match and how much of its window other components fill.
 
 A candidate counts as present only when its amount, combined over its multiplets, stands clear of
-its uncertainty and none of its multiplets that should stand out is missing (envelope well below
-the amount at every place of its shift window: a multiplet the fit left beside its lines is
-misplaced, not missing). A decoy that borrows the lines of another compound lacks the multiplets
+its uncertainty, one of its diagnostic multiplets (those that tell it from the other candidates)
+stands clear with its own shape, and none of its multiplets that should stand out is missing:
+envelope well below the amount at every place of its shift window (a multiplet the fit left beside
+its lines is misplaced, not missing), a multiplet seen on its own that carries less than half the
+amount, a clear lone multiplet of the wrong shape, or a diagnostic vinyl multiplet the data pull to
+the edge of its shift window. A decoy that borrows the lines of another compound lacks the multiplets
 that compound does not have, so it is not claimed; the reading says which multiplet is missing.
 """
 
@@ -92,6 +95,12 @@ class SiteReading:
         The envelope at the best place within the site's shift window (the multiplet moved as a
         whole): a multiplet the fit left beside its signal is misplaced, not missing (NaN: not
         read; ``envelope`` stands for it).
+    overlap_all : float
+        Share of the window's modelled signal that belongs to anything else, the molecule's own other
+        multiplets included (NaN: not read; ``overlap`` stands for it).
+    shape_group : float
+        Match of all the molecule's multiplets in this window, taken together, with the data left
+        for them (NaN: not read; ``shape`` stands for it).
     """
 
     ppm: float
@@ -105,6 +114,8 @@ class SiteReading:
     shape_misfit: float = 0.0
     envelope_all: float = np.inf
     envelope_window: float = np.nan
+    overlap_all: float = np.nan
+    shape_group: float = np.nan
 
     @property
     def sigma(self) -> float:
@@ -128,6 +139,8 @@ class Presence:
         Model sites seen on their own (amount > detection threshold).
     upper : float
         95 % upper bound of the amount (for a candidate not present).
+    outside : tuple of int
+        Diagnostic sites at the edge of their shift window (also in ``missing``).
     """
 
     amount: float
@@ -136,6 +149,7 @@ class Presence:
     missing: tuple
     seen: tuple
     upper: float
+    outside: tuple = ()
 
 
 def point_variance(noise_sd: float, signal: np.ndarray, model_error: float) -> np.ndarray:
@@ -199,12 +213,17 @@ def read_sites(grid, per_site, cols, amounts, base, basis, offsets, n_sites, lw_
             own = amounts[k] * u
             span = None if moves is None else moves[k][s]
             rows.append(_read_one(grid, u, grid.y - (model - own), signal - own, reach, noise_sd,
-                                  model_error, span))
+                                  model_error, span, whole=amounts[k] * cols[k], model=model,
+                                  foreign=signal - amounts[k] * cols[k]))
         out.append(rows)
     return out
 
 
-def _read_one(grid, u, d, others, reach: int, noise_sd: float, model_error: float, span=None) -> SiteReading:
+def _read_one(grid, u, d, others, reach: int, noise_sd: float, model_error: float, span=None,
+              whole=None, model=None, foreign=None) -> SiteReading:
+    """One site's reading; ``others`` is every other modelled signal (the molecule's own other
+    multiplets included), ``foreign`` that of the other components, ``whole`` the molecule's own
+    and ``model`` the whole model (None: the molecule's other multiplets count as others')."""
     top = float(u.max()) if u.size else 0.0
     window = (u > _WINDOW_SHARE * top) & (grid.weight > 0) if top > 0 else np.zeros(u.size, bool)
     ppm = float(np.sum(grid.x * u) / np.sum(u)) if top > 0 else float("nan")
@@ -219,7 +238,19 @@ def _read_one(grid, u, d, others, reach: int, noise_sd: float, model_error: floa
     sd = np.sqrt(max(1.0, misfit) * noise_sd**2 / uu + (model_error * shared) ** 2)
     norm = float(np.linalg.norm(uw) * np.linalg.norm(dw))
     shape = float(np.dot(uw, dw) / norm) if norm > 0 else 0.0
-    overlap = shared / max(shared + abs(alpha), 1e-300)
+    # the share of the window filled by other components (a molecule's own neighbouring multiplet,
+    # the other proton of its =CH2, is its own evidence, not another compound's line)
+    alien = shared if foreign is None else float(np.dot(uw, np.abs(foreign[window]))) / uu
+    overlap = alien / max(alien + abs(alpha), 1e-300)
+    overlap_all = shared / max(shared + abs(alpha), 1e-300)
+    shape_group = shape
+    if whole is not None and model is not None:
+        # the molecule's multiplets in this window together against the data left for them: the two
+        # protons of a =CH2 a few Hz apart, read one by one, match poorly; together they are the
+        # multiplet a chemist sees
+        wg, dg = whole[window], (grid.y - (model - whole))[window]
+        norm_g = float(np.linalg.norm(wg) * np.linalg.norm(dg))
+        shape_group = float(np.dot(wg, dg) / norm_g) if norm_g > 0 else 0.0
     allowed = noise_sd**2 + (_PATTERN_ERROR * alpha * uw) ** 2 + (model_error * ow) ** 2
     shape_misfit = float(np.sum(resid * resid) / np.sum(allowed))
     # the margin comes from the noise and the model error of the others, never from the local
@@ -231,7 +262,7 @@ def _read_one(grid, u, d, others, reach: int, noise_sd: float, model_error: floa
     envelope, envelope_window = _envelope(u, d, margin_var, window, reach, max(1.0, misfit), steps)
     envelope_all, _ = _envelope(u, d + others, margin_var, window, reach, max(1.0, misfit))
     return SiteReading(ppm, alpha, sd, envelope, shape, overlap, misfit, True, shape_misfit, envelope_all,
-                       envelope_window)
+                       envelope_window, overlap_all, shape_group)
 
 
 def _envelope(u, d, var, window, reach: int, misfit: float, steps=(0, 0)) -> tuple[float, float]:
@@ -252,7 +283,7 @@ def _envelope(u, d, var, window, reach: int, misfit: float, steps=(0, 0)) -> tup
     return float(values[np.flatnonzero(moves[inside] == 0)[0]]), float(values.max())
 
 
-def decide_presence(readings, *, detection_sigma: float, diagnostic) -> Presence:
+def decide_presence(readings, *, detection_sigma: float, diagnostic, at_edge=()) -> Presence:
     """Combine a candidate's multiplet readings into its evidence of presence.
 
     The multiplets seen on their own (amount above 5 sd, at most half their window filled by
@@ -270,6 +301,12 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic) -> Presence
     detection_sigma : float
     diagnostic : sequence of int
         Sites that identify the candidate.
+    at_edge : sequence of int
+        Sites the fit left at the edge of their shift window: the data want them further from the
+        prediction than its uncertainty allows (3 sd); :func:`confirm.fitting.assemble.evaluate`
+        passes vinyl sites only. A diagnostic one counts as missing: the molecule's identifying
+        multiplet is not where it can be, and a decoy that reaches for another compound's line ends
+        there.
     """
     use = [i for i, r in enumerate(readings) if r.usable and np.isfinite(r.amount_sd) and r.amount_sd > 0]
     if not use:
@@ -281,17 +318,24 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic) -> Presence
     missing = ()
     if mean > _MISSING_SD * plain_sd:
         missing = tuple(i for i in use if _anywhere(readings[i]) < _MISSING_SHARE * mean)
-    misshapen = tuple(i for i in use if readings[i].overlap < _ALONE and readings[i].sigma > SEEN_SIGMA
+        # a multiplet seen on its own, and not crowded by its own molecule's other multiplets either
+        # (their one-by-one readings trade amount between them), that carries less than half the
+        # molecule's amount (beyond its noise): its lines stand where they should, but too weak for
+        # the molecule (a homologue's CH2 where the data's are weaker); its part is missing
+        missing += tuple(i for i in seen if _crowding(readings[i]) < _SEEN_OVERLAP
+                         and readings[i].amount + _MISSING_SD * readings[i].amount_sd < _MISSING_SHARE * mean)
+    misshapen = tuple(i for i in use if _crowding(readings[i]) < _ALONE and readings[i].sigma > SEEN_SIGMA
                       and readings[i].shape_misfit > _MISSHAPEN and readings[i].shape < _MISSHAPEN_MATCH)
     # one misshapen multiplet from a wrong predicted coupling (a ring CH2 deep in a second-order
     # pattern) does not veto a molecule whose other multiplets stand; a misshapen diagnostic one
     # (the vinyl H of an alkene) does, and so do misshapen multiplets making up half of them
     specific = set(diagnostic) if len(diagnostic) < len(readings) else set()
     veto = set(misshapen) if 2 * len(misshapen) >= len(use) else set(misshapen) & specific
-    missing = tuple(sorted(set(missing) | veto))
+    outside = tuple(sorted(set(at_edge) & specific))
+    missing = tuple(sorted(set(missing) | veto | set(outside)))
     crowded = all(readings[i].overlap >= _SEEN_OVERLAP for i in use)
     strong = max(detection_sigma, SEEN_SIGMA)
-    if any(i in use and readings[i].sigma > strong and readings[i].shape >= _MISSHAPEN_MATCH
+    if any(i in use and readings[i].sigma > strong and _own_shape(readings[i]) >= _MISSHAPEN_MATCH
            for i in diagnostic):
         # a diagnostic multiplet stands 5 sd clear, on its own or with the others' share taken away
         # (its sd then carries their model error), and has its own shape: at high SNR any small
@@ -315,7 +359,18 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic) -> Presence
         shared = [readings[i].envelope_all for i in use if np.isfinite(readings[i].envelope_all)]
         if shared:
             upper = max(upper, min(shared))
-    return Presence(mean, mean_sd, bool(present), missing, seen, float(upper))
+    return Presence(mean, mean_sd, bool(present), missing, seen, float(upper), outside)
+
+
+def _own_shape(reading: SiteReading) -> float:
+    """Shape match of a multiplet, or of its molecule's multiplets in its window together when that
+    is better (a multiplet overlapped by its own molecule's other lines)."""
+    return reading.shape if np.isnan(reading.shape_group) else max(reading.shape, reading.shape_group)
+
+
+def _crowding(reading: SiteReading) -> float:
+    """Share of a multiplet's window that others fill, its own molecule's other multiplets included."""
+    return reading.overlap if np.isnan(reading.overlap_all) else reading.overlap_all
 
 
 def _anywhere(reading: SiteReading) -> float:

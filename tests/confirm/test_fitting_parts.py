@@ -296,3 +296,78 @@ def test_a_diagnostic_multiplet_of_the_wrong_shape_is_no_evidence():
                           misfit=1.0, usable=True)]
     assert decide_presence([reading(0.95)] + others, detection_sigma=3.0, diagnostic=[0]).present
     assert not decide_presence([reading(0.59)] + others, detection_sigma=3.0, diagnostic=[0]).present
+
+
+def test_a_diagnostic_multiplet_at_the_edge_of_its_window_is_missing():
+    # (Z)-anethole offered for an allylarene (the real estragole FID): its second vinyl H reached
+    # for a 13C satellite at the very edge of its window, 3 sd from the prediction; the molecule's
+    # identifying multiplet is then not where it can be
+    readings = [_reading(0.10, 0.002, 0.12), _reading(0.11, 0.003, 0.13), _reading(0.095, 0.004, 0.11)]
+    assert decide_presence(readings, detection_sigma=3.0, diagnostic=[0]).present
+    p = decide_presence(readings, detection_sigma=3.0, diagnostic=[0], at_edge=(0,))
+    assert not p.present and p.missing == (0,) and p.outside == (0,)
+    # a non-diagnostic site at its edge (a CH2 of a long chain) does not veto the molecule
+    p = decide_presence(readings, detection_sigma=3.0, diagnostic=[0], at_edge=(2,))
+    assert p.present and p.outside == ()
+
+
+def test_a_multiplet_seen_too_weak_for_the_molecule_is_missing():
+    # a homologue: its CH2 envelope stands where the data's CH2 lines are, but carries a third of the
+    # molecule's amount (the data hold two CH2 fewer than the candidate has)
+    chain = [_reading(1.10, 0.02), _reading(1.12, 0.02), _reading(1.02, 0.01), _reading(0.32, 0.06)]
+    p = decide_presence(chain, detection_sigma=3.0, diagnostic=[0, 1])
+    assert not p.present and p.missing == (3,)
+    # within noise of half the amount it is no proof of absence
+    loose = chain[:3] + [_reading(0.40, 0.06)]
+    assert decide_presence(loose, detection_sigma=3.0, diagnostic=[0, 1]).present
+
+
+def test_diagnostic_sites_are_the_ones_that_tell_the_candidates_apart():
+    from types import SimpleNamespace
+
+    from confirm.fitting.assemble import diagnostic_sites
+
+    def model(shifts, labels, sd=0.1):
+        return SimpleNamespace(shift0=np.array(shifts), sd=np.full(len(shifts), sd), labels=tuple(labels),
+                               n_sites=len(shifts), nuisance=False)
+
+    # an alcohol beside an alkene sharing its aryl H: the CH(OH) and CH2 tell it apart
+    alcohol = model([4.85, 2.95, 7.30, 7.25], ["CH", "CH2", "aryl", "aryl"])
+    alkene = model([6.40, 6.20, 7.32, 7.26, 1.90], ["vinyl", "vinyl", "aryl", "aryl", "CH3"])
+    assert diagnostic_sites(alcohol, [alkene]) == [0, 1]
+    # of the alkene's specific sites, its vinyl H (the CH3 stands apart too)
+    assert diagnostic_sites(alkene, [alcohol]) == [0, 1]
+    # nothing stands apart (homologues): the vinyl H, else every site
+    assert diagnostic_sites(alkene, [alkene]) == [0, 1]
+    assert diagnostic_sites(alcohol, [alcohol]) == [0, 1, 2, 3]
+    # a solvent line is no candidate
+    solvent = SimpleNamespace(shift0=np.array([4.85]), sd=np.array([0.01]), nuisance=True)
+    assert diagnostic_sites(alcohol, [alkene, solvent]) == [0, 1]
+
+
+def test_a_molecules_own_neighbouring_multiplet_is_no_overlap():
+    """The two protons of a =CH2 a line width apart: each fills much of the other's window, but
+    neither is overlapped by another compound, and together they have the shape of the data."""
+    from confirm.fitting.evidence import read_sites
+
+    x = np.linspace(5.0, 5.2, 801)
+    g = 0.002 / 2
+
+    def lorentz(c):
+        return g / np.pi / ((x - c) ** 2 + g * g)
+
+    a = lorentz(5.095) + lorentz(5.080)  # one proton's lines
+    b = lorentz(5.094) + lorentz(5.0785)  # the other's, a line width beside
+    other = 4.0 * lorentz(5.15)  # another compound, well apart
+    rng = np.random.default_rng(5)
+    y = 1.0 * (a + b) + other + rng.normal(0, 0.5, x.size)
+    grid = _grid(x, y)
+    per_site = np.vstack([a, b, other])
+    cols = np.vstack([a + b, other])
+    basis = np.zeros((x.size, 1))
+    (r_a, r_b), (r_o,) = read_sites(grid, per_site, cols, np.array([1.0, 4.0]), np.zeros(1), basis, [0, 2],
+                                    [2, 1], 0.004, noise_sd=0.5, model_error=0.03)
+    for r in (r_a, r_b):
+        assert r.overlap < 0.05 < 0.3 < r.overlap_all
+        assert r.shape_group > 0.95
+    assert r_o.overlap < 0.05
