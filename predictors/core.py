@@ -175,13 +175,6 @@ class ProtonSite:
         spin, so the simulator may treat the group as one composite spin.
     flags : tuple of str
         Notes on how the value was obtained (fallbacks, missing increments).
-    search_sd_ppm : float or None
-        The sd the mixture fit's shift windows and shift prior use; None: ``shift_sd_ppm``.
-        :func:`predictors.prediction.predict_spin_system` sets it to the increment tables' sd of
-        the method, narrower than the calibrated ``shift_sd_ppm`` in most classes: with the calibrated
-        widths the fit's presence decisions, set with the narrower ones, let decoys sit on the true
-        compound's lines (real estragole: 2.8 % (Z)-anethole claimed). They are used for the fit
-        once those decisions are recalibrated on the corpus tune half (issue 13).
     """
 
     atoms: tuple[int, ...]
@@ -191,7 +184,6 @@ class ProtonSite:
     exchangeable: bool = False
     magnetically_equivalent: bool = True
     flags: tuple[str, ...] = ()
-    search_sd_ppm: float | None = None
 
     def __post_init__(self) -> None:
         atoms = tuple(int(a) for a in self.atoms)
@@ -205,15 +197,6 @@ class ProtonSite:
         if self.shift_sd_ppm <= 0:
             raise InputError(f"shift_sd_ppm: must be > 0, got {self.shift_sd_ppm!r}")
         object.__setattr__(self, "flags", tuple(self.flags))
-        if self.search_sd_ppm is not None:
-            _check_finite(self.search_sd_ppm, name="search_sd_ppm", low=0.0)
-            if self.search_sd_ppm <= 0:
-                raise InputError(f"search_sd_ppm: must be > 0, got {self.search_sd_ppm!r}")
-
-    @property
-    def fit_sd_ppm(self) -> float:
-        """The sd the mixture fit searches with: ``search_sd_ppm``, else ``shift_sd_ppm``."""
-        return self.shift_sd_ppm if self.search_sd_ppm is None else float(self.search_sd_ppm)
 
     @property
     def n_h(self) -> int:

@@ -158,7 +158,6 @@ def _make_site(group, shifts, magnetic: bool) -> ProtonSite:
         exchangeable=estimates[0].exchangeable,
         magnetically_equivalent=bool(magnetic),
         flags=flags,
-        search_sd_ppm=float(max(e.sd_ppm if e.search_sd_ppm is None else e.search_sd_ppm for e in estimates)),
     )
 
 

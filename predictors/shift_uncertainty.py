@@ -226,5 +226,5 @@ def calibrated_estimates(model: Chem.Mol, estimates: dict, *, table: dict[str, S
                        + generic * table[FALLBACK_GENERIC].sd_ppm**2)
         if not row.calibrated or classes[h] == "exchangeable":
             sd = max(sd, est.sd_ppm)
-        out[h] = dataclasses.replace(est, sd_ppm=float(sd), search_sd_ppm=float(est.sd_ppm))
+        out[h] = dataclasses.replace(est, sd_ppm=float(sd))
     return out

@@ -92,7 +92,7 @@ def build_model(system: SpinSystem, options) -> CandidateModel:
     groups = _merge_remote_pairs(system, keep, j_full)
     first = [g[0] for g in groups]
     sites = [system.sites[i] for i in first]
-    sd = np.array([s.fit_sd_ppm for s in sites])
+    sd = np.array([s.shift_sd_ppm for s in sites])
     window = np.clip(options.shift_window_sd * sd, options.min_shift_window_ppm, options.max_shift_window_ppm)
     n_h = np.array([sum(system.sites[i].n_h for i in g) for g in groups])
     j0 = j_full[np.ix_(first, first)].copy()

@@ -25,10 +25,6 @@ class ShiftEstimate:
         OH/NH/SH: broad, position depends on conditions.
     flags : tuple of str
         Fallbacks and assumptions used.
-    search_sd_ppm : float or None
-        The increment tables' own sd of the method, kept when ``sd_ppm`` is replaced by the
-        calibrated class sd (:func:`predictors.shift_uncertainty.calibrated_estimates`); None:
-        ``sd_ppm`` is that sd.
     """
 
     shift_ppm: float
@@ -36,7 +32,6 @@ class ShiftEstimate:
     label: str
     exchangeable: bool = False
     flags: tuple[str, ...] = ()
-    search_sd_ppm: float | None = None
 
 
 @functools.cache

@@ -12,7 +12,7 @@ from __future__ import annotations
 import numpy as np
 
 from confirm.analysis import build_candidates, predict_systems
-from confirm.fitting import FitOptions
+from confirm.fitting import FitOptions, fit_mixture
 from confirm.fitting.grid import baseline_basis, bin_factor, build_grid, fit_intervals
 from confirm.fitting.models import build_model
 from confirm.fitting.refine import Refinement
@@ -66,6 +66,14 @@ def test_isomers_on_each_others_signals_are_exchanged():
     settled = settle_exchanges(refinement, crossed, stereo_partners(systems, models))
     share = settled.amounts / settled.amounts.sum()
     # the E isomer takes the signal back (Z keeps a little where the two are alike: the CH3 and OCH3
-    # lines coincide; the later re-placement of whole molecules takes it further)
-    assert share[0] > 0.8 and share[0] > 5 * share[1]
+    # lines coincide, and its shift windows, 3 calibrated sd, reach them; the later stages of the fit
+    # take it further, below)
+    assert share[0] > 0.75 and share[0] > 3 * share[1]
     assert settled.objective < crossed.objective
+    # the whole fit on the same spectrum: the E isomer alone
+    cands, _ = build_candidates(candidates=[_E, _Z, _OTHER])
+    order = [next(i for i, c in enumerate(cands) if c.smiles == s) for s in (_E, _Z, _OTHER)]
+    fit = fit_mixture(spectrum, systems, [cands[i] for i in order], options=FitOptions(n_workers=1))
+    e, z, other = fit.components
+    assert e.detected and e.mole_fraction > 0.95
+    assert not z.detected and not other.detected

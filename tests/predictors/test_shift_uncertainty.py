@@ -26,7 +26,6 @@ from predictors.shift_uncertainty import (
     environment_classes,
     load_sd_table,
 )
-from predictors.shifts import load_increment_table
 
 
 def _class_of(smiles: str, smarts: str) -> str:
@@ -129,20 +128,20 @@ def test_write_table_reproduces_the_committed_table(real_spectra: Path):
         "python -m benchmarks.shift_accuracy_real --write-table")
 
 
-def test_the_fit_searches_with_the_method_sd_and_reports_the_calibrated_one():
-    from predictors.core import ProtonSite
-    from predictors.errors import InputError
+def test_the_fit_searches_with_the_calibrated_sd():
+    from confirm.fitting import FitOptions
+    from confirm.fitting.models import build_model
 
     table = load_sd_table()
     system = predict_spin_system("CCC=C", n_conformers=1)
-    vinyl = [s for s in system.sites if s.label == "vinyl"]
-    # reported: the calibrated class sd; searched: the vinyl method sd of data/sp3_increments.csv
-    method = next(float(r["sd_ppm"]) for r in load_increment_table("sp3_increments")
-                  if r["table"] == "method_sd" and r["group"] == "vinyl")
-    for site in vinyl:
-        assert site.shift_sd_ppm == pytest.approx(table["vinyl"].sd_ppm)
-        assert site.search_sd_ppm == pytest.approx(method)
-        assert site.fit_sd_ppm == pytest.approx(method)
-    assert ProtonSite((1,), 5.0, 0.2).fit_sd_ppm == 0.2
-    with pytest.raises(InputError, match="search_sd_ppm"):
-        ProtonSite((1,), 5.0, 0.2, search_sd_ppm=0.0)
+    model = build_model(system, FitOptions())
+    options = FitOptions()
+    for s, label in enumerate(model.labels):
+        site = system.sites[model.groups[s][0]]
+        if label == "vinyl":
+            assert site.shift_sd_ppm == pytest.approx(table["vinyl"].sd_ppm)
+        # the shift window and prior follow the calibrated sd of each site
+        assert model.sd[s] == pytest.approx(site.shift_sd_ppm)
+        assert model.window[s] == pytest.approx(np.clip(options.shift_window_sd * site.shift_sd_ppm,
+                                                        options.min_shift_window_ppm,
+                                                        options.max_shift_window_ppm))
