@@ -63,6 +63,11 @@ def fit_weights(objectives: np.ndarray) -> np.ndarray:
 _APART_SD = 2.0
 
 
+def _vinyl(model) -> list:
+    """Sites of vinyl H (alkene CH)."""
+    return [s for s, lab in enumerate(model.labels) if "vinyl" in lab.lower() or "olefin" in lab.lower()]
+
+
 def diagnostic_sites(model, others=()) -> list:
     """Sites that identify the molecule among the other candidates (``others``: their models).
 
@@ -71,7 +76,7 @@ def diagnostic_sites(model, others=()) -> list:
     alkenes that share its aryl H, the vinyl H of one geometric isomer). Of the specific sites, the
     vinyl H when there are any; without a specific site, the vinyl H, else every site.
     """
-    vinyl = [s for s, lab in enumerate(model.labels) if "vinyl" in lab.lower() or "olefin" in lab.lower()]
+    vinyl = _vinyl(model)
     shifts = [np.asarray(o.shift0, dtype=float) for o in others if not o.nuisance]
     sds = [np.asarray(o.sd, dtype=float) for o in others if not o.nuisance]
     specific = []
@@ -142,9 +147,8 @@ def _at_window_edge(model, move: np.ndarray) -> tuple:
     component's site pulled onto a large neighbour's misfit (the second proton of a diastereotopic
     CH2 beside a strong CH3 singlet) than a missing one."""
     tol = _EDGE_SHARE * model.window
-    vinyl = np.array(["vinyl" in lab.lower() or "olefin" in lab.lower() for lab in model.labels], bool)
     edge = (move[:, 0] > -tol) | (move[:, 1] < tol)
-    return tuple(int(s) for s in np.flatnonzero(edge & vinyl))
+    return tuple(int(s) for s in _vinyl(model) if edge[s])
 
 
 #: Half-width (line widths) of the window over which the local misfit of a point is averaged.

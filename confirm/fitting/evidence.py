@@ -222,8 +222,9 @@ def read_sites(grid, per_site, cols, amounts, base, basis, offsets, n_sites, lw_
 def _read_one(grid, u, d, others, reach: int, noise_sd: float, model_error: float, span=None,
               whole=None, model=None, foreign=None) -> SiteReading:
     """One site's reading; ``others`` is every other modelled signal (the molecule's own other
-    multiplets included), ``foreign`` that of the other components, ``whole`` the molecule's own
-    and ``model`` the whole model (None: the molecule's other multiplets count as others')."""
+    multiplets included), ``foreign`` that of the other components only, ``whole`` the molecule's
+    own signal and ``model`` the whole model. Without ``foreign`` the overlap counts ``others``;
+    without ``whole`` and ``model`` the group shape is the site's own."""
     top = float(u.max()) if u.size else 0.0
     window = (u > _WINDOW_SHARE * top) & (grid.weight > 0) if top > 0 else np.zeros(u.size, bool)
     ppm = float(np.sum(grid.x * u) / np.sum(u)) if top > 0 else float("nan")
