@@ -8,7 +8,13 @@ from pathlib import Path
 import numpy as np
 
 from confirm._files import atomic_path, check_file_targets
-from confirm.commands._common import emit_json, format_table, wrap_text
+from confirm.commands._common import (
+    add_solvent_arguments,
+    emit_json,
+    format_table,
+    refuse_plain_solvent,
+    wrap_text,
+)
 from predictors.errors import InputError
 
 __all__ = ["register", "spin_system_to_json"]
@@ -28,6 +34,10 @@ def register(subparsers, parents) -> None:
                     "exact simulated spectrum.",
         epilog="Example: confirm predict 'C/C=C/c1ccc(OC)cc1' --field-mhz 60 --plot anethole_60mhz.png")
     parser.add_argument("smiles", help="isomeric SMILES of the structure")
+    parser.add_argument("--nmr-solvent", metavar="S", dest="nmr_solvent",
+                        help="deuterated solvent of the sample (CDCl3 when not given): sets the shifts of "
+                             "OH/NH/SH protons (DMSO-d6 has its own values; in D2O and CD3OD they exchange)")
+    add_solvent_arguments(parser, reaction=False, nmr=False)
     parser.add_argument("--field-mhz", type=float, default=400.0, help="1H frequency in MHz (default 400)")
     parser.add_argument("--plot", metavar="PNG", help="write the simulated spectrum to this PNG file")
     parser.add_argument("--decoupled", nargs="+", metavar="NUCLEUS",
@@ -60,6 +70,8 @@ def spin_system_to_json(system, *, field_mhz: float) -> dict:
 def _run(args) -> int:
     from predictors.prediction import FIRST_ORDER_RATIO, predict_spin_system, second_order_pairs
 
+    refuse_plain_solvent(args)
+    solvent = _nmr_solvent(args.nmr_solvent)
     field = args.field_mhz
     if not math.isfinite(field) or not 40.0 <= field <= 1200.0:
         raise InputError(f"--field-mhz: expected a frequency between 40 and 1200 MHz, got {field!r}")
@@ -73,13 +85,15 @@ def _run(args) -> int:
         decoupled = check_nuclei(args.decoupled or ())
     except InputError as exc:
         raise InputError(f"--decoupled: {exc}".replace("decoupled nucleus: ", "")) from None
-    system = without_x_couplings(predict_spin_system(check_smiles(args.smiles, name="smiles")), decoupled)
+    predicted = predict_spin_system(check_smiles(args.smiles, name="smiles"), solvent=solvent)
+    system = without_x_couplings(predicted, decoupled)
     if args.plot is not None:
         _write_plot(system, Path(args.plot), field_mhz=field)
     if args.json:
-        emit_json(dict(spin_system_to_json(system, field_mhz=field), decoupled_nuclei=list(decoupled)))
+        emit_json(dict(spin_system_to_json(system, field_mhz=field), decoupled_nuclei=list(decoupled),
+                       nmr_solvent=solvent))
         return 0
-    heading = f"{system.smiles}  ({system.n_h} H, {field:g} MHz"
+    heading = f"{system.smiles}  ({system.n_h} H, {field:g} MHz" + (f", in {solvent}" if solvent else "")
     print(heading + (f", {' and '.join(decoupled)} decoupled)" if decoupled else ")"))
     headers = ["site", "label", "nH", "shift ppm", "mult", "J Hz (to site)", "notes"]
     print(format_table(headers, _rows(system)))
@@ -90,6 +104,18 @@ def _run(args) -> int:
                         f"coupled sites closer than {FIRST_ORDER_RATIO:g} J lean and split further: sites "
                         f"{listed}"))
     return 0
+
+
+def _nmr_solvent(text: str | None) -> str | None:
+    """Canonical name of ``--nmr-solvent`` (None when not given); an unknown name is an error."""
+    from confirm.solvents import known_solvents, normalise_solvent_name
+
+    if text is None:
+        return None
+    name = normalise_solvent_name(text)
+    if name is None:
+        raise InputError(f"--nmr-solvent: unknown solvent {text!r}; known: {', '.join(known_solvents())}")
+    return name
 
 
 def _rows(system) -> list[list[str]]:

@@ -67,3 +67,33 @@ def test_second_order_pairs_are_named_at_low_field_only(run_cli):
     vinyl = sorted(i for i, s in enumerate(data["sites"]) if s["label"] == "vinyl")
     pairs = {tuple(p["sites"]): p["delta_nu_over_j"] for p in data["second_order"]}
     assert tuple(vinyl) in pairs and 2.0 < pairs[tuple(vinyl)] < 6.0
+
+
+def test_nmr_solvent_sets_exchangeable_shifts(run_cli):
+    # ethanol OH: 4.63 ppm in DMSO-d6 (Gottlieb, Kotlyar and Nudelman, J. Org. Chem. 1997, 62, 7512,
+    # Table 1; from memory); in D2O it exchanges into the HDO line
+    def oh_site(*extra):
+        result = run_cli("predict", "CCO", "--json", *extra)
+        assert result.exit_code == 0, result.stderr
+        data = json.loads(result.stdout)
+        return data, next(s for s in data["sites"] if s["label"] == "OH")
+
+    data, oh = oh_site("--nmr-solvent", "dmso")
+    assert data["nmr_solvent"] == "DMSO-d6" and oh["shift_ppm"] == pytest.approx(4.63, abs=0.3)
+    data, plain = oh_site()
+    assert data["nmr_solvent"] is None and plain["shift_ppm"] != oh["shift_ppm"]
+    _, heavy = oh_site("--nmr-solvent", "D2O")
+    assert any(f.startswith("exchanged") for f in heavy["flags"])
+    table = run_cli("predict", "CCO", "--nmr-solvent", "DMSO-d6")
+    assert table.exit_code == 0 and "in DMSO-d6" in table.stdout
+
+
+@pytest.mark.parametrize("args, message", [
+    (("CCO", "--nmr-solvent", "unobtainium-d4"), "--nmr-solvent: unknown solvent"),
+    (("CCO", "--solvent", "DMSO-d6"), "--nmr-solvent"),
+])
+def test_bad_solvent_exits_2(run_cli, args, message):
+    result = run_cli("predict", *args)
+    assert result.exit_code == 2
+    assert message in result.stderr and "Traceback" not in result.stderr
+    assert result.stderr.startswith("error:")
