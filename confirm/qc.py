@@ -22,6 +22,7 @@ Specification file::
     starting_material = "CC(Br)CCC"            # optional with candidates
     nmr_solvent = "CDCl3"                      # optional: the sample's solvent
     field_mhz = 400.0                          # optional
+    decoupled = ["19F"]                        # optional: 19F and/or 31P decoupled during acquisition
 
     [reaction]                                 # ... or the reaction (substrate + reagent)
     substrate = "CC(Br)CCC"
@@ -56,6 +57,7 @@ from pathlib import Path
 from confirm._files import write_text_atomic
 from predictors.core import canonical_smiles
 from predictors.errors import FileFormatError, InputError
+from predictors.hetero_couplings import check_nuclei
 
 __all__ = [
     "CAUTION",
@@ -86,8 +88,8 @@ STATUSES = ("PASS", "INCONCLUSIVE", "FAIL")
 #: Two-sided 95 % coverage factor of a normal distribution.
 Z_95 = 1.959964
 
-_TOP_KEYS = {"name", "product", "candidates", "starting_material", "nmr_solvent", "field_mhz", "reaction",
-             "limits", "signoff"}
+_TOP_KEYS = {"name", "product", "candidates", "starting_material", "nmr_solvent", "field_mhz", "decoupled",
+             "reaction", "limits", "signoff"}
 _SIGNOFF_KEYS = {"lot", "analyst", "reviewer", "comment"}
 #: Longest text of a sign-off field (a comment is a sentence or two, not a report).
 _MAX_SIGNOFF_CHARS = 500
@@ -163,6 +165,7 @@ class QcSpec:
     reaction_solvent: str | None = None
     nmr_solvent: str | None = None
     field_mhz: float | None = None
+    decoupled: tuple[str, ...] = ()
     sha256: str = ""
     source: str = ""
     signoff: SignOff = field(default_factory=SignOff)
@@ -172,6 +175,8 @@ class QcSpec:
         kwargs: dict = {"solvent": self.reaction_solvent, "temp_c": self.temp_c, "field_mhz": self.field_mhz}
         if self.nmr_solvent is not None:
             kwargs["nmr_solvent"] = self.nmr_solvent
+        if self.decoupled:
+            kwargs["decoupled"] = self.decoupled
         if self.substrate is not None:
             kwargs.update(substrate=self.substrate, reagent=self.reagent)
         else:
@@ -227,6 +232,8 @@ candidates = ["C/C=C\\\\CC", "C=CCCC"]            # the other isomers, impuritie
 starting_material = "CC(Br)CCC"                # optional: counted against max_starting_material_percent
 nmr_solvent = "CDCl3"                          # optional: the sample's solvent (else as the file records)
 # field_mhz = 400.0                            # optional: only when the file does not record it
+# decoupled = ["19F"]                          # optional: nuclei decoupled during acquisition (19F, 31P)
+#                                              # when the file does not say so
 
 # ... or give the reaction instead of the candidates list (then delete `candidates` above):
 # [reaction]
@@ -323,6 +330,13 @@ def parse_spec(table: Mapping, *, sha256: str = "", source: str = "") -> QcSpec:
                                         for v in (nmr_solvent, reaction_solvent)):
         raise InputError("spec: name, nmr_solvent and reaction_solvent must be strings")
     field_mhz = table.get("field_mhz")
+    decoupled = table.get("decoupled", [])
+    if not isinstance(decoupled, list):
+        raise InputError(f"spec decoupled: expected a list such as [\"19F\"], got {decoupled!r}")
+    try:
+        decoupled = check_nuclei(decoupled)
+    except InputError as exc:
+        raise InputError(f"spec decoupled: {exc}".replace("decoupled nucleus: ", "")) from None
     return QcSpec(
         product=_smiles_entry(table["product"], name="product"),
         limits=QcLimits(**dict(limits)),
@@ -336,6 +350,7 @@ def parse_spec(table: Mapping, *, sha256: str = "", source: str = "") -> QcSpec:
         reaction_solvent=reaction_solvent,
         nmr_solvent=nmr_solvent,
         field_mhz=None if field_mhz is None else _number(field_mhz, name="field_mhz", low=1.0, high=2000.0),
+        decoupled=decoupled,
         sha256=sha256 or hashlib.sha256(json.dumps(dict(table), sort_keys=True).encode()).hexdigest(),
         source=source,
         signoff=SignOff(**dict(signoff)),

@@ -500,3 +500,15 @@ def test_template_is_a_readable_commented_spec_and_never_overwrites(run_cli, tmp
     assert again.exit_code == 2 and "exists" in again.stderr and path.read_text() == text
     missing = run_cli("qc", "--spectrum", str(path))
     assert missing.exit_code == 2 and "--spec: required" in missing.stderr and "--template" in missing.stderr
+
+
+def test_decoupled_nuclei_from_the_spec_reach_the_analysis():
+    spec = parse_spec({"product": "FC/C=C/C", "candidates": ["FC/C=C\\C"], "decoupled": ["19F", "P"]})
+    assert spec.decoupled == ("19F", "31P")
+    assert spec.analysis_kwargs()["decoupled"] == ("19F", "31P")
+    plain = parse_spec({"product": "C/C=C/CC", "candidates": ["C=CCCC"]})
+    assert plain.decoupled == () and "decoupled" not in plain.analysis_kwargs()
+    with pytest.raises(InputError, match="spec decoupled: expected one of 19F, 31P"):
+        parse_spec({"product": "C/C=C/CC", "candidates": ["C=CCCC"], "decoupled": ["13C"]})
+    with pytest.raises(InputError, match="spec decoupled: expected a list"):
+        parse_spec({"product": "C/C=C/CC", "candidates": ["C=CCCC"], "decoupled": "19F"})
