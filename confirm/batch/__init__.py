@@ -3,7 +3,7 @@ HTML index.
 
 Input is either a manifest (CSV with a ``spectrum`` column and, per row, ``substrate`` +
 ``reagent`` or ``candidates``, optional ``id``, ``reaction_solvent``, ``nmr_solvent``, ``temp_c``,
-``field_mhz``, ``spec``) or a folder of spectra that all share one QC specification
+``field_mhz``, ``spec``, ``decoupled``) or a folder of spectra that all share one QC specification
 (:mod:`confirm.batch.manifest`). Each item gets its own folder in the output with its report,
 JSON result (and QC audit record); a file ``outcome.json`` written last marks it finished
 (:mod:`confirm.batch.finished`). A bad file is reported as an error and the rest go on; a rerun

@@ -65,6 +65,8 @@ def item_fingerprint(item: BatchItem, *, spectrum_sha256: str, spec: QcSpec | No
             "field_mhz": item.field_mhz, "spec_sha256": _spec_digest(item, spec), "options": options or {}}
     if item.nmr_solvent is not None:  # only when set: earlier runs' fingerprints stay valid
         work["nmr_solvent"] = item.nmr_solvent
+    if item.decoupled:
+        work["decoupled"] = list(item.decoupled)
     return hashlib.sha256(json.dumps(work, sort_keys=True).encode()).hexdigest()
 
 

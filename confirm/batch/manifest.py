@@ -1,7 +1,8 @@
 """What a batch is made of: a manifest CSV or a folder of spectra, read into :class:`BatchItem` s.
 
 A manifest has a ``spectrum`` column and, per row, ``substrate`` + ``reagent`` or ``candidates``,
-optional ``id``, ``reaction_solvent``, ``nmr_solvent``, ``temp_c``, ``field_mhz``, ``spec``. A
+optional ``id``, ``reaction_solvent``, ``nmr_solvent``, ``temp_c``, ``field_mhz``, ``spec``,
+``decoupled`` (``19F``, ``31P`` or both, separated by ``;`` or spaces). A
 folder's spectra (JCAMP-DX files, peak-list tables, FID folders, sub-folders holding one data
 set, and data sets one folder further down, such as numbered experiment folders) all share one
 QC specification. Item ids are unique after sanitising (a later duplicate gets the first free
@@ -18,10 +19,11 @@ from dataclasses import asdict, dataclass
 from pathlib import Path
 
 from predictors.errors import FileFormatError, InputError
+from predictors.hetero_couplings import check_nuclei
 
 #: Columns a manifest may have (``spectrum`` is required).
 MANIFEST_COLUMNS = ("id", "spectrum", "substrate", "reagent", "candidates", "reaction_solvent", "nmr_solvent",
-                    "temp_c", "field_mhz", "spec")
+                    "temp_c", "field_mhz", "spec", "decoupled")
 #: Names an item may not have: the batch's own files (and names some systems reserve for devices).
 RESERVED_IDS = frozenset({"summary.csv", "components.csv", "index.html", "con", "prn", "aux", "nul",
                           *(f"com{k}" for k in range(1, 10)), *(f"lpt{k}" for k in range(1, 10))})
@@ -43,12 +45,14 @@ class BatchItem:
     field_mhz: float | None = None
     spec: Path | None = None
     nmr_solvent: str | None = None
+    decoupled: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "spectrum", Path(self.spectrum))
         if self.spec is not None:
             object.__setattr__(self, "spec", Path(self.spec))
         object.__setattr__(self, "candidates", tuple(self.candidates))
+        object.__setattr__(self, "decoupled", tuple(self.decoupled))
 
 
 def _safe_id(text: str) -> str:
@@ -151,6 +155,11 @@ def _manifest_item(path: Path, row_number: int, raw: dict) -> BatchItem:
     spectrum = spectrum if spectrum.is_absolute() else path.parent / spectrum
     spec = Path(row["spec"]) if row.get("spec") else None
     temp_c = _optional_float(row.get("temp_c"), name="temp_c", row=row_number)
+    try:
+        decoupled = check_nuclei([n for n in re.split(r"[;\s]+", row.get("decoupled", "")) if n])
+    except InputError as exc:
+        message = str(exc).replace("decoupled nucleus: ", "")
+        raise InputError(f"manifest row {row_number}: decoupled: {message}") from None
     return BatchItem(
         item_id=row.get("id") or spectrum.stem, spectrum=spectrum,
         substrate=row.get("substrate") or None, reagent=row.get("reagent") or None,
@@ -159,7 +168,7 @@ def _manifest_item(path: Path, row_number: int, raw: dict) -> BatchItem:
         nmr_solvent=row.get("nmr_solvent") or None,
         temp_c=25.0 if temp_c is None else temp_c,
         field_mhz=_optional_float(row.get("field_mhz"), name="field_mhz", row=row_number),
-        spec=(spec if spec is None or spec.is_absolute() else path.parent / spec))
+        spec=(spec if spec is None or spec.is_absolute() else path.parent / spec), decoupled=decoupled)
 
 
 def _is_fid_folder(folder: Path) -> bool:

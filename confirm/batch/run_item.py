@@ -35,6 +35,8 @@ def _analysis_kwargs(item: BatchItem) -> dict:
         raise InputError(f"item {item.item_id}: no substrate/reagent, candidates or specification given")
     if item.nmr_solvent is not None:
         out["nmr_solvent"] = item.nmr_solvent
+    if item.decoupled:
+        out["decoupled"] = item.decoupled
     return out
 
 
@@ -69,10 +71,12 @@ def _analyse_item(item: BatchItem, item_dir: Path, spec: QcSpec | None, analyze:
     spec = read_spec(item.spec) if item.spec is not None else spec
     qc = None
     if spec is not None:
-        if item.nmr_solvent is not None:  # the manifest row knows this sample's solvent
-            from dataclasses import replace
+        from dataclasses import replace
 
+        if item.nmr_solvent is not None:  # the manifest row knows this sample's solvent
             spec = replace(spec, nmr_solvent=item.nmr_solvent)
+        if item.decoupled:  # ... and what was decoupled during its acquisition
+            spec = replace(spec, decoupled=tuple(dict.fromkeys(spec.decoupled + item.decoupled)))
         result, qc = run_qc(spec, item.spectrum, analyze=analyze)
         write_json_atomic(audit_record(result, qc), item_dir / "audit.json")
     else:

@@ -21,11 +21,11 @@ def register(subparsers, parents) -> None:
     parser = subparsers.add_parser(
         "batch", parents=parents, help="analyse many spectra (manifest CSV or folder) in parallel",
         description="Analyse every spectrum of a manifest CSV (columns: spectrum, substrate, reagent, "
-                    "candidates, id, reaction_solvent, nmr_solvent, temp_c, field_mhz, spec) or of a folder "
-                    "(with --spec; data sets one folder down are found too). A bad file is reported and the "
-                    "rest go on. A rerun skips an item only when its spectrum, chemistry, specification and "
-                    "options are unchanged and its result reads back. Exit 1 when any item failed or did not "
-                    "pass its QC check.",
+                    "candidates, id, reaction_solvent, nmr_solvent, temp_c, field_mhz, spec, decoupled) or "
+                    "of a folder (with --spec; data sets one folder down are found too). A bad file is "
+                    "reported and the rest go on. A rerun skips an item only when its spectrum, chemistry, "
+                    "specification and options are unchanged and its result reads back. Exit 1 when any item "
+                    "failed or did not pass its QC check.",
         epilog="Examples: confirm batch plate.csv --out results/ --jobs 2; confirm batch lots/ --spec "
                "spec.toml --out release/ (plate.csv: spectrum,candidates,nmr_solvent / "
                "a1.jdx,E=C/C=C/CC Z=C/C=C\\CC,CDCl3); confirm batch plate.csv --out results/ "

@@ -228,3 +228,27 @@ def test_manifest_rows_with_their_own_specification(tmp_path):
     assert [o.status for o in summary.outcomes] == ["done", "error"]
     assert summary.outcomes[0].qc_status == "PASS"
     assert "nope.toml" in summary.outcomes[1].error
+
+
+def test_a_manifest_row_says_which_nuclei_were_decoupled(tmp_path):
+    _write_spectra(tmp_path / "spectra", 2, z_values=(0.005, 0.05), terminal=0.0)
+    (tmp_path / "spec.toml").write_text(SPEC_TEXT)
+    cands = ";".join(CANDIDATES)
+    rows = ["id,spectrum,candidates,spec,decoupled", f"a,spectra/lot00.jdx,{cands},,19F",
+            "b,spectra/lot01.jdx,,spec.toml,F19;31P"]
+    (tmp_path / "m.csv").write_text("\n".join(rows) + "\n")
+    items = read_manifest(tmp_path / "m.csv")
+    assert [i.decoupled for i in items] == [("19F",), ("19F", "31P")]
+    log = tmp_path / "decoupled.log"
+
+    def recording(path, *, decoupled=(), nmr_solvent=None, **kwargs):  # items run in child processes
+        with log.open("a", encoding="utf-8") as fh:
+            fh.write(f"{path.name} {' '.join(decoupled)}\n")
+        return nnls_analyze(path, **kwargs)
+
+    summary = run_batch(items, tmp_path / "out", analyze=recording, write_reports=False, progress=False)
+    assert [o.status for o in summary.outcomes] == ["done", "done"]
+    assert sorted(log.read_text(encoding="utf-8").splitlines()) == ["lot00.jdx 19F", "lot01.jdx 19F 31P"]
+    (tmp_path / "bad.csv").write_text("spectrum,candidates,decoupled\nspectra/lot00.jdx,CC,13C\n")
+    with pytest.raises(InputError, match="manifest row 2: decoupled: expected one of 19F, 31P"):
+        read_manifest(tmp_path / "bad.csv")

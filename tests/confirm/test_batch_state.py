@@ -97,6 +97,7 @@ def test_the_fingerprint_covers_every_part_of_the_work(three):
         item_fingerprint(BatchItem(**{**item.__dict__, "reaction_solvent": "DMSO"}),
                          spectrum_sha256="a" * 64),
         item_fingerprint(BatchItem(**{**item.__dict__, "nmr_solvent": "DMSO-d6"}), spectrum_sha256="a" * 64),
+        item_fingerprint(BatchItem(**{**item.__dict__, "decoupled": ("19F",)}), spectrum_sha256="a" * 64),
         item_fingerprint(BatchItem(**{**item.__dict__, "temp_c": 0.0}), spectrum_sha256="a" * 64),
         item_fingerprint(BatchItem(**{**item.__dict__, "field_mhz": 60.0}), spectrum_sha256="a" * 64),
         item_fingerprint(item, spectrum_sha256="a" * 64, options={"write_reports": True}),
