@@ -333,10 +333,7 @@ def parse_spec(table: Mapping, *, sha256: str = "", source: str = "") -> QcSpec:
     decoupled = table.get("decoupled", [])
     if not isinstance(decoupled, list):
         raise InputError(f"spec decoupled: expected a list such as [\"19F\"], got {decoupled!r}")
-    try:
-        decoupled = check_nuclei(decoupled)
-    except InputError as exc:
-        raise InputError(f"spec decoupled: {exc}".replace("decoupled nucleus: ", "")) from None
+    decoupled = check_nuclei(decoupled, name="spec decoupled")
     return QcSpec(
         product=_smiles_entry(table["product"], name="product"),
         limits=QcLimits(**dict(limits)),

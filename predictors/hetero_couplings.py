@@ -309,8 +309,9 @@ def _binomial_groups(values: np.ndarray) -> list[tuple[int, float]]:
 
 
 # ------------------------------------------------------------------------------ decoupling
-def check_nuclei(nuclei) -> tuple[str, ...]:
-    """Normalise decoupled nucleus names (``"19F"``, ``"F19"``, ``"f"``, ``"31P"``...).
+def check_nuclei(nuclei, *, name: str = "decoupled nucleus") -> tuple[str, ...]:
+    """Normalise decoupled nucleus names (``"19F"``, ``"F19"``, ``"f"``, ``"31P"``...); ``name``
+    opens the error message (the option, key or column the names came from).
 
     Raises
     ------
@@ -322,11 +323,11 @@ def check_nuclei(nuclei) -> tuple[str, ...]:
     out = []
     for raw in nuclei or ():
         text = str(raw).strip().upper().replace("-", "").replace("{", "").replace("}", "")
-        name = {"19F": "19F", "F19": "19F", "F": "19F", "31P": "31P", "P31": "31P", "P": "31P"}.get(text)
-        if name is None:
-            raise InputError(f"decoupled nucleus: expected one of {', '.join(X_NUCLEI)}, got {raw!r}")
-        if name not in out:
-            out.append(name)
+        nucleus = {"19F": "19F", "F19": "19F", "F": "19F", "31P": "31P", "P31": "31P", "P": "31P"}.get(text)
+        if nucleus is None:
+            raise InputError(f"{name}: expected one of {', '.join(X_NUCLEI)}, got {raw!r}")
+        if nucleus not in out:
+            out.append(nucleus)
     return tuple(out)
 
 

@@ -155,11 +155,8 @@ def _manifest_item(path: Path, row_number: int, raw: dict) -> BatchItem:
     spectrum = spectrum if spectrum.is_absolute() else path.parent / spectrum
     spec = Path(row["spec"]) if row.get("spec") else None
     temp_c = _optional_float(row.get("temp_c"), name="temp_c", row=row_number)
-    try:
-        decoupled = check_nuclei([n for n in re.split(r"[;\s]+", row.get("decoupled", "")) if n])
-    except InputError as exc:
-        message = str(exc).replace("decoupled nucleus: ", "")
-        raise InputError(f"manifest row {row_number}: decoupled: {message}") from None
+    decoupled = check_nuclei([n for n in re.split(r"[;\s]+", row.get("decoupled", "")) if n],
+                             name=f"manifest row {row_number}: decoupled")
     return BatchItem(
         item_id=row.get("id") or spectrum.stem, spectrum=spectrum,
         substrate=row.get("substrate") or None, reagent=row.get("reagent") or None,

@@ -120,10 +120,7 @@ def _run(args: argparse.Namespace) -> int:
     check_file_targets([("--report", args.report)])
     from predictors.hetero_couplings import check_nuclei
 
-    try:
-        decoupled = check_nuclei(args.decoupled or ())
-    except InputError as exc:
-        raise InputError(f"--decoupled: {exc}".replace("decoupled nucleus: ", "")) from None
+    decoupled = check_nuclei(args.decoupled or (), name="--decoupled")
     standard = standard_from_args(args)
     budget = budget_from_args(args)
     options = {"substrate": args.substrate, "reagent": args.reagent, "candidates": args.candidates,

@@ -81,10 +81,7 @@ def _run(args) -> int:
     from confirm.structures import check_smiles
     from predictors.hetero_couplings import check_nuclei, without_x_couplings
 
-    try:
-        decoupled = check_nuclei(args.decoupled or ())
-    except InputError as exc:
-        raise InputError(f"--decoupled: {exc}".replace("decoupled nucleus: ", "")) from None
+    decoupled = check_nuclei(args.decoupled or (), name="--decoupled")
     predicted = predict_spin_system(check_smiles(args.smiles, name="smiles"), solvent=solvent)
     system = without_x_couplings(predicted, decoupled)
     if args.plot is not None:
