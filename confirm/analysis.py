@@ -231,11 +231,12 @@ def _decouple(systems, asked: tuple[str, ...], spectrum: Spectrum) -> tuple[tupl
     The nuclei are those the user named (``asked``) and those the file's acquisition record names.
     The record (``decoupled_nuclei``, ``decoupled_source``) is empty when no nucleus is decoupled.
     """
+    from predictors.core import X_NUCLEI
     from predictors.hetero_couplings import check_nuclei, without_x_couplings
 
     acquisition = spectrum.metadata.get("acquisition") or {}
     from_file = check_nuclei(tuple(acquisition.get("decoupled_nuclei") or ()))
-    nuclei = tuple(n for n in ("19F", "31P") if n in asked or n in from_file)
+    nuclei = tuple(n for n in X_NUCLEI if n in asked or n in from_file)
     if not nuclei:
         return tuple(systems), {}
     source = {n: ("the file and the user" if n in asked and n in from_file
