@@ -203,7 +203,10 @@ def test_ctrl_c_ends_the_local_cluster_at_once_and_writes_the_summary(tmp_path):
     rows = ["spectrum,candidates"] + [f"{i.spectrum},{' '.join(CANDIDATES)}" for i in items]
     seconds, proc, stdout, stderr, out, pids = interrupt_slow_batch(
         tmp_path, rows, options='"--scheduler", "local", ', start_within_s=90.0)
-    assert seconds < 3.0
+    # The unfinished items sleep 120 s: an exit within 10 s did not wait for them. Closing the local
+    # cluster (scheduler, nannies) took 0.5-2.7 s here (idle) and 3.25 s on a loaded CI machine; a
+    # tighter bound would time the machine, not the interrupt.
+    assert seconds < 10.0
     assert proc.returncode == 130, stderr.decode()
     assert b"Traceback" not in stderr and b"internal error" not in stderr
     assert stdout.decode().splitlines()[-1].startswith("Interrupted: 1 of 4 items finished")
