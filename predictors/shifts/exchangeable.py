@@ -62,6 +62,8 @@ def _exchangeable_group(parent) -> tuple[str, str, tuple[str, ...]]:
         if not heavy:
             return "OH_alcohol", "OH", ("water",)
         x = heavy[0]
+        if x.GetIsAromatic() and _chelating_neighbour(x):
+            return "OH_chelated", "OH", ()
         group = ("OH_acid" if _is_carbonyl(x) else "OH_phenol" if x.GetIsAromatic()
                  else "OH_enol" if _is_unsaturated_carbon(x) else "OH_alcohol")
         return group, "OH", ()
@@ -72,8 +74,29 @@ def _exchangeable_group(parent) -> tuple[str, str, tuple[str, ...]]:
     if any(_is_carbonyl(n) for n in heavy):
         return "NH_amide", "NH", ()
     if any(n.GetIsAromatic() for n in heavy):
+        if any(n.GetIsAromatic() and _chelating_neighbour(n) for n in heavy):
+            return "NH_aryl_chelated", "NH", ()
         return "NH_aryl", "NH", ()
     return "NH_amine", "NH", ()
+
+
+def _chelating_neighbour(ring_carbon) -> bool:
+    """True when an aromatic ring atom next to ``ring_carbon`` carries a C=O group or a nitro
+    group: an OH or NH on ``ring_carbon`` then forms a six-membered intramolecular hydrogen bond
+    (salicylaldehyde, methyl salicylate, 2-nitrophenol, 2-nitroaniline) and resonates far
+    downfield of a free one, almost independent of concentration and solvent."""
+    for y in ring_carbon.GetNeighbors():
+        if not (y.GetIsAromatic() and y.IsInRing()) or y.GetIdx() == ring_carbon.GetIdx():
+            continue
+        for z in y.GetNeighbors():
+            if z.GetIdx() == ring_carbon.GetIdx() or z.GetIsAromatic():
+                continue
+            oxo = _double_partner(z) if z.GetSymbol() == "C" else None
+            if oxo is not None and oxo.GetSymbol() == "O":
+                return True
+            if z.GetSymbol() == "N" and sum(1 for o in z.GetNeighbors() if o.GetSymbol() == "O") == 2:
+                return True
+    return False
 
 
 def _is_pyridone_nh(parent, heavy) -> bool:

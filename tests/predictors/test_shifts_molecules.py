@@ -245,3 +245,22 @@ def test_exchangeable_h_by_solvent():
     amide = predict_spin_system("CC(=O)NC", n_conformers=1, solvent="DMSO-d6")
     nh = next(s for s in amide.sites if s.label == "NH")
     assert 7.5 <= nh.shift_ppm <= 10.0  # secondary amide NH in DMSO-d6 (common practice)
+
+
+@pytest.mark.parametrize("smiles, label, observed", [
+    # phenol OH hydrogen-bonded to an ortho C=O or NO2 (six-membered chelate), CDCl3; literature
+    # values (from memory): methyl salicylate 10.76, salicylaldehyde 11.03, 2-nitrophenol 10.58,
+    # 2'-hydroxyacetophenone 12.25; 2-nitroaniline NH2 6.1
+    ("COC(=O)c1ccccc1O", "OH", 10.76),
+    ("O=Cc1ccccc1O", "OH", 11.03),
+    ("Oc1ccccc1[N+](=O)[O-]", "OH", 10.58),
+    ("CC(=O)c1ccccc1O", "OH", 12.25),
+    ("Nc1ccccc1[N+](=O)[O-]", "NH", 6.1),
+])
+def test_chelated_oh_and_nh_lie_far_downfield_of_free_ones(smiles, label, observed):
+    site = next(s for s in predict_spin_system(smiles, n_conformers=1).sites if s.label == label)
+    assert abs(site.shift_ppm - observed) <= 2 * site.shift_sd_ppm
+    assert abs(site.shift_ppm - observed) <= 1.3
+    # the same group para to the OH forms no chelate: a plain phenol OH (4-8 ppm, common practice)
+    para = next(s for s in predict_spin_system("Oc1ccc(C=O)cc1", n_conformers=1).sites if s.label == "OH")
+    assert para.shift_ppm < 8.0
