@@ -464,6 +464,11 @@ class SiteEvidence:
     outside_range : bool
         A diagnostic vinyl multiplet the data pull to the edge of its shift window (3 sd from the
         prediction): counted as missing.
+    integral_amount, integral_amount_sd : float
+        The candidate's mole fraction (same scale as ``amount``) from the integral over the window
+        that holds this multiplet (with the candidate's other multiplets that overlap it), and its
+        sd; NaN when that window was not integrated (shared with other components, or cut short
+        by lines the fitted multiplet does not reach) or the candidate is not detected.
     """
 
     site: int
@@ -481,6 +486,8 @@ class SiteEvidence:
     j_hz: tuple[float, ...] = ()
     j_predicted_hz: tuple[float, ...] = ()
     outside_range: bool = False
+    integral_amount: float = math.nan
+    integral_amount_sd: float = math.nan
 
     def to_json(self) -> dict:
         """Plain-type dictionary (the ``evidence`` entries of the analyze JSON)."""
@@ -494,6 +501,7 @@ class SiteEvidence:
             "missing": self.missing, "shape_match": num(self.shape_match), "overlap": num(self.overlap),
             "j_hz": list(self.j_hz), "j_predicted_hz": list(self.j_predicted_hz),
             "outside_range": self.outside_range,
+            "integral_amount": num(self.integral_amount), "integral_amount_sd": num(self.integral_amount_sd),
         }
 
 

@@ -318,7 +318,10 @@ def _assemble(spectrum, systems, candidates, models, grid, basis, refined, views
     ev = _with_resolution_spread(ev, best, grid, basis, models, noise_bin * corr, options.model_error,
                                  lw_hz / field)
     ev = _with_carrier_spread(ev)
-    evaluations = [ev] + [_evaluate_with(views[i], models, view_grid, view_basis, ev.detected, settings)
+    ev = _with_integrals(ev, best, grid, basis, models, noise_bin * corr)
+    evaluations = [ev] + [_with_integrals(_evaluate_with(views[i], models, view_grid, view_basis, ev.detected,
+                                                         settings), refined[i], grid, basis, models,
+                                          noise_bin * corr)
                           for i in kept[1:]]
     k = len(candidates)
     frac, frac_cov, fracs = averaged_fractions(evaluations, weights[kept], ev.detected)
@@ -407,6 +410,41 @@ def _with_carrier_spread(ev):
     if not spread.any():
         return ev
     return replace(ev, cov=ev.cov + np.diag(spread**2))
+
+
+def _with_integrals(ev, refined, grid, basis, models, noise_sd: float):
+    """``ev`` with the amounts of the detected candidates taken from integrals over their own
+    multiplets where they have any (see :mod:`confirm.fitting.integrals`). Their sd is that of the
+    integrals with the difference from the fitted amount added in quadrature: two readings of one
+    amount that disagree mean a systematic error the data do not resolve (as in
+    :func:`_with_carrier_spread`); the correlations of the fit are kept."""
+    from dataclasses import replace
+
+    from confirm.fitting.integrals import integral_amounts
+    from confirm.fitting.linear import solve_amounts
+
+    if not ev.detected.any():
+        return ev
+    nuisance = np.array([m.nuisance for m in models])
+    use = ev.detected | nuisance
+    amounts = np.zeros(len(models))
+    amounts[use], base = solve_amounts(refined.cols[use], basis, grid.y, grid.weight)
+    n_sites = [m.n_sites for m in models]
+    offsets = np.cumsum([0] + n_sites)[:-1]
+    found = integral_amounts(grid, refined.per_site, offsets, n_sites, amounts, basis @ base, ev.detected,
+                             noise_sd, width_ppm=float(np.median(refined.widths_ppm)))
+    if not found:
+        return ev
+    new = ev.amounts.copy()
+    sd_old = np.sqrt(np.clip(np.diag(ev.cov), 0, None))
+    sd_new = sd_old.copy()
+    for k, (value, sd, _) in found.items():
+        new[k], sd_new[k] = value, float(np.hypot(sd, value - ev.amounts[k]))
+    safe = np.where(sd_old > 0, sd_old, 1.0)
+    corr = np.where(np.outer(sd_old > 0, sd_old > 0), ev.cov / np.outer(safe, safe), 0.0)
+    np.fill_diagonal(corr, 1.0)
+    return replace(ev, amounts=new, cov=corr * np.outer(sd_new, sd_new),
+                   integrals={k: readings for k, (_, _, readings) in found.items()})
 
 
 def _model_on(grid, basis, refined, ev, models) -> np.ndarray:

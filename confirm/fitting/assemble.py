@@ -12,7 +12,7 @@ detected fractions sum to 1; an undetected one has no value, only a 95 % upper b
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -42,6 +42,8 @@ class Evaluation:
     readings: list
     var: np.ndarray
     model: np.ndarray
+    #: candidate -> its integral readings (:class:`confirm.fitting.integrals.IntegralReading`)
+    integrals: dict = field(default_factory=dict)
 
 
 def rank_fits(objectives: np.ndarray) -> np.ndarray:
@@ -211,7 +213,8 @@ def component_fits(candidates, systems, models, refined, ev: Evaluation, frac, f
         lod = (1.0 if not np.isfinite(lod_amount) or total + lod_amount <= 0
                else lod_amount / (total + lod_amount))
         shifts, jvals = lay.shifts(refined.theta)[k], lay.jvals(refined.theta)[k]
-        sites = _site_evidence(system, model, ev.readings[k], p, shifts, jvals, total)
+        sites = _site_evidence(system, model, ev.readings[k], p, shifts, jvals, total,
+                               ev.integrals.get(k, ()))
         out.append(ComponentFit(
             candidate=cand,
             mole_fraction=float(np.clip(frac[k], 0.0, 1.0)) if detected else None,
@@ -239,13 +242,15 @@ def _quoted_couplings(model, j: np.ndarray, s: int) -> tuple:
     return tuple(round(v, 1) for v in sorted(big, reverse=True))
 
 
-def _site_evidence(system, model, readings, presence, shifts, jvals, total: float) -> tuple:
+def _site_evidence(system, model, readings, presence, shifts, jvals, total: float, integrals=()) -> tuple:
     from confirm.fitting.models import coupling_matrix
 
     j_fit = coupling_matrix(model, jvals)
     scale = 1.0 / total if total > 0 else 0.0
+    window = {s: w for w in integrals for s in w.sites}
     out = []
     for s, r in enumerate(readings):
+        w = window.get(s)
         site_index = model.groups[s][0]
         site = system.sites[site_index]
         out.append(SiteEvidence(
@@ -264,6 +269,8 @@ def _site_evidence(system, model, readings, presence, shifts, jvals, total: floa
             j_hz=_quoted_couplings(model, j_fit, s),
             j_predicted_hz=_quoted_couplings(model, model.j0, s),
             outside_range=s in presence.outside,
+            integral_amount=float(w.amount * scale) if w is not None else float("nan"),
+            integral_amount_sd=float(w.sd * scale) if w is not None else float("nan"),
         ))
     return tuple(out)
 

@@ -171,6 +171,18 @@ def test_numbers_are_coherent():
         assert len(c.site_evidence) == len(c.evidence) > 0
     cov = fit.fraction_covariance
     assert cov.shape == (3, 3) and np.allclose(cov, cov.T)
+    # the amounts of the detected isomers are integrated over their own vinyl multiplets (clean at
+    # 400 MHz); each integrated multiplet reports its reading, near the component's amount, and an
+    # undetected component reports none
+    for c in detected:
+        read = [e for e in c.site_evidence if np.isfinite(e.integral_amount)]
+        assert read and all(e.integral_amount_sd > 0 for e in read)
+        assert any("vinyl" in e.label.lower() for e in read)
+        share = c.mole_fraction
+        assert all(abs(e.integral_amount - share) < max(0.05, 4 * e.integral_amount_sd) for e in read)
+    assert all(not np.isfinite(e.integral_amount) for c in fit.components if not c.detected
+               for e in c.site_evidence)
+    assert "integral_amount" in fit.components[0].site_evidence[0].to_json()
 
 
 @pytest.mark.slow
