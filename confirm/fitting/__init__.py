@@ -417,7 +417,9 @@ def _with_integrals(ev, refined, grid, basis, models, noise_sd: float):
     multiplets where they have any (see :mod:`confirm.fitting.integrals`). Their sd is that of the
     integrals with the difference from the fitted amount added in quadrature: two readings of one
     amount that disagree mean a systematic error the data do not resolve (as in
-    :func:`_with_carrier_spread`); the correlations of the fit are kept."""
+    :func:`_with_carrier_spread`); the correlations of the fit are kept. Where the best window
+    passes its tests only in part (weight below 1), amount and variance are blended with the
+    fitted ones by that weight."""
     from dataclasses import replace
 
     from confirm.fitting.integrals import integral_amounts
@@ -438,13 +440,16 @@ def _with_integrals(ev, refined, grid, basis, models, noise_sd: float):
     new = ev.amounts.copy()
     sd_old = np.sqrt(np.clip(np.diag(ev.cov), 0, None))
     sd_new = sd_old.copy()
-    for k, (value, sd, _) in found.items():
-        new[k], sd_new[k] = value, float(np.hypot(sd, value - ev.amounts[k]))
+    for k, (value, sd, _, weight) in found.items():
+        # a window only partly passing its tests blends the two readings (no jump at a threshold)
+        new[k] = weight * value + (1.0 - weight) * ev.amounts[k]
+        sd_new[k] = float(np.sqrt(weight * (sd**2 + (value - ev.amounts[k]) ** 2)
+                                  + (1.0 - weight) * sd_old[k] ** 2))
     safe = np.where(sd_old > 0, sd_old, 1.0)
     corr = np.where(np.outer(sd_old > 0, sd_old > 0), ev.cov / np.outer(safe, safe), 0.0)
     np.fill_diagonal(corr, 1.0)
     return replace(ev, amounts=new, cov=corr * np.outer(sd_new, sd_new),
-                   integrals={k: readings for k, (_, _, readings) in found.items()})
+                   integrals={k: readings for k, (_, _, readings, _) in found.items()})
 
 
 def _model_on(grid, basis, refined, ev, models) -> np.ndarray:

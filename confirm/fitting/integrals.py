@@ -13,8 +13,10 @@ need no correction). The local baseline is a straight line through the fit's res
 the window. A window gives a reading only when the others' fitted area in it is below a tenth of
 the component's and its flanks hold no structure: a residual scattering beyond the noise there
 means measured lines the fitted multiplet does not reach (a diastereotopic CH2 whose two shifts
-collapsed), and the window would cut the multiplet. The readings of one component are combined by
-inverse variance, the Birge ratio widening the sd when they disagree.
+collapsed), and the window would cut the multiplet. Near either threshold a window counts in part
+(:func:`_ramp`), so that rounding cannot switch a whole reading on or off. The readings of one
+component are combined by inverse variance (times their weights), the Birge ratio widening the sd
+when they disagree.
 """
 
 from __future__ import annotations
@@ -49,6 +51,14 @@ class IntegralReading:
     amount: float
     sd: float
     others_share: float
+    weight: float = 1.0  # how fully the window passes the clean and flank tests (see _ramp)
+
+
+def _ramp(ratio: float) -> float:
+    """Weight of a window from a test statistic over its threshold: 1 up to 0.75, 0 from 1.25,
+    linear between. A window near a threshold then counts a little, and a rounding difference that
+    moves the statistic across the threshold moves the amount a little, not by the whole reading."""
+    return float(np.clip((1.25 - ratio) / 0.5, 0.0, 1.0))
 
 
 def _runs(mask: np.ndarray) -> tuple:
@@ -97,11 +107,12 @@ def _flank_line(residual: np.ndarray, mask: np.ndarray, weight: np.ndarray, box:
     (``box`` points on each side, where unmasked), as an integration tool's bias-and-slope
     correction: the fitted baseline is a smooth curve over the whole region and leaves a local
     offset (a broad line's wing, a roll) that an integral over a wide window would sum. Returns the
-    line on every point, the variance of its level in units of the point noise variance, and
-    whether a flank holds structure rather than an offset (its residual scatters by more than
-    :data:`_FLANK_SCATTER` noise sd and by more than :data:`_FLANK_SHARE` of the multiplet's fitted
-    ``peak``, beyond what the line tails' shape errors leave: measured lines the fitted multiplet does
-    not reach, so the window cuts the multiplet and gives no reading)."""
+    line on every point, the variance of its level in units of the point noise variance, and how
+    much structure rather than offset a flank holds: its residual scatter over the larger of
+    :data:`_FLANK_SCATTER` noise sd and :data:`_FLANK_SHARE` of the multiplet's fitted ``peak``
+    (beyond what the line tails' shape errors leave). Above 1 the flank holds measured lines the
+    fitted multiplet does not reach, so the window cuts the multiplet (see :func:`_ramp`).
+    """
     idx = np.flatnonzero(mask)
     lo, hi = int(idx[0]), int(idx[-1])
     n = residual.size
@@ -114,13 +125,14 @@ def _flank_line(residual: np.ndarray, mask: np.ndarray, weight: np.ndarray, box:
                           float(np.std(residual[pts]))))
     line = np.zeros(n)
     if not sides:
-        return line, 0.0, False
-    structured = any(side[3] > max(_FLANK_SCATTER * noise_sd, _FLANK_SHARE * peak) for side in sides)
+        return line, 0.0, 0.0
+    limit = max(_FLANK_SCATTER * noise_sd, _FLANK_SHARE * peak, 1e-300)
+    structure = max(side[3] for side in sides) / limit
     if len(sides) == 1:
-        return line + sides[0][1], 1.0 / sides[0][2], structured
+        return line + sides[0][1], 1.0 / sides[0][2], structure
     (x0, y0, n0, _), (x1, y1, n1, _) = sides
     t = (np.arange(n) - x0) / max(x1 - x0, 1.0)
-    return y0 + (y1 - y0) * t, 0.5 * (1.0 / n0 + 1.0 / n1), structured
+    return y0 + (y1 - y0) * t, 0.5 * (1.0 / n0 + 1.0 / n1), structure
 
 
 def integral_amounts(grid, per_site: np.ndarray, offsets, n_sites, amounts: np.ndarray, baseline: np.ndarray,
@@ -149,7 +161,9 @@ def integral_amounts(grid, per_site: np.ndarray, offsets, n_sites, amounts: np.n
     Returns
     -------
     dict
-        Candidate index -> (amount, sd, readings) for those with at least one clean window.
+        Candidate index -> (amount, sd, readings, weight) for those with at least one window that
+        counts; ``weight`` (0-1] is the largest of the readings' weights (how fully the best window
+        passes the clean and flank tests).
     """
     cols = np.array([per_site[o:o + n].sum(0) for o, n in zip(offsets, n_sites, strict=True)])
     fitted = amounts[:, None] * cols
@@ -167,26 +181,28 @@ def integral_amounts(grid, per_site: np.ndarray, offsets, n_sites, amounts: np.n
                 continue
             other_area = float(others[mask].sum())
             expected = amounts[k] * unit
-            if expected <= 0 or abs(other_area) > _CLEAN_SHARE * expected:
+            if expected <= 0:
                 continue
-            level, level_var, structured = _flank_line(data - total, mask, grid.weight, flank, noise_sd,
-                                                       float(np.max(fitted[k][mask])))
-            if structured:
+            level, level_var, structure = _flank_line(data - total, mask, grid.weight, flank, noise_sd,
+                                                      float(np.max(fitted[k][mask])))
+            weight = _ramp(abs(other_area) / (_CLEAN_SHARE * expected)) * _ramp(structure)
+            if weight <= 0:
                 continue
             n_in = int(mask.sum())
             value = (float(data[mask].sum()) - other_area - float(level[mask].sum())) / unit
             var = (noise_sd**2 * n_in + n_in**2 * level_var * noise_sd**2
                    + (_OTHERS_ERROR * other_area) ** 2) / unit**2
-            readings.append(IntegralReading(sites, value, float(np.sqrt(var)), other_area / expected))
+            readings.append(IntegralReading(sites, value, float(np.sqrt(var)), other_area / expected, weight))
         if not readings:
             continue
         a = np.array([r.amount for r in readings])
-        w = 1.0 / np.array([r.sd for r in readings]) ** 2
+        f = np.array([r.weight for r in readings])
+        w = f / np.array([r.sd for r in readings]) ** 2
         mean = float(np.sum(w * a) / np.sum(w))
         sd = float(1.0 / np.sqrt(np.sum(w)))
         if len(readings) > 1:
             birge = float(np.sum(w * (a - mean) ** 2) / (len(readings) - 1))
             sd *= float(np.sqrt(max(1.0, birge)))
         if mean > 0:
-            out[int(k)] = (mean, sd, tuple(readings))
+            out[int(k)] = (mean, sd, tuple(readings), float(np.max(f)))
     return out
