@@ -86,7 +86,7 @@ def _chelating_neighbour(ring_carbon) -> bool:
     (salicylaldehyde, methyl salicylate, 2-nitrophenol, 2-nitroaniline) and resonates far
     downfield of a free one, almost independent of concentration and solvent."""
     for y in ring_carbon.GetNeighbors():
-        if not (y.GetIsAromatic() and y.IsInRing()) or y.GetIdx() == ring_carbon.GetIdx():
+        if not (y.GetIsAromatic() and y.IsInRing()):
             continue
         for z in y.GetNeighbors():
             if z.GetIdx() == ring_carbon.GetIdx() or z.GetIsAromatic():
