@@ -423,18 +423,14 @@ def _with_integrals(ev, refined, grid, basis, models, noise_sd: float):
     from dataclasses import replace
 
     from confirm.fitting.integrals import integral_amounts
-    from confirm.fitting.linear import solve_amounts
 
     if not ev.detected.any():
         return ev
-    nuisance = np.array([m.nuisance for m in models])
-    use = ev.detected | nuisance
-    amounts = np.zeros(len(models))
-    amounts[use], base = solve_amounts(refined.cols[use], basis, grid.y, grid.weight)
+    amounts, base = _full_resolution_amounts(grid, basis, refined, ev, models)
     n_sites = [m.n_sites for m in models]
     offsets = np.cumsum([0] + n_sites)[:-1]
-    found = integral_amounts(grid, refined.per_site, offsets, n_sites, amounts, basis @ base, ev.detected,
-                             noise_sd, width_ppm=float(np.median(refined.widths_ppm)))
+    found = integral_amounts(grid, refined.per_site, refined.cols, offsets, n_sites, amounts, basis @ base,
+                             ev.detected, noise_sd, width_ppm=float(np.median(refined.widths_ppm)))
     if not found:
         return ev
     new = ev.amounts.copy()
@@ -452,9 +448,9 @@ def _with_integrals(ev, refined, grid, basis, models, noise_sd: float):
                    integrals={k: readings for k, (_, _, readings, _) in found.items()})
 
 
-def _model_on(grid, basis, refined, ev, models) -> np.ndarray:
-    """The fitted spectrum at full resolution: the refined columns of the components present and of
-    the solvent lines, with their amounts and the baseline solved on the full-resolution data."""
+def _full_resolution_amounts(grid, basis, refined, ev, models) -> tuple:
+    """Amounts (0 for the candidates not present) and baseline coefficients of the refined columns
+    of the components present and of the solvent lines, solved on the full-resolution data."""
     from confirm.fitting.linear import solve_amounts
 
     use = ev.detected | np.array([m.nuisance for m in models])
@@ -463,6 +459,12 @@ def _model_on(grid, basis, refined, ev, models) -> np.ndarray:
         amounts[use], base = solve_amounts(refined.cols[use], basis, grid.y, grid.weight)
     else:
         _, base = solve_amounts(np.zeros((1, grid.x.size)), basis, grid.y, grid.weight)
+    return amounts, base
+
+
+def _model_on(grid, basis, refined, ev, models) -> np.ndarray:
+    """The fitted spectrum at full resolution (see :func:`_full_resolution_amounts`)."""
+    amounts, base = _full_resolution_amounts(grid, basis, refined, ev, models)
     return amounts @ refined.cols + basis @ base
 
 

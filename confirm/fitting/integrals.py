@@ -135,8 +135,9 @@ def _flank_line(residual: np.ndarray, mask: np.ndarray, weight: np.ndarray, box:
     return y0 + (y1 - y0) * t, 0.5 * (1.0 / n0 + 1.0 / n1), structure
 
 
-def integral_amounts(grid, per_site: np.ndarray, offsets, n_sites, amounts: np.ndarray, baseline: np.ndarray,
-                     detected: np.ndarray, noise_sd: float, *, width_ppm: float) -> dict:
+def integral_amounts(grid, per_site: np.ndarray, cols: np.ndarray, offsets, n_sites, amounts: np.ndarray,
+                     baseline: np.ndarray, detected: np.ndarray, noise_sd: float, *,
+                     width_ppm: float) -> dict:
     """Integral readings and combined amount of each detected component.
 
     Parameters
@@ -145,6 +146,8 @@ def integral_amounts(grid, per_site: np.ndarray, offsets, n_sites, amounts: np.n
         Full-resolution fitting grid.
     per_site : ndarray
         Unit-amount column of every site of every model (in model order).
+    cols : ndarray
+        Unit-amount column of every model (the sum of its sites' columns).
     offsets, n_sites : sequence of int
         First row and number of rows of each model in ``per_site``.
     amounts : ndarray
@@ -165,7 +168,6 @@ def integral_amounts(grid, per_site: np.ndarray, offsets, n_sites, amounts: np.n
         counts; ``weight`` (0-1] is the largest of the readings' weights (how fully the best window
         passes the clean and flank tests).
     """
-    cols = np.array([per_site[o:o + n].sum(0) for o, n in zip(offsets, n_sites, strict=True)])
     fitted = amounts[:, None] * cols
     total = fitted.sum(0)
     data = grid.y - baseline

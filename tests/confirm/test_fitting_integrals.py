@@ -39,7 +39,8 @@ def _doublet(x, centre, j_hz, height=1.0):
 def _read(y, per_site, offsets, n_sites, amounts, noise=1e-3, baseline=None):
     grid = _grid(y)
     base = np.zeros(y.size) if baseline is None else baseline
-    return integral_amounts(grid, per_site, offsets, n_sites, np.asarray(amounts, float), base,
+    cols = np.array([per_site[o:o + n].sum(0) for o, n in zip(offsets, n_sites, strict=True)])
+    return integral_amounts(grid, per_site, cols, offsets, n_sites, np.asarray(amounts, float), base,
                             np.ones(len(n_sites), bool), noise, width_ppm=1.0 / FIELD)
 
 
