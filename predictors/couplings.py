@@ -36,6 +36,7 @@ __all__ = [
     "garbisch_allylic",
     "predict_couplings",
     "predict_one_bond_ch",
+    "slow_exchange_protons",
 ]
 
 _RT_KCAL = 0.0019872 * 298.15
@@ -229,7 +230,8 @@ def garbisch_allylic(phi_deg) -> np.ndarray:
 
 # -------------------------------------------------------------------------------- driver
 def predict_couplings(model: Chem.Mol, conformers: ConformerSet, relations: dict[int, AlkeneRelation],
-                      *, exchangeable=frozenset(), pseudo_atoms=frozenset()) -> tuple[np.ndarray, np.ndarray]:
+                      *, exchangeable=frozenset(), pseudo_atoms=frozenset(),
+                      slow_exchange=frozenset()) -> tuple[np.ndarray, np.ndarray]:
     """Coupling constants between every pair of H atoms.
 
     Parameters
@@ -246,6 +248,11 @@ def predict_couplings(model: Chem.Mol, conformers: ConformerSet, relations: dict
         Atoms of de-aromatised 2-pyridone / 2-pyranone / coumarin-type rings
         (:func:`~predictors.shifts.prepare_model_molecule`): their ring 3J come from the
         ``pseudo_*`` rows of ``data/couplings.csv``, not from open-chain alkene rules.
+    slow_exchange : set of int, keyword-only
+        Those of ``exchangeable`` that exchange slowly in the sample's solvent (alcohol OH and
+        amide NH in DMSO-d6, :func:`slow_exchange_protons`): they couple to the H on the carbon
+        next to their O or N (``hcoh_slow_*`` and ``hnch_amide_*`` rows, rotational averages)
+        and to nothing else.
 
     Returns
     -------
@@ -265,7 +272,51 @@ def predict_couplings(model: Chem.Mol, conformers: ConformerSet, relations: dict
             value, err = _pair_coupling(model, path, conformers, relations, pseudo_atoms)
             j[h1, h2] = j[h2, h1] = value
             sd[h1, h2] = sd[h2, h1] = err
+    for h1 in sorted(set(slow_exchange) & set(exchangeable)):
+        for h2, value, err in _slow_exchange_vicinal(model, h1):
+            j[h1, h2] = j[h2, h1] = value
+            sd[h1, h2] = sd[h2, h1] = err
     return j, sd
+
+
+def slow_exchange_protons(mol_h: Chem.Mol, exchangeable, solvent_key: str | None) -> frozenset:
+    """The exchangeable H that exchange slowly enough to show their couplings: in DMSO-d6 (a strong
+    hydrogen-bond acceptor that holds them) the OH of alcohols and the NH of amides; none in other
+    solvents (in CDCl3 traces of acid and water average them away; D2O and CD3OD replace them)."""
+    if solvent_key != "DMSO-d6":
+        return frozenset()
+    out = set()
+    for h in exchangeable:
+        parent = mol_h.GetAtomWithIdx(int(h)).GetNeighbors()[0]
+        carbons = [n for n in parent.GetNeighbors() if n.GetSymbol() == "C"]
+        alcohol = parent.GetSymbol() == "O" and bool(carbons) and all(_is_sp3(c) for c in carbons)
+        amide = parent.GetSymbol() == "N" and not parent.GetIsAromatic() and any(_is_acyl(c) for c in carbons)
+        if alcohol or amide:
+            out.add(int(h))
+    return frozenset(out)
+
+
+def _is_acyl(carbon) -> bool:
+    return any(b.GetBondType() == Chem.BondType.DOUBLE and b.GetOtherAtom(carbon).GetSymbol() in ("O", "S")
+               for b in carbon.GetBonds())
+
+
+def _slow_exchange_vicinal(mol, h: int) -> list:
+    """(H, 3J, sd) to every H on an sp3 carbon next to the O or N that carries ``h``."""
+    parent = mol.GetAtomWithIdx(h).GetNeighbors()[0]
+    out = []
+    for carbon in parent.GetNeighbors():
+        if carbon.GetSymbol() != "C" or not _is_sp3(carbon):
+            continue
+        hs = [n.GetIdx() for n in carbon.GetNeighbors() if n.GetAtomicNum() == 1]
+        if not hs:
+            continue
+        if parent.GetSymbol() == "O":
+            name = "hcoh_slow_ch" if len(hs) == 1 else "hcoh_slow_ch2"
+        else:
+            name = {1: "hnch_amide_ch", 2: "hnch_amide_ch2"}.get(len(hs), "hnch_amide_ch3")
+        out += [(x, _c(name), _sd(name)) for x in hs]
+    return out
 
 
 def _pair_coupling(mol, path, conformers, relations, pseudo_atoms=frozenset()) -> tuple[float, float]:

@@ -16,7 +16,7 @@ import numpy as np
 from rdkit import Chem
 
 from predictors.core import ProtonSite, SpinSystem
-from predictors.couplings import embed_conformers, predict_couplings
+from predictors.couplings import embed_conformers, predict_couplings, slow_exchange_protons
 from predictors.equivalence import (
     amide_rotamer_branches,
     check_magnetic_equivalence,
@@ -35,6 +35,7 @@ from predictors.shifts import (
     split_amide_rotamer_shifts,
     split_diastereotopic,
 )
+from predictors.shifts.exchangeable import nmr_solvent_key
 
 __all__ = ["predict_spin_system", "proton_shift_estimates", "first_order_multiplicity", "second_order_pairs",
            "MULTIPLET_NAMES", "FIRST_ORDER_RATIO"]
@@ -97,7 +98,9 @@ def predict_spin_system(molecule, *, n_conformers: int = 10, seed: int = 0xC0FFE
     conformers = embed_conformers(mol_h, n_conformers=int(n_conformers), seed=seed)
     shifts = _shift_estimates(mol_h, model, pseudo, relations, groups, amide_branches, solvent=solvent)
     exchangeable = frozenset(h for h, est in shifts.items() if est.exchangeable)
+    slow = slow_exchange_protons(mol_h, exchangeable, nmr_solvent_key(solvent)[0])
     j_atom, sd_atom = predict_couplings(model, conformers, relations, exchangeable=exchangeable,
+                                        slow_exchange=slow,
                                         pseudo_atoms=pseudo)
     groups = _split_by_partners(mol_h, groups, _rotor_averaged(mol_h, groups, j_atom))
     averaged = _rotor_averaged(mol_h, groups, j_atom)

@@ -156,3 +156,40 @@ def test_acyclic_vicinal_coupling_is_the_free_rotation_average(smiles, observed_
     assert values and all(abs(v - observed_hz) <= 0.8 for v in values)
     # the curve behind it: 7.8 Hz mean over the three staggered rotamers (references.md section 2)
     assert np.mean(karplus_simple(np.array([60.0, 180.0, 300.0]))) == pytest.approx(7.8)
+
+
+def _partner_couplings(system, label):
+    """Couplings (Hz) of the first site labelled ``label`` to every other site, largest first."""
+    k = next(i for i, s in enumerate(system.sites) if s.label == label)
+    return sorted((float(v) for v in np.abs(system.j_hz[k]) if v > 0.1), reverse=True)
+
+
+@pytest.mark.parametrize(("smiles", "label", "published_hz"), [
+    # DMSO-d6 (slow exchange): Gottlieb, Kotlyar, Nudelman, J. Org. Chem. 1997, 62, 7512, DMSO-d6
+    # column (from memory): ethanol OH t 5.1 Hz, methanol OH q 5.2 Hz, 2-propanol OH d about 4.2 Hz
+    ("CCO", "OH", 5.1),
+    ("CO", "OH", 5.2),
+    ("CC(C)O", "OH", 4.2),
+    # N-methylacetamide NH-CH3 about 4.6 Hz in DMSO-d6 (from memory)
+    ("CNC(C)=O", "NH", 4.6),
+])
+def test_oh_and_amide_nh_couple_in_dmso(smiles, label, published_hz):
+    system = predict_spin_system(smiles, n_conformers=2, solvent="DMSO-d6")
+    couplings = _partner_couplings(system, label)
+    assert couplings, f"{smiles}: no {label} coupling predicted in DMSO-d6"
+    assert couplings[0] == pytest.approx(published_hz, abs=1.0)
+
+
+@pytest.mark.parametrize("solvent", ["CDCl3", "D2O", None])
+def test_oh_and_nh_do_not_couple_in_fast_exchange(solvent):
+    # in CDCl3 traces of acid and water average the OH/NH couplings away (common practice)
+    for smiles, label in (("CCO", "OH"), ("CNC(C)=O", "NH")):
+        system = predict_spin_system(smiles, n_conformers=2, solvent=solvent)
+        assert _partner_couplings(system, label) == []
+
+
+def test_amine_nh_and_acid_oh_stay_uncoupled_in_dmso():
+    # amine NH exchange fast even in DMSO-d6; a COOH has no vicinal H (common practice)
+    for smiles, label in (("CCNCC", "NH"), ("CC(=O)O", "OH")):
+        system = predict_spin_system(smiles, n_conformers=2, solvent="DMSO-d6")
+        assert _partner_couplings(system, label) == []
