@@ -387,10 +387,24 @@ def analyze_path(
 
         check_budget(budget, "predictions")
         systems = predictions.result()
+    systems = _for_sample_solvent(systems, cands, sample_solvent, processed.spectrum.solvent)
     return analyze_spectrum(
         processed, cands, systems=systems, inputs=(record,), notes=notes, parameters=params, budget=budget,
         decoupled=decoupled,
     )
+
+
+def _for_sample_solvent(systems, candidates, predicted_for, found):
+    """``systems`` predicted again when processing found the sample in another NMR solvent than
+    the one they were predicted for (a header that says CDCl3 over a DMSO-d6 sample) and some
+    candidate has OH or NH, whose shifts and couplings depend on it."""
+    from predictors.shifts.exchangeable import nmr_solvent_key
+
+    if not found or nmr_solvent_key(found)[0] == nmr_solvent_key(predicted_for)[0]:
+        return systems
+    if not any(site.exchangeable for system in systems for site in system.sites):
+        return systems
+    return predict_systems(candidates, solvent=found)
 
 
 def analyze_peak_list(

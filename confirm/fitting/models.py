@@ -1,8 +1,9 @@
 """Working models of the candidates: the sites the fit moves, their couplings and their lines.
 
-A :class:`CandidateModel` holds one candidate's non-exchangeable sites with their predicted
-shifts, the window each may move in, the couplings that are refined with their bounds, and the
-one-bond 13C-1H couplings that place the 13C satellites. :func:`model_lines` simulates the
+A :class:`CandidateModel` holds one candidate's sites (exchangeable OH and NH only where they
+couple, in slow exchange) with their predicted shifts, the window each may move in, the couplings
+that are refined with their bounds, and the one-bond 13C-1H couplings that place the 13C
+satellites. :func:`model_lines` simulates the
 molecule (exact spin simulation of ``predictors.spin``; couplings to 19F or 31P, held at their
 predicted values, by one simulation per X spin state or first-order splits, ``predictors.spin.plan_x``)
 and adds the satellites.
@@ -39,7 +40,7 @@ _DEFAULT_J_SD_HZ = 1.0
 
 @dataclass
 class CandidateModel:
-    """Working copy of one candidate's spin system (non-exchangeable sites only)."""
+    """Working copy of one candidate's spin system (exchangeable sites only where they couple)."""
 
     groups: tuple  # per model site: the index of the SpinSystem site it stands for, as a 1-tuple
     shift0: np.ndarray  # predicted shifts (ppm)
@@ -84,7 +85,7 @@ class CandidateModel:
 
 def build_model(system: SpinSystem, options) -> CandidateModel:
     """The fit's model of one candidate (raises FitError when it has nothing to fit)."""
-    keep = [i for i, s in enumerate(system.sites) if not s.exchangeable]
+    keep = _fitted_sites(system)
     if not keep:
         raise FitError(f"systems: candidate {system.smiles} has no non-exchangeable protons to fit")
     j_full = np.asarray(system.j_hz, dtype=float)
@@ -144,6 +145,16 @@ def build_model(system: SpinSystem, options) -> CandidateModel:
         x_couplings=model_x,
         x_plan=_x_plan(model_x, system.smiles),
     )
+
+
+def _fitted_sites(system: SpinSystem) -> list:
+    """Sites the fit models: all but the exchangeable ones, except those that couple to another
+    site (an alcohol OH or amide NH in DMSO-d6, slow exchange: a sharp multiplet that also splits
+    its neighbour's). In fast exchange an OH or NH is a broad line of uncertain place and area."""
+    j = np.asarray(system.j_hz, dtype=float)
+    plain = np.array([not s.exchangeable for s in system.sites])
+    coupled = (np.abs(j[:, plain]) >= _MIN_REFINED_J_HZ).any(1) if plain.any() else np.zeros(plain.size, bool)
+    return [i for i in range(plain.size) if plain[i] or coupled[i]]
 
 
 def _x_plan(model_x: tuple, smiles: str):
