@@ -25,6 +25,8 @@ replaced by the nearest class, flagged, and its uncertainty widened.
 
 from __future__ import annotations
 
+import dataclasses
+
 from rdkit import Chem
 
 from predictors.equivalence import AlkeneRelation, map_alkene_relations
@@ -35,11 +37,16 @@ from predictors.shifts.diastereotopic import (
     split_amide_rotamer_shifts,
     split_diastereotopic,
 )
-from predictors.shifts.exchangeable import _aldehyde_shift, _alkyne_shift, _exchangeable_shift
+from predictors.shifts.exchangeable import (
+    _aldehyde_shift,
+    _alkyne_shift,
+    _exchangeable_shift,
+    nmr_solvent_key,
+)
 from predictors.shifts.heteroaromatic import assign_ring_positions
 from predictors.shifts.sp3 import _sp3_shift
 from predictors.shifts.substituents import _double_partner, classify_substituent, prepare_model_molecule
-from predictors.shifts.tables import ShiftEstimate, _unknown_shift, load_increment_table
+from predictors.shifts.tables import ShiftEstimate, _sp3_value, _unknown_shift, load_increment_table
 from predictors.shifts.vinyl import _vinyl_shift
 
 __all__ = [
@@ -103,4 +110,27 @@ def _predict_one(mol, h_atom, relations, pseudo_atoms, positions, solvent=None) 
         return _alkyne_shift(mol, parent)
     if any(b.GetBondType() == Chem.BondType.DOUBLE for b in parent.GetBonds()):
         return _unknown_shift("H on C=N or cumulated C: generic value used", label="vinyl")
-    return _sp3_shift(mol, parent)
+    return _in_solvent(_sp3_shift(mol, parent), mol, parent, solvent)
+
+
+def _alcohol_carbon(atom) -> bool:
+    """An sp3 carbon bearing an OH (an alcohol, not a hemiacetal's ring O or an acid)."""
+    return atom.GetSymbol() == "C" and atom.GetHybridization() == Chem.HybridizationType.SP3 and any(
+        n.GetSymbol() == "O" and n.GetTotalNumHs(includeNeighbors=True) == 1 for n in atom.GetNeighbors())
+
+
+def _in_solvent(estimate: ShiftEstimate, mol, carbon, solvent) -> ShiftEstimate:
+    """An sp3 C-H estimate (tables in CDCl3) moved to the sample's solvent where a known solvent
+    effect applies: in DMSO-d6 the H on and next to a carbinol carbon lie upfield (``solvent`` rows
+    of ``data/sp3_increments.csv``)."""
+    if nmr_solvent_key(solvent)[0] != "DMSO-d6":
+        return estimate
+    if _alcohol_carbon(carbon):
+        group = "DMSO-d6:alpha_OH"
+    elif any(_alcohol_carbon(n) for n in carbon.GetNeighbors()):
+        group = "DMSO-d6:beta_OH"
+    else:
+        return estimate
+    shift = estimate.shift_ppm + _sp3_value("solvent", group, "shift_ppm")
+    return dataclasses.replace(estimate, shift_ppm=shift,
+                               flags=estimate.flags + (f"DMSO-d6 shift of an alcohol's C-H ({group})",))
