@@ -66,7 +66,8 @@ def predict_spin_system(molecule, *, n_conformers: int = 10, seed: int = 0xC0FFE
         Random seed of the conformer embedding.
     solvent : str, keyword-only
         NMR solvent of the sample (``"CDCl3"``, ``"DMSO-d6"``, ``"D2O"``, ``"CD3OD"``); sets the
-        shifts of exchangeable H only. None: CDCl3 values.
+        shifts of exchangeable H, their couplings in DMSO-d6 (slow exchange) and, in DMSO-d6, the
+        shifts of the C-H on and next to a carbinol carbon. None: CDCl3 values.
 
     Returns
     -------

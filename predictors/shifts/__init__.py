@@ -76,8 +76,9 @@ def predict_proton_shifts(model: Chem.Mol, *, pseudo_atoms: frozenset = frozense
     relations : dict, keyword-only
         Cis/trans relations from :func:`~predictors.equivalence.map_alkene_relations`.
     solvent : str, keyword-only
-        NMR solvent (``"CDCl3"``, ``"DMSO-d6"``, ``"D2O"``, ``"CD3OD"``; None: CDCl3 values). Only
-        exchangeable H (OH, NH, SH) depend on it.
+        NMR solvent (``"CDCl3"``, ``"DMSO-d6"``, ``"D2O"``, ``"CD3OD"``; None: CDCl3 values).
+        Exchangeable H (OH, NH, SH) depend on it, and in DMSO-d6 the C-H on and next to a
+        carbinol carbon.
 
     Returns
     -------
