@@ -32,6 +32,7 @@ from confirm.fitting.assemble import (
     fit_weights,
     rank_fits,
     refined_amount_covariance,
+    with_undetected_spread,
 )
 from confirm.fitting.evidence import SEEN_SIGMA
 from confirm.fitting.grid import (
@@ -326,6 +327,7 @@ def _assemble(spectrum, systems, candidates, models, grid, basis, refined, views
     k = len(candidates)
     frac, frac_cov, fracs = averaged_fractions(evaluations, weights[kept], ev.detected)
     frac, frac_cov, fracs = frac[:k], frac_cov[:k, :k], fracs[:, :k]
+    frac_cov = with_undetected_spread(frac, frac_cov, ev, k)
     components = component_fits(candidates, systems, models[:k], best, ev, frac, frac_cov, field,
                                 options.detection_sigma)
     model = _model_on(grid, basis, best, ev, models)

@@ -20,7 +20,7 @@ from confirm.fitting.evidence import decide_presence, point_variance, read_sites
 from predictors.core import ComponentFit, SiteEvidence
 
 __all__ = ["Evaluation", "evaluate", "rank_fits", "fit_weights", "fraction_covariance",
-           "refined_amount_covariance"]
+           "refined_amount_covariance", "with_undetected_spread"]
 
 #: Fits whose weight falls below this are left out of the average.
 _MIN_WEIGHT = 1e-3
@@ -194,6 +194,27 @@ def averaged_fractions(evaluations, weights, detected):
     within = sum(w * c for w, c in zip(weights, covs, strict=True))
     between = (dev * weights[:, None]).T @ dev
     return mean, within + between, fracs
+
+
+def with_undetected_spread(frac: np.ndarray, frac_cov: np.ndarray, ev: Evaluation,
+                           n_candidates: int) -> np.ndarray:
+    """``frac_cov`` with the uncertainty the undetected candidates leave in the detected fractions.
+
+    An undetected candidate is reported with no amount and a 95 % upper bound; the detected
+    fractions are shares of what was found. But the candidate may be there below its bound, and
+    then every detected fraction is smaller by its share: taken as 0 with sd bound/2 (a one-sided
+    95 % bound lies about 2 sd out), each adds ``f_i f_j (sd / total)**2`` (first-order
+    propagation of f_i = a_i / total). Without it a component found alone reads 100 % +- 0 while a
+    minor isomer may lie just below its bound."""
+    total = float(ev.amounts[:n_candidates].sum())
+    if total <= 0:
+        return frac_cov
+    spread = 0.0
+    for k in range(n_candidates):
+        p = ev.presence[k]
+        if not ev.detected[k] and np.isfinite(p.upper) and p.upper > 0:
+            spread += (0.5 * float(p.upper) / total) ** 2
+    return frac_cov + spread * np.outer(frac, frac)
 
 
 def component_fits(candidates, systems, models, refined, ev: Evaluation, frac, frac_cov, field_mhz: float,

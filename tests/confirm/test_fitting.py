@@ -185,6 +185,21 @@ def test_numbers_are_coherent():
     assert "integral_amount" in fit.components[0].site_evidence[0].to_json()
 
 
+def test_a_component_found_alone_is_uncertain_by_what_may_hide_below_the_bounds():
+    """97 % E and 3 % Z at SNR 60: the Z isomer stays below its detection limit, so the E isomer is
+    all that is found (100 % of the detected components). Its sd still covers the truth: an
+    undetected candidate may hold up to its bound, and the sd carries that (about half the bound),
+    instead of reading 100 +- 0 %."""
+    mix = ((E_CROTONATE, 0.97), (Z_CROTONATE, 0.03))
+    spectrum = render_mixture(mix, field_mhz=400.0, n=16384, snr=60.0, seed=2)
+    e, z = fit_perturbed(spectrum, [E_CROTONATE, Z_CROTONATE], seed=2).components
+    assert e.detected and not z.detected
+    assert e.mole_fraction == pytest.approx(1.0)
+    bound = z.upper_limit / (1.0 - z.upper_limit)  # the bound as a share of the detected amount
+    assert e.mole_fraction_sd >= 0.45 * bound
+    assert abs(e.mole_fraction - 0.97) <= 2 * e.mole_fraction_sd
+
+
 @pytest.mark.slow
 def test_uncertainty_covers_the_truth_over_noise_realisations():
     """Small version of the corpus coverage figure: truth within 2 sd in all but one of eight."""
