@@ -32,8 +32,10 @@ __all__ = ["Layout", "Priors", "Refined", "Refinement", "blurred_view", "exact_c
 
 #: Prior sd of a region's line width, relative to the measured width.
 _WIDTH_PRIOR_REL = 0.5
-#: Most iterations of one round (the next round starts from a fresh simulation anyway).
-_MAX_ITERATIONS = 15
+#: Most iterations of one round (the next round starts from a fresh simulation anyway). A round
+#: stopped far from its optimum ends where its path happens to be, and that depends on rounding;
+#: from the solver's cautious start most rounds converge within 40.
+_MAX_ITERATIONS = 40
 #: A round's iterations stop when a step lowers the objective by less than this (chi-square units).
 _CHI2_TOL = 0.05
 #: ... or by less than this share of it (a large misfit need not be polished to 0.05).
