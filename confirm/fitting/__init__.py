@@ -34,6 +34,7 @@ from confirm.fitting.assemble import (
     refined_amount_covariance,
     with_undetected_spread,
 )
+from confirm.fitting.broad import broad_line_models, broad_lines, broad_masks
 from confirm.fitting.evidence import SEEN_SIGMA
 from confirm.fitting.grid import (
     baseline_basis,
@@ -157,6 +158,16 @@ def _fit(spectrum, systems, candidates, noise_sd, options: FitOptions, budget) -
     intervals = fit_intervals(models, field, lw)
     # the refinement models the solvent, water and TMS lines instead of masking them (see nuisance)
     nuisances = nuisance_models(spectrum.solvent, intervals) if options.mask_solvent else []
+    # broad OH/NH lines where a candidate expects one: hidden from the search, modelled in the
+    # refinement, never counted (see broad)
+    broad = broad_lines(spectrum, systems, intervals, noise_sd=noise, line_width_hz=lw,
+                        avoid=[m.shift0[0] for m in nuisances if m.labels[0] == "water"])
+    if broad:
+        masks = list(masks) + broad_masks(broad, field)
+        nuisances = nuisances + broad_line_models(broad, field)
+        notes = list(notes) + [
+            f"a broad line at {b.ppm:.2f} ppm ({b.fwhm_hz:.0f} Hz wide; an exchangeable OH or NH) was "
+            "modelled and left out of every amount" for b in broad]
     modelled = {m.labels[0] for m in nuisances}
     fit_masks = [m for m in masks if m[2].replace(" 13C satellite", "") not in modelled]
     fit_models = models + nuisances
