@@ -84,11 +84,13 @@ def _fit_one(x: np.ndarray, y: np.ndarray, centre: float, fwhm_ppm: float, noise
 
 
 def _ranges(systems, intervals) -> list:
-    """Predicted ranges (ppm) of the candidates' exchangeable sites that overlap the fitted intervals."""
+    """Predicted ranges (ppm) of the candidates' exchangeable sites that overlap the fitted intervals
+    (those that couple, in slow exchange, are sites of their molecule's model instead)."""
     out = []
     for system in systems:
-        for site in system.sites:
-            if not site.exchangeable:
+        j = np.abs(np.asarray(system.j_hz, dtype=float))
+        for k, site in enumerate(system.sites):
+            if not site.exchangeable or np.any(j[k] >= 0.3):
                 continue
             half = float(np.clip(_RANGE_SD * site.shift_sd_ppm, _RANGE_MIN_PPM, _RANGE_MAX_PPM))
             lo, hi = site.shift_ppm - half, site.shift_ppm + half

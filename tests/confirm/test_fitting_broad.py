@@ -85,3 +85,15 @@ def test_the_broad_line_is_modelled_and_counted_in_no_amount(alcohol_with_oh):
     near = np.abs(np.asarray(fit.ppm) - 1.80) < 0.05
     peak = float(np.max(np.asarray(fit.model)[near]))
     assert float(np.max(np.abs(np.asarray(fit.residual)[near]))) < 0.1 * peak
+
+
+def test_an_oh_that_couples_is_a_site_not_a_broad_line():
+    # in DMSO-d6 the ethanol OH is a triplet of its molecule's model (slow exchange), in CDCl3 a
+    # broad line to look for
+    from confirm.fitting.broad import _ranges
+    from predictors.prediction import predict_spin_system
+
+    dmso = predict_spin_system("CCO", n_conformers=2, solvent="DMSO-d6")
+    cdcl3 = predict_spin_system("CCO", n_conformers=2, solvent="CDCl3")
+    assert _ranges([dmso], [(0.0, 10.0)]) == []
+    assert len(_ranges([cdcl3], [(0.0, 10.0)])) == 1
