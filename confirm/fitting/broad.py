@@ -25,6 +25,7 @@ from scipy.ndimage import gaussian_filter1d
 from scipy.optimize import least_squares
 
 from confirm.fitting.models import CandidateModel
+from confirm.fitting.nuisance import line_model
 
 __all__ = ["BROAD_LABEL", "BroadLine", "broad_line_models", "broad_lines", "broad_masks"]
 
@@ -168,27 +169,9 @@ def broad_lines(spectrum, systems, intervals, *, noise_sd: float, line_width_hz:
 def broad_line_models(lines, field_mhz: float) -> list[CandidateModel]:
     """Nuisance models of the broad lines: a singlet each, free within one width of where it was
     found, its width free within a factor of two."""
-    out = []
-    for line in lines:
-        reach = line.fwhm_hz / field_mhz
-        out.append(CandidateModel(
-            groups=((-1,),),
-            shift0=np.array([line.ppm]),
-            sd=np.array([reach / 3.0]),
-            window=np.array([reach]),
-            n_h=np.array([1]),
-            j0=np.zeros((1, 1)),
-            j_pairs=(),
-            j_lo=np.zeros(0),
-            j_hi=np.zeros(0),
-            j_sd=np.zeros(0),
-            jch=np.array([0.0]),
-            labels=(BROAD_LABEL,),
-            pattern=((0.0,), (1.0,)),
-            own_width=(0.5 * line.fwhm_hz, 2.0 * line.fwhm_hz, line.fwhm_hz),
-            nuisance=True,
-        ))
-    return out
+    return [line_model(BROAD_LABEL, line.ppm, ((0.0,), (1.0,)), 0.0, reach_ppm=line.fwhm_hz / field_mhz,
+                       width_hz=(0.5 * line.fwhm_hz, 2.0 * line.fwhm_hz, line.fwhm_hz))
+            for line in lines]
 
 
 def broad_masks(lines, field_mhz: float) -> list:

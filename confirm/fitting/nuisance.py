@@ -15,7 +15,7 @@ import numpy as np
 
 from confirm.fitting.models import CandidateModel
 
-__all__ = ["nuisance_models"]
+__all__ = ["line_model", "nuisance_models"]
 
 #: How far (ppm) each line may sit from its table value (referencing, concentration, temperature).
 _REACH_PPM = {"residual solvent": 0.05, "water": 0.25, "TMS": 0.05}
@@ -47,7 +47,8 @@ def nuisance_models(solvent: str | None, intervals) -> list[CandidateModel]:
     for kind, ppm, multiplicity, j_hd, j_ch in lines:
         if not any(lo <= ppm <= hi for lo, hi in intervals):
             continue
-        out.append(_singlet_model(kind, float(ppm), _pattern(kind, multiplicity, j_hd), float(j_ch)))
+        out.append(line_model(kind, float(ppm), _pattern(kind, multiplicity, j_hd), float(j_ch),
+                              reach_ppm=_REACH_PPM[kind], width_hz=_WIDTH_HZ[kind]))
     return out
 
 
@@ -63,13 +64,16 @@ def _pattern(kind: str, multiplicity: str, j_hd: float | None) -> tuple:
     return (0.0,), (1.0,)
 
 
-def _singlet_model(kind: str, ppm: float, pattern: tuple, j_ch_hz: float) -> CandidateModel:
-    reach = _REACH_PPM[kind]
+def line_model(label: str, ppm: float, pattern: tuple, j_ch_hz: float, *, reach_ppm: float,
+               width_hz: tuple) -> CandidateModel:
+    """A nuisance line: a fixed ``pattern`` (offsets in Hz, relative intensities) at ``ppm``, free
+    within ``reach_ppm``, with a width of its own (lowest, highest, starting FWHM in Hz), its 13C
+    satellites at ``j_ch_hz`` (0: none); fitted, never reported."""
     return CandidateModel(
         groups=((-1,),),
         shift0=np.array([ppm]),
-        sd=np.array([reach / 3.0]),
-        window=np.array([reach]),
+        sd=np.array([reach_ppm / 3.0]),
+        window=np.array([reach_ppm]),
         n_h=np.array([1]),
         j0=np.zeros((1, 1)),
         j_pairs=(),
@@ -77,8 +81,8 @@ def _singlet_model(kind: str, ppm: float, pattern: tuple, j_ch_hz: float) -> Can
         j_hi=np.zeros(0),
         j_sd=np.zeros(0),
         jch=np.array([j_ch_hz]),
-        labels=(kind,),
+        labels=(label,),
         pattern=pattern,
-        own_width=_WIDTH_HZ[kind],
+        own_width=width_hz,
         nuisance=True,
     )
