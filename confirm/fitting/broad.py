@@ -24,7 +24,7 @@ import numpy as np
 from scipy.ndimage import gaussian_filter1d
 from scipy.optimize import least_squares
 
-from confirm.fitting.models import CandidateModel
+from confirm.fitting.models import CandidateModel, fitted_sites
 from confirm.fitting.nuisance import line_model
 
 __all__ = ["BROAD_LABEL", "BroadLine", "broad_line_models", "broad_lines", "broad_masks"]
@@ -89,9 +89,9 @@ def _ranges(systems, intervals) -> list:
     (those that couple, in slow exchange, are sites of their molecule's model instead)."""
     out = []
     for system in systems:
-        j = np.abs(np.asarray(system.j_hz, dtype=float))
+        modelled = set(fitted_sites(system))
         for k, site in enumerate(system.sites):
-            if not site.exchangeable or np.any(j[k] >= 0.3):
+            if not site.exchangeable or k in modelled:
                 continue
             half = float(np.clip(_RANGE_SD * site.shift_sd_ppm, _RANGE_MIN_PPM, _RANGE_MAX_PPM))
             lo, hi = site.shift_ppm - half, site.shift_ppm + half

@@ -20,7 +20,7 @@ from predictors.core import SpinSystem
 from predictors.errors import FitError
 
 __all__ = ["SATELLITE_SHARE", "CandidateModel", "build_model", "model_lines", "model_lines_with_derivatives",
-           "coupling_matrix", "unit_couplings", "x_half_width_hz"]
+           "coupling_matrix", "fitted_sites", "unit_couplings", "x_half_width_hz"]
 
 #: 13C natural abundance: each satellite is 0.55 % of its parent (references.md section 5).
 SATELLITE_SHARE = 0.0055
@@ -85,7 +85,7 @@ class CandidateModel:
 
 def build_model(system: SpinSystem, options) -> CandidateModel:
     """The fit's model of one candidate (raises FitError when it has nothing to fit)."""
-    keep = _fitted_sites(system)
+    keep = fitted_sites(system)
     if not keep:
         raise FitError(f"systems: candidate {system.smiles} has no non-exchangeable protons to fit")
     j_full = np.asarray(system.j_hz, dtype=float)
@@ -147,7 +147,7 @@ def build_model(system: SpinSystem, options) -> CandidateModel:
     )
 
 
-def _fitted_sites(system: SpinSystem) -> list:
+def fitted_sites(system: SpinSystem) -> list:
     """Sites the fit models: all but the exchangeable ones, except those that couple to another
     site (an alcohol OH or amide NH in DMSO-d6, slow exchange: a sharp multiplet that also splits
     its neighbour's). In fast exchange an OH or NH is a broad line of uncertain place and area."""
