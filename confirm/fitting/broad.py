@@ -75,10 +75,17 @@ def _fit_one(x: np.ndarray, y: np.ndarray, centre: float, fwhm_ppm: float, noise
     def resid(p):
         return p[2] * _lorentz(xs, p[0], p[1]) + p[3] + p[4] * (xs - centre) - ys
 
+    def jac(p):
+        u = 2.0 * (xs - p[0]) / p[1]
+        lor = _lorentz(xs, p[0], p[1])
+        l2 = lor * lor
+        return np.column_stack([p[2] * 4.0 * u * l2 / p[1], p[2] * 2.0 * u * u * l2 / p[1], lor,
+                                np.ones_like(xs), xs - centre])
+
     start = np.array([centre, fwhm_ppm, max(float(np.max(ys) - np.median(ys)), noise_sd), 0.0, 0.0])
     lo = np.array([centre - fwhm_ppm, 0.5 * fwhm_ppm, 0.0, -np.inf, -np.inf])
     hi = np.array([centre + fwhm_ppm, 2.0 * fwhm_ppm, np.inf, np.inf, np.inf])
-    fit = least_squares(resid, np.clip(start, lo, hi), bounds=(lo, hi), x_scale="jac", max_nfev=200)
+    fit = least_squares(resid, np.clip(start, lo, hi), jac=jac, bounds=(lo, hi), x_scale="jac", max_nfev=200)
     c, w, a = (float(v) for v in fit.x[:3])
     rms = float(np.sqrt(np.mean(fit.fun**2)))
     return c, w, a, rms / max(_STRUCTURE_SD * noise_sd, _STRUCTURE_SHARE * a)
