@@ -111,7 +111,8 @@ def run_case(case, systems_cache: dict) -> dict:
                 # per multiplet: where it was fitted against its prediction, for diagnosis
                 "sites": [
                     {k: e.get(k) for k in ("label", "n_h", "ppm", "predicted_ppm", "predicted_sd_ppm",
-                                           "seen", "missing", "amount", "amount_sd")}
+                                           "seen", "missing", "amount", "amount_sd", "integral_amount",
+                                           "integral_amount_sd", "shape_match", "overlap")}
                     for e in comp["evidence"] if "ppm" in e
                 ],
             }
