@@ -109,7 +109,9 @@ def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: floa
     moves = [np.stack([m.shift0 - m.window - s, m.shift0 + m.window - s], axis=1)
              for m, s in zip(models, shifts, strict=False)]
     diagnostic = [diagnostic_sites(m, [o for o in models if o is not m]) for m in models]
-    edges = [_at_window_edge(m, move) for m, move in zip(models, moves, strict=True)]
+    jvals = refined.layout.jvals(refined.theta)
+    edges = [tuple(sorted(set(_at_window_edge(m, move)) | set(_coupling_at_edge(m, j))))
+             for m, move, j in zip(models, moves, jvals, strict=False)]
     # solvent, water and TMS lines stay in the model whatever their size; they are no components
     nuisance = np.array([m.nuisance for m in models])
     amounts_all, base_all, _ = weighted_fit(refined.cols, basis, grid, var, np.ones(len(models), bool))
@@ -151,6 +153,28 @@ def _at_window_edge(model, move: np.ndarray) -> tuple:
     tol = _EDGE_SHARE * model.window
     edge = (move[:, 0] > -tol) | (move[:, 1] < tol)
     return tuple(int(s) for s in _vinyl(model) if edge[s])
+
+
+#: Couplings between two vinyl H of at least this size (Hz) are the 3J across the double bond.
+_VICINAL_VINYL_HZ = 5.0
+
+
+def _coupling_at_edge(model, jvals) -> tuple:
+    """Vinyl sites whose 3J across the double bond sits at a bound of its refined range.
+
+    The cis or trans coupling tells an alkene's geometry (6-12 against 12-18 Hz); it is refined
+    within a few Hz of the prediction (two sd, at least 1 Hz). When the data pull it to a bound,
+    the measured doublet is the other geometry's: a (E) decoy stretched over a (Z) isomer's
+    vinyl lines, or the reverse."""
+    vinyl = set(_vinyl(model))
+    out = set()
+    for (a, b), value, lo, hi in zip(model.j_pairs, jvals, model.j_lo, model.j_hi, strict=False):
+        if a not in vinyl or b not in vinyl or abs(model.j0[a, b]) < _VICINAL_VINYL_HZ:
+            continue
+        tol = _EDGE_SHARE * (hi - lo)
+        if value < lo + tol or value > hi - tol:
+            out.update((int(a), int(b)))
+    return tuple(sorted(out))
 
 
 #: Half-width (line widths) of the window over which the local misfit of a point is averaged.
@@ -302,7 +326,7 @@ def _evidence_text(e: SiteEvidence, detected: bool = True) -> str:
         j_part = (f"; J = {', '.join(f'{v:.1f}' for v in e.j_hz)} Hz "
                   f"(predicted {', '.join(f'{v:.1f}' for v in e.j_predicted_hz)})")
     if e.outside_range:
-        state = "missing (the data pull it to the edge of its predicted range)"
+        state = "missing (the data pull its shift or its coupling to the edge of its predicted range)"
     elif e.missing:
         state = "missing"
     elif e.seen and detected:

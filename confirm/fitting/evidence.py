@@ -303,9 +303,10 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic, at_edge=())
     diagnostic : sequence of int
         Sites that identify the candidate.
     at_edge : sequence of int
-        Sites the fit left at the edge of their shift window: the data want them further from the
-        prediction than its uncertainty allows (3 sd); :func:`confirm.fitting.assemble.evaluate`
-        passes vinyl sites only. A diagnostic one counts as missing: the molecule's identifying
+        Sites the fit left at the edge of their shift window, or whose cis/trans coupling it left at
+        a bound of its range: the data want them further from the prediction than its uncertainty
+        allows; :func:`confirm.fitting.assemble.evaluate` passes vinyl sites only.
+        A diagnostic one counts as missing: the molecule's identifying
         multiplet is not where it can be, and a decoy that reaches for another compound's line ends
         there.
     """
