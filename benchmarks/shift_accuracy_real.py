@@ -213,18 +213,52 @@ def summarise(comparisons: list[Comparison], key) -> dict[str, dict[str, float]]
     for name, items in sorted(groups.items()):
         err = np.array([abs(c.error_ppm) for c in items])
         covered = np.array([abs(c.error_ppm) <= 2 * c.sd_ppm for c in items])
+        low, high = wilson_interval(int(covered.sum()), int(err.size))
         out[name] = {"n": int(err.size), "mae_ppm": round(float(err.mean()), 3),
                      "p95_ppm": round(float(np.percentile(err, 95)), 3),
-                     "coverage_2sd_pct": round(100 * float(covered.mean()), 1)}
+                     "coverage_2sd_pct": round(100 * float(covered.mean()), 1),
+                     "coverage_interval_pct": [round(100 * low, 1), round(100 * high, 1)],
+                     "coverage_verdict": coverage_verdict(low, high)}
     return out
+
+
+#: The coverage a calibrated 2-sd interval should have (issue 16): 90-98 %.
+COVERAGE_TARGET = (0.90, 0.98)
+
+
+def wilson_interval(k: int, n: int, z: float = 1.959963984540054) -> tuple[float, float]:
+    """95 % Wilson score interval of a proportion k/n (Wilson, J. Am. Stat. Assoc. 1927, 22, 209).
+
+    The comparisons of one compound share its errors in part, so the interval is if anything too
+    narrow: a class whose interval excludes the target is off; one whose interval holds it is not
+    shown to be."""
+    if n <= 0:
+        return 0.0, 1.0
+    p = k / n
+    centre = (p + z * z / (2 * n)) / (1 + z * z / n)
+    half = z * np.sqrt(p * (1 - p) / n + z * z / (4 * n * n)) / (1 + z * z / n)
+    return float(max(0.0, centre - half)), float(min(1.0, centre + half))
+
+
+def coverage_verdict(low: float, high: float) -> str:
+    """Whether a coverage interval lies within, overlaps or misses :data:`COVERAGE_TARGET`."""
+    lo, hi = COVERAGE_TARGET
+    if high < lo:
+        return "too low"
+    if low > hi:
+        return "too high"
+    if lo <= low and high <= hi:
+        return "within"
+    return "consistent"
 
 
 def _print_summary(title: str, summary: dict) -> None:
     print(title)
-    print(f"  {'':28s} {'n':>4s} {'MAE':>6s} {'p95':>6s} {'2sd cov':>8s}")
+    print(f"  {'':28s} {'n':>4s} {'MAE':>6s} {'p95':>6s} {'2sd cov':>8s} {'95% interval':>14s}  vs 90-98 %")
     for name, s in summary.items():
+        low, high = s["coverage_interval_pct"]
         print(f"  {name:28s} {s['n']:4d} {s['mae_ppm']:6.3f} {s['p95_ppm']:6.3f} "
-              f"{s['coverage_2sd_pct']:7.1f}%")
+              f"{s['coverage_2sd_pct']:7.1f}% {low:6.1f}-{high:5.1f}%  {s['coverage_verdict']}")
 
 
 def report(comparisons: list[Comparison], half: str) -> dict:

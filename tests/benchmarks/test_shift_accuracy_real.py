@@ -83,3 +83,19 @@ def test_proton_shift_estimates_match_the_spin_system_sites():
         assert abs(site.shift_sd_ppm - max(estimates[h].sd_ppm for h in site.atoms)) < 1e-9
     ch2 = [site for site in system.sites if site.label == "CH2"]
     assert len(ch2) == 2 and abs(ch2[0].shift_ppm - ch2[1].shift_ppm) > 0.01
+
+
+def test_coverage_intervals_follow_wilson():
+    from benchmarks.shift_accuracy_real import coverage_verdict, wilson_interval
+
+    # Wilson 1927; Newcombe, Stat. Med. 1998, 17, 857, table I: 81/263 -> 0.2553-0.3662 (from memory)
+    low, high = wilson_interval(81, 263)
+    assert abs(low - 0.2553) < 5e-4 and abs(high - 0.3662) < 5e-4
+    # 30 of 30 covered: the interval (0.886-1) holds 95 %, so a full score is no proof of excess
+    low, high = wilson_interval(30, 30)
+    assert 0.88 < low < 0.89 and abs(high - 1.0) < 1e-12
+    assert coverage_verdict(low, high) == "consistent"
+    assert coverage_verdict(*wilson_interval(300, 300)) == "too high"
+    assert coverage_verdict(*wilson_interval(70, 100)) == "too low"
+    assert coverage_verdict(*wilson_interval(940, 1000)) == "within"
+
