@@ -463,7 +463,8 @@ class SiteEvidence:
         The same couplings as predicted.
     outside_range : bool
         A diagnostic vinyl multiplet the data pull to the edge of its shift window (3 sd from the
-        prediction): counted as missing.
+        prediction), or whose cis/trans 3J they pull to a bound of its refined range: counted as
+        missing.
     integral_amount, integral_amount_sd : float
         The candidate's mole fraction (same scale as ``amount``) from the integral over the window
         that holds this multiplet (with the candidate's other multiplets that overlap it), and its
