@@ -226,7 +226,7 @@ _ALTERNATIVE_UNRESOLVED = 0.05
 _HIGHER_FIELD = "a spectrum at higher field, where the multiplets overlap less"
 
 
-def _confidence(fit, major, ratios, unresolved, detected_products) -> str:
+def _confidence(fit, major, ratios, unresolved) -> str:
     q = fit.quality
     if major is None:
         return "undecided"
@@ -235,11 +235,6 @@ def _confidence(fit, major, ratios, unresolved, detected_products) -> str:
     spread = float(q.get("alternative_spread", 0.0))
     if explained < 0.6 or unknown > 0.3 or spread > 2 * _ALTERNATIVE_UNRESOLVED:
         return "low"
-    if len(detected_products) > 1:
-        xs = sorted((c.mole_fraction, c.mole_fraction_sd) for c in detected_products)
-        (x2, s2), (x1, s1) = xs[-2], xs[-1]
-        if x1 - x2 < 2 * np.hypot(s1, s2):
-            return "low"
     if unresolved or explained < 0.85 or unknown > 0.1:
         return "moderate"
     return "high"
@@ -286,7 +281,6 @@ def decide(
     # an internal standard added for the NMR yield is fitted but is no product
     is_standard = [c.label == STANDARD_LABEL for c in candidates]
     products = [i for i in range(len(candidates)) if not (is_sm[i] or is_standard[i])]
-    detected_products = [comps[i] for i in products if comps[i].detected]
     major_i = max(
         (i for i in products if comps[i].detected), key=lambda i: comps[i].mole_fraction, default=None
     )
@@ -314,7 +308,12 @@ def decide(
         ),
     ]
     ratios += [r for r in extra if r is not None]
-    major = comps[major_i].candidate.smiles if major_i is not None else None
+    tied = _tied_with_major(comps, products, major_i)
+    if tied:
+        unresolved.append(f"the major product: {_shares_text(comps, [major_i, *tied])} are equal within "
+                          "their uncertainties")
+        steps.append(_HIGHER_FIELD)
+    major = comps[major_i].candidate.smiles if major_i is not None and not tied else None
     rivals = _rival_majors(fit, products, major_i)
     if rivals:
         unresolved.append(
@@ -330,7 +329,7 @@ def decide(
             f"mole fractions by up to {100 * spread:.0f} points"
         )
         steps.append(_HIGHER_FIELD)
-    confidence = "low" if rivals else _confidence(fit, major, ratios, unresolved, detected_products)
+    confidence = "undecided" if tied else "low" if rivals else _confidence(fit, major, ratios, unresolved)
     evidence = _verdict_evidence(fit, major_i)
     if fit.unexplained_ppm:
         unresolved.append(
@@ -341,7 +340,7 @@ def decide(
         steps.append("identify the unknown signals (2D COSY/HSQC) or add the missing candidate")
     if context and context.get("input") == "peak list":
         unresolved.append("amounts come from a peak list (no line shapes): uncertainties are wider")
-    summary = _summary(comps, major_i, ratios, confidence, facts)
+    summary = _summary(comps, major_i, ratios, confidence, facts, tied)
     identified = tuple(c.candidate.smiles for c in comps if c.detected)
     return Verdict(
         summary=summary,
@@ -373,7 +372,32 @@ def _verdict_evidence(fit, major_i) -> tuple[str, ...]:
     return tuple(f"{_name(comp.candidate)}: {e}" for e in seen[:4])
 
 
-def _summary(comps, major_i, ratios, confidence, facts) -> str:
+#: Two detected products whose shares differ by less than this many sd of the difference (the two
+#: sds in quadrature) are equally likely to be the larger: the verdict names neither.
+_TIE_SD = 2.0
+
+
+def _tied_with_major(comps, products, major_i) -> list[int]:
+    """Detected products whose share is not told from the largest one's (:data:`_TIE_SD`)."""
+    if major_i is None:
+        return []
+    top = comps[major_i]
+    return [i for i in products if i != major_i and comps[i].detected
+            and top.mole_fraction - comps[i].mole_fraction
+            < _TIE_SD * float(np.hypot(top.mole_fraction_sd, comps[i].mole_fraction_sd))]
+
+
+def _shares_text(comps, indices) -> str:
+    """``A (x +- s mol %) and B (...)`` for the components at ``indices``."""
+    return " and ".join(f"{_name(comps[i].candidate)} ({100 * comps[i].mole_fraction:.1f} +- "
+                        f"{100 * comps[i].mole_fraction_sd:.1f} mol %)" for i in indices)
+
+
+def _summary(comps, major_i, ratios, confidence, facts, tied=()) -> str:
+    if major_i is not None and tied:
+        return " ".join([f"The major product is not decided by this spectrum: "
+                         f"{_shares_text(comps, [major_i, *tied])} are equal within their uncertainties.",
+                         *_ratio_parts(ratios, confidence)])
     if major_i is None:
         if any(c.detected for c in comps):
             names = ", ".join(_name(c.candidate) for c in comps if c.detected)
@@ -389,9 +413,15 @@ def _summary(comps, major_i, ratios, confidence, facts) -> str:
         f"Major {kind}: {_name(major.candidate)} ({100 * major.mole_fraction:.1f} +- "
         f"{100 * major.mole_fraction_sd:.1f} mol % of the detected components{note})."
     ]
+    return " ".join(parts + _ratio_parts(ratios, confidence))
+
+
+def _ratio_parts(ratios, confidence) -> list[str]:
+    """The summary's sentences on the ratios and the confidence."""
+    parts = []
     for r in ratios:
         tag = "" if r.decided else ", not decided by this spectrum"
         spread = "" if r.is_bound else f" (+- {100 * r.share_sd:.1f} points)"
         parts.append(f"{r.name} {r.ratio_text}{spread}{tag}.")
     parts.append(f"Confidence: {confidence}.")
-    return " ".join(parts)
+    return parts

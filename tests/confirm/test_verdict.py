@@ -194,3 +194,27 @@ def test_a_rival_major_product_in_an_almost_as_good_fit_is_reported():
     assert verdict.major == cands[0].smiles  # the best fit still names it ...
     assert verdict.confidence == "low"  # ... but says the other isomer could be the major one
     assert any(u.startswith("the major product:") for u in verdict.unresolved)
+
+
+def test_two_products_equal_within_their_sds_leave_the_major_undecided():
+    """E 48 +- 5 % and Z 52 +- 5 %: the difference (4 points) is well inside two sd of it (14):
+    the verdict names neither as major, says so, and asks for a better-resolved spectrum."""
+    compounds = [E_ANETHOLE, Z_ANETHOLE]
+    fit = make_fit(compounds, [0.48, 0.52], [True, True], sd=0.05)
+    systems = [published_system(c) for c in compounds]
+    verdict = decide(fit, systems, [published_candidate(c) for c in compounds])
+    assert verdict.major is None
+    assert verdict.confidence == "undecided"
+    assert "not decided" in verdict.summary and "48.0" in verdict.summary and "52.0" in verdict.summary
+    assert any("the major product" in u for u in verdict.unresolved)
+    assert set(verdict.identified) == {published_candidate(c).smiles for c in compounds}
+
+
+def test_a_major_clear_of_its_rival_is_named():
+    """E 70 +- 3 % against Z 30 +- 3 %: 40 points apart, about 9 sd of the difference."""
+    compounds = [E_ANETHOLE, Z_ANETHOLE]
+    fit = make_fit(compounds, [0.7, 0.3], [True, True], sd=0.03)
+    systems = [published_system(c) for c in compounds]
+    verdict = decide(fit, systems, [published_candidate(c) for c in compounds])
+    assert verdict.major == published_candidate(E_ANETHOLE).smiles
+    assert verdict.confidence != "undecided"
