@@ -24,6 +24,7 @@ import numpy as np
 from scipy.ndimage import gaussian_filter1d
 from scipy.optimize import least_squares
 
+from confirm.fitting.grid import merge_intervals
 from confirm.fitting.models import CandidateModel, fitted_sites
 from confirm.fitting.nuisance import line_model
 
@@ -104,14 +105,7 @@ def _ranges(systems, intervals) -> list:
             lo, hi = site.shift_ppm - half, site.shift_ppm + half
             if any(a <= hi and lo <= b for a, b in intervals):
                 out.append((lo, hi))
-    out.sort()
-    merged = []
-    for lo, hi in out:
-        if merged and lo <= merged[-1][1]:
-            merged[-1] = (merged[-1][0], max(merged[-1][1], hi))
-        else:
-            merged.append((lo, hi))
-    return merged
+    return merge_intervals(out)
 
 
 def broad_lines(spectrum, systems, intervals, *, noise_sd: float, line_width_hz: float,

@@ -16,8 +16,8 @@ from confirm.fitting.models import x_half_width_hz
 from predictors.core import Spectrum
 from predictors.errors import FitError
 
-__all__ = ["Grid", "fit_intervals", "mask_intervals", "build_grid", "baseline_basis", "blur_spectrum",
-           "bin_factor", "rephase"]
+__all__ = ["Grid", "fit_intervals", "merge_intervals", "mask_intervals", "build_grid", "baseline_basis",
+           "blur_spectrum", "bin_factor", "rephase"]
 
 #: 1J(C,H) (Hz) of the widest-spaced satellites considered when a region is laid out.
 _SATELLITE_REACH_HZ = 160.0
@@ -76,7 +76,8 @@ class Grid:
                     spans=self.region_spans())
 
 
-def _merge(intervals) -> list:
+def merge_intervals(intervals) -> list:
+    """Overlapping (lo, hi) intervals joined, in order: a list of [lo, hi]."""
     merged: list[list[float]] = []
     for lo, hi in sorted(intervals):
         if merged and lo <= merged[-1][1]:
@@ -98,7 +99,7 @@ def fit_intervals(models, field_mhz: float, lw_hz: float) -> list:
             intervals.append((s - w - half, s + w + half))
             if field_mhz < 150:  # at high field the satellites are far and tiny against the noise
                 intervals.append((s - w - half - sat, s + w + half + sat))
-    return _merge(intervals)
+    return merge_intervals(intervals)
 
 
 def mask_intervals(solvent: str | None, field_mhz: float, lw_hz: float, models) -> tuple[list, list]:
