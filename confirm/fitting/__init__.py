@@ -325,16 +325,25 @@ def _assemble(spectrum, systems, candidates, models, grid, basis, refined, views
     settings = {"noise_sd": noise_bin * corr, "model_error": options.model_error,
                 "detection_sigma": options.detection_sigma, "lw_ppm": (lw_hz + _READING_BLUR_HZ) / field,
                 "uncertainty_scale": options.uncertainty_scale}
-    ev = evaluate(views[0], models, view_grid, view_basis, amount_cov=refined_amount_covariance(best),
-                  **settings)
-    ev = _with_resolution_spread(ev, best, grid, basis, models, noise_bin * corr, options.model_error,
-                                 lw_hz / field)
-    ev = _with_carrier_spread(ev)
-    ev = _with_integrals(ev, best, grid, basis, models, noise_bin * corr)
-    evaluations = [ev] + [_with_integrals(_evaluate_with(views[i], models, view_grid, view_basis, ev.detected,
-                                                         settings), refined[i], grid, basis, models,
-                                          noise_bin * corr)
-                          for i in kept[1:]]
+    rejected: dict = {}
+    while True:
+        ev = evaluate(views[0], models, view_grid, view_basis, amount_cov=refined_amount_covariance(best),
+                      reject=tuple(rejected), **settings)
+        ev = _with_resolution_spread(ev, best, grid, basis, models, noise_bin * corr, options.model_error,
+                                     lw_hz / field)
+        ev = _with_carrier_spread(ev)
+        found = _integral_readings(ev, best, grid, basis, models, noise_bin * corr)
+        ev = _with_integrals(ev, found)
+        more = _contradicted_by_integrals(ev, found)
+        if not more:
+            break
+        rejected.update(more)  # read again without them: the others' amounts take back their lines
+    notes = list(notes) + [_contradiction_note(candidates[k], *rejected[k]) for k in sorted(rejected)]
+    evaluations = [ev]
+    for i in kept[1:]:
+        other = _evaluate_with(views[i], models, view_grid, view_basis, ev.detected, settings)
+        evaluations.append(_with_integrals(other, _integral_readings(other, refined[i], grid, basis, models,
+                                                                     noise_bin * corr)))
     k = len(candidates)
     frac, frac_cov, fracs = averaged_fractions(evaluations, weights[kept], ev.detected)
     frac, frac_cov, fracs = frac[:k], frac_cov[:k, :k], fracs[:, :k]
@@ -425,25 +434,69 @@ def _with_carrier_spread(ev):
     return replace(ev, cov=ev.cov + np.diag(spread**2))
 
 
-def _with_integrals(ev, refined, grid, basis, models, noise_sd: float):
+def _integral_readings(ev, refined, grid, basis, models, noise_sd: float) -> dict:
+    """Integral readings of the detected candidates over their own multiplets (see
+    :func:`confirm.fitting.integrals.integral_amounts`)."""
+    from confirm.fitting.integrals import integral_amounts
+
+    if not ev.detected.any():
+        return {}
+    amounts, base = _full_resolution_amounts(grid, basis, refined, ev, models)
+    n_sites = [m.n_sites for m in models]
+    offsets = np.cumsum([0] + n_sites)[:-1]
+    return integral_amounts(grid, refined.per_site, refined.cols, offsets, n_sites, amounts, basis @ base,
+                            ev.detected, noise_sd, width_ppm=float(np.median(refined.widths_ppm)))
+
+
+#: A detected candidate's integrals show none of it when their mean lies below this many sd ...
+_INTEGRAL_NULL_SD = 2.0
+#: ... and they contradict its multiplet readings when these read more by this many sd of the
+#: difference (both sds in quadrature).
+_INTEGRAL_CONTRADICTION_SD = 3.0
+
+
+def _contradicted_by_integrals(ev, found: dict) -> dict:
+    """Detected candidates whose own integrals show none of them although their multiplet readings
+    do: candidate index -> (integral mean, its sd, reading amount, its sd).
+
+    A multiplet reading fits the candidate's predicted pattern to whatever lies in its window; a
+    narrow impurity line inside the window of a decoy's vinyl multiplet reads as 10 sd of the decoy.
+    The integral over the same window, with the fitted lines of the others and the local baseline
+    taken away, then holds nothing beyond its noise: the multiplet is not there. A window passing
+    its clean and flank tests only in part counts in part (its sd divided by the square root of its
+    weight), so that no threshold switches a reading fully on or off."""
+    out = {}
+    for k, (mean, sd, _, weight) in found.items():
+        p = ev.presence[k]
+        if not ev.detected[k] or weight <= 0 or not np.isfinite(p.amount_sd):
+            continue
+        sd_eff = sd / np.sqrt(weight)
+        gap = p.amount - mean
+        limit = _INTEGRAL_CONTRADICTION_SD * np.hypot(sd_eff, p.amount_sd)
+        if mean < _INTEGRAL_NULL_SD * sd_eff and gap > limit:
+            out[int(k)] = (float(mean), float(sd_eff), float(p.amount), float(p.amount_sd))
+    return out
+
+
+def _contradiction_note(candidate, mean: float, sd: float, reading: float, reading_sd: float) -> str:
+    name = candidate.label or candidate.smiles
+    return (f"{name}: its multiplets read {reading:.3g} +- {reading_sd:.2g} (in units of one molecule's "
+            f"lines) but their integrals, with the other components' lines taken away, hold "
+            f"{mean:.3g} +- {sd:.2g}: another line sits in its windows, and it is counted as not detected")
+
+
+def _with_integrals(ev, found: dict):
     """``ev`` with the amounts of the detected candidates taken from integrals over their own
-    multiplets where they have any (see :mod:`confirm.fitting.integrals`). Their sd is that of the
-    integrals with the difference from the fitted amount added in quadrature: two readings of one
-    amount that disagree mean a systematic error the data do not resolve (as in
+    multiplets where they have any (``found``, from :func:`_integral_readings`; see
+    :mod:`confirm.fitting.integrals`); an integral at or below zero leaves the fitted amount. Their
+    sd is that of the integrals with the difference from the fitted amount added in quadrature: two
+    readings of one amount that disagree mean a systematic error the data do not resolve (as in
     :func:`_with_carrier_spread`); the correlations of the fit are kept. Where the best window
     passes its tests only in part (weight below 1), amount and variance are blended with the
     fitted ones by that weight."""
     from dataclasses import replace
 
-    from confirm.fitting.integrals import integral_amounts
-
-    if not ev.detected.any():
-        return ev
-    amounts, base = _full_resolution_amounts(grid, basis, refined, ev, models)
-    n_sites = [m.n_sites for m in models]
-    offsets = np.cumsum([0] + n_sites)[:-1]
-    found = integral_amounts(grid, refined.per_site, refined.cols, offsets, n_sites, amounts, basis @ base,
-                             ev.detected, noise_sd, width_ppm=float(np.median(refined.widths_ppm)))
+    found = {k: v for k, v in found.items() if v[0] > 0}
     if not found:
         return ev
     new = ev.amounts.copy()

@@ -92,7 +92,7 @@ def diagnostic_sites(model, others=()) -> list:
 
 
 def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: float, detection_sigma: float,
-             lw_ppm: float, uncertainty_scale: float, amount_cov=None) -> Evaluation:
+             lw_ppm: float, uncertainty_scale: float, amount_cov=None, reject=()) -> Evaluation:
     """Read the evidence of one refined fit and solve the amounts of the candidates present.
 
     Each point's variance is the noise, widened by the local misfit of the refined fit around it
@@ -100,7 +100,9 @@ def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: floa
     has little say in the amounts), plus the model error of the signal there. ``amount_cov``, the
     covariance of the amounts with every other parameter of the refinement free (shifts, couplings,
     widths), is a floor on their uncertainty: a weak multiplet whose couplings the data barely fix
-    is uncertain in amount too."""
+    is uncertain in amount too. The candidates in ``reject`` (indexes) are not present whatever
+    their multiplets read (their own integrals contradict the reading, see
+    :func:`confirm.fitting._contradicted_by_integrals`)."""
     signal = refined.amounts @ refined.cols
     var = point_variance(noise_sd, signal, model_error) * _local_misfit(grid, refined.model, noise_sd, lw_ppm)
     offsets = np.cumsum([0] + [m.n_sites for m in models])[:-1]
@@ -120,6 +122,7 @@ def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: floa
     presence = tuple(decide_presence(r, detection_sigma=detection_sigma, diagnostic=d, at_edge=e)
                      for r, d, e in zip(readings, diagnostic, edges, strict=True))
     detected = np.array([p.present for p in presence]) & ~nuisance
+    detected[list(reject)] = False
     amounts, base, cov_sub = weighted_fit(refined.cols, basis, grid, var, detected | nuisance)
     used = np.flatnonzero(detected | nuisance)
     cov = np.zeros((len(models), len(models)))

@@ -25,7 +25,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["IntegralReading", "integral_amounts"]
+__all__ = ["IntegralReading", "combine_readings", "integral_amounts"]
 
 #: A window holds the points where a multiplet's own column exceeds this share of its peak.
 _WINDOW_LEVEL = 0.005
@@ -165,8 +165,9 @@ def integral_amounts(grid, per_site: np.ndarray, cols: np.ndarray, offsets, n_si
     -------
     dict
         Candidate index -> (amount, sd, readings, weight) for those with at least one window that
-        counts; ``weight`` (0-1] is the largest of the readings' weights (how fully the best window
-        passes the clean and flank tests).
+        counts, whatever the sign of the amount (an integral at or below zero says the component is
+        not there); ``weight`` (0-1] is the largest of the readings' weights (how fully the best
+        window passes the clean and flank tests).
     """
     fitted = amounts[:, None] * cols
     total = fitted.sum(0)
@@ -195,16 +196,21 @@ def integral_amounts(grid, per_site: np.ndarray, cols: np.ndarray, offsets, n_si
             var = (noise_sd**2 * n_in + n_in**2 * level_var * noise_sd**2
                    + (_OTHERS_ERROR * other_area) ** 2) / unit**2
             readings.append(IntegralReading(sites, value, float(np.sqrt(var)), other_area / expected, weight))
-        if not readings:
-            continue
-        a = np.array([r.amount for r in readings])
-        f = np.array([r.weight for r in readings])
-        w = f / np.array([r.sd for r in readings]) ** 2
-        mean = float(np.sum(w * a) / np.sum(w))
-        sd = float(1.0 / np.sqrt(np.sum(w)))
-        if len(readings) > 1:
-            birge = float(np.sum(w * (a - mean) ** 2) / (len(readings) - 1))
-            sd *= float(np.sqrt(max(1.0, birge)))
-        if mean > 0:
-            out[int(k)] = (mean, sd, tuple(readings), float(np.max(f)))
+        if readings:
+            mean, sd, weight = combine_readings(readings)
+            out[int(k)] = (mean, sd, tuple(readings), weight)
     return out
+
+
+def combine_readings(readings) -> tuple[float, float, float]:
+    """Inverse-variance mean of integral readings (each weighted by its ``weight``), its sd (widened
+    by the Birge ratio when they disagree) and the largest weight."""
+    a = np.array([r.amount for r in readings])
+    f = np.array([r.weight for r in readings])
+    w = f / np.array([r.sd for r in readings]) ** 2
+    mean = float(np.sum(w * a) / np.sum(w))
+    sd = float(1.0 / np.sqrt(np.sum(w)))
+    if len(readings) > 1:
+        birge = float(np.sum(w * (a - mean) ** 2) / (len(readings) - 1))
+        sd *= float(np.sqrt(max(1.0, birge)))
+    return mean, sd, float(np.max(f))

@@ -131,3 +131,40 @@ def test_a_window_near_a_threshold_counts_in_part():
     assert _ramp(0.5) == 1.0 and _ramp(0.75) == 1.0 and _ramp(1.25) == 0.0 and _ramp(2.0) == 0.0
     assert _ramp(1.0) == pytest.approx(0.5)
     assert abs(_ramp(1.0 + 1e-9) - _ramp(1.0)) < 1e-8
+
+
+def test_a_window_holding_nothing_still_gives_its_reading():
+    """The fit placed a weak component's doublet where the data hold only noise: the window's
+    reading is returned, at zero within its sd, whatever its sign (with this noise it comes out
+    negative). An integral that holds nothing says the component is not there."""
+    x = _x()
+    y = np.random.default_rng(6).normal(0.0, 1e-2, x.size)
+    col = _doublet(x, 1.40, 6.0)
+    found = _read(y, col[None, :], [0], [1], [0.002], noise=1e-2)
+    mean, sd, readings, weight = found[0]
+    assert weight == 1.0
+    assert mean < 0 and abs(mean) < 2 * sd
+
+
+def _evaluation(reading_amount, reading_sd):
+    from confirm.fitting.assemble import Evaluation
+    from confirm.fitting.evidence import Presence
+
+    presence = Presence(reading_amount, reading_sd, True, (), (0,), np.inf)
+    return Evaluation(amounts=np.array([0.37]), cov=np.eye(1), base=np.zeros(1), detected=np.array([True]),
+                      presence=(presence,), readings=[()], var=np.ones(1), model=np.zeros(1))
+
+
+def test_integrals_holding_none_of_a_multiplet_read_at_10_sd_contradict_it():
+    """A multiplet reading 0.0026 +- 0.0003 (a 10-sd 'line' that is a baseline wave or another
+    compound's line under the predicted pattern) against integrals of its own windows reading
+    0.0002 +- 0.0004: contradicted. Integrals that show it (0.0024), or a window that passes its
+    tests only in small part (weight 0.1: its sd three times larger), do not contradict it."""
+    from confirm.fitting import _contradicted_by_integrals
+
+    ev = _evaluation(0.00255, 0.00026)
+    assert set(_contradicted_by_integrals(ev, {0: (0.0002, 0.0004, (), 1.0)})) == {0}
+    assert _contradicted_by_integrals(ev, {0: (0.0024, 0.0004, (), 1.0)}) == {}
+    assert _contradicted_by_integrals(ev, {0: (0.0002, 0.0004, (), 0.1)}) == {}
+    # a negative integral (the window holds less than the others' lines and the flanks) contradicts too
+    assert set(_contradicted_by_integrals(ev, {0: (-0.0003, 0.0004, (), 1.0)})) == {0}
