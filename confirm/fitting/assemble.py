@@ -110,6 +110,8 @@ def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: floa
     shifts = refined.layout.shifts(refined.theta)
     moves = [np.stack([m.shift0 - m.window - s, m.shift0 + m.window - s], axis=1)
              for m, s in zip(models, shifts, strict=False)]
+    likely = [np.stack([m.shift0 - _LIKELY_SD * m.sd - s, m.shift0 + _LIKELY_SD * m.sd - s], axis=1)
+              for m, s in zip(models, shifts, strict=False)]
     diagnostic = [diagnostic_sites(m, [o for o in models if o is not m]) for m in models]
     jvals = refined.layout.jvals(refined.theta)
     edges = [tuple(sorted(set(_at_window_edge(m, move)) | set(_coupling_at_edge(m, j))))
@@ -118,7 +120,8 @@ def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: floa
     nuisance = np.array([m.nuisance for m in models])
     amounts_all, base_all, _ = weighted_fit(refined.cols, basis, grid, var, np.ones(len(models), bool))
     readings = read_sites(grid, refined.per_site, refined.cols, amounts_all, base_all, basis, offsets,
-                          n_sites, lw_ppm, noise_sd=noise_sd, model_error=model_error, moves=moves)
+                          n_sites, lw_ppm, noise_sd=noise_sd, model_error=model_error, moves=moves,
+                          likely=likely)
     presence = tuple(decide_presence(r, detection_sigma=detection_sigma, diagnostic=d, at_edge=e)
                      for r, d, e in zip(readings, diagnostic, edges, strict=True))
     detected = np.array([p.present for p in presence]) & ~nuisance
@@ -140,6 +143,9 @@ def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: floa
     amounts = np.where(nuisance, 0.0, amounts)  # the components' amounts; the model keeps the rest
     return Evaluation(amounts, cov, base, detected, presence, readings, var, model)
 
+
+#: A multiplet's likely places: its predicted shift +- this many sd (about 95 % of them).
+_LIKELY_SD = 2.0
 
 #: A site counts as at the edge of its shift window within this share of the window.
 _EDGE_SHARE = 0.02

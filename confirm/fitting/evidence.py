@@ -176,7 +176,7 @@ def weighted_fit(cols: np.ndarray, basis: np.ndarray, grid, var: np.ndarray, use
 
 
 def read_sites(grid, per_site, cols, amounts, base, basis, offsets, n_sites, lw_ppm, *,
-               noise_sd: float, model_error: float, moves=None) -> list:
+               noise_sd: float, model_error: float, moves=None, likely=None) -> list:
     """Every site of every candidate read on its own (see the module docstring).
 
     Parameters
@@ -201,6 +201,10 @@ def read_sites(grid, per_site, cols, amounts, base, basis, offsets, n_sites, lw_
     moves : sequence of ndarray, optional
         Per candidate, per site, the (lowest, highest) move in ppm that keeps the site inside its
         shift window, shape (n_sites, 2); without it ``envelope_window`` equals ``envelope``.
+    likely : sequence of ndarray, optional
+        The same for the range of likely places (the prediction +-2 sd): a site the fit left
+        outside it has its ``envelope_all`` read at the best likely place instead (see
+        :func:`_read_one`).
     """
     model = amounts @ cols + basis @ base
     signal = amounts @ cols
@@ -214,17 +218,24 @@ def read_sites(grid, per_site, cols, amounts, base, basis, offsets, n_sites, lw_
             span = None if moves is None else moves[k][s]
             rows.append(_read_one(grid, u, grid.y - (model - own), signal - own, reach, noise_sd,
                                   model_error, span, whole=amounts[k] * cols[k], model=model,
-                                  foreign=signal - amounts[k] * cols[k]))
+                                  foreign=signal - amounts[k] * cols[k],
+                                  likely=None if likely is None else likely[k][s]))
         out.append(rows)
     return out
 
 
 def _read_one(grid, u, d, others, reach: int, noise_sd: float, model_error: float, span=None,
-              whole=None, model=None, foreign=None) -> SiteReading:
+              whole=None, model=None, foreign=None, likely=None) -> SiteReading:
     """One site's reading; ``others`` is every other modelled signal (the molecule's own other
     multiplets included), ``foreign`` that of the other components only, ``whole`` the molecule's
     own signal and ``model`` the whole model. Without ``foreign`` the overlap counts ``others``;
-    without ``whole`` and ``model`` the group shape is the site's own."""
+    without ``whole`` and ``model`` the group shape is the site's own.
+
+    ``envelope_all`` bounds a candidate whose multiplets all sit on others' lines by the data
+    themselves. Where the fit left the multiplet outside ``likely`` (the moves, in ppm, that reach
+    its prediction +-2 sd), the place it sits is not one it is likely to have (an absent isomer's
+    singlet parked on its partner's singlet 2.8 sd from its own prediction): the bound is read at
+    the best place within the likely range instead, where the data may hold nothing."""
     top = float(u.max()) if u.size else 0.0
     window = (u > _WINDOW_SHARE * top) & (grid.weight > 0) if top > 0 else np.zeros(u.size, bool)
     ppm = float(np.sum(grid.x * u) / np.sum(u)) if top > 0 else float("nan")
@@ -261,9 +272,36 @@ def _read_one(grid, u, d, others, reach: int, noise_sd: float, model_error: floa
     steps = (0, 0) if span is None else (int(np.ceil(span[0] / grid.dx_ppm)),
                                          int(np.floor(span[1] / grid.dx_ppm)))
     envelope, envelope_window = _envelope(u, d, margin_var, window, reach, max(1.0, misfit), steps)
-    envelope_all, _ = _envelope(u, d + others, margin_var, window, reach, max(1.0, misfit))
+    steps_likely = None if likely is None else (int(np.ceil(likely[0] / grid.dx_ppm)),
+                                                int(np.floor(likely[1] / grid.dx_ppm)))
+    if steps_likely is not None and steps_likely[0] <= steps_likely[1] and not (
+            steps_likely[0] <= 0 <= steps_likely[1]):
+        envelope_all = _best_envelope(u, d + others, margin_var, window, reach, max(1.0, misfit),
+                                      steps_likely)
+    else:
+        envelope_all, _ = _envelope(u, d + others, margin_var, window, reach, max(1.0, misfit))
     return SiteReading(ppm, alpha, sd, envelope, shape, overlap, misfit, True, shape_misfit, envelope_all,
                        envelope_window, overlap_all, shape_group)
+
+
+def _best_envelope(u, d, var, window, reach: int, misfit: float, steps) -> float:
+    """Largest :func:`_envelope` over the moves from ``steps[0]`` to ``steps[1]`` grid steps (the
+    multiplet's own place left out when outside them), the margin read at each place tried."""
+    main = np.flatnonzero(window & (u >= _MAIN_LINE_SHARE * float(u.max())))
+    if main.size == 0:
+        return np.inf
+    padded = np.concatenate([np.full(reach, -np.inf), d, np.full(reach, -np.inf)])
+    near = np.max(np.lib.stride_tricks.sliding_window_view(padded, 2 * reach + 1), axis=1)
+    margin = _ENVELOPE_MARGIN_SD * np.sqrt(var * max(1.0, misfit))
+    moves = np.arange(steps[0], steps[1] + 1)
+    shifted = main[None, :] + moves[:, None]
+    inside = np.all((shifted >= 0) & (shifted < d.size), axis=1)
+    if not inside.any():
+        return np.inf
+    # the margin is that of each place tried (the others' model error where the lines would sit)
+    at = shifted[inside]
+    values = np.min((near[at] + margin[at]) / u[main][None, :], axis=1)
+    return float(values.max())
 
 
 def _envelope(u, d, var, window, reach: int, misfit: float, steps=(0, 0)) -> tuple[float, float]:

@@ -261,6 +261,37 @@ def test_a_multiplet_beside_its_signal_is_misplaced_not_missing():
     assert r.envelope_window < 0.2
 
 
+def test_a_bound_is_read_where_the_multiplet_is_likely_not_where_the_fit_parked_it():
+    """An absent isomer's singlet left on its partner's singlet 0.36 ppm (2.8 sd) from its own
+    prediction: there the data hold the partner's line, and a bound read there says the isomer
+    could be as large as the partner. Within its prediction +-2 sd the data hold nothing, and that
+    is where the bound is read. A multiplet left within its likely range keeps the bound read
+    at its place."""
+    from confirm.fitting.evidence import _read_one
+
+    x = np.linspace(6.0, 7.2, 4801)
+    grid = _grid(x)
+    g = 0.01 / 2
+
+    def singlet(centre):
+        return g / np.pi / ((x - centre) ** 2 + g * g)
+
+    noise = 0.05
+    partner = 2.0 * singlet(6.85)  # the other component's fitted line
+    y = partner + np.random.default_rng(4).normal(0, noise, x.size)
+    u = singlet(6.85)  # the absent isomer parked on it (predicted 6.49, sd 0.13)
+    d = y - partner  # the data with the others' model taken away (its own amount ~0)
+    likely = (6.49 - 0.26 - 6.85, 6.49 + 0.26 - 6.85)  # moves reaching its prediction +-2 sd
+    at_place = _read_one(grid, u, d, partner, 2, noise, 0.03, (-0.39 - 0.36, 0.39 - 0.36))
+    assert at_place.envelope_all > 1.5  # the partner's line bounds nothing
+    likely_read = _read_one(grid, u, d, partner, 2, noise, 0.03, (-0.39 - 0.36, 0.39 - 0.36),
+                            likely=likely)
+    assert likely_read.envelope_all < 0.1
+    # left within its likely range (here on the partner, predicted 6.80): the bound at its place
+    near = _read_one(grid, u, d, partner, 2, noise, 0.03, (-0.44, 0.34), likely=(-0.31, 0.21))
+    assert near.envelope_all == pytest.approx(at_place.envelope_all)
+
+
 def test_seen_needs_five_sd_after_a_searched_position():
     """A multiplet placed by searching its window is 'seen' only at 5 sd (look-elsewhere effect)."""
     weak = [_reading(0.010, 0.0025, 0.02), _reading(0.010, 0.0025, 0.02)]  # 4 sd each
