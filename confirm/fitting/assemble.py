@@ -235,10 +235,13 @@ def with_undetected_spread(frac: np.ndarray, frac_cov: np.ndarray, ev: Evaluatio
 
     An undetected candidate is reported with no amount and a 95 % upper bound; the detected
     fractions are shares of what was found. But the candidate may be there below its bound, and
-    then every detected fraction is smaller by its share: taken as 0 with sd bound/2 (a one-sided
-    95 % bound lies about 2 sd out), each adds ``f_i f_j (sd / total)**2`` (first-order
-    propagation of f_i = a_i / total). Without it a component found alone reads 100 % +- 0 while a
-    minor isomer may lie just below its bound."""
+    then every detected fraction is smaller by its share of the whole: that share is at most
+    ``bound / (total + bound)`` (the candidate's reported upper limit) and is taken as 0 with half
+    that as its sd (a one-sided 95 % bound lies about 2 sd out); each pair adds ``f_i f_j sd**2``
+    (f_i becomes f_i (1 - share)). Without it a component found alone reads 100 % +- 0 while a
+    minor isomer may lie just below its bound; reading the share against the found amount alone
+    (bound / total, its first-order form) would let a large bound give a component found alone an
+    sd above its own value."""
     total = float(ev.amounts[:n_candidates].sum())
     if total <= 0:
         return frac_cov
@@ -246,7 +249,7 @@ def with_undetected_spread(frac: np.ndarray, frac_cov: np.ndarray, ev: Evaluatio
     for k in range(n_candidates):
         p = ev.presence[k]
         if not ev.detected[k] and np.isfinite(p.upper) and p.upper > 0:
-            spread += (0.5 * float(p.upper) / total) ** 2
+            spread += (0.5 * float(p.upper) / (total + float(p.upper))) ** 2
     return frac_cov + spread * np.outer(frac, frac)
 
 

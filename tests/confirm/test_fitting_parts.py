@@ -402,3 +402,25 @@ def test_a_molecules_own_neighbouring_multiplet_is_no_overlap():
         assert r.overlap < 0.05 < 0.3 < r.overlap_all
         assert r.shape_group > 0.95
     assert r_o.overlap < 0.05
+
+
+def test_a_candidate_below_its_bound_widens_the_found_fractions_by_at_most_its_share():
+    """A component found alone (amount 1) beside an undetected candidate bounded at 1.74: the
+    candidate could be at most 1.74 / 2.74 = 63.5 % of the mixture (its reported upper limit), so
+    the found 100 % carries half that as its sd, never more than its own value (read against the
+    found amount alone, 1.74 / 1, it would be 87 points). A small bound gives nearly the same sd
+    either way."""
+    from confirm.fitting.assemble import Evaluation, with_undetected_spread
+    from confirm.fitting.evidence import Presence
+
+    def spread(bound):
+        found = Presence(1.0, 0.01, True, (), (0,), np.inf)
+        hidden = Presence(0.0, 0.5, False, (), (), bound)
+        ev = Evaluation(amounts=np.array([1.0, 0.0]), cov=np.zeros((2, 2)), base=np.zeros(1),
+                        detected=np.array([True, False]), presence=(found, hidden), readings=[(), ()],
+                        var=np.ones(1), model=np.zeros(1))
+        cov = with_undetected_spread(np.array([1.0, 0.0]), np.zeros((2, 2)), ev, 2)
+        return float(np.sqrt(cov[0, 0]))
+
+    assert spread(1.74) == pytest.approx(0.5 * 1.74 / 2.74)
+    assert spread(0.02) == pytest.approx(0.01, rel=0.03)
