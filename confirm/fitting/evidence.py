@@ -284,24 +284,29 @@ def _read_one(grid, u, d, others, reach: int, noise_sd: float, model_error: floa
                        envelope_window, overlap_all, shape_group)
 
 
-def _best_envelope(u, d, var, window, reach: int, misfit: float, steps) -> float:
-    """Largest :func:`_envelope` over the moves from ``steps[0]`` to ``steps[1]`` grid steps (the
-    multiplet's own place left out when outside them), the margin read at each place tried."""
+def _main_lines(u, d, var, window, reach: int, misfit: float) -> tuple:
+    """The main lines' points of a multiplet (at least :data:`_MAIN_LINE_SHARE` of its peak, in its
+    window), the best data within ``reach`` points of every point, and the margin on every point."""
     main = np.flatnonzero(window & (u >= _MAIN_LINE_SHARE * float(u.max())))
-    if main.size == 0:
-        return np.inf
     padded = np.concatenate([np.full(reach, -np.inf), d, np.full(reach, -np.inf)])
     near = np.max(np.lib.stride_tricks.sliding_window_view(padded, 2 * reach + 1), axis=1)
     margin = _ENVELOPE_MARGIN_SD * np.sqrt(var * max(1.0, misfit))
-    moves = np.arange(steps[0], steps[1] + 1)
-    shifted = main[None, :] + moves[:, None]
+    return main, near, margin
+
+
+def _best_envelope(u, d, var, window, reach: int, misfit: float, steps) -> float:
+    """Largest :func:`_envelope` over the moves from ``steps[0]`` to ``steps[1]`` grid steps (the
+    multiplet's own place left out when outside them), the margin read at each place tried (the
+    others' model error where the lines would sit)."""
+    main, near, margin = _main_lines(u, d, var, window, reach, misfit)
+    if main.size == 0:
+        return np.inf
+    shifted = main[None, :] + np.arange(steps[0], steps[1] + 1)[:, None]
     inside = np.all((shifted >= 0) & (shifted < d.size), axis=1)
     if not inside.any():
         return np.inf
-    # the margin is that of each place tried (the others' model error where the lines would sit)
     at = shifted[inside]
-    values = np.min((near[at] + margin[at]) / u[main][None, :], axis=1)
-    return float(values.max())
+    return float(np.max(np.min((near[at] + margin[at]) / u[main][None, :], axis=1)))
 
 
 def _envelope(u, d, var, window, reach: int, misfit: float, steps=(0, 0)) -> tuple[float, float]:
@@ -309,12 +314,9 @@ def _envelope(u, d, var, window, reach: int, misfit: float, steps=(0, 0)) -> tup
     data + margin) / line height, at the multiplet's place and at its best place when moved by a
     whole number of grid steps within ``steps`` (lowest, highest; the margin stays that of the
     fitted place, the others' model error there)."""
-    main = np.flatnonzero(window & (u >= _MAIN_LINE_SHARE * float(u.max())))
+    main, near, margin = _main_lines(u, d, var, window, reach, misfit)
     if main.size == 0:
         return np.inf, np.inf
-    padded = np.concatenate([np.full(reach, -np.inf), d, np.full(reach, -np.inf)])
-    near = np.max(np.lib.stride_tricks.sliding_window_view(padded, 2 * reach + 1), axis=1)
-    margin = _ENVELOPE_MARGIN_SD * np.sqrt(var * max(1.0, misfit))
     moves = np.arange(min(steps[0], 0), max(steps[1], 0) + 1)
     shifted = main[None, :] + moves[:, None]
     inside = np.all((shifted >= 0) & (shifted < d.size), axis=1)  # the place itself always is
