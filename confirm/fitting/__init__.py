@@ -468,7 +468,7 @@ def _contradicted_by_integrals(ev, found: dict) -> dict:
     out = {}
     for k, (mean, sd, _, weight) in found.items():
         p = ev.presence[k]
-        if not ev.detected[k] or weight <= 0 or not np.isfinite(p.amount_sd):
+        if weight <= 0 or not np.isfinite(p.amount_sd):  # (only detected candidates are read)
             continue
         sd_eff = sd / np.sqrt(weight)
         gap = p.amount - mean

@@ -269,11 +269,9 @@ def _read_one(grid, u, d, others, reach: int, noise_sd: float, model_error: floa
     # misfit: a candidate whose multiplet is absent makes its own window misfit, and that must not
     # widen the test that finds the absence
     margin_var = point_variance(noise_sd, others, model_error)
-    steps = (0, 0) if span is None else (int(np.ceil(span[0] / grid.dx_ppm)),
-                                         int(np.floor(span[1] / grid.dx_ppm)))
+    steps = (0, 0) if span is None else _grid_steps(span, grid.dx_ppm)
     envelope, envelope_window = _envelope(u, d, margin_var, window, reach, max(1.0, misfit), steps)
-    steps_likely = None if likely is None else (int(np.ceil(likely[0] / grid.dx_ppm)),
-                                                int(np.floor(likely[1] / grid.dx_ppm)))
+    steps_likely = None if likely is None else _grid_steps(likely, grid.dx_ppm)
     if steps_likely is not None and steps_likely[0] <= steps_likely[1] and not (
             steps_likely[0] <= 0 <= steps_likely[1]):
         envelope_all = _best_envelope(u, d + others, margin_var, window, reach, max(1.0, misfit),
@@ -282,6 +280,11 @@ def _read_one(grid, u, d, others, reach: int, noise_sd: float, model_error: floa
         envelope_all, _ = _envelope(u, d + others, margin_var, window, reach, max(1.0, misfit))
     return SiteReading(ppm, alpha, sd, envelope, shape, overlap, misfit, True, shape_misfit, envelope_all,
                        envelope_window, overlap_all, shape_group)
+
+
+def _grid_steps(span, dx_ppm: float) -> tuple[int, int]:
+    """The whole grid steps within a (lowest, highest) move in ppm."""
+    return int(np.ceil(span[0] / dx_ppm)), int(np.floor(span[1] / dx_ppm))
 
 
 def _main_lines(u, d, var, window, reach: int, misfit: float) -> tuple:

@@ -25,7 +25,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["IntegralReading", "combine_readings", "integral_amounts"]
+__all__ = ["IntegralReading", "integral_amounts"]
 
 #: A window holds the points where a multiplet's own column exceeds this share of its peak.
 _WINDOW_LEVEL = 0.005
@@ -197,12 +197,12 @@ def integral_amounts(grid, per_site: np.ndarray, cols: np.ndarray, offsets, n_si
                    + (_OTHERS_ERROR * other_area) ** 2) / unit**2
             readings.append(IntegralReading(sites, value, float(np.sqrt(var)), other_area / expected, weight))
         if readings:
-            mean, sd, weight = combine_readings(readings)
+            mean, sd, weight = _combine_readings(readings)
             out[int(k)] = (mean, sd, tuple(readings), weight)
     return out
 
 
-def combine_readings(readings) -> tuple[float, float, float]:
+def _combine_readings(readings) -> tuple[float, float, float]:
     """Inverse-variance mean of integral readings (each weighted by its ``weight``), its sd (widened
     by the Birge ratio when they disagree) and the largest weight."""
     a = np.array([r.amount for r in readings])
