@@ -1,7 +1,9 @@
 """Benchmark: is the analysis a function of the data? (issue 13, deliver 2)
 
-Runs the demo (both sample spectra) and 30 corpus cases (tune half, every field) under several
-configurations, each in a fresh subprocess:
+Runs the demo (both sample spectra), 30 corpus cases (tune half, every field) and, where the shared
+real spectra are present (``$CONFIRM_REAL_SPECTRA`` or ``../shared/real_spectra``), the measured
+files of the real-data verdict tests (each alkene against its geometric and positional isomers, two
+negative controls; ``REAL_CASES``) under several configurations, each in a fresh subprocess:
 
 - OpenBLAS core types (``OPENBLAS_CORETYPE``, which only selects the BLAS kernels, so it changes
   the rounding of every matrix product): every type this CPU can run of Haswell, Sandybridge,
@@ -22,6 +24,7 @@ Never set OPENBLAS_CORETYPE in tests or CI: it is a diagnostic for this benchmar
 from __future__ import annotations
 
 import argparse
+import dataclasses
 import json
 import os
 import subprocess
@@ -29,6 +32,27 @@ import sys
 import time
 
 _CORE_TYPES = ("Haswell", "Sandybridge", "Nehalem", "Prescott", "Zen", "SkylakeX")
+
+#: Real measured files and their candidates, as in tests/confirm/test_real_verdict.py: folder ->
+#: candidates (the true compound first for the alkenes; alkenes only for the negative controls).
+_ALKENES = ["C/C=C/c1ccc(OC)cc1", "C=CCc1ccc(OC)cc1", "C=CC(=O)OCCCC"]
+REAL_CASES = {
+    "butyl_acrylate": ["C=CC(=O)OCCCC", "C/C=C/C(=O)OCCC", "C/C=C\\C(=O)OCCC"],
+    "estragole": ["C=CCc1ccc(OC)cc1", "C/C=C/c1ccc(OC)cc1", "C/C=C\\c1ccc(OC)cc1"],
+    "coumarin": ["O=c1ccc2ccccc2o1", "C=C1C(=O)Oc2ccccc21"],
+    "ipsdienol": ["CC(C)=CC(O)CC(=C)C=C", "CC(C)=CC(O)C/C(C)=C/C", "CC(C)=CC(O)C/C(C)=C\\C"],
+    "menthol": _ALKENES,
+    "aspirin": _ALKENES,
+}
+
+
+def real_spectra_folder():
+    """The shared real spectra, or None when absent."""
+    from pathlib import Path
+
+    env = os.environ.get("CONFIRM_REAL_SPECTRA")
+    path = Path(env) if env else Path(__file__).resolve().parents[2] / "shared" / "real_spectra"
+    return path if path.is_dir() else None
 
 
 def _usable_core_types() -> tuple[list[str], list[str]]:
@@ -97,6 +121,24 @@ def _worker(n_cases: int, n_workers: int, perturb: float) -> dict:
             result = analyze_path(path, substrate=DEMO_SUBSTRATE, reagent=DEMO_REAGENT, solvent=DEMO_SOLVENT,
                                   temp_c=DEMO_TEMP_C)
         out[f"demo:{path.name}"] = _outcome(result)
+    real = real_spectra_folder()
+    for folder, smiles in REAL_CASES.items() if real is not None else ():
+        path = real / folder / "1h.fid.dx"
+        if not path.is_file():
+            continue
+        # every configuration takes the same path (the processed spectrum, perturbed or not, and the
+        # predictions for the sample's solvent, as analyze_path makes them)
+        from confirm.processing import process_measurement
+        from confirm.reading import read_measurement
+
+        raw = read_measurement(path)
+        processed = process_measurement(raw)
+        cands, _ = build_candidates(candidates=smiles)
+        solvent = getattr(raw.parameters, "solvent", None)
+        systems = analysis_module._for_sample_solvent(predict_systems(cands, solvent=solvent), cands, solvent,
+                                                      processed.spectrum.solvent)
+        processed = dataclasses.replace(processed, spectrum=nudge(processed.spectrum))
+        out[f"real:{folder}"] = _outcome(with_options(processed, cands, systems=systems))
     cache: dict = {}
     for case in _cases(n_cases):
         cands, _ = build_candidates(candidates=[s for s, _ in case.candidates])
