@@ -16,7 +16,7 @@ It prints, against the first configuration, the largest change of any mole fract
 every change of a detected set or of the major product. Target: no change of detected set or
 verdict, amounts within 0.1 point.
 
-    python -m benchmarks.stability [--cases N] [--jobs-only]
+    python -m benchmarks.stability [--cases N]
 
 Never set OPENBLAS_CORETYPE in tests or CI: it is a diagnostic for this benchmark only.
 """
