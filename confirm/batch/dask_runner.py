@@ -26,6 +26,7 @@ import itertools
 import json
 import logging
 import os
+import shutil
 import tempfile
 import threading
 import time
@@ -55,6 +56,8 @@ _RECOUNT_S = 5.0
 _LOCAL_CONFIG = {"distributed.scheduler.allowed-failures": 1, "distributed.scheduler.worker-saturation": 1.0}
 #: Name of the outcome file, which the driver writes itself after the item's other files.
 _OUTCOME = "outcome.json"
+#: Start of an item's temporary folder on a worker, followed by the worker's process id.
+_ITEM_PREFIX = "confirm-item-"
 
 
 def require_dask() -> None:
@@ -84,7 +87,8 @@ def run_item_on_worker(task: Task, stop_after_s: float) -> tuple[ItemOutcome, di
 
     tune_allocator()  # a worker starts with a trim threshold that doubles the time of an analysis
     with _ONE_AT_A_TIME, _ended_after(stop_after_s), \
-            tempfile.TemporaryDirectory(prefix="confirm-item-") as tmp:
+            tempfile.TemporaryDirectory(prefix=f"{_ITEM_PREFIX}{os.getpid()}-") as tmp:
+        _sweep_dead_workers_folders(Path(tmp).parent)
         outcome = process_item(replace(task, out_dir=tmp))
         folder = Path(tmp) / task.item.item_id
         files = {}
@@ -94,6 +98,32 @@ def run_item_on_worker(task: Task, stop_after_s: float) -> tuple[ItemOutcome, di
                 if path.is_file() and name != _OUTCOME:
                     files[name] = path.read_bytes()
     return outcome, files
+
+
+def _sweep_dead_workers_folders(parent: Path) -> None:
+    """Remove the item folders left in ``parent`` by worker processes that no longer run.
+
+    A worker that dies mid-item (killed, out of memory, or ended by its watchdog) cannot remove its
+    temporary folder; the next item on this machine does, once the process named in the folder's
+    name is gone. A folder of a live process (or of a number reused since) is left alone.
+    """
+    if os.name != "posix":  # elsewhere signal 0 does not merely ask whether a process runs
+        return
+    for folder in parent.glob(f"{_ITEM_PREFIX}*-*"):
+        pid = folder.name[len(_ITEM_PREFIX):].split("-", 1)[0]
+        if not pid.isdigit() or int(pid) == os.getpid() or _process_runs(int(pid)):
+            continue
+        shutil.rmtree(folder, ignore_errors=True)
+
+
+def _process_runs(pid: int) -> bool:
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except OSError:  # another user's process (PermissionError), or a platform without signal 0
+        return True
+    return True
 
 
 @contextlib.contextmanager
