@@ -18,8 +18,9 @@ envelope well below the amount at every place of its shift window (a multiplet t
 its lines is misplaced, not missing), a multiplet seen on its own that carries less than half the
 amount, one under other components' lines that reads below zero beyond its noise once their share
 is taken away, a clear lone multiplet of the wrong shape, or a diagnostic vinyl multiplet the data
-pull to the edge of its shift window. A decoy that borrows the lines of another compound lacks the multiplets
-that compound does not have, so it is not claimed; the reading says which multiplet is missing.
+pull to the edge of its shift window. A decoy that borrows the lines of another compound lacks
+the multiplets that compound does not have, so it is not claimed; the reading says which
+multiplet is missing.
 """
 
 from __future__ import annotations
@@ -374,7 +375,7 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic, at_edge=())
         # once their share is taken away: the others' lines already hold all the signal there and
         # more, so the data contradict the molecule at that place (a decoy's CH3 singlets on the
         # true compound's while an impurity line carries the decoy elsewhere)
-        missing += tuple(i for i in use if i not in seen and readings[i].overlap >= _SEEN_OVERLAP
+        missing += tuple(i for i in use if readings[i].overlap >= _SEEN_OVERLAP
                          and readings[i].amount + _MISSING_SD * readings[i].amount_sd < 0.0)
     misshapen = tuple(i for i in use if _crowding(readings[i]) < _ALONE and readings[i].sigma > SEEN_SIGMA
                       and readings[i].shape_misfit > _MISSHAPEN and readings[i].shape < _MISSHAPEN_MATCH)

@@ -286,14 +286,14 @@ def test_a_scheduler_that_does_not_answer_is_a_one_line_error(tmp_path, run_cli,
 def test_the_item_folder_of_a_worker_that_died_is_removed_by_the_next_item(tmp_path):
     import subprocess
 
-    from confirm.batch.dask_runner import _sweep_dead_workers_folders
+    from confirm.batch.dask_runner import _ITEM_PREFIX, _sweep_dead_workers_folders
 
     ended = subprocess.Popen([sys.executable, "-c", "pass"])
     ended.wait()  # a process number that no longer runs (a worker killed mid-item)
-    dead = tmp_path / f"confirm-item-{ended.pid}-a1b2"
-    alive = tmp_path / f"confirm-item-{os.getppid()}-c3d4"  # another worker, still running
-    own = tmp_path / f"confirm-item-{os.getpid()}-e5f6"
-    other = tmp_path / "confirm-item-notanumber-g7h8"
+    dead = tmp_path / f"{_ITEM_PREFIX}{ended.pid}-a1b2"
+    alive = tmp_path / f"{_ITEM_PREFIX}{os.getppid()}-c3d4"  # another worker, still running
+    own = tmp_path / f"{_ITEM_PREFIX}{os.getpid()}-e5f6"
+    other = tmp_path / f"{_ITEM_PREFIX}notanumber-g7h8"
     for folder in (dead, alive, own, other):
         (folder / "lot00").mkdir(parents=True)
     _sweep_dead_workers_folders(tmp_path)
