@@ -122,8 +122,9 @@ def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: floa
     readings = read_sites(grid, refined.per_site, refined.cols, amounts_all, base_all, basis, offsets,
                           n_sites, lw_ppm, noise_sd=noise_sd, model_error=model_error, moves=moves,
                           likely=likely)
-    presence = tuple(decide_presence(r, detection_sigma=detection_sigma, diagnostic=d, at_edge=e)
-                     for r, d, e in zip(readings, diagnostic, edges, strict=True))
+    stretched = [_main_coupling_at_bound(m, j) for m, j in zip(models, jvals, strict=False)]
+    presence = tuple(decide_presence(r, detection_sigma=detection_sigma, diagnostic=d, at_edge=e, stretched=t)
+                     for r, d, e, t in zip(readings, diagnostic, edges, stretched, strict=True))
     detected = np.array([p.present for p in presence]) & ~nuisance
     detected[list(reject)] = False
     amounts, base, cov_sub = weighted_fit(refined.cols, basis, grid, var, detected | nuisance)
@@ -183,6 +184,37 @@ def _coupling_at_edge(model, jvals) -> tuple:
         tol = _EDGE_SHARE * (hi - lo)
         if value < lo + tol or value > hi - tol:
             out.update((int(a), int(b)))
+    return tuple(sorted(out))
+
+
+#: A coupling this large (Hz) splits a multiplet visibly at the line widths of solution spectra
+#: (0.5-2 Hz); smaller ones may go to zero where the lines are too broad to show them.
+_RESOLVED_J_HZ = 3.0
+
+
+def _main_coupling_at_bound(model, jvals) -> tuple:
+    """CH3 sites whose largest refined coupling sits at a bound of its refined range (couplings are
+    refined within two sd of the prediction, at least 1 Hz): the data want the multiplet split
+    otherwise than the molecule can be. Only CH3: a freely rotating methyl's 3J (6-8 Hz) is the
+    best predicted coupling there is, so its doublet or triplet stretched to a bound sits on some
+    other compound's lines; a ring's or an aryl pattern's couplings reach their bounds on the true
+    compound too (diastereotopic CH2, second-order aromatic multiplets)."""
+    largest: dict = {}  # site -> (size, index of the refined pair)
+    for k, (a, b) in enumerate(model.j_pairs):
+        size = abs(model.j0[a, b])
+        if size < _RESOLVED_J_HZ:
+            continue
+        for site in (int(a), int(b)):
+            if site not in largest or size > largest[site][0]:
+                largest[site] = (size, k)
+    out = []
+    for site, (_, k) in largest.items():
+        if not model.labels[site].upper().startswith("CH3"):
+            continue
+        lo, hi, value = model.j_lo[k], model.j_hi[k], jvals[k]
+        tol = _EDGE_SHARE * (hi - lo)
+        if value < lo + tol or value > hi - tol:
+            out.append(site)
     return tuple(sorted(out))
 
 

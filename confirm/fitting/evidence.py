@@ -17,10 +17,11 @@ stands clear with its own shape, and none of its multiplets that should stand ou
 envelope well below the amount at every place of its shift window (a multiplet the fit left beside
 its lines is misplaced, not missing), a multiplet seen on its own that carries less than half the
 amount, one under other components' lines that reads below zero beyond its noise once their share
-is taken away, a clear lone multiplet of the wrong shape, or a diagnostic vinyl multiplet the data
-pull to the edge of its shift window. A decoy that borrows the lines of another compound lacks
-the multiplets that compound does not have, so it is not claimed; the reading says which
-multiplet is missing.
+is taken away, a clear lone multiplet of the wrong shape, a clear methyl multiplet whose splitting
+the data stretch to a bound of its range, or a diagnostic vinyl multiplet the data pull to the
+edge of its shift window. A decoy that borrows the lines of another compound lacks the
+multiplets that compound does not have, so it is not claimed; the reading says which multiplet is
+missing.
 """
 
 from __future__ import annotations
@@ -142,7 +143,8 @@ class Presence:
     upper : float
         95 % upper bound of the amount (for a candidate not present).
     outside : tuple of int
-        Diagnostic sites at the edge of their shift window (also in ``missing``).
+        Diagnostic sites at the edge of their shift window, and sites seen on their own whose main
+        coupling sits at a bound of its range (also in ``missing``).
     """
 
     amount: float
@@ -329,7 +331,7 @@ def _envelope(u, d, var, window, reach: int, misfit: float, steps=(0, 0)) -> tup
     return float(values[np.flatnonzero(moves[inside] == 0)[0]]), float(values.max())
 
 
-def decide_presence(readings, *, detection_sigma: float, diagnostic, at_edge=()) -> Presence:
+def decide_presence(readings, *, detection_sigma: float, diagnostic, at_edge=(), stretched=()) -> Presence:
     """Combine a candidate's multiplet readings into its evidence of presence.
 
     The multiplets seen on their own (amount above 5 sd, at most half their window filled by
@@ -354,6 +356,10 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic, at_edge=())
         A diagnostic one counts as missing: the molecule's identifying
         multiplet is not where it can be, and a decoy that reaches for another compound's line ends
         there.
+    stretched : sequence of int
+        Sites whose main coupling the fit left at a bound of its refined range. One seen on its own
+        counts as missing: the clear lines it sits on have another splitting than the molecule's
+        (a decoy's CH3 doublet, 6.1 Hz predicted, stretched to 7.7 Hz on an impurity's doublet).
     """
     use = [i for i, r in enumerate(readings) if r.usable and np.isfinite(r.amount_sd) and r.amount_sd > 0]
     if not use:
@@ -384,7 +390,7 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic, at_edge=())
     # (the vinyl H of an alkene) does, and so do misshapen multiplets making up half of them
     specific = set(diagnostic) if len(diagnostic) < len(readings) else set()
     veto = set(misshapen) if 2 * len(misshapen) >= len(use) else set(misshapen) & specific
-    outside = tuple(sorted(set(at_edge) & specific))
+    outside = tuple(sorted((set(at_edge) & specific) | (set(stretched) & set(seen))))
     missing = tuple(sorted(set(missing) | veto | set(outside)))
     crowded = all(readings[i].overlap >= _SEEN_OVERLAP for i in use)
     strong = max(detection_sigma, SEEN_SIGMA)

@@ -378,6 +378,44 @@ def test_a_multiplet_under_others_lines_that_reads_below_zero_is_missing():
         assert p.present and p.missing == (), (amount, sd)
 
 
+def test_a_clear_multiplet_split_at_the_bound_of_its_coupling_is_missing():
+    # the real ipsdienol FID against its (E)-isomer (issue 13): the decoy's CH3 doublet, 6.1 Hz
+    # predicted, sat on an impurity doublet with its coupling pulled to the 7.7 Hz bound, and alone
+    # carried the decoy (10.3 +- 0.8 %); its vinyl H read 24.9 +- 3.6 % under the true compound's
+    doublet = SiteReading(ppm=1.26, amount=0.103, amount_sd=0.008, envelope=0.12, shape=0.88, overlap=0.0,
+                          misfit=1.0, usable=True)
+    vinyl = SiteReading(ppm=5.06, amount=0.249, amount_sd=0.036, envelope=1.0, shape=0.80, overlap=0.80,
+                        misfit=1.0, usable=True)
+    ch = SiteReading(ppm=4.54, amount=0.017, amount_sd=0.011, envelope=1.0, shape=0.2, overlap=0.88,
+                     misfit=1.0, usable=True)
+    readings = [doublet, vinyl, ch]
+    assert decide_presence(readings, detection_sigma=3.0, diagnostic=[1]).present
+    p = decide_presence(readings, detection_sigma=3.0, diagnostic=[1], stretched=[0])
+    assert not p.present and p.missing == (0,) and p.outside == (0,)
+    # a stretched multiplet under others' lines is no clear evidence either way: nothing changes
+    p = decide_presence(readings, detection_sigma=3.0, diagnostic=[1], stretched=[2])
+    assert p.present and p.missing == ()
+
+
+def test_main_coupling_at_bound_looks_at_each_methyls_largest_resolved_coupling():
+    from types import SimpleNamespace
+
+    from confirm.fitting.assemble import _main_coupling_at_bound
+
+    j0 = np.zeros((3, 3))
+    j0[0, 1] = j0[1, 0] = 6.1  # CH3-CH 3J
+    j0[1, 2] = j0[2, 1] = 15.5  # trans vinyl 3J
+    j0[0, 2] = j0[2, 0] = 0.9  # allylic 4J: below 3 Hz, may go to zero
+    model = SimpleNamespace(j_pairs=((0, 1), (1, 2), (0, 2)), j0=j0, j_lo=np.array([4.5, 13.5, 0.0]),
+                            j_hi=np.array([7.7, 17.5, 2.1]), labels=("CH3", "vinyl", "vinyl"))
+    assert _main_coupling_at_bound(model, np.array([6.3, 15.0, 0.0])) == ()
+    # the CH3's 3J at its upper bound: the CH3 (largest coupling 6.1) is stretched, the CH is not
+    # (its largest is the 15.5 Hz one, inside its range)
+    assert _main_coupling_at_bound(model, np.array([7.7, 15.0, 0.9])) == (0,)
+    # only a methyl's: the vinyl 3J at a bound is the geometry rule's (assemble._coupling_at_edge)
+    assert _main_coupling_at_bound(model, np.array([6.3, 13.5, 0.9])) == ()
+
+
 def test_diagnostic_sites_are_the_ones_that_tell_the_candidates_apart():
     from types import SimpleNamespace
 
