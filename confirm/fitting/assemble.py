@@ -189,7 +189,7 @@ def _coupling_at_edge(model, jvals) -> tuple:
 
 #: A coupling this large (Hz) splits a multiplet visibly at the line widths of solution spectra
 #: (0.5-2 Hz); smaller ones may go to zero where the lines are too broad to show them.
-_RESOLVED_J_HZ = 3.0
+_RESOLVED_J_HZ = 3.0  # common practice
 
 
 def _main_coupling_at_bound(model, jvals) -> tuple:
