@@ -181,10 +181,15 @@ def _coupling_at_edge(model, jvals) -> tuple:
     for (a, b), value, lo, hi in zip(model.j_pairs, jvals, model.j_lo, model.j_hi, strict=False):
         if a not in vinyl or b not in vinyl or abs(model.j0[a, b]) < _VICINAL_VINYL_HZ:
             continue
-        tol = _EDGE_SHARE * (hi - lo)
-        if value < lo + tol or value > hi - tol:
+        if _at_bound(value, lo, hi):
             out.update((int(a), int(b)))
     return tuple(sorted(out))
+
+
+def _at_bound(value: float, lo: float, hi: float) -> bool:
+    """A refined coupling within :data:`_EDGE_SHARE` of its range of either bound."""
+    tol = _EDGE_SHARE * (hi - lo)
+    return bool(value < lo + tol or value > hi - tol)
 
 
 #: A coupling this large (Hz) splits a multiplet visibly at the line widths of solution spectra
@@ -199,23 +204,17 @@ def _main_coupling_at_bound(model, jvals) -> tuple:
     best predicted coupling there is, so its doublet or triplet stretched to a bound sits on some
     other compound's lines; a ring's or an aryl pattern's couplings reach their bounds on the true
     compound too (diastereotopic CH2, second-order aromatic multiplets)."""
-    largest: dict = {}  # site -> (size, index of the refined pair)
+    methyls = {s for s, lab in enumerate(model.labels) if lab.upper().startswith("CH3")}
+    largest: dict = {}  # methyl site -> (size, index of the refined pair)
     for k, (a, b) in enumerate(model.j_pairs):
         size = abs(model.j0[a, b])
         if size < _RESOLVED_J_HZ:
             continue
-        for site in (int(a), int(b)):
+        for site in {int(a), int(b)} & methyls:
             if site not in largest or size > largest[site][0]:
                 largest[site] = (size, k)
-    out = []
-    for site, (_, k) in largest.items():
-        if not model.labels[site].upper().startswith("CH3"):
-            continue
-        lo, hi, value = model.j_lo[k], model.j_hi[k], jvals[k]
-        tol = _EDGE_SHARE * (hi - lo)
-        if value < lo + tol or value > hi - tol:
-            out.append(site)
-    return tuple(sorted(out))
+    return tuple(sorted(site for site, (_, k) in largest.items()
+                        if _at_bound(jvals[k], model.j_lo[k], model.j_hi[k])))
 
 
 #: Half-width (line widths) of the window over which the local misfit of a point is averaged.
