@@ -338,10 +338,12 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic, at_edge=(),
     others) carry the amount: a multiplet misplaced in a crowded region, or sitting on another
     component's line, reads something else with a deceptively small sd. Without any such
     multiplet every readable multiplet counts. The candidate is present when that amount stands
-    clear of its uncertainty, one of its diagnostic multiplets reads 5 sd clear (on its own or with
-    the others' share taken away; or, when every multiplet is overlapped, as in a crowded low-field
-    spectrum, the combination stands 5 sd clear), and none of its multiplets is missing (an
-    envelope below half the amount).
+    clear of its uncertainty, one of its diagnostic multiplets reads 5 sd clear in its own shape (on
+    its own or with the others' share taken away), and none of its multiplets is missing (an
+    envelope below half the amount). A candidate none of whose multiplets stands apart from other
+    components' lines, and whose identifying multiplet does not stand clear in its shape, is not
+    detected: its readings are the others' lines split between them (a homologue on the true
+    compound's multiplets), and its bound is the data's.
 
     Parameters
     ----------
@@ -394,18 +396,14 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic, at_edge=(),
     missing = tuple(sorted(set(missing) | veto | set(outside)))
     crowded = all(readings[i].overlap >= _SEEN_OVERLAP for i in use)
     strong = max(detection_sigma, SEEN_SIGMA)
-    if any(i in use and readings[i].sigma > strong and _own_shape(readings[i]) >= _MISSHAPEN_MATCH
-           for i in diagnostic):
-        # a diagnostic multiplet stands 5 sd clear, on its own or with the others' share taken away
-        # (its sd then carries their model error), and has its own shape: at high SNR any small
-        # line stands 5 sd clear, a multiplet of the wrong shape is no evidence of the molecule
-        evidence = True
-    elif crowded:
-        # every multiplet shares its window with others (a crowded low-field spectrum): nothing
-        # could be seen on its own, so the combination must stand 5 sd clear
-        evidence = mean > SEEN_SIGMA * mean_sd
-    else:
-        evidence = False  # a multiplet that stands alone would show the candidate: none does
+    # the evidence: a diagnostic multiplet stands 5 sd clear, on its own or with the others' share
+    # taken away (its sd then carries their model error), and has its own shape (at high SNR any
+    # small line stands 5 sd clear, a multiplet of the wrong shape is no evidence of the molecule).
+    # Nothing else is: a multiplet that stood alone would show the candidate; where every multiplet
+    # shares its window with others, their combined reading is the others' lines split between
+    # the components (a homologue on the true compound's multiplets), however many sd it reads
+    evidence = any(i in use and readings[i].sigma > strong and _own_shape(readings[i]) >= _MISSHAPEN_MATCH
+                   for i in diagnostic)
     present = mean > detection_sigma * mean_sd and evidence and not missing
     all_mean, all_sd, _ = _combine([readings[i] for i in use])
     upper = max(all_mean, 0.0) + Z_UPPER_95 * all_sd

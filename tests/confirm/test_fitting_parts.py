@@ -8,6 +8,8 @@ matrix, the evidence reading on hand-made columns.
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 import pytest
 
@@ -487,3 +489,21 @@ def test_a_candidate_below_its_bound_widens_the_found_fractions_by_at_most_its_s
 
     assert spread(1.74) == pytest.approx(0.5 * 1.74 / 2.74)
     assert spread(0.02) == pytest.approx(0.01, rel=0.03)
+
+
+def test_a_molecule_seen_nowhere_apart_from_others_lines_is_not_detected():
+    """Every multiplet under other components' lines (more than half of each window theirs) and no
+    identifying multiplet standing 5 sd clear in its own shape: nothing in the data shows this
+    molecule rather than the others, however large the readings taken with their share away (a
+    homologue's multiplets on the true compound's). It is bounded by the data instead."""
+    def under(amount, sd):
+        return SiteReading(ppm=1.3, amount=amount, amount_sd=sd, envelope=1.0, shape=0.6, overlap=0.9,
+                           misfit=1.0, usable=True, envelope_all=0.4)
+
+    readings = [under(0.14, 0.02), under(0.15, 0.02), under(0.13, 0.03)]
+    p = decide_presence(readings, detection_sigma=3.0, diagnostic=[0])
+    assert not p.present
+    assert p.upper >= 0.4 - 1e-12  # the data's bound, not the readings'
+    # the same readings with the identifying multiplet in its shape, 7 sd clear: present
+    clear = [replace(readings[0], shape=0.95)] + readings[1:]
+    assert decide_presence(clear, detection_sigma=3.0, diagnostic=[0]).present
