@@ -394,7 +394,6 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic, at_edge=(),
     veto = set(misshapen) if 2 * len(misshapen) >= len(use) else set(misshapen) & specific
     outside = tuple(sorted((set(at_edge) & specific) | (set(stretched) & set(seen))))
     missing = tuple(sorted(set(missing) | veto | set(outside)))
-    crowded = all(readings[i].overlap >= _SEEN_OVERLAP for i in use)
     strong = max(detection_sigma, SEEN_SIGMA)
     # the evidence: a diagnostic multiplet stands 5 sd clear, on its own or with the others' share
     # taken away (its sd then carries their model error), and has its own shape (at high SNR any
@@ -410,7 +409,7 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic, at_edge=(),
     envelopes = [readings[i].envelope for i in use if np.isfinite(readings[i].envelope)]
     if envelopes:
         upper = min(upper, max(min(envelopes), 0.0))
-    if crowded:
+    if all(readings[i].overlap >= _SEEN_OVERLAP for i in use):
         # every multiplet sits on other components' lines: its reading is conditional on their
         # amounts (an E isomer read under its Z isomer's lines), so only the data themselves bound it
         shared = [readings[i].envelope_all for i in use if np.isfinite(readings[i].envelope_all)]
