@@ -60,7 +60,7 @@ CORPUS_ATOMS: dict[str, tuple] = {
     "alpha_methylstyrene": _RING5["b"] + (0, 0, 2),
     "cumyl_methyl_ether": _RING5["d"] + (0, (3, 4)),
     "methylcyclohexanol": ((3, 7), (3, 7), (4, 6), (4, 6), 5, 5, 0, 2),
-    "methylcyclohexene": (2, 3, 6, 0, 4, 5),
+    "methylcyclohexene": (2, 3, 6, 0, 5, 4),
     "methylenecyclohexane": (0, 2, 6, 3, 5, 4),
     "cyclohexanol": (1, (2, 6), (2, 6), (3, 5), (3, 5), 4, 4, 0),
     "bromocyclohexane": (1, (2, 6), (2, 6), (3, 5), (3, 5), 4, 4),

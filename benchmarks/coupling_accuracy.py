@@ -1,0 +1,197 @@
+"""Accuracy of the predicted 1H-1H couplings against the corpus compounds' published couplings.
+
+The mixture fit starts every multiplet from its predicted couplings and refines them only within a
+few Hz (and not at all in molecules whose strongly coupled clusters are large), so a coupling that
+is predicted systematically off draws the multiplet in the wrong shape. This benchmark compares
+:func:`predictors.prediction.predict_spin_system` with the published couplings of the corpus
+compounds (``benchmarks/corpus/compounds.py``, each with its source; sites mapped to atoms by
+``benchmarks/shift_reference/reused.CORPUS_ATOMS``), one value per pair of carbons: the predicted
+coupling is the mean over the H atoms of the two carbons. Where a corpus compound lists the two H
+of one carbon as two sites (a =CH2, a diastereotopic CH2) the two are matched to the two H atoms in
+the order that fits the published couplings of that compound best (the labels cannot tell them
+apart; their couplings do). Sites spanning mirror-related carbons are left out.
+
+Prints, per class of coupling and per half of the corpus split (tune / held-out, by compound),
+n, the mean error (predicted - published: the bias), the MAE and the largest error, then the 12
+largest errors.
+
+    python -m benchmarks.coupling_accuracy [--json out.json]
+"""
+
+from __future__ import annotations
+
+import argparse
+import itertools
+import json
+import sys
+from collections.abc import Callable
+from dataclasses import asdict, dataclass
+
+import numpy as np
+from rdkit import Chem
+
+from benchmarks.corpus.compounds import COMPOUNDS
+from benchmarks.corpus.families import compound_half
+from benchmarks.shift_reference.reused import CORPUS_ATOMS
+
+
+@dataclass(frozen=True)
+class CouplingComparison:
+    """One published coupling against the prediction."""
+
+    compound: str
+    half: str
+    kind: str
+    atoms: tuple[int, int]
+    published_hz: float
+    predicted_hz: float
+
+    @property
+    def error_hz(self) -> float:
+        return self.predicted_hz - self.published_hz
+
+
+def coupling_kind(mol: Chem.Mol, a: int, b: int) -> str:
+    """Class of the coupling between H on heavy atoms ``a`` and ``b`` of ``mol`` (corpus numbering)."""
+    if a == b:
+        return "geminal"
+    path = Chem.GetShortestPath(mol, a, b)
+    n_bonds = len(path) + 1  # H-C ... C-H
+    atoms = [mol.GetAtomWithIdx(i) for i in path]
+    bonds = [mol.GetBondBetweenAtoms(path[i], path[i + 1]) for i in range(len(path) - 1)]
+    if all(x.GetIsAromatic() for x in atoms):
+        return {3: "aryl ortho", 4: "aryl meta", 5: "aryl para"}.get(n_bonds, "other")
+    double = [bd.GetBondType() == Chem.BondType.DOUBLE for bd in bonds]
+    if n_bonds == 3:
+        if double[0]:
+            return "across C=C"
+        sp2 = [x.GetHybridization() == Chem.HybridizationType.SP2 for x in atoms]
+        if any(sp2):
+            return "vinyl-sp3 3J" if all(x.GetSymbol() == "C" for x in atoms) else "other"
+        return "sp3 3J"
+    if n_bonds == 4 and any(double):
+        return "allylic 4J"
+    return "other"
+
+
+def _atom_map(corpus_smiles: str, system_smiles: str) -> dict[int, int]:
+    """Heavy atoms of the corpus SMILES -> heavy atoms of the predicted system's SMILES."""
+    ref = Chem.MolFromSmiles(corpus_smiles)
+    mol = Chem.MolFromSmiles(system_smiles)
+    match = mol.GetSubstructMatch(ref, useChirality=False)
+    if len(match) != ref.GetNumAtoms():
+        raise ValueError(f"{corpus_smiles}: no atom map onto {system_smiles}")
+    return dict(enumerate(match))
+
+
+def _proton_couplings(system) -> tuple[dict[int, list[int]], Callable[[int, int], float]]:
+    """H atoms of each heavy atom of the system, and the coupling between two H atoms."""
+    mol_h = Chem.AddHs(Chem.MolFromSmiles(system.smiles))
+    site_of, order = {}, []
+    for k, site in enumerate(system.sites):
+        for h in site.atoms:
+            site_of[h] = k
+            order.append(h)
+    position = {h: i for i, h in enumerate(order)}
+    on = {}
+    for h in order:
+        on.setdefault(mol_h.GetAtomWithIdx(h).GetNeighbors()[0].GetIdx(), []).append(h)
+
+    def j(h1: int, h2: int) -> float:
+        if system.proton_j_hz is not None:
+            return float(system.proton_j_hz[position[h1], position[h2]])
+        return float(system.j_hz[site_of[h1], site_of[h2]])
+
+    return on, j
+
+
+def compare_compound(compound, system) -> list[CouplingComparison]:
+    """The compound's published couplings between singly mapped sites against ``system``."""
+    mapped = CORPUS_ATOMS.get(compound.key)
+    if mapped is None:
+        return []
+    amap = _atom_map(compound.smiles, system.smiles)
+    on, j = _proton_couplings(system)
+    ref = Chem.MolFromSmiles(compound.smiles)
+    sites_of: dict[int, list[int]] = {}
+    for s, atom in enumerate(mapped):
+        if isinstance(atom, int):
+            sites_of.setdefault(atom, []).append(s)
+    usable = [(i, k, value) for i, k, value in compound.couplings
+              if isinstance(mapped[i], int) and isinstance(mapped[k], int)]
+    # sites that share a carbon with another site stand for single H atoms: try each matching
+    shared = {atom: sites for atom, sites in sites_of.items() if len(sites) > 1}
+    choices = []
+    for atom, sites in shared.items():
+        hs = on.get(amap[atom], [])
+        if len(hs) != len(sites):
+            return []
+        choices.append([(atom, dict(zip(sites, perm, strict=True))) for perm in itertools.permutations(hs)])
+    best, best_cost = None, np.inf
+    for pick in itertools.product(*choices) if choices else [()]:
+        h_of_site = {s: h for _, chosen in pick for s, h in chosen.items()}
+        rows = []
+        for i, k, value in usable:
+            hi = [h_of_site[i]] if i in h_of_site else on.get(amap[mapped[i]], [])
+            hk = [h_of_site[k]] if k in h_of_site else on.get(amap[mapped[k]], [])
+            pairs = [(x, y) for x in hi for y in hk if x != y]
+            if not pairs:
+                continue
+            predicted = float(np.mean([j(x, y) for x, y in pairs]))
+            rows.append(CouplingComparison(compound.key, compound_half(compound.key),
+                                           coupling_kind(ref, mapped[i], mapped[k]),
+                                           (mapped[i], mapped[k]), float(value), predicted))
+        cost = sum(abs(r.error_hz) for r in rows)
+        if cost < best_cost:
+            best, best_cost = rows, cost
+    return best or []
+
+
+def compare_all() -> list[CouplingComparison]:
+    from predictors.prediction import predict_spin_system
+
+    out = []
+    for compound in COMPOUNDS:
+        if compound.key not in CORPUS_ATOMS:
+            continue
+        out.extend(compare_compound(compound, predict_spin_system(compound.smiles, solvent="CDCl3")))
+    return out
+
+
+def summarise(rows: list[CouplingComparison]) -> dict:
+    """Per half and coupling class: n, bias (mean predicted - published), MAE and largest error."""
+    out: dict = {}
+    for half in ("tune", "held-out"):
+        for kind in sorted({r.kind for r in rows}):
+            err = np.array([r.error_hz for r in rows if r.half == half and r.kind == kind])
+            if err.size:
+                out.setdefault(half, {})[kind] = {
+                    "n": int(err.size), "bias_hz": float(err.mean()), "mae_hz": float(np.abs(err).mean()),
+                    "max_hz": float(np.abs(err).max())}
+    return out
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = argparse.ArgumentParser(prog="python -m benchmarks.coupling_accuracy",
+                                     description=__doc__.split("\n")[0])
+    parser.add_argument("--json", metavar="OUT", help="write the comparisons and the summary as JSON")
+    args = parser.parse_args(argv)
+    rows = compare_all()
+    summary = summarise(rows)
+    for half, kinds in summary.items():
+        print(f"=== {half} half ({len({r.compound for r in rows if r.half == half})} compounds)")
+        print(f"  {'class':16s} {'n':>4s} {'bias':>7s} {'MAE':>6s} {'max':>6s}  (Hz, predicted - published)")
+        for kind, s in kinds.items():
+            print(f"  {kind:16s} {s['n']:4d} {s['bias_hz']:+7.2f} {s['mae_hz']:6.2f} {s['max_hz']:6.2f}")
+    print("12 largest errors")
+    for r in sorted(rows, key=lambda r: -abs(r.error_hz))[:12]:
+        print(f"  {r.compound:24s} {r.half:8s} {r.kind:14s} published {r.published_hz:+6.1f} "
+              f"predicted {r.predicted_hz:+6.2f} error {r.error_hz:+5.2f}")
+    if args.json:
+        with open(args.json, "w", encoding="utf-8") as fh:
+            json.dump({"summary": summary, "comparisons": [asdict(r) for r in rows]}, fh, indent=1)
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
