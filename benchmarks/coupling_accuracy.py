@@ -74,27 +74,21 @@ def coupling_kind(mol: Chem.Mol, a: int, b: int) -> str:
     return "other"
 
 
-def _atom_map(corpus_smiles: str, system_smiles: str) -> dict[int, int]:
-    """Heavy atoms of the corpus SMILES -> heavy atoms of the predicted system's SMILES."""
-    ref = Chem.MolFromSmiles(corpus_smiles)
-    mol = Chem.MolFromSmiles(system_smiles)
-    match = mol.GetSubstructMatch(ref, useChirality=False)
+def _atom_map(ref: Chem.Mol, system_smiles: str) -> dict[int, int]:
+    """Heavy atoms of the corpus molecule ``ref`` -> heavy atoms of the predicted system's SMILES."""
+    match = Chem.MolFromSmiles(system_smiles).GetSubstructMatch(ref, useChirality=False)
     if len(match) != ref.GetNumAtoms():
-        raise ValueError(f"{corpus_smiles}: no atom map onto {system_smiles}")
+        raise ValueError(f"{Chem.MolToSmiles(ref)}: no atom map onto {system_smiles}")
     return dict(enumerate(match))
 
 
 def _proton_couplings(system) -> tuple[dict[int, list[int]], Callable[[int, int], float]]:
     """H atoms of each heavy atom of the system, and the coupling between two H atoms."""
     mol_h = Chem.AddHs(Chem.MolFromSmiles(system.smiles))
-    site_of, order = {}, []
-    for k, site in enumerate(system.sites):
-        for h in site.atoms:
-            site_of[h] = k
-            order.append(h)
-    position = {h: i for i, h in enumerate(order)}
+    site_of = {h: k for k, site in enumerate(system.sites) for h in site.atoms}
+    position = {h: i for i, h in enumerate(system.proton_atoms)}
     on = {}
-    for h in order:
+    for h in system.proton_atoms:
         on.setdefault(mol_h.GetAtomWithIdx(h).GetNeighbors()[0].GetIdx(), []).append(h)
 
     def j(h1: int, h2: int) -> float:
@@ -110,9 +104,10 @@ def compare_compound(compound, system) -> list[CouplingComparison]:
     mapped = CORPUS_ATOMS.get(compound.key)
     if mapped is None:
         return []
-    amap = _atom_map(compound.smiles, system.smiles)
-    on, j = _proton_couplings(system)
     ref = Chem.MolFromSmiles(compound.smiles)
+    amap = _atom_map(ref, system.smiles)
+    on, j = _proton_couplings(system)
+    half = compound_half(compound.key)
     sites_of: dict[int, list[int]] = {}
     for s, atom in enumerate(mapped):
         if isinstance(atom, int):
@@ -138,7 +133,7 @@ def compare_compound(compound, system) -> list[CouplingComparison]:
             if not pairs:
                 continue
             predicted = float(np.mean([j(x, y) for x, y in pairs]))
-            rows.append(CouplingComparison(compound.key, compound_half(compound.key),
+            rows.append(CouplingComparison(compound.key, half,
                                            coupling_kind(ref, mapped[i], mapped[k]),
                                            (mapped[i], mapped[k]), float(value), predicted))
         cost = sum(abs(r.error_hz) for r in rows)
