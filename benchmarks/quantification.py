@@ -15,8 +15,14 @@ prints, per field band (60-90 MHz, 300-600 MHz) and per field:
 - run time per case and the number of errors (a failing case is counted, never stops the run).
 
     python -m benchmarks.quantification [--half tune|held-out] [--limit N]
-        [--kinds mixture,identity,control] [--json out.json]
+        [--kinds mixture,identity,control] [--ids ID,ID | --ids @FILE] [--matching SMARTS]
+        [--json out.json]
     python -m benchmarks.quantification --from-json out.json   # the report of an earlier run
+
+``--ids`` runs only the named cases (comma-separated, or one per line in FILE); ``--matching``
+(repeatable) only the cases with a candidate that has the substructure: a change confined to
+some chemistry (open-chain allylic couplings, saturated rings) can move no other case, so a
+paired comparison (:mod:`benchmarks.paired`, ``--fill``) needs only those run again.
 
 The held-out half is the default and the one to report; the tune half is for development.
 ``--limit N`` keeps the first N cases of each kind (the mixtures cycle through the families).
@@ -308,6 +314,9 @@ def main(argv=None) -> int:
     parser.add_argument("--half", choices=("tune", "held-out"), default="held-out")
     parser.add_argument("--limit", type=int, default=None, help="first N cases of each kind")
     parser.add_argument("--kinds", default=",".join(KINDS), help="comma-separated: mixture,identity,control")
+    parser.add_argument("--ids", default=None, help="only these case ids: ID,ID,... or @FILE (one per line)")
+    parser.add_argument("--matching", action="append", default=[], metavar="SMARTS",
+                        help="only cases with a candidate matching this SMARTS (repeatable: any of them)")
     parser.add_argument("--json", dest="json_path", default=None, help="write per-case results here")
     parser.add_argument(
         "--from-json", dest="from_json", default=None, help="print the report of an earlier run"
@@ -320,7 +329,9 @@ def main(argv=None) -> int:
         return 0
     kinds = [k.strip() for k in args.kinds.split(",") if k.strip()]
     try:
-        cases = select_cases(generate_cases(), half=args.half, kinds=kinds, limit=args.limit)
+        ids = _read_ids(args.ids)
+        cases = select_cases(generate_cases(), half=args.half, kinds=kinds, limit=args.limit, ids=ids,
+                             matching=args.matching)
     except ValueError as exc:
         print(f"error: {exc}", file=sys.stderr)
         return 2
@@ -343,6 +354,20 @@ def main(argv=None) -> int:
     if args.json_path:
         _write_json(args.json_path, args.half, records, report)
     return 0
+
+
+def _read_ids(spec: str | None):
+    """Case ids from ``ID,ID`` or ``@FILE`` (one per line, blank lines and ``#`` comments ignored)."""
+    if spec is None:
+        return None
+    if spec.startswith("@"):
+        try:
+            with open(spec[1:], encoding="utf-8") as fh:
+                lines = [line.split("#", 1)[0].strip() for line in fh]
+        except OSError as exc:
+            raise ValueError(f"--ids: cannot read {spec[1:]}: {exc.strerror}") from None
+        return [x for x in lines if x]
+    return [x.strip() for x in spec.split(",") if x.strip()]
 
 
 def _write_json(path, half: str, records, report) -> None:

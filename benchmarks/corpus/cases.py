@@ -12,6 +12,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+from rdkit import Chem, RDLogger
 
 from benchmarks.corpus.compounds import COMPOUND_BY_KEY
 from benchmarks.corpus.families import FAMILIES, HALVES, IDENTITY_SETS
@@ -173,19 +174,53 @@ def generate_cases(
     return tuple(cases)
 
 
-def select_cases(cases, *, half: str | None = None, kinds=None, limit: int | None = None) -> tuple[Case, ...]:
-    """Cases of one half and some kinds; ``limit`` keeps the first N of each kind, in order."""
+def select_cases(cases, *, half: str | None = None, kinds=None, limit: int | None = None, ids=None,
+                 matching=()) -> tuple[Case, ...]:
+    """Cases of one half and some kinds; ``limit`` keeps the first N of each kind, in order.
+
+    ``ids`` (case ids) keeps only those cases; an id that is not among the half's cases of those
+    kinds is an error. ``matching`` (SMARTS) keeps the cases with a candidate that has one of
+    the substructures: the only cases a change confined to that part of the chemistry can move.
+    """
     if half is not None and half not in HALVES:
         raise ValueError(f"half: {half!r} is not one of {HALVES}")
     kinds = tuple(kinds) if kinds else KINDS
     bad = [k for k in kinds if k not in KINDS]
     if bad:
         raise ValueError(f"kinds: {bad} not among {KINDS}")
+    patterns = []
+    for smarts in matching:
+        RDLogger.DisableLog("rdApp.*")  # the parser's own multi-line complaint; ours is one line
+        try:
+            pattern = Chem.MolFromSmarts(smarts)
+        finally:
+            RDLogger.EnableLog("rdApp.*")
+        if pattern is None:
+            raise ValueError(f"matching: {smarts!r} is not a valid SMARTS")
+        patterns.append(pattern)
+    wanted = None if ids is None else set(ids)
     out = []
     for kind in kinds:
         chosen = [c for c in cases if c.kind == kind and (half is None or c.half == half)]
+        if wanted is not None:
+            chosen = [c for c in chosen if c.id in wanted]
+        if patterns:
+            chosen = [c for c in chosen if _has_any(c, patterns)]
         out += chosen[:limit] if limit is not None else chosen
+    if wanted is not None:
+        known = {c.id for c in cases if c.kind in kinds and (half is None or c.half == half)}
+        unknown = sorted(wanted - known)
+        if unknown:
+            raise ValueError(f"ids: not cases of this half and these kinds: {', '.join(unknown[:5])}")
     return tuple(out)
+
+
+def _has_any(case: Case, patterns) -> bool:
+    for smiles, _ in case.candidates:
+        mol = Chem.MolFromSmiles(smiles)
+        if mol is not None and any(mol.HasSubstructMatch(p) for p in patterns):
+            return True
+    return False
 
 
 # ---------------------------------------------------------------------------------------------

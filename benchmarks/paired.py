@@ -1,0 +1,169 @@
+"""Paired comparison of two runs of :mod:`benchmarks.quantification` on the same cases.
+
+The corpus cases are deterministic (a case's spectrum depends only on its seed), so two runs of
+the same cases differ only by the code: a paired comparison shows what a change did, case by
+case, without the spread between cases that the per-run figures carry. For each run it prints
+
+- mixtures: the summed absolute error (mole-% points, an undetected component counted as 0 %)
+  over all components present, and the absent candidates claimed (detected);
+- identity sets: the true compound named major;
+- wrong-sample controls: cases with a candidate detected above 5 % (false claims);
+
+then the cases whose detected set changed or whose summed error moved by more than 0.5 point,
+each with both results.
+
+    python -m benchmarks.paired BASE.json ARM.json [--fill]
+
+Both files are ``--json`` outputs of ``python -m benchmarks.quantification`` (of one half).
+``--fill`` takes the base's record for every case the arm did not run: use it only when the
+change cannot touch those cases (``--matching`` selected the ones it can), and say so. Without
+it, only the cases in both runs are compared.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+from dataclasses import dataclass
+
+__all__ = ["PairedFigures", "load_records", "figures", "changed_cases", "main"]
+
+#: A control claims a candidate when one is detected above this mole fraction (as in the report).
+_CLAIM = 0.05
+#: A case counts as changed when its summed error moves by more than this (points).
+_MOVED = 0.5
+
+
+@dataclass(frozen=True)
+class PairedFigures:
+    """The figures of one run over the compared cases."""
+
+    n_mixtures: int
+    mixture_error: float  # summed |error| over all components present (points)
+    absent_claimed: int
+    n_identity: int
+    identity_true: int
+    n_controls: int
+    controls_claimed: int
+
+
+def load_records(path: str) -> dict:
+    """``case id -> record`` of a saved run (ValueError when it is not one)."""
+    try:
+        with open(path, encoding="utf-8") as fh:
+            saved = json.load(fh)
+    except OSError as exc:
+        raise ValueError(f"cannot read {path}: {exc.strerror}") from None
+    except json.JSONDecodeError as exc:
+        raise ValueError(f"{path} is not JSON: {exc.msg} (line {exc.lineno})") from None
+    records = saved.get("records") if isinstance(saved, dict) else None
+    if not isinstance(records, list) or not all(isinstance(r, dict) and "id" in r for r in records):
+        raise ValueError(f"{path} is not a benchmarks.quantification --json file")
+    return {r["id"]: r for r in records}
+
+
+def _case_error(record) -> float:
+    total = 0.0
+    for comp in record["components"]:
+        if comp["truth"] > 0:
+            found = comp["mole_fraction"] if comp["detected"] and comp["mole_fraction"] is not None else 0.0
+            total += abs(found - comp["truth"]) * 100.0
+    return total
+
+
+def _detected(record) -> tuple:
+    return tuple(sorted(c["key"] or c["smiles"] for c in record["components"] if c["detected"]))
+
+
+def figures(records) -> PairedFigures:
+    """The paired figures of ``records`` (an iterable of case records; failed cases left out)."""
+    ok = [r for r in records if not r.get("error")]
+    mix = [r for r in ok if r["kind"] == "mixture"]
+    ident = [r for r in ok if r["kind"] == "identity"]
+    ctl = [r for r in ok if r["kind"] == "control"]
+    return PairedFigures(
+        n_mixtures=len(mix),
+        mixture_error=float(sum(_case_error(r) for r in mix)),
+        absent_claimed=sum(1 for r in mix for c in r["components"] if c["detected"] and c["truth"] == 0),
+        n_identity=len(ident),
+        identity_true=sum(1 for r in ident if r.get("major_key") in r["truth"]),
+        n_controls=len(ctl),
+        controls_claimed=sum(1 for r in ctl if any(
+            c["detected"] and (c["mole_fraction"] or 0.0) > _CLAIM for c in r["components"])),
+    )
+
+
+def changed_cases(base: dict, arm: dict) -> list:
+    """Ids (in the base's order) whose detected set changed or whose summed error moved."""
+    out = []
+    for key, rb in base.items():
+        ra = arm.get(key)
+        if ra is None or rb.get("error") or ra.get("error"):
+            continue
+        if _detected(rb) != _detected(ra) or abs(_case_error(rb) - _case_error(ra)) > _MOVED:
+            out.append(key)
+    return out
+
+
+def _line(record) -> str:
+    parts = []
+    for c in record["components"]:
+        name = (c["key"] or c["smiles"])[:22]
+        found = f"{c['mole_fraction'] * 100:.0f}" if c["detected"] and c["mole_fraction"] is not None else "-"
+        parts.append(f"{name} {c['truth'] * 100:.0f}/{found}")
+    return "; ".join(parts)
+
+
+def report(base: dict, arm: dict) -> str:
+    """The paired report of two runs over the same cases."""
+    fb, fa = figures(base.values()), figures(arm.values())
+    rows = [
+        f"cases compared: {len(base)} ({fb.n_mixtures} mixtures, {fb.n_identity} identity, "
+        f"{fb.n_controls} controls)",
+        f"{'':38s}{'base':>10s}{'arm':>10s}",
+        f"{'mixtures: summed |error| (points)':38s}{fb.mixture_error:10.1f}{fa.mixture_error:10.1f}",
+        f"{'mixtures: absent candidates claimed':38s}{fb.absent_claimed:10d}{fa.absent_claimed:10d}",
+        f"{'identity: true compound named major':38s}{fb.identity_true:10d}{fa.identity_true:10d}",
+        f"{'controls: a candidate claimed > 5 %':38s}{fb.controls_claimed:10d}{fa.controls_claimed:10d}",
+    ]
+    changed = changed_cases(base, arm)
+    rows.append(f"changed cases: {len(changed)} (truth/found, mole-%)")
+    for key in changed:
+        rb, ra = base[key], arm[key]
+        moved = f"error {_case_error(rb):.1f} -> {_case_error(ra):.1f}"
+        rows.append(f"  {key} ({rb['field_mhz']:g} MHz): {moved}")
+        rows.append(f"    base: {_line(rb)}")
+        rows.append(f"    arm:  {_line(ra)}")
+    return "\n".join(rows)
+
+
+def main(argv=None) -> int:
+    parser = argparse.ArgumentParser(prog="python -m benchmarks.paired", description=__doc__.split("\n")[0])
+    parser.add_argument("base", help="--json file of the base run")
+    parser.add_argument("arm", help="--json file of the run with the change")
+    parser.add_argument("--fill", action="store_true",
+                        help="take the base's record for cases the arm did not run")
+    args = parser.parse_args(argv)
+    try:
+        base, arm = load_records(args.base), load_records(args.arm)
+    except ValueError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        return 2
+    extra = sorted(set(arm) - set(base))
+    if extra:
+        print(f"error: the arm ran cases the base did not: {', '.join(extra[:5])}", file=sys.stderr)
+        return 2
+    if args.fill:
+        arm = {key: arm.get(key, record) for key, record in base.items()}
+    else:
+        base = {key: record for key, record in base.items() if key in arm}
+    if not base:
+        print("error: no case in both runs", file=sys.stderr)
+        return 2
+    print(report(base, arm))
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
