@@ -9,8 +9,13 @@ case, without the spread between cases that the per-run figures carry. For each 
 - identity sets: the true compound named major;
 - wrong-sample controls: cases with a candidate detected above 5 % (false claims);
 
-then the cases whose detected set changed or whose summed error moved by more than 0.5 point,
-each with both results.
+then how much of each difference the spread between cases could make by chance: for the summed
+error a 95 % bootstrap interval of the change (cases resampled, a fixed seed), for the counts the
+cases that went each way and the two-sided sign-test probability of so lopsided a split (McNemar's
+exact test) when the change did nothing; then the cases whose detected set changed or whose summed
+error moved by more than 0.5 point, each with both results. A change to the predictions moves
+tens of cases both ways (the fit is not a smooth function of them), so one case more or less is
+no evidence either way.
 
     python -m benchmarks.paired BASE.json ARM.json [--fill]
 
@@ -27,7 +32,8 @@ import json
 import sys
 from dataclasses import dataclass
 
-__all__ = ["PairedFigures", "load_records", "figures", "changed_cases", "main"]
+__all__ = ["PairedFigures", "PairedChange", "load_records", "figures", "paired_change", "changed_cases",
+           "main"]
 
 #: A control claims a candidate when one is detected above this mole fraction (as in the report).
 _CLAIM = 0.05
@@ -106,6 +112,70 @@ def changed_cases(base: dict, arm: dict) -> list:
     return out
 
 
+#: Bootstrap resamples of the summed-error change, and their seed (the report repeats exactly).
+_RESAMPLES, _SEED = 4000, 20261204
+
+
+@dataclass(frozen=True)
+class PairedChange:
+    """How the arm differs from the base, case by case."""
+
+    error_change: float  # summed |error| over mixtures, arm - base (points)
+    error_interval: tuple  # 95 % bootstrap interval of that change
+    mixtures_better: int  # mixtures whose summed error fell by more than 0.5 point
+    mixtures_worse: int
+    claims: tuple  # (cases with fewer absent candidates claimed, with more, sign-test p)
+    identity: tuple  # (identity sets the arm gets right and the base wrong, the reverse, p)
+    controls: tuple  # (controls the arm clears and the base claims in, the reverse, p)
+
+
+def _sign_test(better: int, worse: int) -> float:
+    from scipy.stats import binomtest
+
+    n = better + worse
+    return 1.0 if n == 0 else float(binomtest(better, n, 0.5).pvalue)
+
+
+def _claimed(record) -> int:
+    return sum(1 for c in record["components"] if c["detected"] and c["truth"] == 0)
+
+
+def _control_claimed(record) -> bool:
+    return any(c["detected"] and (c["mole_fraction"] or 0.0) > _CLAIM for c in record["components"])
+
+
+def paired_change(base: dict, arm: dict) -> PairedChange:
+    """The case-by-case change from ``base`` to ``arm`` (dicts of records by case id, same keys)."""
+    import numpy as np
+
+    pairs = [(base[k], arm[k]) for k in base
+             if k in arm and not base[k].get("error") and not arm[k].get("error")]
+    mix = [(b, a) for b, a in pairs if b["kind"] == "mixture"]
+    d = np.array([_case_error(a) - _case_error(b) for b, a in mix])
+    if d.size:
+        rng = np.random.default_rng(_SEED)
+        sums = d[rng.integers(0, d.size, size=(_RESAMPLES, d.size))].sum(axis=1)
+        interval = (float(np.percentile(sums, 2.5)), float(np.percentile(sums, 97.5)))
+    else:
+        interval = (0.0, 0.0)
+    fewer = sum(1 for b, a in mix if _claimed(a) < _claimed(b))
+    more = sum(1 for b, a in mix if _claimed(a) > _claimed(b))
+    ident = [(b.get("major_key") in b["truth"], a.get("major_key") in a["truth"])
+             for b, a in pairs if b["kind"] == "identity"]
+    gained = sum(1 for rb, ra in ident if ra and not rb)
+    lost = sum(1 for rb, ra in ident if rb and not ra)
+    ctl = [(_control_claimed(b), _control_claimed(a)) for b, a in pairs if b["kind"] == "control"]
+    cleared = sum(1 for cb, ca in ctl if cb and not ca)
+    claimed = sum(1 for cb, ca in ctl if ca and not cb)
+    return PairedChange(
+        error_change=float(d.sum()), error_interval=interval,
+        mixtures_better=int(np.sum(d < -_MOVED)), mixtures_worse=int(np.sum(d > _MOVED)),
+        claims=(fewer, more, _sign_test(fewer, more)),
+        identity=(gained, lost, _sign_test(gained, lost)),
+        controls=(cleared, claimed, _sign_test(cleared, claimed)),
+    )
+
+
 def _line(record) -> str:
     parts = []
     for c in record["components"]:
@@ -126,6 +196,17 @@ def report(base: dict, arm: dict) -> str:
         f"{'mixtures: absent candidates claimed':38s}{fb.absent_claimed:10d}{fa.absent_claimed:10d}",
         f"{'identity: true compound named major':38s}{fb.identity_true:10d}{fa.identity_true:10d}",
         f"{'controls: a candidate claimed > 5 %':38s}{fb.controls_claimed:10d}{fa.controls_claimed:10d}",
+    ]
+    ch = paired_change(base, arm)
+    lo, hi = ch.error_interval
+    rows += [
+        f"summed error change {ch.error_change:+.1f} points (95 % bootstrap interval {lo:+.1f} to "
+        f"{hi:+.1f}); mixtures better / worse by > {_MOVED} point: {ch.mixtures_better} / "
+        f"{ch.mixtures_worse}",
+        f"mixtures with fewer / more absent candidates claimed: {ch.claims[0]} / {ch.claims[1]} "
+        f"(sign test p = {ch.claims[2]:.2g})",
+        f"identity sets gained / lost: {ch.identity[0]} / {ch.identity[1]} (p = {ch.identity[2]:.2g}); "
+        f"controls cleared / newly claimed: {ch.controls[0]} / {ch.controls[1]} (p = {ch.controls[2]:.2g})",
     ]
     changed = changed_cases(base, arm)
     rows.append(f"changed cases: {len(changed)} (truth/found, mole-%)")

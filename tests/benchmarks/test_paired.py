@@ -7,7 +7,7 @@ import json
 import pytest
 
 from benchmarks.corpus.cases import generate_cases, select_cases
-from benchmarks.paired import changed_cases, figures, load_records, main
+from benchmarks.paired import changed_cases, figures, load_records, main, paired_change
 
 
 def _comp(key, truth, found=None):
@@ -52,6 +52,25 @@ def test_changed_cases_are_the_ones_that_moved():
     base, arm = _runs()
     changed = changed_cases({r["id"]: r for r in base}, {r["id"]: r for r in arm})
     assert changed == ["m2", "i1", "k1"]
+
+
+def test_paired_change_counts_each_way_and_brackets_the_error_change():
+    base, arm = _runs()
+    ch = paired_change({r["id"]: r for r in base}, {r["id"]: r for r in arm})
+    assert ch.error_change == pytest.approx(-28.0)
+    lo, hi = ch.error_interval
+    # two mixtures, changes 0 and -28: resampled sums are -56, -28 or 0
+    assert -56.0 <= lo <= hi <= 0.0
+    assert (ch.mixtures_better, ch.mixtures_worse) == (1, 0)
+    assert ch.claims[:2] == (1, 0) and ch.claims[2] == pytest.approx(1.0)
+    assert ch.identity[:2] == (0, 1)
+    assert ch.controls[:2] == (0, 1)
+    # a lopsided split is unlikely by chance: 9 of 9 one way, p = 2 / 2**9
+    from benchmarks.paired import _sign_test
+    assert _sign_test(9, 0) == pytest.approx(2 / 2**9)
+    # the bootstrap has a fixed seed: the report repeats exactly
+    again = paired_change({r["id"]: r for r in base}, {r["id"]: r for r in arm})
+    assert again == ch
 
 
 def test_command_line_fills_only_when_asked(tmp_path, capsys):
