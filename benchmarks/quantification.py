@@ -19,10 +19,13 @@ prints, per field band (60-90 MHz, 300-600 MHz) and per field:
         [--json out.json]
     python -m benchmarks.quantification --from-json out.json   # the report of an earlier run
 
-``--ids`` runs only the named cases (comma-separated, or one per line in FILE); ``--matching``
-(repeatable) only the cases with a candidate that has the substructure: a change confined to
-some chemistry (open-chain allylic couplings, saturated rings) can move no other case, so a
-paired comparison (:mod:`benchmarks.paired`, ``--fill``) needs only those run again.
+``--seed N`` draws a fresh sample of cases (mixtures, amounts, fields, faults) from the same
+compounds and split: to decide a change on data not yet seen when an earlier run on the corpus's
+own sample informed the rule. ``--ids`` runs only the named cases (comma-separated, or one per
+line in FILE); ``--matching`` (repeatable) only the cases with a candidate that has the
+substructure: a change confined to some chemistry (open-chain allylic couplings, saturated rings)
+can move no other case, so a paired comparison (:mod:`benchmarks.paired`, ``--fill``) needs only
+those run again.
 
 The held-out half is the default and the one to report; the tune half is for development.
 ``--limit N`` keeps the first N cases of each kind (the mixtures cycle through the families).
@@ -317,6 +320,9 @@ def main(argv=None) -> int:
     parser.add_argument("--ids", default=None, help="only these case ids: ID,ID,... or @FILE (one per line)")
     parser.add_argument("--matching", action="append", default=[], metavar="SMARTS",
                         help="only cases with a candidate matching this SMARTS (repeatable: any of them)")
+    parser.add_argument("--seed", type=int, default=None,
+                        help="master seed of the cases (default: the corpus's own); another seed draws a "
+                             "fresh sample of mixtures and conditions from the same compounds and split")
     parser.add_argument("--json", dest="json_path", default=None, help="write per-case results here")
     parser.add_argument(
         "--from-json", dest="from_json", default=None, help="print the report of an earlier run"
@@ -330,7 +336,8 @@ def main(argv=None) -> int:
     kinds = [k.strip() for k in args.kinds.split(",") if k.strip()]
     try:
         ids = _read_ids(args.ids)
-        cases = select_cases(generate_cases(), half=args.half, kinds=kinds, limit=args.limit, ids=ids,
+        drawn = generate_cases() if args.seed is None else generate_cases(master_seed=args.seed)
+        cases = select_cases(drawn, half=args.half, kinds=kinds, limit=args.limit, ids=ids,
                              matching=args.matching)
     except ValueError as exc:
         print(f"error: {exc}", file=sys.stderr)
