@@ -55,7 +55,9 @@ class PairedFigures:
 
 
 def load_records(path: str) -> dict:
-    """``case id -> record`` of a saved run (ValueError when it is not one)."""
+    """``case id -> record`` of a saved run (ValueError when it is not one). The run's sample
+    (``seed``; absent in files written before it was recorded: the corpus's own) is kept in each
+    record's ``_seed``."""
     try:
         with open(path, encoding="utf-8") as fh:
             saved = json.load(fh)
@@ -66,7 +68,10 @@ def load_records(path: str) -> dict:
     records = saved.get("records") if isinstance(saved, dict) else None
     if not isinstance(records, list) or not all(isinstance(r, dict) and "id" in r for r in records):
         raise ValueError(f"{path} is not a benchmarks.quantification --json file")
-    return {r["id"]: r for r in records}
+    from benchmarks.corpus.cases import MASTER_SEED
+
+    seed = saved.get("seed", MASTER_SEED)
+    return {r["id"]: {**r, "_seed": seed} for r in records}
 
 
 def _case_error(record) -> float:
@@ -230,6 +235,11 @@ def main(argv=None) -> int:
         base, arm = load_records(args.base), load_records(args.arm)
     except ValueError as exc:
         print(f"error: {exc}", file=sys.stderr)
+        return 2
+    seeds = {r["_seed"] for r in base.values()} | {r["_seed"] for r in arm.values()}
+    if len(seeds) > 1:
+        print(f"error: the runs drew different samples of cases (seeds {sorted(seeds)}): nothing to pair",
+              file=sys.stderr)
         return 2
     extra = sorted(set(arm) - set(base))
     if extra:

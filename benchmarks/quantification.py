@@ -16,7 +16,7 @@ prints, per field band (60-90 MHz, 300-600 MHz) and per field:
 
     python -m benchmarks.quantification [--half tune|held-out] [--limit N]
         [--kinds mixture,identity,control] [--ids ID,ID | --ids @FILE] [--matching SMARTS]
-        [--json out.json]
+        [--seed N] [--json out.json]
     python -m benchmarks.quantification --from-json out.json   # the report of an earlier run
 
 ``--seed N`` draws a fresh sample of cases (mixtures, amounts, fields, faults) from the same
@@ -44,7 +44,7 @@ import traceback
 import numpy as np
 
 from benchmarks.corpus.by_hand import integrate_by_hand
-from benchmarks.corpus.cases import KINDS, generate_cases, select_cases
+from benchmarks.corpus.cases import KINDS, MASTER_SEED, generate_cases, select_cases
 from benchmarks.corpus.synthesis import render_case
 
 _AMOUNT_BINS = ((0.005, 0.01), (0.01, 0.02), (0.02, 0.05), (0.05, 0.2000001))
@@ -336,7 +336,8 @@ def main(argv=None) -> int:
     kinds = [k.strip() for k in args.kinds.split(",") if k.strip()]
     try:
         ids = _read_ids(args.ids)
-        drawn = generate_cases() if args.seed is None else generate_cases(master_seed=args.seed)
+        seed = MASTER_SEED if args.seed is None else args.seed
+        drawn = generate_cases(master_seed=seed)
         cases = select_cases(drawn, half=args.half, kinds=kinds, limit=args.limit, ids=ids,
                              matching=args.matching)
     except ValueError as exc:
@@ -355,11 +356,11 @@ def main(argv=None) -> int:
             flush=True,
         )
         if args.json_path:
-            _write_json(args.json_path, args.half, records, None)
+            _write_json(args.json_path, args.half, records, None, seed)
     report = summarise(records, half=args.half)
     print(report)
     if args.json_path:
-        _write_json(args.json_path, args.half, records, report)
+        _write_json(args.json_path, args.half, records, report, seed)
     return 0
 
 
@@ -377,10 +378,11 @@ def _read_ids(spec: str | None):
     return [x.strip() for x in spec.split(",") if x.strip()]
 
 
-def _write_json(path, half: str, records, report) -> None:
+def _write_json(path, half: str, records, report, seed: int = MASTER_SEED) -> None:
     from confirm._files import write_text_atomic
 
-    text = json.dumps({"half": half, "records": records, "report": report}, indent=1, default=str)
+    text = json.dumps({"half": half, "seed": seed, "records": records, "report": report}, indent=1,
+                      default=str)
     write_text_atomic(path, text)
 
 

@@ -83,6 +83,14 @@ def test_command_line_fills_only_when_asked(tmp_path, capsys):
     assert "cases compared: 4 (2 mixtures" in capsys.readouterr().out
 
 
+def test_runs_of_different_samples_are_not_paired(tmp_path, capsys):
+    base, arm = _runs()
+    (tmp_path / "base.json").write_text(json.dumps({"half": "tune", "records": base}))
+    (tmp_path / "arm.json").write_text(json.dumps({"half": "tune", "seed": 4242, "records": arm}))
+    assert main([str(tmp_path / "base.json"), str(tmp_path / "arm.json")]) == 2
+    assert "different samples" in capsys.readouterr().err
+
+
 def test_bad_files_give_one_line_errors(tmp_path, capsys):
     (tmp_path / "x.json").write_text("{not json")
     (tmp_path / "y.json").write_text(json.dumps({"rows": []}))
