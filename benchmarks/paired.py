@@ -32,11 +32,11 @@ import json
 import sys
 from dataclasses import dataclass
 
+from benchmarks.quantification import _FALSE_CLAIM, _ours
+
 __all__ = ["PairedFigures", "PairedChange", "load_records", "figures", "paired_change", "changed_cases",
            "main"]
 
-#: A control claims a candidate when one is detected above this mole fraction (as in the report).
-_CLAIM = 0.05
 #: A case counts as changed when its summed error moves by more than this (points).
 _MOVED = 0.5
 
@@ -75,16 +75,26 @@ def load_records(path: str) -> dict:
 
 
 def _case_error(record) -> float:
-    total = 0.0
-    for comp in record["components"]:
-        if comp["truth"] > 0:
-            found = comp["mole_fraction"] if comp["detected"] and comp["mole_fraction"] is not None else 0.0
-            total += abs(found - comp["truth"]) * 100.0
-    return total
+    return sum(abs(_ours(c) - c["truth"]) * 100.0 for c in record["components"] if c["truth"] > 0)
 
 
 def _detected(record) -> tuple:
     return tuple(sorted(c["key"] or c["smiles"] for c in record["components"] if c["detected"]))
+
+
+def _claimed(record) -> int:
+    """Absent candidates (truth 0) the case detected."""
+    return sum(1 for c in record["components"] if c["detected"] and c["truth"] == 0)
+
+
+def _control_claimed(record) -> bool:
+    """A candidate detected above the report's false-claim line."""
+    return any(c["detected"] and _ours(c) > _FALSE_CLAIM for c in record["components"])
+
+
+def _named_right(record) -> bool:
+    """The true compound named major."""
+    return record.get("major_key") in record["truth"]
 
 
 def figures(records) -> PairedFigures:
@@ -96,12 +106,11 @@ def figures(records) -> PairedFigures:
     return PairedFigures(
         n_mixtures=len(mix),
         mixture_error=float(sum(_case_error(r) for r in mix)),
-        absent_claimed=sum(1 for r in mix for c in r["components"] if c["detected"] and c["truth"] == 0),
+        absent_claimed=sum(_claimed(r) for r in mix),
         n_identity=len(ident),
-        identity_true=sum(1 for r in ident if r.get("major_key") in r["truth"]),
+        identity_true=sum(_named_right(r) for r in ident),
         n_controls=len(ctl),
-        controls_claimed=sum(1 for r in ctl if any(
-            c["detected"] and (c["mole_fraction"] or 0.0) > _CLAIM for c in r["components"])),
+        controls_claimed=sum(_control_claimed(r) for r in ctl),
     )
 
 
@@ -141,12 +150,6 @@ def _sign_test(better: int, worse: int) -> float:
     return 1.0 if n == 0 else float(binomtest(better, n, 0.5).pvalue)
 
 
-def _claimed(record) -> int:
-    return sum(1 for c in record["components"] if c["detected"] and c["truth"] == 0)
-
-
-def _control_claimed(record) -> bool:
-    return any(c["detected"] and (c["mole_fraction"] or 0.0) > _CLAIM for c in record["components"])
 
 
 def paired_change(base: dict, arm: dict) -> PairedChange:
@@ -165,8 +168,7 @@ def paired_change(base: dict, arm: dict) -> PairedChange:
         interval = (0.0, 0.0)
     fewer = sum(1 for b, a in mix if _claimed(a) < _claimed(b))
     more = sum(1 for b, a in mix if _claimed(a) > _claimed(b))
-    ident = [(b.get("major_key") in b["truth"], a.get("major_key") in a["truth"])
-             for b, a in pairs if b["kind"] == "identity"]
+    ident = [(_named_right(b), _named_right(a)) for b, a in pairs if b["kind"] == "identity"]
     gained = sum(1 for rb, ra in ident if ra and not rb)
     lost = sum(1 for rb, ra in ident if rb and not ra)
     ctl = [(_control_claimed(b), _control_claimed(a)) for b, a in pairs if b["kind"] == "control"]
