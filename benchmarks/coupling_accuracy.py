@@ -75,17 +75,19 @@ def coupling_kind(mol: Chem.Mol, a: int, b: int) -> str:
     return "other"
 
 
-def _atom_map(ref: Chem.Mol, system_smiles: str) -> dict[int, int]:
-    """Heavy atoms of the corpus molecule ``ref`` -> heavy atoms of the predicted system's SMILES."""
-    match = Chem.MolFromSmiles(system_smiles).GetSubstructMatch(ref, useChirality=False)
+def _atom_map(ref: Chem.Mol, mol_h: Chem.Mol) -> dict[int, int]:
+    """Heavy atoms of the corpus molecule ``ref`` -> heavy atoms of the predicted system's molecule
+    ``mol_h`` (explicit H added after the heavy atoms, so their indices are the SMILES')."""
+    match = mol_h.GetSubstructMatch(ref, useChirality=False)
     if len(match) != ref.GetNumAtoms():
-        raise ValueError(f"{Chem.MolToSmiles(ref)}: no atom map onto {system_smiles}")
+        target = Chem.MolToSmiles(Chem.RemoveHs(mol_h))
+        raise ValueError(f"{Chem.MolToSmiles(ref)}: no atom map onto {target}")
     return dict(enumerate(match))
 
 
-def _proton_couplings(system) -> tuple[dict[int, list[int]], Callable[[int, int], float]]:
-    """H atoms of each heavy atom of the system, and the coupling between two H atoms."""
-    mol_h = Chem.AddHs(Chem.MolFromSmiles(system.smiles))
+def _proton_couplings(system, mol_h: Chem.Mol) -> tuple[dict[int, list[int]], Callable[[int, int], float]]:
+    """H atoms of each heavy atom of the system (``mol_h``: its molecule with explicit H), and the
+    coupling between two H atoms."""
     site_of = {h: k for k, site in enumerate(system.sites) for h in site.atoms}
     position = {h: i for i, h in enumerate(system.proton_atoms)}
     on = {}
@@ -113,16 +115,21 @@ def compare_compound(compound, system) -> list[CouplingComparison]:
     if mapped is None:
         return []
     ref = Chem.MolFromSmiles(compound.smiles)
-    amap = _atom_map(ref, system.smiles)
-    on, j = _proton_couplings(system)
-    dist = Chem.GetDistanceMatrix(Chem.AddHs(Chem.MolFromSmiles(system.smiles)))
+    mol_h = Chem.AddHs(Chem.MolFromSmiles(system.smiles))
+    amap = _atom_map(ref, mol_h)
+    on, j = _proton_couplings(system, mol_h)
+    dist = Chem.GetDistanceMatrix(mol_h)
     half = compound_half(compound.key)
     carbons = {s: _carbons(atom) for s, atom in enumerate(mapped)}
     sites_of: dict[tuple, list[int]] = {}
     for s, key in carbons.items():
         if key:
             sites_of.setdefault(key, []).append(s)
-    usable = [(i, k, value) for i, k, value in compound.couplings if carbons.get(i) and carbons.get(k)]
+    usable = []  # (site, site, published value, nearest carbons, class): the same for every pick below
+    for i, k, value in compound.couplings:
+        if carbons.get(i) and carbons.get(k):
+            a, b = min(((a, b) for a in carbons[i] for b in carbons[k]), key=lambda ab: _apart(ref, *ab))
+            usable.append((i, k, float(value), (a, b), coupling_kind(ref, a, b)))
     choices = []
     for key, sites in sites_of.items():
         per_carbon = [on.get(amap[c], []) for c in key]
@@ -139,15 +146,13 @@ def compare_compound(compound, system) -> list[CouplingComparison]:
     for pick in itertools.product(*choices):
         h_of_site = {s: hs for chosen in pick for s, hs in chosen.items()}
         rows = []
-        for i, k, value in usable:
+        for i, k, value, atoms, kind in usable:
             pairs = [(x, y) for x in h_of_site[i] for y in h_of_site[k] if x != y]
             if not pairs:
                 continue
             nearest = min(dist[x, y] for x, y in pairs)
             predicted = float(np.mean([j(x, y) for x, y in pairs if dist[x, y] == nearest]))
-            a, b = min(((a, b) for a in carbons[i] for b in carbons[k]), key=lambda ab: _apart(ref, *ab))
-            rows.append(CouplingComparison(compound.key, half, coupling_kind(ref, a, b),
-                                           (a, b), float(value), predicted))
+            rows.append(CouplingComparison(compound.key, half, kind, atoms, value, predicted))
         cost = sum(abs(r.error_hz) for r in rows)
         if cost < best_cost:
             best, best_cost = rows, cost
