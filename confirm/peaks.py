@@ -323,7 +323,30 @@ def _distinct_couplings(j_sorted: tuple[float, ...], tol: float) -> tuple[float,
 
 
 def _first_order(freqs: np.ndarray, heights: np.ndarray, tol: float) -> tuple[float, list[float]] | None:
-    """Split a line pattern into couplings; None when it is not first order."""
+    """Split a line pattern into couplings; None when it is not first order.
+
+    The heights are tried as measured, then with a roof taken out: a multiplet strongly coupled to
+    a neighbour leans towards it (a dq 100 Hz from its partner at J 15.8 Hz has one quartet about
+    1.4 times the other), which a chemist still reads as its first-order pattern. The lean is taken
+    as linear in frequency and measured on the two outer lines, which in a first-order pattern
+    are of equal height."""
+    result = _first_order_heights(freqs, heights, tol)
+    if result is None and len(freqs) >= 4 and heights[0] > 0 and heights[-1] > 0:
+        ratio = heights[-1] / heights[0]
+        half = 0.5 * (freqs[-1] - freqs[0])
+        if half > 0 and 1.0 / _MAX_ROOF <= ratio <= _MAX_ROOF:
+            slope = (ratio - 1.0) / (ratio + 1.0) / half  # h ~ 1 + slope * (f - centre)
+            centre = 0.5 * (freqs[0] + freqs[-1])
+            result = _first_order_heights(freqs, heights / (1.0 + slope * (freqs - centre)), tol)
+    return result
+
+
+#: Largest ratio of a multiplet's outer lines taken as a roof (beyond it, no first-order reading).
+_MAX_ROOF = 2.0
+
+
+def _first_order_heights(freqs: np.ndarray, heights: np.ndarray,
+                         tol: float) -> tuple[float, list[float]] | None:
     outer = min(heights[0], heights[-1])
     for unit in (outer, 0.5 * (heights[0] + heights[-1]), max(heights[0], heights[-1])):
         if unit <= 0:

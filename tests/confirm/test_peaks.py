@@ -148,3 +148,31 @@ def test_peak_indices_and_widths_equal_the_scipy_reference(seed):
     bases = (np.zeros(idx.size, dtype=np.intp), np.full(idx.size, y.size - 1, dtype=np.intp))
     widths = peak_widths(y, idx, rel_height=0.5, prominence_data=(y[idx], *bases))[0]
     assert np.allclose(half_height_widths(y, idx), np.maximum(widths, 1.0))
+
+
+@pytest.mark.parametrize("j_allylic_hz", [-1.6, 1.6])
+def test_a_roofed_dq_is_still_read_as_a_dq(j_allylic_hz):
+    """The =CH-CH3 proton of a trans-propenylarene at 400 MHz: a dq (J 15.8, 6.6 Hz) about 100 Hz
+    from its partner vinyl H, so one quartet stands about 1.4 times the other (the roof effect of
+    strong coupling). It is reported as the dq a chemist reads off it, whatever the sign of the
+    allylic 4J (negative, as allylic 4J are; Sternhell, Q. Rev. Chem. Soc. 1969, 23, 236).
+    Shifts and couplings of trans-anethole (from memory); the exact spectrum from the spin
+    simulation."""
+    from predictors.core import ProtonSite, SpinSystem
+    from predictors.spin import model_spectrum
+
+    sites = (ProtonSite(atoms=(0,), shift_ppm=6.36, shift_sd_ppm=0.1, label="vinyl"),
+             ProtonSite(atoms=(1,), shift_ppm=6.11, shift_sd_ppm=0.1, label="vinyl"),
+             ProtonSite(atoms=(2, 3, 4), shift_ppm=1.86, shift_sd_ppm=0.1, label="CH3"))
+    j = np.zeros((3, 3))
+    j[0, 1] = j[1, 0] = 15.8
+    j[1, 2] = j[2, 1] = 6.6
+    j[0, 2] = j[2, 0] = j_allylic_hz
+    system = SpinSystem(smiles="C/C=C/c1ccccc1", sites=sites, j_hz=j, j_sd_hz=np.zeros((3, 3)))
+    ppm = np.linspace(7.0, 1.0, 2**17)
+    y = model_spectrum(system, ppm, field_mhz=400.0, line_width_hz=0.8)
+    spectrum = Spectrum(ppm=ppm, intensity=y, field_mhz=400.0)
+    peaks = pick_peaks(spectrum, noise_sd=1e-4 * y.max(), ppm_range=(5.9, 6.3))
+    (dq,) = group_multiplets(peaks, field_mhz=400.0)
+    assert dq.multiplicity == "dq"
+    assert dq.j_hz == pytest.approx((15.8, 6.6), abs=0.3)
