@@ -199,26 +199,29 @@ def select_cases(cases, *, half: str | None = None, kinds=None, limit: int | Non
             raise ValueError(f"matching: {smarts!r} is not a valid SMARTS")
         patterns.append(pattern)
     wanted = None if ids is None else set(ids)
+    known: set = set()
+    matches: dict = {}  # candidate SMILES -> has one of the substructures (cases share candidates)
     out = []
     for kind in kinds:
         chosen = [c for c in cases if c.kind == kind and (half is None or c.half == half)]
+        known.update(c.id for c in chosen)
         if wanted is not None:
             chosen = [c for c in chosen if c.id in wanted]
         if patterns:
-            chosen = [c for c in chosen if _has_any(c, patterns)]
+            chosen = [c for c in chosen if _has_any(c, patterns, matches)]
         out += chosen[:limit] if limit is not None else chosen
-    if wanted is not None:
-        known = {c.id for c in cases if c.kind in kinds and (half is None or c.half == half)}
-        unknown = sorted(wanted - known)
-        if unknown:
-            raise ValueError(f"ids: not cases of this half and these kinds: {', '.join(unknown[:5])}")
+    unknown = sorted(wanted - known) if wanted is not None else []
+    if unknown:
+        raise ValueError(f"ids: not cases of this half and these kinds: {', '.join(unknown[:5])}")
     return tuple(out)
 
 
-def _has_any(case: Case, patterns) -> bool:
+def _has_any(case: Case, patterns, matches: dict) -> bool:
     for smiles, _ in case.candidates:
-        mol = Chem.MolFromSmiles(smiles)
-        if mol is not None and any(mol.HasSubstructMatch(p) for p in patterns):
+        if smiles not in matches:
+            mol = Chem.MolFromSmiles(smiles)
+            matches[smiles] = mol is not None and any(mol.HasSubstructMatch(p) for p in patterns)
+        if matches[smiles]:
             return True
     return False
 
