@@ -352,10 +352,17 @@ def _geminal(mol, path, carbon, relations) -> tuple[float, float]:
     for nbr in carbon.GetNeighbors():
         if nbr.GetSymbol() in ("O", "N", "F", "Cl", "Br", "I"):
             value += _c("sp3_gem_electronegative")
+        elif nbr.GetSymbol() == "C" and _is_carbonyl_carbon(nbr):
+            value += _c("sp3_gem_carbonyl")
         elif nbr.GetSymbol() == "C" and (nbr.GetIsAromatic() or any(
                 b.GetBondType() in (Chem.BondType.DOUBLE, Chem.BondType.TRIPLE) for b in nbr.GetBonds())):
             value += _c("sp3_gem_pi")
     return value, _sd("sp3_gem_base")
+
+
+def _is_carbonyl_carbon(atom) -> bool:
+    return any(b.GetBondType() == Chem.BondType.DOUBLE and b.GetOtherAtom(atom).GetSymbol() == "O"
+               for b in atom.GetBonds())
 
 
 def _is_sp3(atom) -> bool:
@@ -383,6 +390,11 @@ def _vicinal(mol, path, heavy, conformers, relations) -> tuple[float, float]:
         sp2 = b if _is_sp3(a) else a
         if _is_aldehyde_carbon(sp2):
             return _c("aldehyde_sp3"), _sd("aldehyde_sp3")
+        if sp2.GetIdx() in relations and _open_allylic_bond(mol, a, b):
+            sp3 = a if sp2 is b else b
+            cis = _heavy_cis_to(mol, relations[sp2.GetIdx()], sp2, sp3)
+            name = "allylic_3j_open_cis" if cis else "allylic_3j_open"
+            return _c(name), _sd(name)
         if sp2.GetIdx() in relations and conformers.n_conformers:
             phi = _dihedral_deg(conformers.coords, *path)
             return float(np.dot(conformers.weights, garbisch_vicinal(phi))), _sd("garbisch_3j_a")
@@ -488,6 +500,25 @@ def _sp3_vicinal(mol, path, conformers) -> tuple[float, float]:
     return float(np.dot(conformers.weights, values)), _sd("sp3_vicinal_acyclic")
 
 
+def _open_allylic_bond(mol, x, y) -> bool:
+    """True for a C(sp2)-C(sp3) bond outside rings: the sp3 group rotates (nearly) freely.
+
+    Its allylic couplings are then rotational averages, taken from published open-chain values
+    (``allylic_*_open*`` rows) rather than from force-field conformer weights, which put the C-H
+    bonds of an allyl CH2 near the C=C plane and gave 4J of -0.3 to -0.5 Hz where -1.2 to -1.8 Hz
+    is observed.
+    """
+    return not mol.GetBondBetweenAtoms(x.GetIdx(), y.GetIdx()).IsInRing()
+
+
+def _heavy_cis_to(mol, rel: AlkeneRelation, sp2, sp3) -> bool:
+    """True when the far carbon of ``sp2``'s C=C carries a heavy atom cis to ``sp3``."""
+    far = rel.carbons[1] if rel.carbons[0] == sp2.GetIdx() else rel.carbons[0]
+    return any(n.GetAtomicNum() > 1 and n.GetIdx() != sp2.GetIdx()
+               and rel.relation(sp3.GetIdx(), n.GetIdx()) == "cis"
+               for n in mol.GetAtomWithIdx(far).GetNeighbors())
+
+
 def _group_dchi(mol, atom, attached_to: int) -> float:
     """Beta-corrected electronegativity difference of a substituent (HLA)."""
     chi_h = _c("chi_H")
@@ -507,6 +538,11 @@ def _four_bond(mol, path, heavy, conformers, relations) -> tuple[float, float]:
     for vinyl, mid, sp3, h_sp3 in ((a, b, c, path[-1]), (c, b, a, path[0])):
         bond = mol.GetBondBetweenAtoms(vinyl.GetIdx(), mid.GetIdx())
         if bond.GetBondType() == Chem.BondType.DOUBLE and vinyl.GetIdx() in relations and _is_sp3(sp3):
+            if _open_allylic_bond(mol, mid, sp3):
+                h_vinyl = path[0] if h_sp3 == path[-1] else path[-1]
+                cisoid = relations[vinyl.GetIdx()].relation(h_vinyl, sp3.GetIdx()) == "cis"
+                name = "allylic_4j_open_cisoid" if cisoid else "allylic_4j_open_transoid"
+                return _c(name), _sd(name)
             if not conformers.n_conformers:
                 return -1.5, _sd("garbisch_4j_a")
             phi = _dihedral_deg(conformers.coords, vinyl.GetIdx(), mid.GetIdx(), sp3.GetIdx(), h_sp3)

@@ -56,6 +56,19 @@ def test_ring_couplings_are_compared_through_mirror_related_sites(rows):
     assert all(mol.GetBondBetweenAtoms(*r.atoms) is not None for r in ring)
 
 
+def test_open_chain_allylic_couplings_match_the_held_out_half(rows):
+    # open-chain allylic 3J and 4J take rotational averages fitted to the tuning half's published
+    # values (predictors/data/couplings.csv, allylic_*_open* rows); the held-out half (crotonates,
+    # anetholes, phenylbutenes, methylbutenes, estragole, butenoate: benchmarks/corpus/compounds.py)
+    # must agree as well. Before, with force-field rotamer weights, the 4J came out about 0.7 Hz
+    # too small in magnitude (MAE 0.73 Hz) and the 3J had an MAE of 0.57 Hz.
+    for kind, limit in (("allylic 4J", 0.45), ("vinyl-sp3 3J", 0.4)):
+        err = np.array([r.error_hz for r in rows if r.kind == kind and r.half == "held-out"])
+        assert err.size >= 10
+        assert np.abs(err).mean() < limit
+        assert abs(err.mean()) < 0.3
+
+
 def test_the_summary_gives_bias_and_mae_per_half_and_class(rows):
     summary = summarise(rows)
     for half in ("tune", "held-out"):
