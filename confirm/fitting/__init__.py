@@ -9,7 +9,8 @@ baseline and two phase columns in each fitted region. The fit runs in four stage
    tolerances, ties in a fixed order);
 2. :mod:`~confirm.fitting.refine` refines the best distinct assignments until the model
    reproduces the measured lines: shifts, every coupling (within bounds, sign kept), one line
-   width per region and a Gaussian share of the line shape, with Gaussian priors;
+   width per region and a Gaussian share of the line shape, with Gaussian priors; each alkene's
+   geometry coupling is profiled over its whole range (:mod:`~confirm.fitting.profiles`);
 3. :mod:`~confirm.fitting.evidence` reads every multiplet on its own (amount, envelope, local
    misfit) and decides which candidates are present;
 4. :mod:`~confirm.fitting.assemble` averages near-equal fits and writes one coherent set of numbers.
@@ -49,6 +50,7 @@ from confirm.fitting.models import build_model
 from confirm.fitting.noise import estimate_line_width_hz, estimate_noise_sd, noise_correlation_factor
 from confirm.fitting.nuisance import nuisance_models
 from confirm.fitting.options import FitOptions
+from confirm.fitting.profiles import profile_geometry_couplings
 from confirm.fitting.refine import Refinement, blurred_view, resolve_linear
 from confirm.fitting.refit import refit_without
 from confirm.fitting.search import resweep, search_assignments
@@ -259,7 +261,9 @@ _N_SWAPS = 3
 
 
 def _refine_task(shared, task):
-    """One assignment refined in full (a task for ``TaskPool.map``): refine, test the suspect and
+    """One assignment refined in full (a task for ``TaskPool.map``): refine, (the best assignment
+    only) profile each alkene's geometry coupling over its range (see
+    :mod:`~confirm.fitting.profiles`), test the suspect and
     near swaps (the best assignment only), move the sites again against the now small residual, and
     refine once more when a site moved; then (the best assignment only) test each pair of
     stereoisomers exchanged."""
@@ -270,6 +274,8 @@ def _refine_task(shared, task):
                             max_width_hz=options.max_line_width_hz)
     refined = refinement.run(refinement.start(shifts), rounds=options.rounds)
     if swaps is not None:
+        refined = profile_geometry_couplings(refinement, refined, rounds=options.rounds,
+                                             line_width_hz=float(np.median(refined.widths_ppm)) * field)
         refined = settle_swaps(refinement, refined, swaps, model_error=options.model_error)
     refined = _moved_again(refinement, refined, n, (mid, mid_basis, mid_noise), options)
     # stereoisomers on each other's signals: the exchanged fit is carried through the same steps

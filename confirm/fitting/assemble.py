@@ -165,10 +165,6 @@ def _at_window_edge(model, move: np.ndarray) -> tuple:
     return tuple(int(s) for s in _vinyl(model) if edge[s])
 
 
-#: Couplings between two vinyl H of at least this size (Hz) are the 3J across the double bond.
-_VICINAL_VINYL_HZ = 5.0
-
-
 def _coupling_at_edge(model, jvals) -> tuple:
     """Vinyl sites whose 3J across the double bond sits at a bound of its refined range.
 
@@ -176,13 +172,10 @@ def _coupling_at_edge(model, jvals) -> tuple:
     within a few Hz of the prediction (two sd, at least 1 Hz). When the data pull it to a bound,
     the measured doublet is the other geometry's: a (E) decoy stretched over a (Z) isomer's
     vinyl lines, or the reverse."""
-    vinyl = set(_vinyl(model))
     out = set()
-    for (a, b), value, lo, hi in zip(model.j_pairs, jvals, model.j_lo, model.j_hi, strict=False):
-        if a not in vinyl or b not in vinyl or abs(model.j0[a, b]) < _VICINAL_VINYL_HZ:
-            continue
-        if _at_bound(value, lo, hi):
-            out.update((int(a), int(b)))
+    for i in model.geometry_couplings():
+        if _at_bound(jvals[i], model.j_lo[i], model.j_hi[i]):
+            out.update(int(s) for s in model.j_pairs[i])
     return tuple(sorted(out))
 
 

@@ -38,6 +38,11 @@ _TIE_SPREAD_PPM = 0.01
 _DEFAULT_J_SD_HZ = 1.0
 
 
+#: Couplings between two vinyl H of at least this size (Hz) are the 3J across the double bond (a
+#: geminal =CH2 coupling is 0-3 Hz).
+VICINAL_VINYL_HZ = 5.0
+
+
 @dataclass
 class CandidateModel:
     """Working copy of one candidate's spin system (exchangeable sites only where they couple)."""
@@ -76,6 +81,13 @@ class CandidateModel:
     @property
     def n_sites(self) -> int:
         return int(self.shift0.size)
+
+    def geometry_couplings(self) -> list:
+        """Indexes (into ``j_pairs``) of the 3J across a double bond between two vinyl H: the
+        coupling that tells an alkene's geometry (cis 6-12, trans 12-18 Hz)."""
+        vinyl = {s for s, lab in enumerate(self.labels) if "vinyl" in lab.lower() or "olefin" in lab.lower()}
+        return [i for i, (a, b) in enumerate(self.j_pairs)
+                if a in vinyl and b in vinyl and abs(self.j0[a, b]) >= VICINAL_VINYL_HZ]
 
     @property
     def j_values0(self) -> np.ndarray:

@@ -379,6 +379,7 @@ class Refinement:
                  max_width_hz: float):
         self.grid, self.basis, self.models = grid, basis, list(models)
         self.field, self.width0, self.noise = field_mhz, width_ppm, noise_sd
+        self.max_width_hz = max_width_hz
         self.layout = Layout.of(models, grid.n_regions, basis.shape[1])
         self.priors = Priors(models, self.layout, width_ppm, field_mhz)
         self.lo, self.hi = _bounds(models, self.layout, field_mhz, grid, max_width_hz)
@@ -397,15 +398,20 @@ class Refinement:
         own = [m.own_width[2] / self.field for m in self.models if m.own_width is not None]
         return np.concatenate([np.full(self.layout.n_regions, self.width0), own])
 
-    def run(self, theta: np.ndarray, *, rounds: int, fix_shape: bool = False) -> Refined:
+    def run(self, theta: np.ndarray, *, rounds: int, fix_shape: bool = False, free=None) -> Refined:
         """Refine from ``theta`` for at most ``rounds`` simulation rounds (fewer once the parameters
-        settle); ``fix_shape`` keeps the widths and the Gaussian share."""
+        settle); ``fix_shape`` keeps the widths and the Gaussian share; ``free`` (a boolean mask over
+        the shifts, couplings, widths and Gaussian share) keeps every other of them where it is
+        (amounts and baseline are always solved)."""
         lay, field = self.layout, self.field
         lo, hi = self.lo.copy(), self.hi.copy()
         theta = np.clip(theta, lo, hi)
         if fix_shape:
             shape = slice(lay.width_slice.start, lay.gauss_index + 1)
             lo[shape] = hi[shape] = theta[shape]
+        if free is not None:
+            pinned = np.flatnonzero(~np.asarray(free, bool))
+            lo[pinned] = hi[pinned] = theta[pinned]
         rows = _active_rows(self.grid, self.models, lay, theta, field, self.width0)
         grid, basis = self.grid.rows(rows), self.basis[rows]
         # the refinement is local: a line may not leave the rows it is fitted on (large moves are the
