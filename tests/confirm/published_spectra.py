@@ -75,7 +75,10 @@ E_ANETHOLE = PublishedCompound(
         (3.80, 3, "OCH3"),
         (1.86, 3, "CH3"),
     ),
-    couplings=((0, 1, 8.7), (2, 3, 15.8), (3, 5, 6.6), (2, 5, 1.6)),
+    # the allylic 4J is printed as a splitting; its sign is negative (Garbisch, J. Am. Chem. Soc.
+    # 1964, 86, 5561; Sternhell, Q. Rev. Chem. Soc. 1969, 23, 236), which matters where the vinyl
+    # and methyl protons are strongly coupled (60 MHz)
+    couplings=((0, 1, 8.7), (2, 3, 15.8), (3, 5, 6.6), (2, 5, -1.6)),
     source="trans-anethole, CDCl3, literature values (from memory)",
     geometry="E",
     regio="more substituted",
@@ -95,7 +98,7 @@ Z_ANETHOLE = PublishedCompound(
         (3.81, 3, "OCH3"),
         (1.90, 3, "CH3"),
     ),
-    couplings=((0, 1, 8.7), (2, 3, 11.6), (3, 5, 7.2), (2, 5, 1.8)),
+    couplings=((0, 1, 8.7), (2, 3, 11.6), (3, 5, 7.2), (2, 5, -1.8)),  # 4J negative, as above
     source="cis-anethole, CDCl3, literature values (from memory)",
     geometry="Z",
     regio="more substituted",
