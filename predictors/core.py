@@ -465,6 +465,9 @@ class SiteEvidence:
         A diagnostic vinyl multiplet the data pull to the edge of its shift window (3 sd from the
         prediction), or whose cis/trans 3J they pull to a bound of its refined range: counted as
         missing.
+    swamped : bool
+        A vinyl multiplet whose place holds lines more than ten times too strong for the molecule:
+        another compound's; the molecule is not detected.
     integral_amount, integral_amount_sd : float
         The candidate's mole fraction (same scale as ``amount``) from the integral over the window
         that holds this multiplet (with the candidate's other multiplets that overlap it), and its
@@ -487,6 +490,7 @@ class SiteEvidence:
     j_hz: tuple[float, ...] = ()
     j_predicted_hz: tuple[float, ...] = ()
     outside_range: bool = False
+    swamped: bool = False
     integral_amount: float = math.nan
     integral_amount_sd: float = math.nan
 
@@ -501,7 +505,7 @@ class SiteEvidence:
             "amount": num(self.amount), "amount_sd": num(self.amount_sd), "seen": self.seen,
             "missing": self.missing, "shape_match": num(self.shape_match), "overlap": num(self.overlap),
             "j_hz": list(self.j_hz), "j_predicted_hz": list(self.j_predicted_hz),
-            "outside_range": self.outside_range,
+            "outside_range": self.outside_range, "swamped": self.swamped,
             "integral_amount": num(self.integral_amount), "integral_amount_sd": num(self.integral_amount_sd),
         }
 

@@ -123,8 +123,9 @@ def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: floa
                           n_sites, lw_ppm, noise_sd=noise_sd, model_error=model_error, moves=moves,
                           likely=likely)
     stretched = [_main_coupling_at_bound(m, j) for m, j in zip(models, jvals, strict=False)]
-    presence = tuple(decide_presence(r, detection_sigma=detection_sigma, diagnostic=d, at_edge=e, stretched=t)
-                     for r, d, e, t in zip(readings, diagnostic, edges, stretched, strict=True))
+    presence = tuple(decide_presence(r, detection_sigma=detection_sigma, diagnostic=d, at_edge=e, stretched=t,
+                                     vinyl=_vinyl(m))
+                     for r, d, e, t, m in zip(readings, diagnostic, edges, stretched, models, strict=True))
     detected = np.array([p.present for p in presence]) & ~nuisance
     detected[list(reject)] = False
     amounts, base, cov_sub = weighted_fit(refined.cols, basis, grid, var, detected | nuisance)
@@ -350,6 +351,7 @@ def _site_evidence(system, model, readings, presence, shifts, jvals, total: floa
             j_hz=_quoted_couplings(model, j_fit, s),
             j_predicted_hz=_quoted_couplings(model, model.j0, s),
             outside_range=s in presence.outside,
+            swamped=s in presence.swamped,
             integral_amount=float(w.amount * scale) if w is not None else float("nan"),
             integral_amount_sd=float(w.sd * scale) if w is not None else float("nan"),
         ))
@@ -365,6 +367,8 @@ def _evidence_text(e: SiteEvidence, detected: bool = True) -> str:
         state = "missing (the data pull its shift or its coupling to the edge of its predicted range)"
     elif e.missing:
         state = "missing"
+    elif e.swamped:
+        state = "swamped (its place holds another compound's lines, far stronger than the molecule)"
     elif e.seen and detected:
         state = "observed"
     elif e.seen:  # a line stands where it belongs, but the molecule as a whole is not shown
