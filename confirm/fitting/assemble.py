@@ -328,7 +328,9 @@ def _site_evidence(system, model, readings, presence, shifts, jvals, total: floa
     from confirm.fitting.models import coupling_matrix
 
     j_fit = coupling_matrix(model, jvals)
-    scale = 1.0 / total if total > 0 else 0.0
+    # a share of the detected components' total; with none detected there is no total to share, and
+    # the readings are not expressed (NaN) rather than 0 +- 0 %
+    scale = 1.0 / total if total > 0 else np.nan
     window = {s: w for w in integrals for s in w.sites}
     out = []
     for s, r in enumerate(readings):
@@ -375,8 +377,12 @@ def _evidence_text(e: SiteEvidence, detected: bool = True) -> str:
         state = "has a line (candidate not detected)"
     else:
         state = "not clearly seen"
-    amount = (f"{100 * e.amount:.1f} +- {100 * e.amount_sd:.1f} %" if np.isfinite(e.amount_sd)
-              else "not readable (masked)")
+    if np.isnan(e.amount_sd):
+        amount = "not expressed (no component detected to take a share of)"
+    elif np.isfinite(e.amount_sd):
+        amount = f"{100 * e.amount:.1f} +- {100 * e.amount_sd:.1f} %"
+    else:
+        amount = "not readable (masked)"
     return (f"{e.label} ({e.n_h}H) {state} at {e.ppm:.3f} ppm (predicted {e.predicted_ppm:.2f} +- "
             f"{e.predicted_sd_ppm:.2f}){j_part}; amount from this multiplet {amount}, shape match "
             f"{e.shape_match:.2f}, overlap {100 * e.overlap:.0f}%")

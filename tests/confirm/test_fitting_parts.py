@@ -380,6 +380,19 @@ def test_an_alkene_whose_vinyl_lines_are_far_too_strong_is_swamped_not_present()
     assert decide_presence(loose, detection_sigma=3.0, diagnostic=[3], vinyl=[0]).present
 
 
+def test_a_reading_with_no_detected_total_is_not_expressed():
+    # with no component detected, a multiplet's reading is no share of anything: not "0.0 +- 0.0 %"
+    from confirm.fitting.assemble import _evidence_text
+    from predictors.core import SiteEvidence
+
+    e = SiteEvidence(site=0, label="CH2", n_h=2, ppm=4.26, predicted_ppm=4.12, predicted_sd_ppm=0.19,
+                     amount=float("nan"), amount_sd=float("nan"), seen=True, missing=False, shape_match=0.93,
+                     overlap=0.0)
+    text = _evidence_text(e, False)
+    assert "not expressed" in text and "+-" not in text.split("; amount from this multiplet")[1]
+    assert e.to_json()["amount"] is None and e.to_json()["amount_sd"] is None
+
+
 def test_a_swamped_vinyl_multiplet_is_reported_as_such():
     from confirm.fitting.assemble import _evidence_text
     from predictors.core import SiteEvidence

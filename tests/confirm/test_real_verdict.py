@@ -40,3 +40,9 @@ def test_negative_controls_get_no_alkene_verdict(real_spectra, folder):
     major = result.verdict.major
     assert major is None or alkene_facts(major).n_alkenes == 0
     assert result.verdict.confidence in ("undecided", "low")
+    # with no component detected a multiplet's reading has no total to be a share of: it is not
+    # expressed, never 0 +- 0 % (a reading with no uncertainty)
+    if not any(c.detected for c in result.fit.components):
+        for comp in result.fit.components:
+            assert all(site.to_json()["amount_sd"] is None for site in comp.site_evidence)
+            assert not any("0.0 +- 0.0 %" in text for text in comp.evidence)
