@@ -352,7 +352,7 @@ def _geminal(mol, path, carbon, relations) -> tuple[float, float]:
     for nbr in carbon.GetNeighbors():
         if nbr.GetSymbol() in ("O", "N", "F", "Cl", "Br", "I"):
             value += _c("sp3_gem_electronegative")
-        elif nbr.GetSymbol() == "C" and _is_carbonyl_carbon(nbr):
+        elif _is_carbonyl_carbon(nbr):
             value += _c("sp3_gem_carbonyl")
         elif nbr.GetSymbol() == "C" and (nbr.GetIsAromatic() or any(
                 b.GetBondType() in (Chem.BondType.DOUBLE, Chem.BondType.TRIPLE) for b in nbr.GetBonds())):
@@ -360,16 +360,12 @@ def _geminal(mol, path, carbon, relations) -> tuple[float, float]:
     return value, _sd("sp3_gem_base")
 
 
-def _is_carbonyl_carbon(atom) -> bool:
-    return any(b.GetBondType() == Chem.BondType.DOUBLE and b.GetOtherAtom(atom).GetSymbol() == "O"
-               for b in atom.GetBonds())
-
-
 def _is_sp3(atom) -> bool:
     return atom.GetHybridization() == Chem.HybridizationType.SP3
 
 
-def _is_aldehyde_carbon(atom) -> bool:
+def _is_carbonyl_carbon(atom) -> bool:
+    """A C=O carbon (an aldehyde's where the coupling path runs through its H)."""
     return atom.GetSymbol() == "C" and any(
         b.GetBondType() == Chem.BondType.DOUBLE and b.GetOtherAtom(atom).GetSymbol() == "O"
         for b in atom.GetBonds())
@@ -388,7 +384,7 @@ def _vicinal(mol, path, heavy, conformers, relations) -> tuple[float, float]:
         return _sp3_vicinal(mol, path, conformers)
     if _is_sp3(a) or _is_sp3(b):
         sp2 = b if _is_sp3(a) else a
-        if _is_aldehyde_carbon(sp2):
+        if _is_carbonyl_carbon(sp2):
             return _c("aldehyde_sp3"), _sd("aldehyde_sp3")
         if sp2.GetIdx() in relations and _open_allylic_bond(mol, a, b):
             sp3 = a if sp2 is b else b
@@ -399,7 +395,7 @@ def _vicinal(mol, path, heavy, conformers, relations) -> tuple[float, float]:
             phi = _dihedral_deg(conformers.coords, *path)
             return float(np.dot(conformers.weights, garbisch_vicinal(phi))), _sd("garbisch_3j_a")
         return 0.0, 0.0
-    if _is_aldehyde_carbon(a) or _is_aldehyde_carbon(b):
+    if _is_carbonyl_carbon(a) or _is_carbonyl_carbon(b):
         return _c("aldehyde_sp2"), _sd("aldehyde_sp2")
     if a.GetIdx() in relations and b.GetIdx() in relations:
         return _c("diene_single"), _sd("diene_single")
@@ -579,7 +575,7 @@ def predict_one_bond_ch(mol_h: Chem.Mol, h_index: int) -> float:
     if Chem.BondType.TRIPLE in bonds:
         return _c("jch_alkyne")
     if Chem.BondType.DOUBLE in bonds:
-        return _c("jch_aldehyde") if _is_aldehyde_carbon(carbon) else _c("jch_vinyl")
+        return _c("jch_aldehyde") if _is_carbonyl_carbon(carbon) else _c("jch_vinyl")
     if mol_h.GetRingInfo().IsAtomInRingOfSize(carbon.GetIdx(), 3):
         return _c("jch_sp3_ring3")
     value = _c("jch_sp3")
