@@ -17,6 +17,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from confirm.fitting.evidence import decide_presence, point_variance, read_sites, weighted_fit
+from confirm.fitting.models import vinyl_sites
 from predictors.core import ComponentFit, SiteEvidence
 
 __all__ = ["Evaluation", "evaluate", "rank_fits", "fit_weights", "fraction_covariance",
@@ -65,11 +66,6 @@ def fit_weights(objectives: np.ndarray) -> np.ndarray:
 _APART_SD = 2.0
 
 
-def _vinyl(model) -> list:
-    """Sites of vinyl H (alkene CH)."""
-    return [s for s, lab in enumerate(model.labels) if "vinyl" in lab.lower() or "olefin" in lab.lower()]
-
-
 def diagnostic_sites(model, others=()) -> list:
     """Sites that identify the molecule among the other candidates (``others``: their models).
 
@@ -78,7 +74,7 @@ def diagnostic_sites(model, others=()) -> list:
     alkenes that share its aryl H, the vinyl H of one geometric isomer). Of the specific sites, the
     vinyl H when there are any; without a specific site, the vinyl H, else every site.
     """
-    vinyl = _vinyl(model)
+    vinyl = vinyl_sites(model)
     shifts = [np.asarray(o.shift0, dtype=float) for o in others if not o.nuisance]
     sds = [np.asarray(o.sd, dtype=float) for o in others if not o.nuisance]
     specific = []
@@ -124,7 +120,7 @@ def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: floa
                           likely=likely)
     stretched = [_main_coupling_at_bound(m, j) for m, j in zip(models, jvals, strict=False)]
     presence = tuple(decide_presence(r, detection_sigma=detection_sigma, diagnostic=d, at_edge=e, stretched=t,
-                                     vinyl=_vinyl(m))
+                                     vinyl=vinyl_sites(m))
                      for r, d, e, t, m in zip(readings, diagnostic, edges, stretched, models, strict=True))
     detected = np.array([p.present for p in presence]) & ~nuisance
     detected[list(reject)] = False
@@ -163,7 +159,7 @@ def _at_window_edge(model, move: np.ndarray) -> tuple:
     CH2 beside a strong CH3 singlet) than a missing one."""
     tol = _EDGE_SHARE * model.window
     edge = (move[:, 0] > -tol) | (move[:, 1] < tol)
-    return tuple(int(s) for s in _vinyl(model) if edge[s])
+    return tuple(int(s) for s in vinyl_sites(model) if edge[s])
 
 
 def _coupling_at_edge(model, jvals) -> tuple:

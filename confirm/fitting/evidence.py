@@ -403,7 +403,8 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic, at_edge=(),
         # true compound's while an impurity line carries the decoy elsewhere)
         missing += tuple(i for i in use if readings[i].overlap >= _SEEN_OVERLAP
                          and readings[i].amount + _MISSING_SD * readings[i].amount_sd < 0.0)
-        swamped = tuple(i for i in use if i in set(vinyl)
+        vinyl = set(vinyl)
+        swamped = tuple(i for i in use if i in vinyl
                         and readings[i].amount - _MISSING_SD * readings[i].amount_sd > _SWAMPED * mean)
     misshapen = tuple(i for i in use if _crowding(readings[i]) < _ALONE and readings[i].sigma > SEEN_SIGMA
                       and readings[i].shape_misfit > _MISSHAPEN and readings[i].shape < _MISSHAPEN_MATCH)

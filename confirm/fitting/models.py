@@ -43,6 +43,11 @@ _DEFAULT_J_SD_HZ = 1.0
 VICINAL_VINYL_HZ = 5.0
 
 
+def vinyl_sites(model) -> list:
+    """Sites of vinyl H (alkene CH) of a model (anything with per-site ``labels``)."""
+    return [s for s, lab in enumerate(model.labels) if "vinyl" in lab.lower() or "olefin" in lab.lower()]
+
+
 @dataclass
 class CandidateModel:
     """Working copy of one candidate's spin system (exchangeable sites only where they couple)."""
@@ -85,7 +90,7 @@ class CandidateModel:
     def geometry_couplings(self) -> list:
         """Indexes (into ``j_pairs``) of the 3J across a double bond between two vinyl H: the
         coupling that tells an alkene's geometry (cis 6-12, trans 12-18 Hz)."""
-        vinyl = {s for s, lab in enumerate(self.labels) if "vinyl" in lab.lower() or "olefin" in lab.lower()}
+        vinyl = set(vinyl_sites(self))
         return [i for i, (a, b) in enumerate(self.j_pairs)
                 if a in vinyl and b in vinyl and abs(self.j0[a, b]) >= VICINAL_VINYL_HZ]
 
