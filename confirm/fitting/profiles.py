@@ -35,15 +35,13 @@ def profile_geometry_couplings(refinement: Refinement, refined: Refined, *, roun
                                line_width_hz: float) -> Refined:
     """``refined`` with the geometry coupling of each candidate with some amount moved to the best
     place in its range (unchanged when no start does better)."""
-    lay = refinement.layout
     step = float(np.clip(line_width_hz, *_STEP_HZ))
-    j_start = lay.j_slice.start + np.concatenate([[0], np.cumsum(lay.n_j)])[:-1]
     best = refined
     for k, model in enumerate(refinement.models):
         if model.nuisance or not best.amounts[k] > 0:
             continue
         for i in model.geometry_couplings():
-            col = int(j_start[k] + i)
+            col = refinement.layout.jvals_of(k).start + i
             best = _profile_one(refinement, best, model, k, i, col, step, rounds)
     return best
 

@@ -125,6 +125,16 @@ class Layout:
     def jvals(self, theta) -> list:
         return self.split(theta[self.j_slice], self.n_j)
 
+    def shifts_of(self, k: int) -> slice:
+        """Where molecule ``k``'s shifts sit in the parameter vector."""
+        start = self.shift_slice.start + int(np.sum(self.n_sites[:k]))
+        return slice(start, start + self.n_sites[k])
+
+    def jvals_of(self, k: int) -> slice:
+        """Where molecule ``k``'s couplings sit in the parameter vector."""
+        start = self.j_slice.start + int(np.sum(self.n_j[:k]))
+        return slice(start, start + self.n_j[k])
+
 
 @dataclass(frozen=True, eq=False)
 class Refined:
@@ -482,15 +492,14 @@ def _largest_move(layout: Layout, before: np.ndarray, after: np.ndarray, width_p
 def parameter_map(full: Layout, sub: Layout, keep) -> np.ndarray:
     """Index in ``full``'s parameter vector of each parameter of ``sub``, the layout of the models
     ``keep`` (indices into ``full``'s models, in order) on the same grid and free columns."""
-    starts_s = np.cumsum([0] + list(full.n_sites))
-    starts_j = np.cumsum([0] + list(full.n_j))
-    shifts = np.concatenate([np.arange(starts_s[k], starts_s[k + 1]) for k in keep] or [np.zeros(0, int)])
-    jvals = np.concatenate([np.arange(starts_j[k], starts_j[k + 1]) for k in keep] or [np.zeros(0, int)])
+    def indexes(where) -> np.ndarray:
+        return np.concatenate([np.arange(where(k).start, where(k).stop) for k in keep] or [np.zeros(0, int)])
+
     own = [full.n_regions + full.own[k] for k in keep if full.own and full.own[k] >= 0]
     widths = np.concatenate([np.arange(full.n_regions), np.array(own, int)])
     return np.concatenate([
-        full.shift_slice.start + shifts,
-        full.j_slice.start + jvals,
+        indexes(full.shifts_of),
+        indexes(full.jvals_of),
         full.width_slice.start + widths,
         [full.gauss_index],
         full.amount_slice.start + np.asarray(keep, int),

@@ -119,8 +119,8 @@ def _refit_pair(refinement: Refinement, refined: Refined, shifts, subset) -> np.
                   rounds=1, fix_shape=True)
     theta = refined.theta.copy()
     for pos, j in enumerate(subset):
-        theta[_slice_of(lay, "shift", j)] = sub.layout.shifts(fit.theta)[pos]
-        theta[_slice_of(lay, "j", j)] = sub.layout.jvals(fit.theta)[pos]
+        theta[lay.shifts_of(j)] = sub.layout.shifts(fit.theta)[pos]
+        theta[lay.jvals_of(j)] = sub.layout.jvals(fit.theta)[pos]
     return theta
 
 
@@ -172,9 +172,3 @@ def _suspect_swaps(grid, basis, models, refined: Refined, noise_sd: float, model
             if pair not in out:
                 out.append(pair)
     return out
-
-
-def _slice_of(layout, kind: str, k: int) -> slice:
-    counts = layout.n_sites if kind == "shift" else layout.n_j
-    start = (layout.shift_slice if kind == "shift" else layout.j_slice).start + int(np.sum(counts[:k]))
-    return slice(start, start + counts[k])
