@@ -112,6 +112,9 @@ class SiteReading:
     shape_group : float
         Match of all the molecule's multiplets in this window, taken together, with the data left
         for them (NaN: not read; ``shape`` stands for it).
+    amount_group : float
+        What the data left for the molecule's multiplets in this window, taken together, read as a
+        share of the molecule's own signal there (1: all of it; NaN: not read).
     """
 
     ppm: float
@@ -127,6 +130,7 @@ class SiteReading:
     envelope_window: float = np.nan
     overlap_all: float = np.nan
     shape_group: float = np.nan
+    amount_group: float = np.nan
 
     @property
     def sigma(self) -> float:
@@ -272,6 +276,7 @@ def _read_one(grid, u, d, others, reach: int, noise_sd: float, model_error: floa
     overlap = alien / max(alien + abs(alpha), 1e-300)
     overlap_all = shared / max(shared + abs(alpha), 1e-300)
     shape_group = shape
+    amount_group = float("nan")
     if whole is not None and model is not None:
         # the molecule's multiplets in this window together against the data left for them: the two
         # protons of a =CH2 a few Hz apart, read one by one, match poorly; together they are the
@@ -279,6 +284,8 @@ def _read_one(grid, u, d, others, reach: int, noise_sd: float, model_error: floa
         wg, dg = whole[window], (grid.y - (model - whole))[window]
         norm_g = float(np.linalg.norm(wg) * np.linalg.norm(dg))
         shape_group = float(np.dot(wg, dg) / norm_g) if norm_g > 0 else 0.0
+        wgwg = float(np.dot(wg, wg))
+        amount_group = float(np.dot(wg, dg)) / wgwg if wgwg > 0 else float("nan")
     allowed = noise_sd**2 + (_PATTERN_ERROR * alpha * uw) ** 2 + (model_error * ow) ** 2
     shape_misfit = float(np.sum(resid * resid) / np.sum(allowed))
     # the margin comes from the noise and the model error of the others, never from the local
@@ -295,7 +302,7 @@ def _read_one(grid, u, d, others, reach: int, noise_sd: float, model_error: floa
     else:
         envelope_all, _ = _envelope(u, d + others, margin_var, window, reach, max(1.0, misfit))
     return SiteReading(ppm, alpha, sd, envelope, shape, overlap, misfit, True, shape_misfit, envelope_all,
-                       envelope_window, overlap_all, shape_group)
+                       envelope_window, overlap_all, shape_group, amount_group)
 
 
 def _grid_steps(span, dx_ppm: float) -> tuple[int, int]:
@@ -401,8 +408,12 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic, at_edge=(),
         # once their share is taken away: the others' lines already hold all the signal there and
         # more, so the data contradict the molecule at that place (a decoy's CH3 singlets on the
         # true compound's while an impurity line carries the decoy elsewhere)
+        # (unless the molecule's multiplets in that window, taken together, match the data left for
+        # them and hold at least half its signal there: the protons of one strongly coupled cluster,
+        # read one by one, trade amount between them, a 90 MHz CH2 chain's down to below zero)
         missing += tuple(i for i in use if readings[i].overlap >= _SEEN_OVERLAP
-                         and readings[i].amount + _MISSING_SD * readings[i].amount_sd < 0.0)
+                         and readings[i].amount + _MISSING_SD * readings[i].amount_sd < 0.0
+                         and not _group_holds(readings[i]))
         vinyl = set(vinyl)
         swamped = tuple(i for i in use if i in vinyl
                         and readings[i].amount - _MISSING_SD * readings[i].amount_sd > _SWAMPED * mean)
@@ -437,6 +448,14 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic, at_edge=(),
         if shared:
             upper = max(upper, min(shared))
     return Presence(mean, mean_sd, bool(present), missing, seen, float(upper), outside, swamped)
+
+
+def _group_holds(reading: SiteReading) -> bool:
+    """Whether the molecule's multiplets in a site's window, taken together, are there: their
+    group matches the data left for them in shape and reads at least half the molecule's signal
+    (false when the group was not read)."""
+    return (not np.isnan(reading.amount_group) and reading.shape_group >= _MISSHAPEN_MATCH
+            and reading.amount_group >= _MISSING_SHARE)
 
 
 def _own_shape(reading: SiteReading) -> float:

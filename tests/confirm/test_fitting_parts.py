@@ -429,6 +429,31 @@ def test_a_multiplet_under_others_lines_that_reads_below_zero_is_missing():
         assert p.present and p.missing == (), (amount, sd)
 
 
+def test_a_cluster_read_one_by_one_below_zero_is_not_missing_when_its_group_is_there():
+    # a 90 MHz tune-style mixture (73 % 2-bromohexane, SNR 4000): the CH2 protons of its chain form
+    # one strongly coupled cluster; read one by one under the others' lines they trade amount
+    # between them, down to -1.6 +- 0.4 times the molecule's amount, while its multiplets in that
+    # window, taken together, match the data left for them (0.96) and hold all its signal there
+    def member(amount, sd, shape_group, amount_group):
+        return SiteReading(ppm=1.4, amount=amount, amount_sd=sd, envelope=200.0, shape=-0.3, overlap=0.84,
+                           misfit=1.0, usable=True, overlap_all=0.88, shape_group=shape_group,
+                           amount_group=amount_group)
+
+    ch3 = SiteReading(ppm=0.87, amount=0.785, amount_sd=0.033, envelope=7.8, shape=0.95, overlap=0.37,
+                      misfit=1.0, usable=True)
+    chbr = SiteReading(ppm=4.14, amount=0.994, amount_sd=0.018, envelope=1.4, shape=0.98, overlap=0.17,
+                       misfit=1.0, usable=True)
+    p = decide_presence([ch3, chbr, member(-1.628, 0.424, 0.96, 1.04), member(-1.353, 0.399, 0.96, 0.98)],
+                        detection_sigma=3.0, diagnostic=[1])
+    assert p.present and p.missing == ()
+    # the group must both match in shape and hold at least half the molecule's signal: a decoy
+    # whose lines sit on the true compound's finds the data left for it near zero
+    for shape_group, amount_group in ((0.96, 0.2), (0.5, 1.0), (0.96, np.nan)):
+        p = decide_presence([ch3, chbr, member(-1.628, 0.424, shape_group, amount_group)],
+                            detection_sigma=3.0, diagnostic=[1])
+        assert not p.present and p.missing == (2,), (shape_group, amount_group)
+
+
 def test_a_clear_multiplet_split_at_the_bound_of_its_coupling_is_missing():
     # the real ipsdienol FID against its (E)-isomer (issue 13): the decoy's CH3 doublet, 6.1 Hz
     # predicted, sat on an impurity doublet with its coupling pulled to the 7.7 Hz bound, and alone
