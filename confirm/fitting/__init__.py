@@ -50,7 +50,7 @@ from confirm.fitting.models import build_model
 from confirm.fitting.noise import estimate_line_width_hz, estimate_noise_sd, noise_correlation_factor
 from confirm.fitting.nuisance import nuisance_models
 from confirm.fitting.options import FitOptions
-from confirm.fitting.profiles import profile_geometry_couplings
+from confirm.fitting.profiles import other_geometry_sites, profile_geometry_couplings
 from confirm.fitting.refine import Refinement, blurred_view, resolve_linear
 from confirm.fitting.refit import refit_without
 from confirm.fitting.search import resweep, search_assignments
@@ -328,13 +328,20 @@ def _assemble(spectrum, systems, candidates, models, grid, basis, refined, views
     weights = fit_weights(objectives[order])
     kept = [i for i in range(len(refined)) if weights[i] > 0]
     best = refined[0]
+    # the data's vinyl couplings read outside each alkene's own range (see profiles), on the fine grid
+    # and on the blurred copy
+    probes = [Refinement(g, b, models, field_mhz=field, width_ppm=(lw_hz + blur) / field,
+                         noise_sd=noise_bin * corr, max_width_hz=options.max_line_width_hz + blur)
+              for g, b, blur in ((grid, basis, 0.0), (view_grid, view_basis, _READING_BLUR_HZ))]
+    other_geometry = other_geometry_sites(probes[0], best, probes[1], views[0], blur_hz=_READING_BLUR_HZ,
+                                          temperature=var / (noise_bin * corr) ** 2)
     settings = {"noise_sd": noise_bin * corr, "model_error": options.model_error,
                 "detection_sigma": options.detection_sigma, "lw_ppm": (lw_hz + _READING_BLUR_HZ) / field,
                 "uncertainty_scale": options.uncertainty_scale}
     rejected: dict = {}
     while True:
         ev = evaluate(views[0], models, view_grid, view_basis, amount_cov=refined_amount_covariance(best),
-                      reject=tuple(rejected), **settings)
+                      reject=tuple(rejected), other_geometry=other_geometry, **settings)
         ev = _with_resolution_spread(ev, best, grid, basis, models, noise_bin * corr, options.model_error,
                                      lw_hz / field)
         ev = _with_carrier_spread(ev)

@@ -88,7 +88,8 @@ def diagnostic_sites(model, others=()) -> list:
 
 
 def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: float, detection_sigma: float,
-             lw_ppm: float, uncertainty_scale: float, amount_cov=None, reject=()) -> Evaluation:
+             lw_ppm: float, uncertainty_scale: float, amount_cov=None, reject=(),
+             other_geometry=()) -> Evaluation:
     """Read the evidence of one refined fit and solve the amounts of the candidates present.
 
     Each point's variance is the noise, widened by the local misfit of the refined fit around it
@@ -98,7 +99,10 @@ def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: floa
     widths), is a floor on their uncertainty: a weak multiplet whose couplings the data barely fix
     is uncertain in amount too. The candidates in ``reject`` (indexes) are not present whatever
     their multiplets read (their own integrals contradict the reading, see
-    :func:`confirm.fitting._contradicted_by_integrals`)."""
+    :func:`confirm.fitting._contradicted_by_integrals`). ``other_geometry`` (per model, vinyl sites;
+    see :func:`confirm.fitting.profiles.other_geometry_sites`) are vinyl H whose geometry coupling
+    the data place in the other geometry's range: they count as outside, like a coupling left at a
+    bound of its range."""
     signal = refined.amounts @ refined.cols
     var = point_variance(noise_sd, signal, model_error) * _local_misfit(grid, refined.model, noise_sd, lw_ppm)
     offsets = np.cumsum([0] + [m.n_sites for m in models])[:-1]
@@ -110,8 +114,9 @@ def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: floa
               for m, s in zip(models, shifts, strict=False)]
     diagnostic = [diagnostic_sites(m, [o for o in models if o is not m]) for m in models]
     jvals = refined.layout.jvals(refined.theta)
-    edges = [tuple(sorted(set(_at_window_edge(m, move)) | set(_coupling_at_edge(m, j))))
-             for m, move, j in zip(models, moves, jvals, strict=False)]
+    contradicted = list(other_geometry) + [()] * (len(models) - len(other_geometry))
+    edges = [tuple(sorted(set(_at_window_edge(m, move)) | set(_coupling_at_edge(m, j)) | set(c)))
+             for m, move, j, c in zip(models, moves, jvals, contradicted, strict=False)]
     # solvent, water and TMS lines stay in the model whatever their size; they are no components
     nuisance = np.array([m.nuisance for m in models])
     amounts_all, base_all, _ = weighted_fit(refined.cols, basis, grid, var, np.ones(len(models), bool))

@@ -10,6 +10,11 @@ From each, the candidate alone is refined against the data less the other candid
 signal, with only its two vinyl shifts and their couplings free (a probe: one molecule's lines,
 not the whole mixture's); the best probe, refined in full, replaces the fit when its objective
 is lower, so the step can only lower the objective.
+
+The same probe, started across the other geometry's range (:func:`other_geometry_sites`), asks what
+coupling the data show: a (E) decoy whose 15 Hz doublets lie over a (Z) compound's 11.6 Hz ones
+stays inside its own range however poorly its lines sit, and only a look outside it shows the data
+want a cis coupling.
 """
 
 from __future__ import annotations
@@ -20,7 +25,7 @@ import numpy as np
 
 from confirm.fitting.refine import Refined, Refinement, parameter_map
 
-__all__ = ["profile_geometry_couplings"]
+__all__ = ["profile_geometry_couplings", "other_geometry_sites"]
 
 #: Spacing of the starting points (Hz) is the line width, within these bounds: a doublet's cost
 #: has a minimum for every line it can sit on, about a line width wide.
@@ -85,3 +90,97 @@ def _profile_one(refinement, best: Refined, model, k: int, i: int, col: int, ste
     if full.cost / scale2 + full.prior < best.objective - _RTOL * abs(best.objective):
         return full
     return best
+
+
+#: 3J across a C=C between cis and between trans vinyl H (Hz); # common practice (the vinyl
+#: tables' ranges: cis about 6-12, trans about 12-18).
+_CIS_HZ = (6.0, 12.0)
+_TRANS_HZ = (12.0, 18.0)
+#: Starting points of the probe across the other geometry's range.
+_OTHER_STARTS = 3
+#: Least drop of the data's cost (chi-square in noise units, over the best fit's reduced chi-square
+#: when that is above 1) for the data to show the other geometry: about 5 sd.
+_OTHER_GEOMETRY_DROP = 25.0
+
+
+def other_geometry_sites(refinement: Refinement, refined: Refined, view: Refinement, viewed: Refined, *,
+                         blur_hz: float, temperature: float) -> list:
+    """Per model, the vinyl sites whose geometry coupling the data place in the other geometry's
+    range (empty for most).
+
+    For each candidate with some amount in ``refined`` and each coupling between the two vinyl H of
+    a 1,2-disubstituted C=C (a vinyl H with one geometry coupling: the =CH2 of a terminal alkene
+    has two, and a look at the other range only relabels its protons), the probe of
+    :func:`profile_geometry_couplings` (the candidate alone against the data less the others, its
+    vinyl shifts and their couplings free) is started across the part of the other geometry's
+    range outside the candidate's own. Each start is refined first on the blurred copy (``view``,
+    ``viewed``: the same fit seen there, its lines ``blur_hz`` wider), where a doublet laid half on
+    the data's lines still feels where the rest of them are, then at full resolution. When the best
+    cost (the data's part only: a coupling far from its prediction pays a prior that is no evidence)
+    lies more than :data:`_OTHER_GEOMETRY_DROP` times ``temperature`` below that of the same probe
+    run inside the candidate's own range from the fitted parameters, the data show the other
+    geometry and both vinyl H are returned."""
+    out = []
+    for k, model in enumerate(refinement.models):
+        sites = set()
+        if not model.nuisance and refined.amounts[k] > 0:
+            couplings = model.geometry_couplings()
+            ends = [s for i in couplings for s in model.j_pairs[i]]
+            for i in couplings:
+                a, b = model.j_pairs[i]
+                if ends.count(a) == 1 and ends.count(b) == 1 and _other_geometry_better(
+                        refinement, refined, view, viewed, model, k, i, blur_hz, temperature):
+                    sites.update((int(a), int(b)))
+        out.append(tuple(sorted(sites)))
+    return out
+
+
+def _alone(refinement: Refinement, refined: Refined, model, k: int) -> Refinement:
+    """Candidate ``k`` (as ``model``) alone against the data less the others' fitted signal."""
+    others = refined.amounts @ refined.cols - refined.amounts[k] * refined.cols[k]
+    grid = replace(refinement.grid, y=refinement.grid.y - others)
+    return Refinement(grid, refinement.basis, [model], field_mhz=refinement.field,
+                      width_ppm=refinement.width0, noise_sd=refinement.noise,
+                      max_width_hz=refinement.max_width_hz)
+
+
+def _other_geometry_better(refinement, refined: Refined, view, viewed: Refined, model, k: int, i: int,
+                           blur_hz: float, temperature: float) -> bool:
+    col = refinement.layout.jvals_of(k).start + i
+    lo, hi = float(refinement.lo[col]), float(refinement.hi[col])
+    a, b = model.j_pairs[i]
+    if abs(model.j0[a, b]) >= _TRANS_HZ[0]:
+        other = (_CIS_HZ[0], min(_CIS_HZ[1], lo))
+    else:
+        other = (max(_TRANS_HZ[0], hi), _TRANS_HZ[1])
+    if not other[1] > other[0]:
+        return False
+    j_lo, j_hi = model.j_lo.copy(), model.j_hi.copy()
+    j_lo[i], j_hi[i] = other
+    moved = replace(model, j_lo=j_lo, j_hi=j_hi)
+    own = _alone(refinement, refined, model, k)
+    probe, probe_blurred = _alone(refinement, refined, moved, k), _alone(view, viewed, moved, k)
+    index = parameter_map(refined.layout, probe.layout, [k])
+    free = np.zeros(probe.layout.size, bool)
+    free[[a, b]] = True  # the two vinyl shifts and every coupling of either vinyl H
+    j0 = probe.layout.j_slice.start
+    for n, (p, q) in enumerate(model.j_pairs):
+        if {p, q} & {a, b}:
+            free[j0 + n] = True
+    scale2 = refined.scale**2
+    # the reference: the same probe inside the candidate's own range, from the fitted parameters (the
+    # probe's freedom alone lowers the cost below the fitted state, where the vinyl shifts are a
+    # compromise with the others' lines)
+    here = own.run(refined.theta[index], rounds=_QUICK_ROUNDS, free=free).cost / scale2
+    best = np.inf
+    width = other[1] - other[0]
+    for frac in (np.arange(_OTHER_STARTS) + 0.5) / _OTHER_STARTS:
+        theta = viewed.theta[index].copy()
+        theta[probe.layout.width_slice] += blur_hz / refinement.field
+        theta[j0 + i] = other[0] + frac * width
+        blurred = probe_blurred.run(theta, rounds=_QUICK_ROUNDS, free=free)
+        theta = refined.theta[index].copy()
+        theta[free] = blurred.theta[free]
+        quick = probe.run(theta, rounds=_QUICK_ROUNDS, free=free)
+        best = min(best, quick.cost / scale2)
+    return bool(best < here - _OTHER_GEOMETRY_DROP * max(1.0, temperature))

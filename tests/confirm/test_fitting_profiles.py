@@ -77,3 +77,49 @@ def test_a_coupling_in_its_true_minimum_stays_there():
     profiled = profile_geometry_couplings(refinement, refined, rounds=4, line_width_hz=_LW)
     assert abs(profiled.theta[col] - 15.0) < 0.05
     assert profiled.objective <= refined.objective
+
+
+def _views(spectrum, model, refined, blur_hz=3.0):
+    """The blurred copy of the data and ``refined`` seen on it (as the assembly reads the evidence)."""
+    from confirm.fitting.refine import blurred_view
+
+    options = FitOptions()
+    factor = bin_factor(spectrum, _LW, options.points_per_width)
+    grid = build_grid(spectrum, fit_intervals([model], _FIELD, _LW), [], factor=factor, blur_hz=blur_hz)
+    basis = baseline_basis(grid, options.baseline_degree, phase=False)
+    noise = 1e-3 * float(spectrum.intensity.max()) / np.sqrt(factor)
+    view = Refinement(grid, basis, [model], field_mhz=_FIELD, width_ppm=(_LW + blur_hz) / _FIELD,
+                      noise_sd=noise,
+                      max_width_hz=8.0 + blur_hz)
+    return view, blurred_view(refined, grid, basis, [model], _FIELD, blur_hz)
+
+
+def test_a_trans_candidate_on_a_cis_doublet_is_shown_the_other_geometry():
+    """A cis alkene measured (3J 11.6 Hz), offered a trans one (15.6 Hz, allowed 13.6-17.6) whose
+    refined doublets sit half on the measured lines at 15.6 Hz, 2 Hz off centre: inside its range
+    nothing does better, but started across the cis range the probe finds the measured doublet."""
+    from confirm.fitting.profiles import other_geometry_sites
+
+    model = build_model(_alkene(15.6), FitOptions())
+    spectrum = _spectrum(11.6)
+    refinement = _refinement(spectrum, model)
+    half_on = np.array([6.10 + 2.0 / _FIELD, 5.80 - 2.0 / _FIELD])
+    refined = refinement.run(refinement.start([half_on], jvals=[np.array([15.6])]), rounds=4)
+    col = refined.layout.j_slice.start
+    assert model.j_lo[0] + 1.0 < refined.theta[col] < model.j_hi[0] - 1.0  # not at a bound of its range
+    view, viewed = _views(spectrum, model, refined)
+    assert other_geometry_sites(refinement, refined, view, viewed, blur_hz=3.0, temperature=1.0) == [(0, 1)]
+
+
+def test_a_coupling_of_the_candidates_own_geometry_is_not_questioned():
+    """The trans alkene measured (15.0 Hz) and offered, and a cis one (11.6 Hz) measured and
+    offered (11.0 Hz predicted): the other geometry's range does not fit better."""
+    from confirm.fitting.profiles import other_geometry_sites
+
+    for measured, predicted in ((15.0, 15.6), (11.6, 11.0)):
+        model = build_model(_alkene(predicted), FitOptions())
+        spectrum = _spectrum(measured)
+        refinement = _refinement(spectrum, model)
+        refined = refinement.run(refinement.start([model.shift0]), rounds=4)
+        view, viewed = _views(spectrum, model, refined)
+        assert other_geometry_sites(refinement, refined, view, viewed, blur_hz=3.0, temperature=1.0) == [()]
