@@ -58,20 +58,10 @@ def _profile_one(refinement, best: Refined, model, k: int, i: int, col: int, ste
         return best
     at = float(best.theta[col])
     starts = [v for v in np.linspace(lo, hi, int(np.floor((hi - lo) / step)) + 2) if abs(v - at) > 0.5 * step]
-    # the probe: candidate k alone, against the data less the others' fitted signal
-    others = best.amounts @ best.cols - best.amounts[k] * best.cols[k]
-    grid = replace(refinement.grid, y=refinement.grid.y - others)
-    probe = Refinement(grid, refinement.basis, [model], field_mhz=refinement.field,
-                       width_ppm=refinement.width0, noise_sd=refinement.noise,
-                       max_width_hz=refinement.max_width_hz)
+    probe = _alone(refinement, best, model, k)  # the probe
     index = parameter_map(best.layout, probe.layout, [k])
-    a, b = model.j_pairs[i]
-    free = np.zeros(probe.layout.size, bool)
-    free[[a, b]] = True  # the two vinyl shifts ...
+    free = _vinyl_free(probe, model, i)
     j0 = probe.layout.j_slice.start
-    for n, (p, q) in enumerate(model.j_pairs):  # ... and every coupling of either vinyl H
-        if {p, q} & {a, b}:
-            free[j0 + n] = True
     scale2 = best.scale**2
     top, top_value = None, np.inf
     for value in starts:
@@ -144,8 +134,23 @@ def _alone(refinement: Refinement, refined: Refined, model, k: int) -> Refinemen
                       max_width_hz=refinement.max_width_hz)
 
 
+def _vinyl_free(probe: Refinement, model, i: int) -> np.ndarray:
+    """The probe's free parameters for geometry coupling ``i``: the two vinyl shifts and every
+    coupling of either vinyl H."""
+    a, b = model.j_pairs[i]
+    free = np.zeros(probe.layout.size, bool)
+    free[[a, b]] = True
+    j0 = probe.layout.j_slice.start
+    for n, (p, q) in enumerate(model.j_pairs):
+        if {p, q} & {a, b}:
+            free[j0 + n] = True
+    return free
+
+
 def _other_geometry_better(refinement, refined: Refined, view, viewed: Refined, model, k: int, i: int,
                            blur_hz: float, temperature: float) -> bool:
+    """Whether the data fit candidate ``k``'s vinyl doublets clearly better with geometry coupling
+    ``i`` in the other geometry's range (see :func:`other_geometry_sites`)."""
     col = refinement.layout.jvals_of(k).start + i
     lo, hi = float(refinement.lo[col]), float(refinement.hi[col])
     a, b = model.j_pairs[i]
@@ -161,12 +166,8 @@ def _other_geometry_better(refinement, refined: Refined, view, viewed: Refined, 
     own = _alone(refinement, refined, model, k)
     probe, probe_blurred = _alone(refinement, refined, moved, k), _alone(view, viewed, moved, k)
     index = parameter_map(refined.layout, probe.layout, [k])
-    free = np.zeros(probe.layout.size, bool)
-    free[[a, b]] = True  # the two vinyl shifts and every coupling of either vinyl H
+    free = _vinyl_free(probe, model, i)
     j0 = probe.layout.j_slice.start
-    for n, (p, q) in enumerate(model.j_pairs):
-        if {p, q} & {a, b}:
-            free[j0 + n] = True
     scale2 = refined.scale**2
     # the reference: the same probe inside the candidate's own range, from the fitted parameters (the
     # probe's freedom alone lowers the cost below the fitted state, where the vinyl shifts are a
