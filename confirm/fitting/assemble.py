@@ -114,7 +114,7 @@ def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: floa
               for m, s in zip(models, shifts, strict=False)]
     diagnostic = [diagnostic_sites(m, [o for o in models if o is not m]) for m in models]
     jvals = refined.layout.jvals(refined.theta)
-    contradicted = list(other_geometry) + [()] * (len(models) - len(other_geometry))
+    contradicted = other_geometry or [()] * len(models)
     edges = [tuple(sorted(set(_at_window_edge(m, move)) | set(_coupling_at_edge(m, j)) | set(c)))
              for m, move, j, c in zip(models, moves, jvals, contradicted, strict=False)]
     # solvent, water and TMS lines stay in the model whatever their size; they are no components

@@ -58,7 +58,7 @@ def _profile_one(refinement, best: Refined, model, k: int, i: int, col: int, ste
         return best
     at = float(best.theta[col])
     starts = [v for v in np.linspace(lo, hi, int(np.floor((hi - lo) / step)) + 2) if abs(v - at) > 0.5 * step]
-    probe = _alone(refinement, best, model, k)  # the probe
+    (probe,) = _alone(refinement, best, k, model)  # the probe
     index = parameter_map(best.layout, probe.layout, [k])
     free = _vinyl_free(probe, model, i)
     j0 = probe.layout.j_slice.start
@@ -125,13 +125,14 @@ def other_geometry_sites(refinement: Refinement, refined: Refined, view: Refinem
     return out
 
 
-def _alone(refinement: Refinement, refined: Refined, model, k: int) -> Refinement:
-    """Candidate ``k`` (as ``model``) alone against the data less the others' fitted signal."""
+def _alone(refinement: Refinement, refined: Refined, k: int, *models) -> list:
+    """Candidate ``k`` alone against the data less the others' fitted signal: one refinement per
+    version of it in ``models``, on the one residual grid."""
     others = refined.amounts @ refined.cols - refined.amounts[k] * refined.cols[k]
     grid = replace(refinement.grid, y=refinement.grid.y - others)
-    return Refinement(grid, refinement.basis, [model], field_mhz=refinement.field,
-                      width_ppm=refinement.width0, noise_sd=refinement.noise,
-                      max_width_hz=refinement.max_width_hz)
+    return [Refinement(grid, refinement.basis, [model], field_mhz=refinement.field,
+                       width_ppm=refinement.width0, noise_sd=refinement.noise,
+                       max_width_hz=refinement.max_width_hz) for model in models]
 
 
 def _vinyl_free(probe: Refinement, model, i: int) -> np.ndarray:
@@ -163,8 +164,8 @@ def _other_geometry_better(refinement, refined: Refined, view, viewed: Refined, 
     j_lo, j_hi = model.j_lo.copy(), model.j_hi.copy()
     j_lo[i], j_hi[i] = other
     moved = replace(model, j_lo=j_lo, j_hi=j_hi)
-    own = _alone(refinement, refined, model, k)
-    probe, probe_blurred = _alone(refinement, refined, moved, k), _alone(view, viewed, moved, k)
+    own, probe = _alone(refinement, refined, k, model, moved)
+    (probe_blurred,) = _alone(view, viewed, k, moved)
     index = parameter_map(refined.layout, probe.layout, [k])
     free = _vinyl_free(probe, model, i)
     j0 = probe.layout.j_slice.start
