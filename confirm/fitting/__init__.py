@@ -36,7 +36,7 @@ from confirm.fitting.assemble import (
     with_undetected_spread,
 )
 from confirm.fitting.broad import broad_line_models, broad_lines, broad_masks
-from confirm.fitting.evidence import SEEN_SIGMA
+from confirm.fitting.evidence import SEEN_SIGMA, placement_p
 from confirm.fitting.grid import (
     baseline_basis,
     bin_factor,
@@ -352,6 +352,8 @@ def _assemble(spectrum, systems, candidates, models, grid, basis, refined, views
             break
         rejected.update(more)  # read again without them: the others' amounts take back their lines
     notes = list(notes) + [_contradiction_note(candidates[k], *rejected[k]) for k in sorted(rejected)]
+    notes += [_displaced_note(candidates[k], best.layout.shifts(best.theta)[k], models[k])
+              for k in range(len(candidates)) if ev.presence[k].displaced]
     evaluations = [ev]
     for i in kept[1:]:
         other = _evaluate_with(views[i], models, view_grid, view_basis, ev.detected, settings)
@@ -496,6 +498,14 @@ def _contradiction_note(candidate, mean: float, sd: float, reading: float, readi
     return (f"{name}: its multiplets read {reading:.3g} +- {reading_sd:.2g} (in units of one molecule's "
             f"lines) but their integrals, with the other components' lines taken away, hold "
             f"{mean:.3g} +- {sd:.2g}: another line sits in its windows, and it is counted as not detected")
+
+
+def _displaced_note(candidate, shifts, model) -> str:
+    p, value, n = placement_p(shifts, model.shift0, model.sd)
+    name = candidate.label or candidate.smiles
+    return (f"{name}: its multiplets were fitted to lines that lie, taken together, too far from its "
+            f"predicted shifts (chi-square {value:.1f} over {n} sites, p = {p:.1g}): those lines are not "
+            "its own, and it is counted as not detected")
 
 
 def _with_integrals(ev, found: dict):

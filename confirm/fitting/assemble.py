@@ -16,7 +16,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from confirm.fitting.evidence import decide_presence, point_variance, read_sites, weighted_fit
+from confirm.fitting.evidence import decide_presence, placement_p, point_variance, read_sites, weighted_fit
 from confirm.fitting.models import vinyl_sites
 from predictors.core import ComponentFit, SiteEvidence
 
@@ -124,9 +124,13 @@ def evaluate(refined, models, grid, basis, *, noise_sd: float, model_error: floa
                           n_sites, lw_ppm, noise_sd=noise_sd, model_error=model_error, moves=moves,
                           likely=likely)
     stretched = [_main_coupling_at_bound(m, j) for m, j in zip(models, jvals, strict=False)]
+    # where the multiplets sit, all together, against the predictions (see evidence.placement_p)
+    places = [1.0 if m.nuisance else placement_p(s, m.shift0, m.sd)[0]
+              for m, s in zip(models, shifts, strict=False)]
     presence = tuple(decide_presence(r, detection_sigma=detection_sigma, diagnostic=d, at_edge=e, stretched=t,
-                                     vinyl=vinyl_sites(m))
-                     for r, d, e, t, m in zip(readings, diagnostic, edges, stretched, models, strict=True))
+                                     vinyl=vinyl_sites(m), place_p=p)
+                     for r, d, e, t, m, p in zip(readings, diagnostic, edges, stretched, models, places,
+                                                 strict=True))
     detected = np.array([p.present for p in presence]) & ~nuisance
     detected[list(reject)] = False
     amounts, base, cov_sub = weighted_fit(refined.cols, basis, grid, var, detected | nuisance)

@@ -32,10 +32,12 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+from scipy.special import gammaincc
 
 from confirm.fitting.linear import solve_amounts
 
-__all__ = ["SiteReading", "Presence", "point_variance", "weighted_fit", "read_sites", "decide_presence"]
+__all__ = ["SiteReading", "Presence", "point_variance", "weighted_fit", "read_sites", "decide_presence",
+           "placement_p", "PLACEMENT_P"]
 
 #: Main lines of a multiplet: points above this share of its tallest point.
 _MAIN_LINE_SHARE = 0.3
@@ -160,6 +162,12 @@ class Presence:
     swamped : tuple of int
         Vinyl sites whose lines read far more than the molecule's amount (:data:`_SWAMPED` times):
         another compound's lines; the molecule is then not present.
+    placement_p : float
+        Probability of multiplets lying at least as far from their predicted shifts, jointly, as
+        the fit placed them (see :func:`placement_p`).
+    displaced : bool
+        Present on its readings, but not present because ``placement_p`` is below
+        :data:`PLACEMENT_P`.
     """
 
     amount: float
@@ -170,6 +178,30 @@ class Presence:
     upper: float
     outside: tuple = ()
     swamped: tuple = ()
+    placement_p: float = 1.0
+    displaced: bool = False
+
+
+#: Least probability (chi-square over the sites, see :func:`placement_p`) of a candidate's refined
+#: shifts given its predictions for it to be present. The shift sds are calibrated so that 95 % of
+#: errors lie within 2 sd; a molecule whose multiplets sit 2-3 sd off at nearly every site together
+#: is sitting on lines that are not its own (an absent diester's ethyl groups moved 0.4-0.5 ppm onto
+#: an ether impurity's quartet and triplet and its CH2 onto 13C satellites: p 3e-5). Set below the
+#: lowest value of any component truly present and detected in the tuning half's runs (4e-4).
+PLACEMENT_P = 1e-4
+
+
+def placement_p(shifts, predicted, sd) -> tuple[float, float, int]:
+    """Chi-square of refined shifts against their predictions, sum(((shift - predicted) / sd)**2)
+    over the sites with a finite positive sd, its number of sites, and its upper-tail probability
+    (the prediction errors taken as independent normal, as their calibration treats them)."""
+    shifts, predicted, sd = (np.asarray(a, dtype=float) for a in (shifts, predicted, sd))
+    use = np.isfinite(sd) & (sd > 0) & np.isfinite(shifts)
+    n = int(np.sum(use))
+    if n == 0:
+        return 1.0, 0.0, 0
+    value = float(np.sum(((shifts[use] - predicted[use]) / sd[use]) ** 2))
+    return float(gammaincc(n / 2.0, value / 2.0)), value, n  # the chi-square tail (scipy.stats loads slowly)
 
 
 def point_variance(noise_sd: float, signal: np.ndarray, model_error: float) -> np.ndarray:
@@ -351,7 +383,7 @@ def _envelope(u, d, var, window, reach: int, misfit: float, steps=(0, 0)) -> tup
 
 
 def decide_presence(readings, *, detection_sigma: float, diagnostic, at_edge=(), stretched=(),
-                    vinyl=()) -> Presence:
+                    vinyl=(), place_p: float = 1.0) -> Presence:
     """Combine a candidate's multiplet readings into its evidence of presence.
 
     The multiplets seen on their own (amount above 5 sd, at most half their window filled by
@@ -386,10 +418,14 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic, at_edge=(),
         The molecule's vinyl H. One that reads more than :data:`_SWAMPED` times the molecule's amount,
         beyond 3 of its sd, is swamped by another compound's lines and the molecule is not present:
         an alkene is known by its vinyl H, and these are not its own.
+    place_p : float
+        :func:`placement_p` of the candidate's refined shifts: below :data:`PLACEMENT_P` the
+        multiplets, taken together, are not where the molecule's can be, and it is not present
+        whatever they read.
     """
     use = [i for i, r in enumerate(readings) if r.usable and np.isfinite(r.amount_sd) and r.amount_sd > 0]
     if not use:
-        return Presence(0.0, np.inf, False, (), (), np.inf)
+        return Presence(0.0, np.inf, False, (), (), np.inf, placement_p=place_p)
     seen = tuple(i for i in use if readings[i].sigma > max(detection_sigma, SEEN_SIGMA)
                  and readings[i].overlap < _SEEN_OVERLAP)
     carriers = list(seen) or use
@@ -435,7 +471,9 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic, at_edge=(),
     # the components (a homologue on the true compound's multiplets), however many sd it reads
     evidence = any(i in use and readings[i].sigma > strong and _own_shape(readings[i]) >= _MISSHAPEN_MATCH
                    for i in diagnostic)
-    present = mean > detection_sigma * mean_sd and evidence and not missing and not swamped
+    read_present = mean > detection_sigma * mean_sd and evidence and not missing and not swamped
+    displaced = read_present and place_p < PLACEMENT_P
+    present = read_present and not displaced
     all_mean, all_sd, _ = _combine([readings[i] for i in use])
     upper = max(all_mean, 0.0) + Z_UPPER_95 * all_sd
     envelopes = [readings[i].envelope for i in use if np.isfinite(readings[i].envelope)]
@@ -447,7 +485,8 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic, at_edge=(),
         shared = [readings[i].envelope_all for i in use if np.isfinite(readings[i].envelope_all)]
         if shared:
             upper = max(upper, min(shared))
-    return Presence(mean, mean_sd, bool(present), missing, seen, float(upper), outside, swamped)
+    return Presence(mean, mean_sd, bool(present), missing, seen, float(upper), outside, swamped, place_p,
+                    bool(displaced))
 
 
 def _group_holds(reading: SiteReading) -> bool:

@@ -13,7 +13,7 @@ from dataclasses import replace
 import numpy as np
 import pytest
 
-from confirm.fitting.evidence import SiteReading, decide_presence, point_variance
+from confirm.fitting.evidence import PLACEMENT_P, SiteReading, decide_presence, placement_p, point_variance
 from confirm.fitting.grid import Grid, _hilbert_transform
 from confirm.fitting.linear import Projected, solve_amounts
 from confirm.fitting.lineshape import draw_lines
@@ -471,6 +471,38 @@ def test_a_clear_multiplet_split_at_the_bound_of_its_coupling_is_missing():
     # a stretched multiplet under others' lines is no clear evidence either way: nothing changes
     p = decide_presence(readings, detection_sigma=3.0, diagnostic=[1], stretched=[2])
     assert p.present and p.missing == ()
+
+
+def test_placement_p_is_the_chi_square_tail_of_the_shift_errors():
+    # two sites 1 sd off: chi-square 2 on 2 degrees of freedom, tail exp(-1) (closed form for 2 dof)
+    p, value, n = placement_p([1.1, 2.1, 3.0], [1.0, 2.0, 3.0], [0.1, 0.1, np.inf])
+    assert n == 2 and value == pytest.approx(2.0) and p == pytest.approx(np.exp(-1.0))
+    assert placement_p([1.0], [1.0], [0.0]) == (1.0, 0.0, 0)
+
+
+def test_a_candidate_fitted_jointly_far_from_its_predictions_is_not_present():
+    # a 60 MHz tune-style mixture (99 % diethyl fumarate, 1 % maleate, 2 % diethyl ether): the absent
+    # diethyl malate, offered as a candidate, was fitted with its ethyl groups on the ether's quartet
+    # and triplet and its CH2 protons on 13C satellites; its two CH2 multiplets read 19 sd clear
+    predicted = np.array([1.26, 4.14, 4.09, 2.82, 2.62, 4.61, 4.15, 4.10, 1.26])
+    sd = np.array([0.129, 0.19, 0.19, 0.19, 0.19, 0.174, 0.19, 0.19, 0.129])
+    fitted = np.array([0.882, 3.75, 3.575, 3.017, 2.50, 4.17, 3.616, 4.184, 1.168])
+    p, value, n = placement_p(fitted, predicted, sd)
+    assert n == 9 and value == pytest.approx(36.4, abs=0.3) and p < PLACEMENT_P
+
+    def reading(amount, sd_, sigma_overlap):
+        return SiteReading(ppm=3.0, amount=amount, amount_sd=sd_, envelope=1.0, shape=0.85,
+                           overlap=sigma_overlap, misfit=1.0, usable=True)
+
+    readings = [reading(0.091, 0.012, 0.63), reading(0.246, 0.013, 0.19), reading(0.176, 0.009, 0.40)]
+    assert decide_presence(readings, detection_sigma=3.0, diagnostic=[1, 2]).present
+    p_dec = decide_presence(readings, detection_sigma=3.0, diagnostic=[1, 2], place_p=p)
+    assert not p_dec.present and p_dec.displaced and p_dec.placement_p == p
+    # a true compound's shifts, each within its calibrated scatter (1-2 sd), stay present
+    near = predicted + sd * np.array([1.5, -1.0, 1.2, -0.5, 2.0, 0.3, -1.8, 0.9, 0.0])
+    p_near = placement_p(near, predicted, sd)[0]
+    assert p_near > PLACEMENT_P
+    assert decide_presence(readings, detection_sigma=3.0, diagnostic=[1, 2], place_p=p_near).present
 
 
 def test_main_coupling_at_bound_looks_at_each_methyls_largest_resolved_coupling():
