@@ -20,8 +20,8 @@ from confirm.fitting.evidence import decide_presence, placement_p, point_varianc
 from confirm.fitting.models import vinyl_sites
 from predictors.core import ComponentFit, SiteEvidence
 
-__all__ = ["Evaluation", "evaluate", "rank_fits", "fit_weights", "fraction_covariance",
-           "refined_amount_covariance", "with_undetected_spread"]
+__all__ = ["Evaluation", "evaluate", "comparable_objectives", "rank_fits", "fit_weights",
+           "fraction_covariance", "refined_amount_covariance", "with_undetected_spread"]
 
 #: Fits whose weight falls below this are left out of the average.
 _MIN_WEIGHT = 1e-3
@@ -45,6 +45,22 @@ class Evaluation:
     model: np.ndarray
     #: candidate -> its integral readings (:class:`confirm.fitting.integrals.IntegralReading`)
     integrals: dict = field(default_factory=dict)
+
+
+def comparable_objectives(costs: np.ndarray, priors: np.ndarray, noise_var: float,
+                          n_points: float) -> tuple[np.ndarray, float]:
+    """The refined fits' objectives on one scale, and the temperature they were divided by.
+
+    Each fit is compared by the objective it was refined under: its squared residual over the noise
+    variance plus its priors. A best fit that misses the data by more than the noise (reduced
+    chi-square above 1: a model that cannot reproduce every line) widens what a difference means,
+    so the objectives are divided by that reduced chi-square (the temperature, at least 1) before
+    they are ranked and weighed (:func:`fit_weights`). Dividing the data's part alone and keeping
+    the priors whole would let the shift priors of absent candidates, parked wherever their
+    refinement left them, decide between fits that no step compared on that scale."""
+    costs = np.asarray(costs, dtype=float)
+    temperature = max(1.0, float(costs.min()) / n_points / noise_var)
+    return (costs / noise_var + np.asarray(priors, dtype=float)) / temperature, temperature
 
 
 def rank_fits(objectives: np.ndarray) -> np.ndarray:
