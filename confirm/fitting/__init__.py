@@ -335,7 +335,7 @@ def _assemble(spectrum, systems, candidates, models, grid, basis, refined, views
                          noise_sd=noise_bin * corr, max_width_hz=options.max_line_width_hz + blur)
               for g, b, blur in ((grid, basis, 0.0), (view_grid, view_basis, _READING_BLUR_HZ))]
     other_geometry = other_geometry_sites(probes[0], best, probes[1], views[0], blur_hz=_READING_BLUR_HZ,
-                                          temperature=temperature)
+                                          temperature=temperature, n_workers=options.n_workers)
     settings = {"noise_sd": noise_bin * corr, "model_error": options.model_error,
                 "detection_sigma": options.detection_sigma, "lw_ppm": (lw_hz + _READING_BLUR_HZ) / field,
                 "uncertainty_scale": options.uncertainty_scale}

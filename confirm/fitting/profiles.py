@@ -23,6 +23,7 @@ from dataclasses import replace
 
 import numpy as np
 
+from confirm._parallel import TaskPool
 from confirm.fitting.refine import Refined, Refinement, parameter_map
 
 __all__ = ["profile_geometry_couplings", "other_geometry_sites"]
@@ -94,7 +95,7 @@ _OTHER_GEOMETRY_DROP = 25.0
 
 
 def other_geometry_sites(refinement: Refinement, refined: Refined, view: Refinement, viewed: Refined, *,
-                         blur_hz: float, temperature: float) -> list:
+                         blur_hz: float, temperature: float, n_workers: int = 1) -> list:
     """Per model, the vinyl sites whose geometry coupling the data place in the other geometry's
     range (empty for most).
 
@@ -109,20 +110,27 @@ def other_geometry_sites(refinement: Refinement, refined: Refined, view: Refinem
     cost (the data's part only: a coupling far from its prediction pays a prior that is no evidence)
     lies more than :data:`_OTHER_GEOMETRY_DROP` times ``temperature`` below that of the same probe
     run inside the candidate's own range from the fitted parameters, the data show the other
-    geometry and both vinyl H are returned."""
-    out = []
+    geometry and both vinyl H are returned. The probe runs are independent of each other and run on
+    up to ``n_workers`` forked workers, with the same results."""
+    jobs = []  # (model index, coupling index, the other geometry's range)
     for k, model in enumerate(refinement.models):
-        sites = set()
         if not model.nuisance and refined.amounts[k] > 0:
             couplings = model.geometry_couplings()
             ends = [s for i in couplings for s in model.j_pairs[i]]
             for i in couplings:
                 a, b = model.j_pairs[i]
-                if ends.count(a) == 1 and ends.count(b) == 1 and _other_geometry_better(
-                        refinement, refined, view, viewed, model, k, i, blur_hz, temperature):
-                    sites.update((int(a), int(b)))
-        out.append(tuple(sorted(sites)))
-    return out
+                other = _other_range(refinement, model, k, i)
+                if ends.count(a) == 1 and ends.count(b) == 1 and other is not None:
+                    jobs.append((k, i, other))
+    tasks = [(k, i, other, start) for k, i, other in jobs for start in range(-1, _OTHER_STARTS)]
+    with TaskPool(max_workers=n_workers, shared=(refinement, refined, view, viewed, blur_hz)) as pool:
+        costs = pool.map(_probe_task, tasks)
+    costs = np.reshape(np.asarray(costs, dtype=float), (len(jobs), _OTHER_STARTS + 1))
+    out: list = [set() for _ in refinement.models]
+    for (k, i, _), (here, *others) in zip(jobs, costs, strict=True):
+        if min(others) < here - _OTHER_GEOMETRY_DROP * max(1.0, temperature):
+            out[k].update(int(s) for s in refinement.models[k].j_pairs[i])
+    return [tuple(sorted(sites)) for sites in out]
 
 
 def _alone(refinement: Refinement, refined: Refined, k: int, *models) -> list:
@@ -148,10 +156,9 @@ def _vinyl_free(probe: Refinement, model, i: int) -> np.ndarray:
     return free
 
 
-def _other_geometry_better(refinement, refined: Refined, view, viewed: Refined, model, k: int, i: int,
-                           blur_hz: float, temperature: float) -> bool:
-    """Whether the data fit candidate ``k``'s vinyl doublets clearly better with geometry coupling
-    ``i`` in the other geometry's range (see :func:`other_geometry_sites`)."""
+def _other_range(refinement: Refinement, model, k: int, i: int):
+    """The part of the other geometry's range of coupling ``i`` of candidate ``k`` outside its own
+    refined range, or None when nothing is left."""
     col = refinement.layout.jvals_of(k).start + i
     lo, hi = float(refinement.lo[col]), float(refinement.hi[col])
     a, b = model.j_pairs[i]
@@ -159,30 +166,36 @@ def _other_geometry_better(refinement, refined: Refined, view, viewed: Refined, 
         other = (_CIS_HZ[0], min(_CIS_HZ[1], lo))
     else:
         other = (max(_TRANS_HZ[0], hi), _TRANS_HZ[1])
-    if not other[1] > other[0]:
-        return False
+    return other if other[1] > other[0] else None
+
+
+def _probe_task(shared, task) -> float:
+    """The data's cost (noise units) of one probe of candidate ``k``'s geometry coupling ``i`` (a
+    task for ``TaskPool.map``; see :func:`other_geometry_sites`): ``start`` -1 is the reference,
+    the probe inside the candidate's own range from the fitted parameters (the probe's freedom
+    alone lowers the cost below the fitted state, where the vinyl shifts are a compromise with the
+    others' lines); 0, 1, ... the starts across the other geometry's range ``other``."""
+    refinement, refined, view, viewed, blur_hz = shared
+    k, i, other, start = task
+    model = refinement.models[k]
+    scale2 = refined.scale**2
+    if start < 0:
+        (own,) = _alone(refinement, refined, k, model)
+        index = parameter_map(refined.layout, own.layout, [k])
+        free = _vinyl_free(own, model, i)
+        return own.run(refined.theta[index], rounds=_QUICK_ROUNDS, free=free).cost / scale2
     j_lo, j_hi = model.j_lo.copy(), model.j_hi.copy()
     j_lo[i], j_hi[i] = other
     moved = replace(model, j_lo=j_lo, j_hi=j_hi)
-    own, probe = _alone(refinement, refined, k, model, moved)
+    (probe,) = _alone(refinement, refined, k, moved)
     (probe_blurred,) = _alone(view, viewed, k, moved)
     index = parameter_map(refined.layout, probe.layout, [k])
     free = _vinyl_free(probe, model, i)
     j0 = probe.layout.j_slice.start
-    scale2 = refined.scale**2
-    # the reference: the same probe inside the candidate's own range, from the fitted parameters (the
-    # probe's freedom alone lowers the cost below the fitted state, where the vinyl shifts are a
-    # compromise with the others' lines)
-    here = own.run(refined.theta[index], rounds=_QUICK_ROUNDS, free=free).cost / scale2
-    best = np.inf
-    width = other[1] - other[0]
-    for frac in (np.arange(_OTHER_STARTS) + 0.5) / _OTHER_STARTS:
-        theta = viewed.theta[index].copy()
-        theta[probe.layout.width_slice] += blur_hz / refinement.field
-        theta[j0 + i] = other[0] + frac * width
-        blurred = probe_blurred.run(theta, rounds=_QUICK_ROUNDS, free=free)
-        theta = refined.theta[index].copy()
-        theta[free] = blurred.theta[free]
-        quick = probe.run(theta, rounds=_QUICK_ROUNDS, free=free)
-        best = min(best, quick.cost / scale2)
-    return bool(best < here - _OTHER_GEOMETRY_DROP * max(1.0, temperature))
+    theta = viewed.theta[index].copy()
+    theta[probe.layout.width_slice] += blur_hz / refinement.field
+    theta[j0 + i] = other[0] + (start + 0.5) / _OTHER_STARTS * (other[1] - other[0])
+    blurred = probe_blurred.run(theta, rounds=_QUICK_ROUNDS, free=free)
+    theta = refined.theta[index].copy()
+    theta[free] = blurred.theta[free]
+    return probe.run(theta, rounds=_QUICK_ROUNDS, free=free).cost / scale2

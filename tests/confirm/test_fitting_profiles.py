@@ -108,7 +108,25 @@ def test_a_trans_candidate_on_a_cis_doublet_is_shown_the_other_geometry():
     col = refined.layout.j_slice.start
     assert model.j_lo[0] + 1.0 < refined.theta[col] < model.j_hi[0] - 1.0  # not at a bound of its range
     view, viewed = _views(spectrum, model, refined)
-    assert other_geometry_sites(refinement, refined, view, viewed, blur_hz=3.0, temperature=1.0) == [(0, 1)]
+    for workers in (1, 2):  # the probes on forked workers or here: the same answer
+        assert other_geometry_sites(refinement, refined, view, viewed, blur_hz=3.0, temperature=1.0,
+                                    n_workers=workers) == [(0, 1)]
+
+
+def test_the_other_geometry_probes_cost_the_same_on_workers_as_here():
+    from confirm._parallel import TaskPool
+    from confirm.fitting.profiles import _OTHER_STARTS, _other_range, _probe_task
+
+    model = build_model(_alkene(15.6), FitOptions())
+    spectrum = _spectrum(11.6)
+    refinement = _refinement(spectrum, model)
+    refined = refinement.run(refinement.start([model.shift0]), rounds=4)
+    view, viewed = _views(spectrum, model, refined)
+    shared = (refinement, refined, view, viewed, 3.0)
+    tasks = [(0, 0, _other_range(refinement, model, 0, 0), s) for s in range(-1, _OTHER_STARTS)]
+    here = [_probe_task(shared, t) for t in tasks]
+    with TaskPool(max_workers=2, shared=shared) as pool:
+        assert pool.map(_probe_task, tasks) == here  # bit for bit
 
 
 def test_a_coupling_of_the_candidates_own_geometry_is_not_questioned():
