@@ -1,7 +1,8 @@
 """From refined fits to one coherent result: amounts, fractions, bounds, evidence and warnings.
 
-Several assignments are refined. Each is scored on one common scale (squared residual over a
-common variance plus its prior); the best one decides which candidates are present, and the
+Several assignments are refined. Each is scored by the objective it was refined under (squared
+residual over the noise variance plus its prior), divided by the best fit's reduced chi-square when
+that is above 1 (:func:`comparable_objectives`); the best one decides which candidates are present, and the
 fractions are averaged over the fits with weights ``exp(-(objective - best) / 2)``, so that near
 equal fits share the answer (and their spread enters the uncertainty) instead of one of them
 winning by a rounding difference.
