@@ -634,3 +634,16 @@ def test_fits_are_compared_by_the_objective_they_were_refined_under():
     assert list(rank_fits(old)) == [1, 0]
     # a fit at the noise: nothing is divided
     assert comparable_objectives(np.array([100.0, 104.0]), np.zeros(2), 1.0, 200.0)[1] == 1.0
+
+
+def test_a_candidate_set_aside_for_its_placement_is_named_in_the_notes():
+    from types import SimpleNamespace
+
+    from confirm.fitting import _displaced_note
+
+    model = SimpleNamespace(shift0=np.array([1.26, 4.14, 2.82]), sd=np.array([0.129, 0.19, 0.19]))
+    note = _displaced_note(SimpleNamespace(label="diethyl malate", smiles="CCOC(=O)CC(O)C(=O)OCC"),
+                           np.array([0.88, 3.62, 3.40]), model)
+    value = ((0.88 - 1.26) / 0.129) ** 2 + ((3.62 - 4.14) / 0.19) ** 2 + ((3.40 - 2.82) / 0.19) ** 2
+    assert note.startswith("diethyl malate: ") and f"chi-square {value:.1f} over 3 sites" in note
+    assert "not detected" in note
