@@ -28,7 +28,6 @@ from confirm._parallel import TaskPool
 from confirm.budget import check_budget
 from confirm.fitting.assemble import (
     averaged_fractions,
-    comparable_objectives,
     component_fits,
     evaluate,
     fit_weights,
@@ -321,8 +320,8 @@ def _assemble(spectrum, systems, candidates, models, grid, basis, refined, views
     field = float(spectrum.field_mhz)
     n_points = max(1.0, float(np.sum(grid.weight > 0)))
     costs = np.array([r.cost for r in refined])
-    objectives, temperature = comparable_objectives(costs, np.array([r.prior for r in refined]),
-                                                    (noise_bin * corr) ** 2, n_points)
+    var = max((noise_bin * corr) ** 2, float(costs.min()) / n_points)
+    objectives = costs / var + np.array([r.prior for r in refined])
     order = rank_fits(objectives)
     refined = [refined[i] for i in order]
     views = [views[i] for i in order]
@@ -335,7 +334,8 @@ def _assemble(spectrum, systems, candidates, models, grid, basis, refined, views
                          noise_sd=noise_bin * corr, max_width_hz=options.max_line_width_hz + blur)
               for g, b, blur in ((grid, basis, 0.0), (view_grid, view_basis, _READING_BLUR_HZ))]
     other_geometry = other_geometry_sites(probes[0], best, probes[1], views[0], blur_hz=_READING_BLUR_HZ,
-                                          temperature=temperature, n_workers=options.n_workers)
+                                          temperature=var / (noise_bin * corr) ** 2,
+                                          n_workers=options.n_workers)
     settings = {"noise_sd": noise_bin * corr, "model_error": options.model_error,
                 "detection_sigma": options.detection_sigma, "lw_ppm": (lw_hz + _READING_BLUR_HZ) / field,
                 "uncertainty_scale": options.uncertainty_scale}

@@ -1,8 +1,7 @@
 """From refined fits to one coherent result: amounts, fractions, bounds, evidence and warnings.
 
-Several assignments are refined. Each is scored by the objective it was refined under (squared
-residual over the noise variance plus its prior), divided by the best fit's reduced chi-square when
-that is above 1 (:func:`comparable_objectives`); the best one decides which candidates are present, and the
+Several assignments are refined. Each is scored on one common scale (squared residual over a
+common variance plus its prior); the best one decides which candidates are present, and the
 fractions are averaged over the fits with weights ``exp(-(objective - best) / 2)``, so that near
 equal fits share the answer (and their spread enters the uncertainty) instead of one of them
 winning by a rounding difference.
@@ -21,8 +20,8 @@ from confirm.fitting.evidence import decide_presence, placement_p, point_varianc
 from confirm.fitting.models import vinyl_sites
 from predictors.core import ComponentFit, SiteEvidence
 
-__all__ = ["Evaluation", "evaluate", "comparable_objectives", "rank_fits", "fit_weights",
-           "fraction_covariance", "refined_amount_covariance", "with_undetected_spread"]
+__all__ = ["Evaluation", "evaluate", "rank_fits", "fit_weights", "fraction_covariance",
+           "refined_amount_covariance", "with_undetected_spread"]
 
 #: Fits whose weight falls below this are left out of the average.
 _MIN_WEIGHT = 1e-3
@@ -46,22 +45,6 @@ class Evaluation:
     model: np.ndarray
     #: candidate -> its integral readings (:class:`confirm.fitting.integrals.IntegralReading`)
     integrals: dict = field(default_factory=dict)
-
-
-def comparable_objectives(costs: np.ndarray, priors: np.ndarray, noise_var: float,
-                          n_points: float) -> tuple[np.ndarray, float]:
-    """The refined fits' objectives on one scale, and the temperature they were divided by.
-
-    Each fit is compared by the objective it was refined under: its squared residual over the noise
-    variance plus its priors. A best fit that misses the data by more than the noise (reduced
-    chi-square above 1: a model that cannot reproduce every line) widens what a difference means,
-    so the objectives are divided by that reduced chi-square (the temperature, at least 1) before
-    they are ranked and weighed (:func:`fit_weights`). Dividing the data's part alone and keeping
-    the priors whole would let the shift priors of absent candidates, parked wherever their
-    refinement left them, decide between fits that no step compared on that scale."""
-    costs = np.asarray(costs, dtype=float)
-    temperature = max(1.0, float(costs.min()) / n_points / noise_var)
-    return (costs / noise_var + np.asarray(priors, dtype=float)) / temperature, temperature
 
 
 def rank_fits(objectives: np.ndarray) -> np.ndarray:

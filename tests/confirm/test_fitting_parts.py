@@ -615,27 +615,6 @@ def test_a_molecule_seen_nowhere_apart_from_others_lines_is_not_detected():
     assert decide_presence(clear, detection_sigma=3.0, diagnostic=[0]).present
 
 
-def test_fits_are_compared_by_the_objective_they_were_refined_under():
-    # a 60 MHz tune-style mixture (99 % diethyl fumarate): the fit with the fumarate on its lines
-    # ends at 28421.4 in noise units (data 28321.06 + priors 100.34), one with the maleate on them at
-    # 28458.3 (28376.77 + 81.53); an absent diethyl malate's shift prior, parked on impurity lines,
-    # makes most of the priors' difference
-    from confirm.fitting.assemble import comparable_objectives, fit_weights, rank_fits
-
-    costs, priors, n_points = np.array([28321.06, 28376.77]), np.array([100.34, 81.53]), 2699.0
-    objectives, temperature = comparable_objectives(costs, priors, 1.0, n_points)
-    assert temperature == pytest.approx(28321.06 / n_points)
-    assert list(rank_fits(objectives)) == [0, 1]
-    weights = fit_weights(objectives)
-    assert weights[1] == pytest.approx(weights[0] * np.exp(-(28458.3 - 28421.4) / temperature / 2), rel=1e-3)
-    # dividing the data's part alone by its reduced chi-square, the priors kept whole, ranked the
-    # maleate fit first
-    old = costs / (costs.min() / n_points) + priors
-    assert list(rank_fits(old)) == [1, 0]
-    # a fit at the noise: nothing is divided
-    assert comparable_objectives(np.array([100.0, 104.0]), np.zeros(2), 1.0, 200.0)[1] == 1.0
-
-
 def test_a_candidate_set_aside_for_its_placement_is_named_in_the_notes():
     from types import SimpleNamespace
 
