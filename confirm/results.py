@@ -112,6 +112,7 @@ class AnalysisResult:
                 "upper_limit": comp.upper_limit,
                 "detected": comp.detected,
                 "refined_shifts_ppm": list(comp.refined_shifts_ppm),
+                "lookalikes": list(comp.lookalikes),
                 "evidence": evidence or [{"text": text} for text in comp.evidence],
             })
         ratios = {

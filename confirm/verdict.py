@@ -313,7 +313,20 @@ def decide(
         unresolved.append(f"the major product: {_shares_text(comps, [major_i, *tied])} are equal within "
                           "their uncertainties")
         steps.append(_HIGHER_FIELD)
-    major = comps[major_i].candidate.smiles if major_i is not None and not tied else None
+    alike = _lookalikes(comps, major_i)
+    if alike:
+        others = " or ".join(_name(comps[i].candidate) for i in alike)
+        unresolved.append(
+            f"the major product: {_name(comps[major_i].candidate)} and {others}"
+            + " give the same multiplets and couplings where they were fitted, and their predicted shifts"
+            " differ by less than their uncertainty: this spectrum cannot tell them apart")
+        steps.append(_TELL_APART)
+    for i, c in enumerate(comps):
+        if c.detected and i != major_i and _lookalikes(comps, i):
+            unresolved.append(f"{_name(c.candidate)} could as well be "
+                              + " or ".join(_name(comps[j].candidate) for j in _lookalikes(comps, i))
+                              + ": their spectra are alike within the predictions' uncertainty")
+    major = comps[major_i].candidate.smiles if major_i is not None and not tied and not alike else None
     rivals = _rival_majors(fit, products, major_i)
     if rivals:
         unresolved.append(
@@ -329,7 +342,8 @@ def decide(
             f"mole fractions by up to {100 * spread:.0f} points"
         )
         steps.append(_HIGHER_FIELD)
-    confidence = "undecided" if tied else "low" if rivals else _confidence(fit, major, ratios, unresolved)
+    confidence = ("undecided" if tied or alike else "low" if rivals
+                  else _confidence(fit, major, ratios, unresolved))
     evidence = _verdict_evidence(fit, major_i)
     if fit.unexplained_ppm:
         unresolved.append(
@@ -340,7 +354,7 @@ def decide(
         steps.append("identify the unknown signals (2D COSY/HSQC) or add the missing candidate")
     if context and context.get("input") == "peak list":
         unresolved.append("amounts come from a peak list (no line shapes): uncertainties are wider")
-    summary = _summary(comps, major_i, ratios, confidence, facts, tied)
+    summary = _summary(comps, major_i, ratios, confidence, facts, tied, alike)
     identified = tuple(c.candidate.smiles for c in comps if c.detected)
     return Verdict(
         summary=summary,
@@ -377,6 +391,19 @@ def _verdict_evidence(fit, major_i) -> tuple[str, ...]:
 _TIE_SD = 2.0
 
 
+#: The step that tells look-alike candidates apart.  # common practice
+_TELL_APART = ("compare with an authentic sample of each candidate, or record a 13C or 2D (HSQC, HMBC) "
+               "spectrum")
+
+
+def _lookalikes(comps, k) -> list[int]:
+    """Indexes of the candidates the spectrum cannot tell from component ``k`` (see
+    :mod:`confirm.fitting.lookalikes`); none when ``k`` is None."""
+    if k is None or not comps[k].lookalikes:
+        return []
+    return [i for i, c in enumerate(comps) if c.candidate.smiles in comps[k].lookalikes]
+
+
 def _tied_with_major(comps, products, major_i) -> list[int]:
     """Detected products whose share is not told from the largest one's (:data:`_TIE_SD`)."""
     if major_i is None:
@@ -393,7 +420,14 @@ def _shares_text(comps, indices) -> str:
                         f"{100 * comps[i].mole_fraction_sd:.1f} mol %)" for i in indices)
 
 
-def _summary(comps, major_i, ratios, confidence, facts, tied=()) -> str:
+def _summary(comps, major_i, ratios, confidence, facts, tied=(), alike=()) -> str:
+    if major_i is not None and alike:
+        top = comps[major_i]
+        return " ".join([f"The major product is not decided by this spectrum: {_name(top.candidate)} "
+                         f"({100 * top.mole_fraction:.1f} +- {100 * top.mole_fraction_sd:.1f} mol %) "
+                         "cannot be told from " + " or ".join(_name(comps[i].candidate) for i in alike)
+                         + " (the same multiplets, their shifts within the predictions' uncertainty).",
+                         *_ratio_parts(ratios, confidence)])
     if major_i is not None and tied:
         return " ".join([f"The major product is not decided by this spectrum: "
                          f"{_shares_text(comps, [major_i, *tied])} are equal within their uncertainties.",

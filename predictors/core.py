@@ -536,6 +536,10 @@ class ComponentFit:
         detected.
     site_evidence : tuple of SiteEvidence
         The same evidence as data, one entry per multiplet.
+    lookalikes : tuple of str
+        SMILES of undetected candidates whose predicted spectrum reproduces this one's as fitted
+        (same multiplets, couplings within the fit's room, shifts within 2 sd): the spectrum cannot
+        tell this component from them.
     """
 
     candidate: Candidate
@@ -547,6 +551,7 @@ class ComponentFit:
     evidence: tuple[str, ...] = ()
     upper_limit: float | None = None
     site_evidence: tuple[SiteEvidence, ...] = ()
+    lookalikes: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:
         if self.upper_limit is not None:
@@ -565,6 +570,7 @@ class ComponentFit:
         object.__setattr__(self, "refined_shifts_ppm", tuple(float(x) for x in self.refined_shifts_ppm))
         object.__setattr__(self, "evidence", tuple(self.evidence))
         object.__setattr__(self, "site_evidence", tuple(self.site_evidence))
+        object.__setattr__(self, "lookalikes", tuple(self.lookalikes))
 
     @property
     def share(self) -> float:

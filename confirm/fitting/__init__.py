@@ -46,6 +46,7 @@ from confirm.fitting.grid import (
     mask_intervals,
     rephase,
 )
+from confirm.fitting.lookalikes import lookalike_pairs
 from confirm.fitting.models import build_model
 from confirm.fitting.noise import estimate_line_width_hz, estimate_noise_sd, noise_correlation_factor
 from confirm.fitting.nuisance import nuisance_models
@@ -364,8 +365,10 @@ def _assemble(spectrum, systems, candidates, models, grid, basis, refined, views
     frac, frac_cov, fracs = averaged_fractions(evaluations, weights[kept], ev.detected)
     frac, frac_cov, fracs = frac[:k], frac_cov[:k, :k], fracs[:, :k]
     frac_cov = with_undetected_spread(frac, frac_cov, ev, k)
+    alike = lookalike_pairs(models[:k], best.layout.shifts(best.theta)[:k], best.layout.jvals(best.theta)[:k],
+                            ev.detected[:k], j_window_hz=options.j_window_hz, j_window_sd=options.j_window_sd)
     components = component_fits(candidates, systems, models[:k], best, ev, frac, frac_cov, field,
-                                options.detection_sigma)
+                                options.detection_sigma, alike)
     model = _model_on(grid, basis, best, ev, models)
     resid = grid.y - model
     total_area = float(sum(a * m.n_h.sum() for a, m in zip(ev.amounts[:k], models[:k], strict=True)))

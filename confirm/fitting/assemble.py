@@ -284,10 +284,13 @@ def with_undetected_spread(frac: np.ndarray, frac_cov: np.ndarray, ev: Evaluatio
 
 
 def component_fits(candidates, systems, models, refined, ev: Evaluation, frac, frac_cov, field_mhz: float,
-                   detection_sigma: float) -> tuple:
-    """One :class:`ComponentFit` per candidate (same order)."""
+                   detection_sigma: float, lookalikes=None) -> tuple:
+    """One :class:`ComponentFit` per candidate (same order); ``lookalikes`` maps a candidate's
+    index to those of the candidates the spectrum cannot tell from it (see
+    :mod:`confirm.fitting.lookalikes`)."""
     total = float(ev.amounts.sum())
     lay = refined.layout
+    lookalikes = lookalikes or {}
     out = []
     for k, (cand, system, model) in enumerate(zip(candidates, systems, models, strict=True)):
         p = ev.presence[k]
@@ -312,6 +315,7 @@ def component_fits(candidates, systems, models, refined, ev: Evaluation, frac, f
             refined_shifts_ppm=_refined_shifts(system, model, shifts),
             evidence=tuple(_evidence_text(e, detected) for e in sites),
             site_evidence=sites,
+            lookalikes=tuple(candidates[i].smiles for i in lookalikes.get(k, ())),
         ))
     return tuple(out)
 
