@@ -20,6 +20,8 @@ from __future__ import annotations
 import numpy as np
 from scipy.optimize import linear_sum_assignment
 
+from confirm.fitting.models import DEFAULT_J_SD_HZ, coupling_reach
+
 __all__ = ["lookalike_pairs", "spectra_alike"]
 
 #: A predicted shift counts as reaching a found multiplet within this many of its sds (the shift
@@ -27,8 +29,6 @@ __all__ = ["lookalike_pairs", "spectra_alike"]
 _SHIFT_SD = 2.0
 #: Couplings below this (Hz) on both sides shape no multiplet at the widths fitted: not compared.
 _SMALL_J_HZ = 1.0
-#: Prior sd (Hz) of a coupling the model does not refine (as ``models._DEFAULT_J_SD_HZ``).
-_FIXED_J_SD_HZ = 1.0
 _FORBIDDEN = 1e9
 
 
@@ -42,9 +42,9 @@ def _coupling_matrix(model, jvals=None) -> np.ndarray:
 
 def _coupling_reach(model, j_window_hz: float, j_window_sd: float) -> np.ndarray:
     """Per pair of the model's sites, how far the refinement may move its coupling."""
-    reach = np.full(model.j0.shape, max(j_window_hz, j_window_sd * _FIXED_J_SD_HZ))
+    reach = np.full(model.j0.shape, coupling_reach(DEFAULT_J_SD_HZ, j_window_hz, j_window_sd))
     for (a, b), sd in zip(model.j_pairs, model.j_sd, strict=True):
-        reach[a, b] = reach[b, a] = max(j_window_hz, j_window_sd * float(sd))
+        reach[a, b] = reach[b, a] = coupling_reach(float(sd), j_window_hz, j_window_sd)
     return reach
 
 

@@ -19,8 +19,9 @@ import numpy as np
 from predictors.core import SpinSystem
 from predictors.errors import FitError
 
-__all__ = ["SATELLITE_SHARE", "CandidateModel", "build_model", "model_lines", "model_lines_with_derivatives",
-           "coupling_matrix", "fitted_sites", "unit_couplings", "x_half_width_hz"]
+__all__ = ["SATELLITE_SHARE", "DEFAULT_J_SD_HZ", "CandidateModel", "build_model", "coupling_reach",
+           "model_lines", "model_lines_with_derivatives", "coupling_matrix", "fitted_sites", "unit_couplings",
+           "x_half_width_hz"]
 
 #: 13C natural abundance: each satellite is 0.55 % of its parent (references.md section 5).
 SATELLITE_SHARE = 0.0055
@@ -35,7 +36,7 @@ _MIN_REFINED_J_HZ = 0.3
 #: Spread (ppm) of sites whose predicted shifts are exactly equal (see _spread_equal_shifts).
 _TIE_SPREAD_PPM = 0.01
 #: Prior sd (Hz) of a coupling whose spin system gives none.
-_DEFAULT_J_SD_HZ = 1.0
+DEFAULT_J_SD_HZ = 1.0
 
 
 #: Couplings between two vinyl H of at least this size (Hz) are the 3J across the double bond (a
@@ -100,6 +101,12 @@ class CandidateModel:
         return np.array([self.j0[a, b] for a, b in self.j_pairs], dtype=float)
 
 
+def coupling_reach(sd_hz: float, j_window_hz: float, j_window_sd: float) -> float:
+    """How far (Hz) the refinement may move a coupling of prior sd ``sd_hz`` from its prediction
+    (``FitOptions.j_window_hz``, or ``j_window_sd`` times the sd when that is more)."""
+    return max(j_window_hz, j_window_sd * sd_hz)
+
+
 def build_model(system: SpinSystem, options) -> CandidateModel:
     """The fit's model of one candidate (raises FitError when it has nothing to fit)."""
     keep = fitted_sites(system)
@@ -123,7 +130,7 @@ def build_model(system: SpinSystem, options) -> CandidateModel:
             for b, ub in single.items():
                 if a != b:
                     units[2][ua, ub] = j0[a, b]
-    j_sd = np.full(j0.shape, _DEFAULT_J_SD_HZ) if j_sd_full is None else j_sd_full[np.ix_(first, first)]
+    j_sd = np.full(j0.shape, DEFAULT_J_SD_HZ) if j_sd_full is None else j_sd_full[np.ix_(first, first)]
     pairs, lo, hi, prior = [], [], [], []
     shift_first = np.array([s.shift_ppm for s in sites])
     affordable = (_affordable(j0, n_h, shift0=shift_first) if units is None
@@ -135,7 +142,7 @@ def build_model(system: SpinSystem, options) -> CandidateModel:
                 if abs(value) < _MIN_REFINED_J_HZ:
                     continue
                 sd_ab = max(float(j_sd[a, b]), 0.3)
-                reach = max(options.j_window_hz, options.j_window_sd * sd_ab)
+                reach = coupling_reach(sd_ab, options.j_window_hz, options.j_window_sd)
                 low, high = (max(0.0, value - reach), value + reach) if value > 0 else (
                     value - reach, min(0.0, value + reach))
                 pairs.append((a, b))
