@@ -322,9 +322,10 @@ def decide(
             " differ by less than their uncertainty: this spectrum cannot tell them apart")
         steps.append(_TELL_APART)
     for i, c in enumerate(comps):
-        if c.detected and i != major_i and _lookalikes(comps, i):
+        twins = _lookalikes(comps, i) if c.detected and i != major_i else []
+        if twins:
             unresolved.append(f"{_name(c.candidate)} could as well be "
-                              + " or ".join(_name(comps[j].candidate) for j in _lookalikes(comps, i))
+                              + " or ".join(_name(comps[j].candidate) for j in twins)
                               + ": their spectra are alike within the predictions' uncertainty")
     major = comps[major_i].candidate.smiles if major_i is not None and not tied and not alike else None
     rivals = _rival_majors(fit, products, major_i)
