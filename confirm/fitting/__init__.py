@@ -54,7 +54,7 @@ from confirm.fitting.options import FitOptions
 from confirm.fitting.profiles import other_geometry_sites, profile_geometry_couplings
 from confirm.fitting.refine import Refinement, blurred_view, resolve_linear
 from confirm.fitting.refit import refit_without
-from confirm.fitting.search import resweep, search_assignments, with_predictions
+from confirm.fitting.search import resweep, search_assignments
 from confirm.fitting.swaps import settle_exchanges, settle_swaps, stereo_partners
 from confirm.fitting.unexplained import unexplained_signals
 from predictors.core import Candidate, MixtureFit, Spectrum, SpinSystem
@@ -197,7 +197,6 @@ def _fit(spectrum, systems, candidates, noise_sd, options: FitOptions, budget) -
             n_random=options.n_random_starts, n_keep=options.n_refined_starts, n_swaps=_N_SWAPS,
             seed=options.seed, pool=pool,
         )
-        assignments = with_predictions(assignments, models, coarse.dx_ppm)
         check_budget(budget, "fit: refinement")
         task = (grid, basis, mid_view, field, lw / field, noise_bin * corr, options,
                 stereo_partners(systems, models))

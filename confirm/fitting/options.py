@@ -54,8 +54,7 @@ class FitOptions:
         Starting points drawn from the shift prior (fixed seed), besides the predicted shifts, the
         best single placements and a matching pursuit.
     n_refined_starts : int
-        The best distinct assignments refined in full (the predicted shifts are refined as one
-        more); near-equal fits are averaged.
+        The best distinct assignments refined in full; near-equal fits are averaged.
     rounds : int
         Re-simulation rounds of the refinement.
     n_workers : int

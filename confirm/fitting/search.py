@@ -29,7 +29,7 @@ from confirm.fitting.lineshape import draw_lines, line_reach
 from confirm.fitting.models import model_lines
 
 __all__ = ["SearchState", "simulate_state", "site_columns", "search_assignments", "near_swaps", "resweep",
-           "stable_argmax", "with_predictions"]
+           "stable_argmax"]
 
 #: Relative tolerance of every comparison of costs and scores in the search.
 _RTOL = 1e-9
@@ -709,23 +709,6 @@ def search_assignments(grid, basis, models, *, lw_ppm: float, field_mhz: float, 
         if all(_distinct(candidates[i], other, grid.dx_ppm) for other in out):
             out.append(candidates[i])
     return out, near
-
-
-def with_predictions(assignments, models, dx_ppm: float) -> list:
-    """``assignments`` and, last, the predicted shifts themselves, unless one of them is already
-    there (within two points of the blurred grid).
-
-    The search moves sites on a blurred copy of the data, one at a time, and a molecule whose
-    predicted multiplets are nearly right can still be walked off them: on a 60 MHz malate mixture
-    every searched start ended on the maleate where the data hold the fumarate, and the
-    predictions, refined, ended on the fumarate with a lower objective. The search's own ranking
-    does not foretell the refined one (the third of three searched starts often wins), so the
-    predictions are added to the starts, not put in the place of one; the refinement's objective
-    chooses."""
-    predicted = [np.array(m.shift0, dtype=float) for m in models]
-    if all(_distinct(predicted, a, dx_ppm) for a in assignments):
-        return list(assignments) + [predicted]
-    return list(assignments)
 
 
 def _distinct(a, b, dx_ppm: float) -> bool:

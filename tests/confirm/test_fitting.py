@@ -286,37 +286,3 @@ def test_analysing_a_fid_folder_does_not_load_the_signal_processing_stack(tmp_pa
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=False)
     assert out.returncode == 0, out.stderr
     assert out.stdout.strip().splitlines()[-1] == "[]"
-
-
-def test_the_predictions_are_refined_besides_every_searched_start(monkeypatch):
-    """The fit refines each searched assignment and, as one more start, the predicted shifts
-    themselves (the search walked them off; its ranking on the blurred copy does not foretell the
-    refined one, so none of its starts is given up for them)."""
-    import confirm.fitting as fitting
-
-    compounds = (E_CROTONATE, Z_CROTONATE)
-    spectrum = render_mixture(((E_CROTONATE, 0.7), (Z_CROTONATE, 0.3)), field_mhz=400.0, snr=500.0)
-    systems = perturbed_systems(compounds, seed=3)
-    starts, searched = [], []
-    original_task, original_search = fitting._refine_task, fitting.search_assignments
-
-    def recording_task(shared, task):
-        starts.append([np.asarray(s, dtype=float) for s in task[-2][: len(compounds)]])
-        return original_task(shared, task)
-
-    def recording_search(*args, **kw):
-        out = original_search(*args, **kw)
-        searched.append(len(out[0]))
-        return out
-
-    monkeypatch.setattr(fitting, "_refine_task", recording_task)
-    monkeypatch.setattr(fitting, "search_assignments", recording_search)
-    fit_mixture(spectrum, systems, [published_candidate(c) for c in compounds],
-                options=FitOptions(n_workers=1))
-    predicted = [[site.shift_ppm for site in s.sites] for s in systems]
-    # the shifts stated are 0.04 ppm off (perturbed_systems): every searched start moved them, so
-    # the predictions are refined once more, last, after all the searched starts
-    assert searched and len(starts) == searched[0] + 1
-    is_prediction = [all(np.allclose(a, p) for a, p in zip(start, predicted, strict=True))
-                     for start in starts]
-    assert is_prediction[-1] and not any(is_prediction[:-1])

@@ -17,7 +17,7 @@ from confirm.fitting.evidence import PLACEMENT_P, SiteReading, decide_presence, 
 from confirm.fitting.grid import Grid, _hilbert_transform
 from confirm.fitting.linear import Projected, solve_amounts
 from confirm.fitting.lineshape import draw_lines
-from confirm.fitting.search import stable_argmax, with_predictions
+from confirm.fitting.search import stable_argmax
 from confirm.fitting.solver import least_squares_box
 
 
@@ -626,17 +626,3 @@ def test_a_candidate_set_aside_for_its_placement_is_named_in_the_notes():
     value = ((0.88 - 1.26) / 0.129) ** 2 + ((3.62 - 4.14) / 0.19) ** 2 + ((3.40 - 2.82) / 0.19) ** 2
     assert note.startswith("diethyl malate: ") and f"chi-square {value:.1f} over 3 sites" in note
     assert "not detected" in note
-
-
-def test_the_predictions_are_always_refined_as_one_more_assignment():
-    """The search's assignments come first, in their order and all of them; the predicted shifts
-    follow unless one of them is already there (within two grid points)."""
-    from types import SimpleNamespace
-
-    models = [SimpleNamespace(shift0=np.array([1.55, 3.07])), SimpleNamespace(shift0=np.array([1.59]))]
-    walked = [[np.array([1.60, 3.07]), np.array([1.55])], [np.array([1.70, 3.00]), np.array([1.40])]]
-    out = with_predictions(walked, models, dx_ppm=0.001)
-    assert len(out) == 3 and out[0] is walked[0] and out[1] is walked[1]
-    assert [s.tolist() for s in out[2]] == [[1.55, 3.07], [1.59]]
-    near = [[np.array([1.5505, 3.0705]), np.array([1.5895])]]
-    assert len(with_predictions(near, models, dx_ppm=0.001)) == 1
