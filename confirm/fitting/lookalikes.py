@@ -20,7 +20,7 @@ from __future__ import annotations
 import numpy as np
 from scipy.optimize import linear_sum_assignment
 
-from confirm.fitting.models import DEFAULT_J_SD_HZ, coupling_reach
+from confirm.fitting.models import DEFAULT_J_SD_HZ, coupling_matrix, coupling_reach
 
 __all__ = ["lookalike_pairs", "spectra_alike"]
 
@@ -30,14 +30,6 @@ _SHIFT_SD = 2.0
 #: Couplings below this (Hz) on both sides shape no multiplet at the widths fitted: not compared.
 _SMALL_J_HZ = 1.0
 _FORBIDDEN = 1e9
-
-
-def _coupling_matrix(model, jvals=None) -> np.ndarray:
-    j = np.abs(np.asarray(model.j0, dtype=float)).copy()
-    if jvals is not None:
-        for (a, b), v in zip(model.j_pairs, jvals, strict=True):
-            j[a, b] = j[b, a] = abs(float(v))
-    return j
 
 
 def _coupling_reach(model, j_window_hz: float, j_window_sd: float) -> np.ndarray:
@@ -65,8 +57,8 @@ def spectra_alike(found, shifts, jvals, other, *, j_window_hz: float, j_window_s
     if not np.all(allowed[rows, cols]):
         return False
     order = cols[np.argsort(rows)]  # the other's site matched to each of the found one's sites
-    j_found = _coupling_matrix(found, jvals)
-    j_other = _coupling_matrix(other)[np.ix_(order, order)]
+    j_found = np.abs(coupling_matrix(found, np.asarray(jvals, dtype=float)))
+    j_other = np.abs(np.asarray(other.j0, dtype=float))[np.ix_(order, order)]
     reach = _coupling_reach(other, j_window_hz, j_window_sd)[np.ix_(order, order)]
     shaping = (j_found >= _SMALL_J_HZ) | (j_other >= _SMALL_J_HZ)
     return bool(np.all(np.abs(j_found - j_other)[shaping] <= reach[shaping]))
