@@ -242,3 +242,20 @@ def test_by_hand_baseline_recovers_a_resolved_two_component_truth():
     assert fractions["diethyl_maleate"] == pytest.approx(0.3, abs=0.01)
     # the vinyl singlets are the cleanest multiplets of the two esters
     assert {h.shift_ppm for h in integrals} == {6.85, 6.23}
+
+
+def test_a_perturbed_spectrum_is_the_same_data_rounded_differently(cases):
+    """``--perturb``: every intensity moves by at most REL of itself, the same way on every run of the
+    case, and not at all with REL 0 (the noise floor of a paired comparison rests on it)."""
+    from benchmarks.quantification import perturbed
+
+    case = cases[0]
+    spectrum = render_case(case)
+    assert perturbed(spectrum, case.id, 0.0) is spectrum
+    one, again = perturbed(spectrum, case.id, 1e-9), perturbed(spectrum, case.id, 1e-9)
+    y = np.asarray(spectrum.intensity)
+    assert np.array_equal(one.intensity, again.intensity)
+    change = np.abs(np.asarray(one.intensity) - y)
+    assert np.all(change <= 1e-9 * np.abs(y) * (1 + 1e-12))
+    assert np.count_nonzero(change) > 0.9 * y.size
+    assert np.array_equal(one.ppm, spectrum.ppm)
