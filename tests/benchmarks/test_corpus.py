@@ -259,3 +259,11 @@ def test_a_perturbed_spectrum_is_the_same_data_rounded_differently(cases):
     assert np.all(change <= 1e-9 * np.abs(y) * (1 + 1e-12))
     assert np.count_nonzero(change) > 0.9 * y.size
     assert np.array_equal(one.ppm, spectrum.ppm)
+
+
+@pytest.mark.parametrize("value", ["nan", "-1e-9", "0.5"])
+def test_a_perturbation_that_is_not_a_rounding_level_change_is_refused(value, capsys):
+    from benchmarks.quantification import main
+
+    assert main([f"--perturb={value}", "--limit", "1"]) == 2
+    assert "--perturb" in capsys.readouterr().err
