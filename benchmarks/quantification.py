@@ -28,8 +28,8 @@ can move no other case, so a paired comparison (:mod:`benchmarks.paired`, ``--fi
 those run again. ``--perturb 1e-9`` multiplies each spectrum by 1 + 1e-9 u (u uniform in [-1, 1],
 fixed per case): the unchanged code paired against such a run (:mod:`benchmarks.paired`) shows how
 far rounding alone moves each figure, the noise floor a change has to beat (on the fresh sample of
-December 2026 it changed 22 of 71 cases by more than 0.5 point, some by 38-100: corpus README,
-fourteenth section).
+December 2026 it changed the summed error of 22 of 71 cases by more than 0.5 point, of four by
+46-108 points: corpus README, fourteenth section).
 
 The held-out half is the default and the one to report; the tune half is for development.
 ``--limit N`` keeps the first N cases of each kind (the mixtures cycle through the families).
