@@ -31,7 +31,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from benchmarks.paired import figures, load_records
+from benchmarks.paired import _detected, figures, load_records
 from benchmarks.quantification import _ours
 
 __all__ = ["Limit", "limits", "reproducibility_changes", "main"]
@@ -77,8 +77,7 @@ def limits(draws) -> list[Limit]:
 
 def _answer(record) -> tuple:
     amounts = {c["key"] or c["smiles"]: 100.0 * _ours(c) for c in record["components"]}
-    detected = frozenset(c["key"] or c["smiles"] for c in record["components"] if c["detected"])
-    return detected, record.get("major"), amounts
+    return _detected(record), record.get("major"), amounts
 
 
 def reproducibility_changes(a: dict, b: dict) -> list[tuple[str, bool, bool, float]]:
@@ -128,7 +127,7 @@ def report(draws: dict, arm: dict | None, arm_perturbed: dict | None) -> str:
         rows.append(line)
     rows.append("")
     for x, y in itertools.combinations(names, 2):
-        rows.append(_changes_line(f"draws {x} / {y}", reproducibility_changes(draws[x], draws[y])))
+        rows.append(_changes_line(f"{x} / {y}", reproducibility_changes(draws[x], draws[y])))
     if arm is not None and arm_perturbed is not None:
         rows.append(_changes_line("arm / arm perturbed", reproducibility_changes(arm, arm_perturbed)))
     return "\n".join(rows)

@@ -77,7 +77,7 @@ def test_command_line_reports_the_limits_and_whether_the_arm_keeps_them(tmp_path
     out = capsys.readouterr().out
     assert "mixtures: summed |error| (points)" in out and "NOT kept" in out  # 80 points against 0-4
     assert "arm / arm perturbed: 0 cases changed" in out
-    assert "draws draw 0 / draw 1: 1 cases changed" in out
+    assert "draw 0 / draw 1: 1 cases changed" in out
 
 
 def test_bad_input_gives_one_line_errors(tmp_path, capsys):
