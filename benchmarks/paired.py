@@ -34,8 +34,8 @@ from dataclasses import dataclass
 
 from benchmarks.quantification import _FALSE_CLAIM, _ours
 
-__all__ = ["PairedFigures", "PairedChange", "load_records", "figures", "paired_change", "changed_cases",
-           "main"]
+__all__ = ["PairedFigures", "PairedChange", "FIGURE_LABELS", "load_records", "different_samples", "figures",
+           "paired_change", "changed_cases", "main"]
 
 #: A case counts as changed when its summed error moves by more than this (points).
 _MOVED = 0.5
@@ -52,6 +52,15 @@ class PairedFigures:
     identity_true: int
     n_controls: int
     controls_claimed: int
+
+
+#: The paired figures as the reports label them.
+FIGURE_LABELS = {
+    "mixture_error": "mixtures: summed |error| (points)",
+    "absent_claimed": "mixtures: absent candidates claimed",
+    "identity_true": "identity: true compound named major",
+    "controls_claimed": "controls: a candidate claimed > 5 %",
+}
 
 
 def load_records(path: str) -> dict:
@@ -72,6 +81,13 @@ def load_records(path: str) -> dict:
 
     seed = saved.get("seed", MASTER_SEED)
     return {r["id"]: {**r, "_seed": seed} for r in records}
+
+
+def different_samples(*runs) -> str | None:
+    """Why runs (dicts of records from :func:`load_records`) cannot be compared case by case: they
+    drew different samples of cases; None when they drew the same."""
+    seeds = {r["_seed"] for run in runs for r in run.values()}
+    return f"the runs drew different samples of cases (seeds {sorted(seeds)})" if len(seeds) > 1 else None
 
 
 def _case_error(record) -> float:
@@ -199,10 +215,10 @@ def report(base: dict, arm: dict) -> str:
         f"cases compared: {len(base)} ({fb.n_mixtures} mixtures, {fb.n_identity} identity, "
         f"{fb.n_controls} controls)",
         f"{'':38s}{'base':>10s}{'arm':>10s}",
-        f"{'mixtures: summed |error| (points)':38s}{fb.mixture_error:10.1f}{fa.mixture_error:10.1f}",
-        f"{'mixtures: absent candidates claimed':38s}{fb.absent_claimed:10d}{fa.absent_claimed:10d}",
-        f"{'identity: true compound named major':38s}{fb.identity_true:10d}{fa.identity_true:10d}",
-        f"{'controls: a candidate claimed > 5 %':38s}{fb.controls_claimed:10d}{fa.controls_claimed:10d}",
+        f"{FIGURE_LABELS['mixture_error']:38s}{fb.mixture_error:10.1f}{fa.mixture_error:10.1f}",
+        f"{FIGURE_LABELS['absent_claimed']:38s}{fb.absent_claimed:10d}{fa.absent_claimed:10d}",
+        f"{FIGURE_LABELS['identity_true']:38s}{fb.identity_true:10d}{fa.identity_true:10d}",
+        f"{FIGURE_LABELS['controls_claimed']:38s}{fb.controls_claimed:10d}{fa.controls_claimed:10d}",
     ]
     ch = paired_change(base, arm)
     lo, hi = ch.error_interval
@@ -238,10 +254,9 @@ def main(argv=None) -> int:
     except ValueError as exc:
         print(f"error: {exc}", file=sys.stderr)
         return 2
-    seeds = {r["_seed"] for r in base.values()} | {r["_seed"] for r in arm.values()}
-    if len(seeds) > 1:
-        print(f"error: the runs drew different samples of cases (seeds {sorted(seeds)}): nothing to pair",
-              file=sys.stderr)
+    mismatch = different_samples(base, arm)
+    if mismatch:
+        print(f"error: {mismatch}: nothing to pair", file=sys.stderr)
         return 2
     extra = sorted(set(arm) - set(base))
     if extra:
