@@ -25,7 +25,7 @@ from scipy import sparse
 from confirm.fitting.linear import solve_amounts
 from confirm.fitting.lineshape import draw_lines, line_reach
 from confirm.fitting.models import model_lines, model_lines_with_derivatives
-from confirm.fitting.solver import least_squares_box
+from confirm.fitting.solver import least_squares_box, power_of_two_below
 
 __all__ = ["Layout", "Priors", "Refined", "Refinement", "blurred_view", "exact_columns", "line_regions",
            "parameter_map", "resolve_linear"]
@@ -40,6 +40,14 @@ _MAX_ITERATIONS = 40
 _CHI2_TOL = 0.05
 #: ... or by less than this share of it (a large misfit need not be polished to 0.05).
 _REL_TOL = 1e-4
+#: Grid of the refined parameters (each step a power of two at or below these; see
+#: ``least_squares_box``): shifts, widths and couplings 1e-4 Hz; the Gaussian share 2**-20; amounts
+#: 1e-6 of the largest starting amount and baseline columns 1e-6 of the data's scale. Far below
+#: anything a spectrum resolves; it makes the iterates, and so the answer, a function of the data
+#: rather than of the rounding of the machine's arithmetic.
+_QUANTUM_HZ = 1e-4
+_QUANTUM_GAUSS = 2.0**-20
+_QUANTUM_REL = 1e-6
 #: Rounds stop when no shift moved more than this share of the line width and no coupling more than
 #: this many Hz in the last round (the linearised couplings are then exact enough).
 _SETTLED = 0.1
@@ -430,14 +438,16 @@ class Refinement:
         at = theta[lay.shift_slice]
         lo[lay.shift_slice] = np.maximum(lo[lay.shift_slice], at - reach)
         hi[lay.shift_slice] = np.minimum(hi[lay.shift_slice], at + reach)
-        jac, scale = None, self.noise
+        jac, scale, quantum = None, self.noise, None
         for round_ in range(max(1, rounds)):
             step = _Round(grid, basis, self.models, lay, field, theta, self.priors)
             theta = step.solve_linear(theta)
             scale = step.set_scale(theta, self.noise)
+            if quantum is None:
+                quantum = _quantum(lay, field, theta, grid.y, basis, step)
             result = least_squares_box(step.residual, step.jacobian, theta, lo, hi,
                                        max_iterations=_MAX_ITERATIONS, atol=_CHI2_TOL * scale**2,
-                                       ftol=_REL_TOL)
+                                       ftol=_REL_TOL, quantum=quantum)
             moved = _largest_move(lay, theta, result.x, self.width0)
             theta, jac = result.x, result.jac
             if round_ >= 1 and moved < _SETTLED:
@@ -480,6 +490,27 @@ def _active_rows(grid, models, layout: Layout, theta, field_mhz: float, width_pp
         np.add.at(marks, hi, -1)
         keep |= np.cumsum(marks)[:-1] > 0
     return keep
+
+
+def _quantum(layout: Layout, field_mhz: float, theta: np.ndarray, y: np.ndarray, basis: np.ndarray,
+             step: _Round) -> np.ndarray:
+    """Grid step of each parameter for ``least_squares_box`` (powers of two, see ``_QUANTUM_HZ``)."""
+    tiny = 1e-300
+    q = np.empty(layout.size)
+    q[layout.shift_slice] = power_of_two_below(_QUANTUM_HZ / field_mhz)
+    q[layout.j_slice] = power_of_two_below(_QUANTUM_HZ)
+    q[layout.width_slice] = power_of_two_below(_QUANTUM_HZ / field_mhz)
+    q[layout.gauss_index] = _QUANTUM_GAUSS
+    data = max(float(np.max(np.abs(y), initial=0.0)), tiny)
+    top = float(np.max(theta[layout.amount_slice], initial=0.0))
+    if top <= 0:  # no amount yet: the amount that would reach the data's scale
+        _, cols = step._draw(theta, derivs=False)
+        top = data / max(float(np.max(np.abs(cols), initial=0.0)), tiny)
+    q[layout.amount_slice] = power_of_two_below(max(_QUANTUM_REL * top, tiny))
+    if layout.n_base:
+        column = np.maximum(np.max(np.abs(basis), axis=0), tiny)
+        q[layout.base_slice] = power_of_two_below(np.maximum(_QUANTUM_REL * data / column, tiny))
+    return q
 
 
 def _largest_move(layout: Layout, before: np.ndarray, after: np.ndarray, width_ppm: float) -> float:

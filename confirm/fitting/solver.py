@@ -7,6 +7,13 @@ pushes outwards are held there; a step that would leave the box is clipped to it
 starts large (short first steps) and follows the gain ratio of each accepted step (Nielsen's update,
 Madsen, Nielsen and Tingleff 2004, section 3.2). The sequence of iterates depends only on the inputs
 (no random or timing-dependent choices).
+
+With a ``quantum`` per parameter (powers of two, so that rounding to it is exact), every iterate is
+rounded to that grid and a step counts only when it lowers the cost by more than ``_GAIN_FLOOR`` of
+it. Two runs whose arithmetic differs by rounding (another BLAS kernel, data changed at 1e-9)
+compute steps that differ by far less than a grid step, so their iterates land on the same grid
+points and the runs stay identical, instead of drifting apart until an acceptance, stopping or
+iteration-cap decision parts them.
 """
 
 from __future__ import annotations
@@ -15,7 +22,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["BoxResult", "least_squares_box"]
+__all__ = ["BoxResult", "least_squares_box", "power_of_two_below"]
 
 
 @dataclass(frozen=True)
@@ -36,10 +43,14 @@ class BoxResult:
 #: so that which optimum the refinement ends in depended on the rounding of the first step: the
 #: answer changed with the BLAS kernel. Short first steps follow the slope into the nearest optimum.
 _START_DAMPING = 1.0
+#: With a grid, a step gains only when it lowers the cost by more than this share of it: sums of
+#: squares of the same point under different kernels differ by about 1e-15 of their value.
+_GAIN_FLOOR = 1e-12
 
 
 def least_squares_box(residual, jacobian, x0, lower, upper, *, max_iterations: int = 60,
-                      ftol: float = 1e-10, xtol: float = 1e-10, atol: float = 0.0) -> BoxResult:
+                      ftol: float = 1e-10, xtol: float = 1e-10, atol: float = 0.0,
+                      quantum=None) -> BoxResult:
     """Minimise ``sum(residual(x)**2)`` with ``lower <= x <= upper``.
 
     Parameters
@@ -55,9 +66,15 @@ def least_squares_box(residual, jacobian, x0, lower, upper, *, max_iterations: i
         Stop when an accepted step lowers the cost by less than ``ftol`` of it or by less than
         ``atol``, or moves every parameter by less than ``xtol`` of its scale (its size, at most the
         width of its box).
+    quantum : ndarray, shape (n,), optional
+        Grid step of each parameter (positive powers of two; see :func:`power_of_two_below`): the
+        start and every iterate are rounded to it (then clipped to the box), and a step that rounds
+        away ends the iterations.
     """
     lower, upper = np.asarray(lower, float), np.asarray(upper, float)
-    x = np.clip(np.asarray(x0, float), lower, upper)
+    q = None if quantum is None else np.asarray(quantum, float)
+    floor = 0.0 if q is None else _GAIN_FLOOR
+    x = _on_grid(np.asarray(x0, float), q, lower, upper)
     r = residual(x)
     cost = float(np.dot(r, r))
     jac = jacobian(x)
@@ -72,11 +89,13 @@ def least_squares_box(residual, jacobian, x0, lower, upper, *, max_iterations: i
             break
         step = np.zeros_like(x)
         step[free] = _damped_step(normal[np.ix_(free, free)], grad[free], diag[free], damping)
-        x_new = np.clip(x + step, lower, upper)
+        x_new = _on_grid(x + step, q, lower, upper)
+        if q is not None and np.array_equal(x_new, x):
+            break  # no move the grid can represent: a larger damping would only shorten the step
         r_new = residual(x_new)
         n_eval += 1
         cost_new = float(np.dot(r_new, r_new))
-        if np.isfinite(cost_new) and cost_new < cost:
+        if np.isfinite(cost_new) and cost_new < cost - floor * cost:
             h = x_new - x
             predicted = -(2.0 * float(h @ grad) + float(h @ normal @ h))
             rho = (cost - cost_new) / predicted if predicted > 0 else 0.0
@@ -94,6 +113,20 @@ def least_squares_box(residual, jacobian, x0, lower, upper, *, max_iterations: i
             if damping > 1e10:
                 break
     return BoxResult(x=x, cost=cost, jac=jac, n_iterations=it, n_evaluations=n_eval)
+
+
+def power_of_two_below(value) -> np.ndarray:
+    """The largest power of two not above each (positive, finite) ``value`` (exact: from the
+    binary exponent, not a logarithm, whose last bit may differ between math libraries)."""
+    _, exponent = np.frexp(np.asarray(value, float))
+    return np.ldexp(1.0, exponent - 1)
+
+
+def _on_grid(x: np.ndarray, quantum, lower: np.ndarray, upper: np.ndarray) -> np.ndarray:
+    """``x`` rounded to the grid (exact: the steps are powers of two), then clipped to the box."""
+    if quantum is not None:
+        x = np.round(x / quantum) * quantum
+    return np.clip(x, lower, upper)
 
 
 def _damped_step(normal: np.ndarray, grad: np.ndarray, diag: np.ndarray, damping: float) -> np.ndarray:

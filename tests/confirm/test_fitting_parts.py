@@ -18,7 +18,7 @@ from confirm.fitting.grid import Grid, _hilbert_transform
 from confirm.fitting.linear import Projected, solve_amounts
 from confirm.fitting.lineshape import draw_lines
 from confirm.fitting.search import stable_argmax
-from confirm.fitting.solver import least_squares_box
+from confirm.fitting.solver import least_squares_box, power_of_two_below
 
 
 def _grid(x, y=None, factor=1, step=None):
@@ -176,6 +176,58 @@ def test_bounded_solver_agrees_with_scipy_least_squares():
     ref = least_squares(residual, np.array([1.0, 0.5, 0.1]), jac=jacobian, bounds=(lo, hi))
     assert ours.x == pytest.approx(ref.x, rel=1e-5, abs=1e-7)
     assert ours.x[2] == pytest.approx(0.45)  # the bound holds
+
+
+def _two_lorentzians(noise_seed: int = 4):
+    """Two overlapping Lorentzians (positions, width, heights free): a small multimodal-looking
+    problem like a refinement round's."""
+    x = np.linspace(-3.0, 3.0, 400)
+
+    def lines(p):
+        g = p[2] / 2
+        return p[3] * g * g / ((x - p[0]) ** 2 + g * g) + p[4] * g * g / ((x - p[1]) ** 2 + g * g)
+
+    truth = np.array([-0.31, 0.42, 0.9, 1.0, 0.35])
+    y = lines(truth) + np.random.default_rng(noise_seed).normal(0, 0.01, x.size)
+
+    def jacobian(p):  # central differences (the data drop out of the residual's derivative)
+        h = 1e-7
+        return np.column_stack([(lines(p + h * e) - lines(p - h * e)) / (2 * h) for e in np.eye(5)])
+
+    return lines, y, jacobian
+
+
+def test_solver_on_a_grid_is_the_same_for_data_changed_by_rounding():
+    """With a grid, a 1e-12 relative change of the data (far below any rounding that matters, far
+    above the last bit) leaves every iterate, and so the answer, bitwise the same; the answer still
+    agrees with the solver off the grid to within a few grid steps."""
+    lines, y, jacobian = _two_lorentzians()
+    x0 = np.array([-0.6, 0.7, 0.6, 0.5, 0.5])
+    lo, hi = np.array([-1.0, 0.0, 0.1, 0.0, 0.0]), np.array([0.0, 1.0, 3.0, 5.0, 5.0])
+    quantum = power_of_two_below(np.full(5, 1e-6))
+    u = np.random.default_rng(9).uniform(-1, 1, y.size)
+    results = [least_squares_box(lambda p, d=d: lines(p) - d, jacobian, x0, lo, hi, quantum=quantum)
+               for d in (y, y * (1 + 1e-12 * u))]
+    assert np.array_equal(results[0].x, results[1].x)
+    assert np.array_equal(results[0].x, np.round(results[0].x / quantum) * quantum)  # on the grid
+    free = least_squares_box(lambda p: lines(p) - y, jacobian, x0, lo, hi)
+    assert results[0].x == pytest.approx(free.x, abs=1e-4)
+    # without the grid the same change moves the answer in its last bits (what the grid removes)
+    off = [least_squares_box(lambda p, d=d: lines(p) - d, jacobian, x0, lo, hi).x
+           for d in (y, y * (1 + 1e-12 * u))]
+    assert not np.array_equal(off[0], off[1])
+
+
+def test_grid_steps_are_exact_powers_of_two():
+    values = np.array([1.0, 1.5, 0.75, 1e-4 / 400.13, 3e-300, 7.0e5])
+    steps = power_of_two_below(values)
+    mantissa, _ = np.frexp(steps)
+    assert np.all(mantissa == 0.5)  # a power of two
+    assert np.all((steps <= values) & (values < 2 * steps))
+    x = np.random.default_rng(2).normal(0, 10, 1000)
+    q = power_of_two_below(1e-4 / 400.13)
+    on = np.round(x / q) * q
+    assert np.array_equal(np.round(on / q) * q, on)  # rounding to the grid is exact, and idempotent
 
 
 def test_nonnegative_amounts_agree_with_nnls_on_the_full_matrix():
