@@ -112,11 +112,12 @@ class SiteReading:
         Share of the window's modelled signal that belongs to anything else, the molecule's own other
         multiplets included (NaN: not read; ``overlap`` stands for it).
     shape_group : float
-        Match of all the molecule's multiplets in this window, taken together, with the data left
-        for them (NaN: not read; ``shape`` stands for it).
+        Match of the molecule's multiplets in this window, taken together, with the data left for
+        them (NaN: not read; ``shape`` stands for it). For a multiplet that does not stand clear on
+        its own, the group leaves out the molecule's multiplets that do.
     amount_group : float
-        What the data left for the molecule's multiplets in this window, taken together, read as a
-        share of the molecule's own signal there (1: all of it; NaN: not read).
+        What the data left for that group of multiplets read as a share of the group's own signal
+        there (1: all of it; NaN: not read).
     """
 
     ppm: float
@@ -263,15 +264,24 @@ def read_sites(grid, per_site, cols, amounts, base, basis, offsets, n_sites, lw_
     reach = max(1, int(round(0.5 * lw_ppm / grid.dx_ppm)))
     out = []
     for k, (o, n) in enumerate(zip(offsets, n_sites, strict=True)):
-        rows = []
-        for s in range(n):
+
+        def read(s, whole, k=k, o=o):
             u = per_site[o + s]
             own = amounts[k] * u
             span = None if moves is None else moves[k][s]
-            rows.append(_read_one(grid, u, grid.y - (model - own), signal - own, reach, noise_sd,
-                                  model_error, span, whole=amounts[k] * cols[k], model=model,
-                                  foreign=signal - amounts[k] * cols[k],
-                                  likely=None if likely is None else likely[k][s]))
+            return _read_one(grid, u, grid.y - (model - own), signal - own, reach, noise_sd, model_error,
+                             span, whole=whole, model=model, foreign=signal - amounts[k] * cols[k],
+                             likely=None if likely is None else likely[k][s])
+
+        rows = [read(s, amounts[k] * cols[k]) for s in range(n)]
+        # the group of a multiplet that does not stand clear is the molecule's other multiplets that
+        # do not either: one seen on its own vouches for itself, and where its lines reach into the
+        # window (a clean CH3 doublet at the edge of a wide 80 MHz CH2 multiplet) it must not carry
+        # a group whose own multiplets read below zero (a homologue's CH2 on a water line)
+        clear = [s for s, r in enumerate(rows) if r.usable and _stands_clear(r, SEEN_SIGMA)]
+        if clear and len(clear) < n:
+            rest = amounts[k] * (cols[k] - per_site[[o + s for s in clear]].sum(0))
+            rows = [r if s in clear else read(s, rest) for s, r in enumerate(rows)]
         out.append(rows)
     return out
 
@@ -426,8 +436,7 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic, at_edge=(),
     use = [i for i, r in enumerate(readings) if r.usable and np.isfinite(r.amount_sd) and r.amount_sd > 0]
     if not use:
         return Presence(0.0, np.inf, False, (), (), np.inf, placement_p=place_p)
-    seen = tuple(i for i in use if readings[i].sigma > max(detection_sigma, SEEN_SIGMA)
-                 and readings[i].overlap < _SEEN_OVERLAP)
+    seen = tuple(i for i in use if _stands_clear(readings[i], max(detection_sigma, SEEN_SIGMA)))
     carriers = list(seen) or use
     mean, mean_sd, plain_sd = _combine([readings[i] for i in carriers])
     missing = ()
@@ -487,6 +496,12 @@ def decide_presence(readings, *, detection_sigma: float, diagnostic, at_edge=(),
             upper = max(upper, min(shared))
     return Presence(mean, mean_sd, bool(present), missing, seen, float(upper), outside, swamped, place_p,
                     bool(displaced))
+
+
+def _stands_clear(reading: SiteReading, sigma: float) -> bool:
+    """A multiplet seen on its own: it reads more than ``sigma`` sd and others fill less than
+    :data:`_SEEN_OVERLAP` of its window."""
+    return bool(reading.sigma > sigma and reading.overlap < _SEEN_OVERLAP)
 
 
 def _group_holds(reading: SiteReading) -> bool:

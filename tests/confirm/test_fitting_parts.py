@@ -627,6 +627,38 @@ def test_a_molecules_own_neighbouring_multiplet_is_no_overlap():
     assert r_o.overlap < 0.05
 
 
+def test_a_clean_multiplet_at_the_edge_of_a_window_does_not_vouch_for_an_absent_one():
+    """A homologue's wide CH2 multiplet (80 MHz, 30 Hz across) laid on a water line, with the
+    molecule's clean CH3 doublet at the edge of its window: the CH2 reads below zero once the
+    water's share is taken away, and its group (the molecule's multiplets in its window that do not
+    stand clear on their own) must read the same, not borrow the doublet's good match."""
+    from confirm.fitting.evidence import decide_presence, read_sites
+
+    x = np.linspace(1.0, 2.0, 2001)
+    g = 1.2 / 80.0 / 2
+
+    def lorentz(c, w=g):
+        return w / np.pi / ((x - c) ** 2 + w * w)
+
+    ch3 = 3 * (lorentz(1.24 - 0.0390) + lorentz(1.24 + 0.0390)) / 2  # a doublet, 6.2 Hz
+    ch2 = sum(lorentz(1.52 + d) for d in (-0.19, -0.11, -0.04, 0.04, 0.11, 0.19)) / 6  # one proton
+    water = lorentz(1.56, 2.4 / 80.0 / 2)
+    rng = np.random.default_rng(11)
+    y = ch3 + 0.3 * water + rng.normal(0, 0.01, x.size)  # the molecule's CH3 is there, its CH2 is not
+    grid = _grid(x, y)
+    per_site = np.vstack([ch3, ch2, water])
+    cols = np.vstack([ch3 + ch2, water])
+    basis = np.zeros((x.size, 1))
+    # the fit that laid the CH2 on the water line gave the water more than its share
+    (r_ch3, r_ch2), _ = read_sites(grid, per_site, cols, np.array([1.0, 0.4]), np.zeros(1), basis, [0, 2],
+                                   [2, 1], 1.2 / 80.0, noise_sd=0.01, model_error=0.03)
+    assert r_ch3.sigma > 5 and r_ch3.overlap < 0.5  # seen on its own
+    assert r_ch2.amount < 0 and r_ch2.overlap >= 0.5
+    assert not r_ch2.amount_group >= 0.5  # the group is the CH2 alone: it does not hold
+    p = decide_presence([r_ch3, r_ch2], detection_sigma=3.0, diagnostic=[1])
+    assert 1 in p.missing and not p.present
+
+
 def test_a_candidate_below_its_bound_widens_the_found_fractions_by_at_most_its_share():
     """A component found alone (amount 1) beside an undetected candidate bounded at 1.74: the
     candidate could be at most 1.74 / 2.74 = 63.5 % of the mixture (its reported upper limit), so
