@@ -85,7 +85,7 @@ def _worker(n_cases: int, n_workers: int, perturb: float) -> dict:
 
     import confirm.analysis as analysis_module
     from benchmarks.corpus.synthesis import render_case
-    from confirm.analysis import analyze_path, build_candidates, predict_systems
+    from confirm.analysis import build_candidates, predict_systems
     from confirm.commands.demo import DEMO_REAGENT, DEMO_SOLVENT, DEMO_SUBSTRATE, DEMO_TEMP_C, sample_files
     from confirm.fitting import FitOptions
     from predictors.core import Spectrum
@@ -107,38 +107,30 @@ def _worker(n_cases: int, n_workers: int, perturb: float) -> dict:
         return Spectrum(ppm=spectrum.ppm, intensity=y, field_mhz=spectrum.field_mhz, nucleus=spectrum.nucleus,
                         solvent=spectrum.solvent, metadata=spectrum.metadata)
 
-    out = {}
-    for path in sample_files():
-        if perturb:  # the raw files are read as they are; perturb the processed spectrum instead
-            from confirm.processing import process_measurement
-            from confirm.reading import read_measurement
-
-            processed = process_measurement(read_measurement(path))
-            cands, _ = build_candidates(substrate=DEMO_SUBSTRATE, reagent=DEMO_REAGENT, solvent=DEMO_SOLVENT,
-                                        temp_c=DEMO_TEMP_C)
-            result = with_options(nudge(processed.spectrum), cands)
-        else:
-            result = analyze_path(path, substrate=DEMO_SUBSTRATE, reagent=DEMO_REAGENT, solvent=DEMO_SOLVENT,
-                                  temp_c=DEMO_TEMP_C)
-        out[f"demo:{path.name}"] = _outcome(result)
-    real = real_spectra_folder()
-    for folder, smiles in REAL_CASES.items() if real is not None else ():
-        path = real / folder / "1h.fid.dx"
-        if not path.is_file():
-            continue
-        # every configuration takes the same path (the processed spectrum, perturbed or not, and the
-        # predictions for the sample's solvent, as analyze_path makes them)
+    def analysed(path, cands):
+        """Read, process and analyse ``path`` as ``analyze_path`` does (predictions for the sample's
+        solvent), the processed spectrum perturbed: every configuration takes this same path."""
         from confirm.processing import process_measurement
         from confirm.reading import read_measurement
 
         raw = read_measurement(path)
         processed = process_measurement(raw)
-        cands, _ = build_candidates(candidates=smiles)
         solvent = getattr(raw.parameters, "solvent", None)
         systems = analysis_module._for_sample_solvent(predict_systems(cands, solvent=solvent), cands, solvent,
                                                       processed.spectrum.solvent)
         processed = dataclasses.replace(processed, spectrum=nudge(processed.spectrum))
-        out[f"real:{folder}"] = _outcome(with_options(processed, cands, systems=systems))
+        return _outcome(with_options(processed, cands, systems=systems))
+
+    out = {}
+    demo, _ = build_candidates(substrate=DEMO_SUBSTRATE, reagent=DEMO_REAGENT, solvent=DEMO_SOLVENT,
+                               temp_c=DEMO_TEMP_C)
+    for path in sample_files():
+        out[f"demo:{path.name}"] = analysed(path, demo)
+    real = real_spectra_folder()
+    for folder, smiles in REAL_CASES.items() if real is not None else ():
+        path = real / folder / "1h.fid.dx"
+        if path.is_file():
+            out[f"real:{folder}"] = analysed(path, build_candidates(candidates=smiles)[0])
     cache: dict = {}
     for case in _cases(n_cases):
         cands, _ = build_candidates(candidates=[s for s, _ in case.candidates])
