@@ -29,7 +29,7 @@ missing.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 from scipy.special import gammaincc
@@ -264,24 +264,26 @@ def read_sites(grid, per_site, cols, amounts, base, basis, offsets, n_sites, lw_
     reach = max(1, int(round(0.5 * lw_ppm / grid.dx_ppm)))
     out = []
     for k, (o, n) in enumerate(zip(offsets, n_sites, strict=True)):
-
-        def read(s, whole, k=k, o=o):
+        whole = amounts[k] * cols[k]
+        rows = []
+        for s in range(n):
             u = per_site[o + s]
             own = amounts[k] * u
             span = None if moves is None else moves[k][s]
-            return _read_one(grid, u, grid.y - (model - own), signal - own, reach, noise_sd, model_error,
-                             span, whole=whole, model=model, foreign=signal - amounts[k] * cols[k],
-                             likely=None if likely is None else likely[k][s])
-
-        rows = [read(s, amounts[k] * cols[k]) for s in range(n)]
+            rows.append(_read_one(grid, u, grid.y - (model - own), signal - own, reach, noise_sd,
+                                  model_error, span, whole=whole, model=model, foreign=signal - whole,
+                                  likely=None if likely is None else likely[k][s]))
         # the group of a multiplet that does not stand clear is the molecule's other multiplets that
         # do not either: one seen on its own vouches for itself, and where its lines reach into the
         # window (a clean CH3 doublet at the edge of a wide 80 MHz CH2 multiplet) it must not carry
-        # a group whose own multiplets read below zero (a homologue's CH2 on a water line)
+        # a group whose own multiplets read below zero (a homologue's CH2 on a water line); only the
+        # group's two figures depend on it
         clear = [s for s, r in enumerate(rows) if r.usable and _stands_clear(r, SEEN_SIGMA)]
         if clear and len(clear) < n:
             rest = amounts[k] * (cols[k] - per_site[[o + s for s in clear]].sum(0))
-            rows = [r if s in clear else read(s, rest) for s, r in enumerate(rows)]
+            rows = [r if s in clear or not r.usable else
+                    replace(r, **_group_figures(grid, _window(grid, per_site[o + s]), rest, model))
+                    for s, r in enumerate(rows)]
         out.append(rows)
     return out
 
@@ -299,7 +301,7 @@ def _read_one(grid, u, d, others, reach: int, noise_sd: float, model_error: floa
     singlet parked on its partner's singlet 2.8 sd from its own prediction): the bound is read at
     the best place within the likely range instead, where the data may hold nothing."""
     top = float(u.max()) if u.size else 0.0
-    window = (u > _WINDOW_SHARE * top) & (grid.weight > 0) if top > 0 else np.zeros(u.size, bool)
+    window = _window(grid, u)
     ppm = float(np.sum(grid.x * u) / np.sum(u)) if top > 0 else float("nan")
     if window.sum() < 3:
         return SiteReading(ppm, 0.0, np.inf, np.inf, 0.0, 0.0, 1.0, False)
@@ -320,14 +322,8 @@ def _read_one(grid, u, d, others, reach: int, noise_sd: float, model_error: floa
     shape_group = shape
     amount_group = float("nan")
     if whole is not None and model is not None:
-        # the molecule's multiplets in this window together against the data left for them: the two
-        # protons of a =CH2 a few Hz apart, read one by one, match poorly; together they are the
-        # multiplet a chemist sees
-        wg, dg = whole[window], (grid.y - (model - whole))[window]
-        norm_g = float(np.linalg.norm(wg) * np.linalg.norm(dg))
-        shape_group = float(np.dot(wg, dg) / norm_g) if norm_g > 0 else 0.0
-        wgwg = float(np.dot(wg, wg))
-        amount_group = float(np.dot(wg, dg)) / wgwg if wgwg > 0 else float("nan")
+        group = _group_figures(grid, window, whole, model)
+        shape_group, amount_group = group["shape_group"], group["amount_group"]
     allowed = noise_sd**2 + (_PATTERN_ERROR * alpha * uw) ** 2 + (model_error * ow) ** 2
     shape_misfit = float(np.sum(resid * resid) / np.sum(allowed))
     # the margin comes from the noise and the model error of the others, never from the local
@@ -345,6 +341,24 @@ def _read_one(grid, u, d, others, reach: int, noise_sd: float, model_error: floa
         envelope_all, _ = _envelope(u, d + others, margin_var, window, reach, max(1.0, misfit))
     return SiteReading(ppm, alpha, sd, envelope, shape, overlap, misfit, True, shape_misfit, envelope_all,
                        envelope_window, overlap_all, shape_group, amount_group)
+
+
+def _window(grid, u) -> np.ndarray:
+    """A site's window: where its unit column exceeds :data:`_WINDOW_SHARE` of its peak (fitted
+    points only)."""
+    top = float(u.max()) if u.size else 0.0
+    return (u > _WINDOW_SHARE * top) & (grid.weight > 0) if top > 0 else np.zeros(u.size, bool)
+
+
+def _group_figures(grid, window, whole, model) -> dict:
+    """``shape_group`` and ``amount_group`` of a reading: the molecule's multiplets in ``whole``,
+    taken together, against the data left for them in the window (the two protons of a =CH2 a few
+    Hz apart, read one by one, match poorly; together they are the multiplet a chemist sees)."""
+    wg, dg = whole[window], (grid.y - (model - whole))[window]
+    norm_g = float(np.linalg.norm(wg) * np.linalg.norm(dg))
+    wgwg = float(np.dot(wg, wg))
+    return {"shape_group": float(np.dot(wg, dg) / norm_g) if norm_g > 0 else 0.0,
+            "amount_group": float(np.dot(wg, dg)) / wgwg if wgwg > 0 else float("nan")}
 
 
 def _grid_steps(span, dx_ppm: float) -> tuple[int, int]:
