@@ -81,14 +81,12 @@ def _cases(n: int):
 
 def _worker(n_cases: int, n_workers: int, perturb: float) -> dict:
     """Analyse the demo and the corpus cases in this process; the outcome of each as plain data."""
-    import numpy as np
-
     import confirm.analysis as analysis_module
     from benchmarks.corpus.synthesis import render_case
+    from benchmarks.quantification import perturbed
     from confirm.analysis import build_candidates, predict_systems
     from confirm.commands.demo import DEMO_REAGENT, DEMO_SOLVENT, DEMO_SUBSTRATE, DEMO_TEMP_C, sample_files
     from confirm.fitting import FitOptions
-    from predictors.core import Spectrum
 
     options = FitOptions(n_workers=n_workers)
     original = analysis_module.analyze_spectrum
@@ -98,18 +96,11 @@ def _worker(n_cases: int, n_workers: int, perturb: float) -> dict:
         return original(*args, **kwargs)
 
     analysis_module.analyze_spectrum = with_options
-    rng = np.random.default_rng(12345)
 
-    def nudge(spectrum):
-        if not perturb:
-            return spectrum
-        y = np.asarray(spectrum.intensity) * (1 + perturb * rng.standard_normal(spectrum.ppm.size))
-        return Spectrum(ppm=spectrum.ppm, intensity=y, field_mhz=spectrum.field_mhz, nucleus=spectrum.nucleus,
-                        solvent=spectrum.solvent, metadata=spectrum.metadata)
-
-    def analysed(path, cands):
+    def analysed(key, path, cands):
         """Read, process and analyse ``path`` as ``analyze_path`` does (predictions for the sample's
-        solvent), the processed spectrum perturbed: every configuration takes this same path."""
+        solvent), the processed spectrum perturbed (drawn from ``key``): every configuration takes
+        this same path."""
         from confirm.processing import process_measurement
         from confirm.reading import read_measurement
 
@@ -118,19 +109,19 @@ def _worker(n_cases: int, n_workers: int, perturb: float) -> dict:
         solvent = getattr(raw.parameters, "solvent", None)
         systems = analysis_module._for_sample_solvent(predict_systems(cands, solvent=solvent), cands, solvent,
                                                       processed.spectrum.solvent)
-        processed = dataclasses.replace(processed, spectrum=nudge(processed.spectrum))
+        processed = dataclasses.replace(processed, spectrum=perturbed(processed.spectrum, key, perturb))
         return _outcome(with_options(processed, cands, systems=systems))
 
     out = {}
     demo, _ = build_candidates(substrate=DEMO_SUBSTRATE, reagent=DEMO_REAGENT, solvent=DEMO_SOLVENT,
                                temp_c=DEMO_TEMP_C)
     for path in sample_files():
-        out[f"demo:{path.name}"] = analysed(path, demo)
+        out[f"demo:{path.name}"] = analysed(f"demo:{path.name}", path, demo)
     real = real_spectra_folder()
     for folder, smiles in REAL_CASES.items() if real is not None else ():
         path = real / folder / "1h.fid.dx"
         if path.is_file():
-            out[f"real:{folder}"] = analysed(path, build_candidates(candidates=smiles)[0])
+            out[f"real:{folder}"] = analysed(f"real:{folder}", path, build_candidates(candidates=smiles)[0])
     cache: dict = {}
     for case in _cases(n_cases):
         cands, _ = build_candidates(candidates=[s for s, _ in case.candidates])
@@ -138,7 +129,8 @@ def _worker(n_cases: int, n_workers: int, perturb: float) -> dict:
         if missing:
             cache.update(zip([c.smiles for c in missing], predict_systems(missing), strict=True))
         try:
-            result = with_options(nudge(render_case(case)), cands, systems=[cache[c.smiles] for c in cands])
+            result = with_options(perturbed(render_case(case), case.id, perturb), cands,
+                                  systems=[cache[c.smiles] for c in cands])
             out[case.id] = _outcome(result)
         except Exception as exc:  # noqa: BLE001 -- an error is an outcome too, and must repeat
             out[case.id] = {"error": f"{type(exc).__name__}: {exc}"}
