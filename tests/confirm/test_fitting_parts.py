@@ -13,6 +13,7 @@ from dataclasses import replace
 import numpy as np
 import pytest
 
+from confirm.fitting import lineshape
 from confirm.fitting.evidence import PLACEMENT_P, SiteReading, decide_presence, placement_p, point_variance
 from confirm.fitting.grid import Grid, _hilbert_transform
 from confirm.fitting.linear import Projected, solve_amounts
@@ -135,6 +136,62 @@ def test_masks_leave_every_drawn_value_as_it_was(gauss):
                              value_mask=live).values
     assert np.array_equal(values_only[rows], full.values[rows])
     assert not values_only[np.unique(group[~live])].any()
+
+
+def _plain_line_table(x, centre, ppm, inten, fwhm, gauss, reach, curvature, wt, widest):
+    """The line table's formulas written plainly (each a new array), as the reference."""
+    step = float(x[1] - x[0])
+    idx = centre[:, None] + np.arange(-reach, reach + 1)[None, :]
+    u = x[idx] - ppm[:, None]
+    amp, gamma = inten[:, None], fwhm[:, None] / 2
+    u2 = u * u
+    den = u2 + gamma * gamma
+    lor = gamma / np.pi / den
+    val = (1 - gauss) * (lor + curvature * gamma / np.pi * (6 * u2 - 2 * gamma * gamma) / (den * den * den))
+    sig = fwhm[:, None] * lineshape._SIGMA_PER_FWHM
+    core_half = int(np.ceil(5 * (widest * lineshape._SIGMA_PER_FWHM) / step))
+    core = slice(max(0, reach - core_half), reach + core_half + 1)
+    uc, u2c = u[:, core], u2[:, core]
+    gau = np.exp(-u2c / (2 * sig * sig)) / (sig * np.sqrt(2 * np.pi))
+    if gauss > 0:
+        val[:, core] += gauss * (gau + curvature * gau * (u2c - sig * sig) / sig**4)
+    half = int(np.ceil(lineshape._NEAR_HALF_WIDTHS * (widest / 2) / step)) + 1
+    dcore = slice(max(0, reach - half), reach + half + 1)
+    u, u2, den, lor = u[:, dcore], u2[:, dcore], den[:, dcore], lor[:, dcore]
+    dpos = (1 - gauss) * 2 * gamma / np.pi * u / (den * den)
+    dwidth = (1 - gauss) * 0.5 * (u2 - gamma * gamma) / np.pi / (den * den)
+    dgauss = -lor
+    g0, g1 = max(core.start, dcore.start), min(core.stop, dcore.stop)
+    if g1 > g0:
+        in_d, in_c = slice(g0 - dcore.start, g1 - dcore.start), slice(g0 - core.start, g1 - core.start)
+        gd, ucd, u2cd = gau[:, in_c], uc[:, in_c], u2c[:, in_c]
+        dgauss[:, in_d] += gd
+        if gauss > 0:
+            dpos[:, in_d] += gauss * gd * ucd / (sig * sig)
+            dwidth[:, in_d] += gauss * gd * (u2cd / sig**3 - 1 / sig) * lineshape._SIGMA_PER_FWHM
+    w = amp * wt[:, None]
+    return {"idx": idx, "didx": idx[:, dcore], "val": amp * val, "dpos": amp * dpos, "dwidth": w * dwidth,
+            "dgauss": w * dgauss}
+
+
+@pytest.mark.parametrize("gauss", [0.0, 0.35])
+def test_the_line_table_is_its_formulas_bit_for_bit(gauss):
+    """The table is computed in place for speed; every value must be the plain formulas' own (a
+    change of 1e-16 in a drawn value can change a fit's path)."""
+    rng = np.random.default_rng(7)
+    x = np.arange(-2000, 6000) * 0.0005 + 1.0
+    for reach in (8, 60, 170):
+        n = 37
+        centre = rng.integers(reach + 1, x.size - reach - 2, n)
+        ppm = x[centre] + rng.normal(0.0, 3e-4, n)
+        inten, fwhm = rng.uniform(-0.5, 2.5, n), rng.uniform(5e-4, 4.5e-3, n)
+        curvature, wt = rng.uniform(0.0, 2e-7, (n, 1)), rng.uniform(0.0, 1.0, n)
+        plain = _plain_line_table(x, centre, ppm, inten, fwhm, gauss, reach, curvature, wt, float(fwhm.max()))
+        for derivs in (False, True):
+            table = lineshape._line_table(x, centre, ppm, inten, fwhm, gauss, reach, curvature, derivs, wt,
+                                          float(fwhm.max()))
+            for key, value in table.items():
+                assert np.array_equal(value, plain[key]), key
 
 
 def test_translated_column_equals_interpolation_over_the_whole_grid():
